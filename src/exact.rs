@@ -1,0 +1,914 @@
+//! Exact linear algebra over the rationals for stoichiometric analysis.
+//!
+//! A stoichiometric matrix `S` has one row per species and one column per reaction, with
+//! entry `ν_ij` the (signed) coefficient of species `i` in reaction `j`. The questions asked
+//! of it — how many reactions are independent (`rank S`), which reactions are combinations of
+//! which (`col_j = Σ_k c_k col_{p_k}`), and which linear combinations of species amounts are
+//! conserved (`yᵀ S = 0`) — are exact, combinatorial questions. A floating tolerance can turn a
+//! dependent reaction into an independent one (or back), so everything here is computed with
+//! arbitrary-precision rationals and integers and no rounding at all.
+//!
+//! # Method
+//!
+//! Each row is first scaled by the least common multiple of its denominators, which leaves the
+//! row space unchanged and gives a sparse integer row. Gaussian elimination then runs
+//! fraction-free on those sparse rows: eliminating column `c` from row `r` with pivot row `p`
+//! forms `r' = (p_c / g) r − (r_c / g) p`, with `g = gcd(p_c, r_c)`, and divides `r'` by the gcd
+//! of its entries (its content) so that numbers stay small. Columns are visited left to right
+//! and, among the rows that lead in the current column, the sparsest becomes the pivot, which
+//! limits fill-in on the very sparse matrices that reaction networks give (common practice).
+//! Rows are kept in buckets by leading column, so zeros are never visited.
+//!
+//! The forward pass alone gives the rank. Back-substitution (clearing every pivot column above
+//! its pivot) gives the reduced row echelon form `R = E S` with `E` invertible; because `E`
+//! preserves every linear relation among columns, a non-pivot column `j` of `S` satisfies
+//! `col_j(S) = Σ_k R_kj col_{p_k}(S)`, and the null space `{x : S x = 0}` has one basis vector per
+//! free column `f`: `x_f = 1`, `x_{p_k} = −R_kf`, all other entries zero (standard linear algebra,
+//! from memory).
+
+use num_bigint::BigInt;
+use num_integer::Integer;
+use num_rational::Ratio;
+use num_traits::{One, Signed, ToPrimitive, Zero};
+
+/// An exact rational number.
+pub type Q = num_rational::BigRational;
+
+/// Exact dense-ish matrix of rationals, row-major.
+///
+/// Zero entries of a `BigRational` hold no heap memory, so a large, very sparse stoichiometric
+/// matrix costs little more than its shape; the algorithms below skip zeros entirely.
+#[derive(Debug, Clone, PartialEq)]
+pub struct QMatrix {
+    rows: usize,
+    cols: usize,
+    data: Vec<Q>,
+}
+
+impl QMatrix {
+    /// The `rows × cols` matrix of zeros.
+    pub fn zeros(rows: usize, cols: usize) -> Self {
+        QMatrix {
+            rows,
+            cols,
+            data: vec![Q::zero(); rows * cols],
+        }
+    }
+
+    /// The `rows × cols` matrix whose entry `(r, c)` is `f(r, c)`, evaluated in row-major order.
+    pub fn from_fn(rows: usize, cols: usize, mut f: impl FnMut(usize, usize) -> Q) -> Self {
+        let mut data = Vec::with_capacity(rows * cols);
+        for r in 0..rows {
+            for c in 0..cols {
+                data.push(f(r, c));
+            }
+        }
+        QMatrix { rows, cols, data }
+    }
+
+    /// Number of rows (species, for a stoichiometric matrix).
+    pub fn rows(&self) -> usize {
+        self.rows
+    }
+
+    /// Number of columns (reactions, for a stoichiometric matrix).
+    pub fn cols(&self) -> usize {
+        self.cols
+    }
+
+    /// The entry in row `r`, column `c`.
+    ///
+    /// # Panics
+    /// If `r >= rows()` or `c >= cols()`, like slice indexing: an index out of range is a bug in
+    /// the caller, not bad input.
+    pub fn get(&self, r: usize, c: usize) -> &Q {
+        &self.data[self.index(r, c)]
+    }
+
+    /// Sets the entry in row `r`, column `c` to `v`.
+    ///
+    /// # Panics
+    /// If `r >= rows()` or `c >= cols()`, like slice indexing.
+    pub fn set(&mut self, r: usize, c: usize, v: Q) {
+        let i = self.index(r, c);
+        self.data[i] = v;
+    }
+
+    /// The transpose `Mᵀ`, with `(Mᵀ)_cr = M_rc`.
+    pub fn transpose(&self) -> Self {
+        QMatrix::from_fn(self.cols, self.rows, |r, c| self.get(c, r).clone())
+    }
+
+    fn index(&self, r: usize, c: usize) -> usize {
+        assert!(
+            r < self.rows && c < self.cols,
+            "QMatrix index ({r}, {c}) out of range for a {}x{} matrix",
+            self.rows,
+            self.cols
+        );
+        r * self.cols + c
+    }
+}
+
+/// A sparse integer row: `(column, value)` pairs sorted by column, no zero values.
+type SparseRow = Vec<(usize, BigInt)>;
+
+/// The rows of `m` (or of `mᵀ` when `transpose` is set), each scaled by the lcm of its
+/// denominators and divided by its content, as sparse integer rows. Scaling a row by a non-zero
+/// constant leaves the row space, the pivots and the null space unchanged.
+fn integer_rows(m: &QMatrix, transpose: bool) -> Vec<SparseRow> {
+    let (n_out, n_in) = if transpose {
+        (m.cols, m.rows)
+    } else {
+        (m.rows, m.cols)
+    };
+    let mut out = Vec::with_capacity(n_out);
+    let mut entries: Vec<(usize, &Q)> = Vec::new();
+    for i in 0..n_out {
+        entries.clear();
+        for j in 0..n_in {
+            let q = if transpose {
+                &m.data[j * m.cols + i]
+            } else {
+                &m.data[i * m.cols + j]
+            };
+            if !q.is_zero() {
+                entries.push((j, q));
+            }
+        }
+        let lcm = entries
+            .iter()
+            .fold(BigInt::one(), |acc, (_, q)| acc.lcm(q.denom()));
+        let mut row: SparseRow = entries
+            .iter()
+            .map(|(j, q)| (*j, q.numer() * (&lcm / q.denom())))
+            .collect();
+        remove_content(&mut row);
+        out.push(row);
+    }
+    out
+}
+
+/// Divides a sparse integer row by the gcd of its entries (keeps numbers small).
+fn remove_content(row: &mut SparseRow) {
+    let mut g = BigInt::zero();
+    for (_, v) in row.iter() {
+        g = g.gcd(v);
+        if g.is_one() {
+            return;
+        }
+    }
+    if g > BigInt::one() {
+        for (_, v) in row.iter_mut() {
+            *v /= &g;
+        }
+    }
+}
+
+/// The value of `row` in column `c`, if non-zero.
+fn entry(row: &SparseRow, c: usize) -> Option<&BigInt> {
+    row.binary_search_by_key(&c, |(j, _)| *j)
+        .ok()
+        .map(|i| &row[i].1)
+}
+
+/// Eliminates column `c` from `row` using `pivot` (both non-zero there):
+/// `row' = (p_c / g) row − (r_c / g) pivot` with `g = gcd(p_c, r_c)`, then content removed.
+fn eliminate(row: &SparseRow, pivot: &SparseRow, c: usize) -> SparseRow {
+    let (Some(rc), Some(pc)) = (entry(row, c), entry(pivot, c)) else {
+        return row.clone();
+    };
+    let g = rc.gcd(pc);
+    let a = pc / &g; // multiplies row
+    let b = rc / &g; // multiplies pivot
+    let mut out = Vec::with_capacity(row.len() + pivot.len());
+    let (mut i, mut k) = (0, 0);
+    while i < row.len() || k < pivot.len() {
+        let ci = row.get(i).map_or(usize::MAX, |e| e.0);
+        let ck = pivot.get(k).map_or(usize::MAX, |e| e.0);
+        let (col, v) = if ci < ck {
+            i += 1;
+            (ci, &a * &row[i - 1].1)
+        } else if ck < ci {
+            k += 1;
+            (ck, -(&b * &pivot[k - 1].1))
+        } else {
+            i += 1;
+            k += 1;
+            (ci, &a * &row[i - 1].1 - &b * &pivot[k - 1].1)
+        };
+        if !v.is_zero() {
+            out.push((col, v));
+        }
+    }
+    remove_content(&mut out);
+    out
+}
+
+/// Forward fraction-free elimination: returns the pivot rows (in pivot order) and their pivot
+/// columns, strictly increasing. Row `k` is zero in every column before `pivots[k]`.
+fn forward(rows: Vec<SparseRow>, ncols: usize) -> (Vec<SparseRow>, Vec<usize>) {
+    let mut buckets: Vec<Vec<SparseRow>> = vec![Vec::new(); ncols];
+    for r in rows {
+        if let Some(&(c, _)) = r.first() {
+            buckets[c].push(r);
+        }
+    }
+    let mut echelon = Vec::new();
+    let mut pivots = Vec::new();
+    for c in 0..ncols {
+        let mut bucket = std::mem::take(&mut buckets[c]);
+        if bucket.is_empty() {
+            continue;
+        }
+        // Sparsest row first, then smallest leading entry: least fill-in and growth.
+        let best = (0..bucket.len())
+            .min_by_key(|&i| (bucket[i].len(), bucket[i][0].1.bits()))
+            .unwrap_or(0);
+        let pivot = bucket.swap_remove(best);
+        for row in bucket {
+            let reduced = eliminate(&row, &pivot, c);
+            if let Some(&(lead, _)) = reduced.first() {
+                buckets[lead].push(reduced);
+            }
+        }
+        echelon.push(pivot);
+        pivots.push(c);
+    }
+    (echelon, pivots)
+}
+
+/// Integer reduced echelon form: like [`forward`], and in addition each pivot column is zero in
+/// every row but its own. Row `k` is `a_k` times the corresponding row of the rational RREF,
+/// with `a_k` its entry in column `pivots[k]`.
+fn integer_rref(rows: Vec<SparseRow>, ncols: usize) -> (Vec<SparseRow>, Vec<usize>) {
+    let (mut echelon, pivots) = forward(rows, ncols);
+    for k in (0..echelon.len()).rev() {
+        let (upper, lower) = echelon.split_at_mut(k);
+        let pivot_row = &lower[0];
+        for row in upper.iter_mut() {
+            if entry(row, pivots[k]).is_some() {
+                *row = eliminate(row, pivot_row, pivots[k]);
+            }
+        }
+    }
+    // Positive pivots, so that the integer rows read naturally.
+    for row in echelon.iter_mut() {
+        if row.first().is_some_and(|(_, v)| v.is_negative()) {
+            for (_, v) in row.iter_mut() {
+                *v = -&*v;
+            }
+        }
+    }
+    (echelon, pivots)
+}
+
+/// Reduced row echelon form: returns (rref, pivot column indices in increasing order).
+///
+/// `rref` has the shape of `m`; its first `rank` rows have a leading 1 in the pivot columns,
+/// each pivot column is zero elsewhere, and the remaining rows are zero.
+pub fn rref(m: &QMatrix) -> (QMatrix, Vec<usize>) {
+    let (rows, pivots) = integer_rref(integer_rows(m, false), m.cols);
+    let mut out = QMatrix::zeros(m.rows, m.cols);
+    for (k, row) in rows.iter().enumerate() {
+        let lead = row[0].1.clone();
+        for (c, v) in row {
+            out.set(k, *c, Ratio::new(v.clone(), lead.clone()));
+        }
+    }
+    (out, pivots)
+}
+
+/// Rank of `m`: the number of independent rows (equal to the number of independent columns).
+/// For a stoichiometric matrix it is the number of independent reactions.
+pub fn rank(m: &QMatrix) -> usize {
+    forward(integer_rows(m, false), m.cols).1.len()
+}
+
+/// How the columns of a matrix depend on each other.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ColumnDependence {
+    /// Pivot columns: a maximal independent set, chosen greedily in column order.
+    pub independent: Vec<usize>,
+    /// Each non-pivot column `j` with its non-zero coefficients `c_k` such that
+    /// `col_j = Σ_k c_k col_k` over independent columns `k` (increasing). A zero column has an
+    /// empty list.
+    pub dependent: Vec<(usize, Vec<(usize, Q)>)>,
+}
+
+/// Column dependence: for columns of m (reactions), the pivot columns (independent set, greedy
+/// in column order: earliest columns chosen first) and for every non-pivot column j the
+/// coefficients c such that `col_j = Σ_k c_k col_{pivot_k}`.
+///
+/// The coefficients are column `j` of the RREF `R = E m`: since `E` is invertible, the relation
+/// `col_j(R) = Σ_k R_kj e_k = Σ_k R_kj col_{p_k}(R)` holds for `m` as well.
+pub fn column_dependence(m: &QMatrix) -> ColumnDependence {
+    let (rows, pivots) = integer_rref(integer_rows(m, false), m.cols);
+    let mut is_pivot = vec![false; m.cols];
+    for &p in &pivots {
+        is_pivot[p] = true;
+    }
+    let mut coeffs: Vec<Vec<(usize, Q)>> = vec![Vec::new(); m.cols];
+    for (k, row) in rows.iter().enumerate() {
+        let lead = &row[0].1;
+        for (c, v) in row.iter().skip(1) {
+            coeffs[*c].push((pivots[k], Ratio::new(v.clone(), lead.clone())));
+        }
+    }
+    let dependent = coeffs
+        .into_iter()
+        .enumerate()
+        .filter(|(j, _)| !is_pivot[*j])
+        .collect();
+    ColumnDependence {
+        independent: pivots,
+        dependent,
+    }
+}
+
+/// Scales an integer vector to coprime entries with the first non-zero entry positive.
+fn primitive(mut v: Vec<BigInt>) -> Vec<BigInt> {
+    let g = v.iter().fold(BigInt::zero(), |g, x| g.gcd(x));
+    let negative = v
+        .iter()
+        .find(|x| !x.is_zero())
+        .is_some_and(|x| x.is_negative());
+    if g.is_zero() {
+        return v;
+    }
+    let g = if negative { -g } else { g };
+    if !g.is_one() {
+        for x in v.iter_mut() {
+            *x /= &g;
+        }
+    }
+    v
+}
+
+/// Null-space basis from sparse integer rows of a matrix with `ncols` columns.
+fn null_space_of_rows(rows: Vec<SparseRow>, ncols: usize) -> Vec<Vec<BigInt>> {
+    let (rows, pivots) = integer_rref(rows, ncols);
+    let mut is_pivot = vec![false; ncols];
+    for &p in &pivots {
+        is_pivot[p] = true;
+    }
+    // For each free column f: the rows k with a non-zero b_kf, as (k, b_kf).
+    let mut by_free: Vec<Vec<(usize, &BigInt)>> = vec![Vec::new(); ncols];
+    for (k, row) in rows.iter().enumerate() {
+        for (c, v) in row.iter().skip(1) {
+            by_free[*c].push((k, v));
+        }
+    }
+    let mut basis = Vec::with_capacity(ncols - pivots.len());
+    for f in (0..ncols).filter(|&f| !is_pivot[f]) {
+        // Row k reads a_k x_{p_k} + Σ_f b_kf x_f = 0. With x_f = L = lcm(a_k), x_{p_k} = −b_kf L / a_k.
+        let l = by_free[f]
+            .iter()
+            .fold(BigInt::one(), |acc, (k, _)| acc.lcm(&rows[*k][0].1));
+        let mut x = vec![BigInt::zero(); ncols];
+        for (k, b) in &by_free[f] {
+            x[pivots[*k]] = -(*b * (&l / &rows[*k][0].1));
+        }
+        x[f] = l;
+        basis.push(primitive(x));
+    }
+    basis
+}
+
+/// Basis of the null space {x : m x = 0}, each vector scaled to coprime integers with the first
+/// non-zero entry positive. There are `cols − rank` vectors, one per free column `f` (`x_f ≠ 0`,
+/// zero in every other free column). For a stoichiometric matrix these are the reaction
+/// combinations with no net change of any species.
+pub fn null_space(m: &QMatrix) -> Vec<Vec<BigInt>> {
+    null_space_of_rows(integer_rows(m, false), m.cols)
+}
+
+/// Basis of the left null space {y : yᵀ m = 0} (conservation laws when m is species x
+/// reactions), same scaling. There are `rows − rank` vectors: `yᵀ S = 0` means
+/// `d(yᵀ n)/dt = yᵀ S r = 0` for every rate vector `r`, so `yᵀ n` is conserved (from memory).
+pub fn left_null_space(m: &QMatrix) -> Vec<Vec<BigInt>> {
+    null_space_of_rows(integer_rows(m, true), m.rows)
+}
+
+/// Decimal exponents beyond this magnitude are refused: `10^100000` already takes about 41 kB,
+/// and a stoichiometric coefficient never needs more.
+const MAX_DECIMAL_EXPONENT: i64 = 100_000;
+
+/// Exact rational from a decimal literal string like "0.5", "2", "1.25e-1", "-3"; None if not a
+/// finite decimal.
+///
+/// Accepted: optional sign, digits with at most one `.` (at least one digit in all), then
+/// optionally `e`/`E`, an optional sign and digits; surrounding whitespace is ignored. The value
+/// is `digits × 10^(exponent − fraction digits)` exactly, so "0.1" is 1/10, not the nearest
+/// binary float. A non-zero value whose decimal exponent exceeds ±100000 gives None.
+pub fn rational_from_decimal(s: &str) -> Option<Q> {
+    let s = s.trim();
+    let (negative, rest) = match s.as_bytes().first()? {
+        b'-' => (true, &s[1..]),
+        b'+' => (false, &s[1..]),
+        _ => (false, s),
+    };
+    let (mantissa, exponent) = match rest.find(['e', 'E']) {
+        Some(i) => {
+            let e = &rest[i + 1..];
+            let digits = e.strip_prefix(['+', '-']).unwrap_or(e);
+            if digits.is_empty() || !digits.bytes().all(|b| b.is_ascii_digit()) {
+                return None;
+            }
+            // Exponents too long for i64 are far past the limit anyway.
+            (&rest[..i], e.parse::<i64>().ok())
+        }
+        None => (rest, Some(0)),
+    };
+    let (int_part, frac_part) = mantissa.split_once('.').unwrap_or((mantissa, ""));
+    let all_digits = |p: &str| p.bytes().all(|b| b.is_ascii_digit());
+    if (int_part.is_empty() && frac_part.is_empty())
+        || !all_digits(int_part)
+        || !all_digits(frac_part)
+    {
+        return None;
+    }
+    let digits = format!("{int_part}{frac_part}");
+    let numer = BigInt::parse_bytes(digits.as_bytes(), 10)?;
+    if numer.is_zero() {
+        return Some(Q::zero());
+    }
+    let scale = exponent?.checked_sub(i64::try_from(frac_part.len()).ok()?)?;
+    if scale.abs() > MAX_DECIMAL_EXPONENT {
+        return None;
+    }
+    let numer = if negative { -numer } else { numer };
+    let power = num_traits::pow(BigInt::from(10u32), scale.unsigned_abs() as usize);
+    Some(if scale >= 0 {
+        Q::from_integer(numer * power)
+    } else {
+        Ratio::new(numer, power)
+    })
+}
+
+/// Exact rational equal to an f64 (every finite f64 is a dyadic rational `m · 2^e`, IEEE 754);
+/// None for NaN/inf.
+pub fn rational_from_f64(x: f64) -> Option<Q> {
+    Q::from_float(x)
+}
+
+/// The f64 nearest to `q` (±inf beyond the f64 range).
+pub fn to_f64(q: &Q) -> f64 {
+    q.to_f64().unwrap_or(f64::NAN)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn q(n: i64) -> Q {
+        Q::from_integer(BigInt::from(n))
+    }
+
+    fn qd(s: &str) -> Q {
+        rational_from_decimal(s).expect("valid decimal")
+    }
+
+    /// Matrix from rows of decimal strings.
+    fn mat(rows: &[&[&str]]) -> QMatrix {
+        let cols = rows.first().map_or(0, |r| r.len());
+        QMatrix::from_fn(rows.len(), cols, |r, c| qd(rows[r][c]))
+    }
+
+    fn mat_i(rows: &[&[i64]]) -> QMatrix {
+        let cols = rows.first().map_or(0, |r| r.len());
+        QMatrix::from_fn(rows.len(), cols, |r, c| q(rows[r][c]))
+    }
+
+    /// m x, exactly.
+    fn mul_vec(m: &QMatrix, x: &[BigInt]) -> Vec<Q> {
+        (0..m.rows())
+            .map(|r| {
+                (0..m.cols()).fold(Q::zero(), |acc, c| {
+                    acc + m.get(r, c) * Q::from_integer(x[c].clone())
+                })
+            })
+            .collect()
+    }
+
+    /// yᵀ m, exactly.
+    fn vec_mul(y: &[BigInt], m: &QMatrix) -> Vec<Q> {
+        mul_vec(&m.transpose(), y)
+    }
+
+    fn is_primitive(v: &[BigInt]) -> bool {
+        let g = v.iter().fold(BigInt::zero(), |g, x| g.gcd(x));
+        let first = v.iter().find(|x| !x.is_zero());
+        g.is_one() && first.is_some_and(|x| x.is_positive())
+    }
+
+    /// Matrix whose rows are the given integer vectors.
+    fn rows_matrix(vs: &[Vec<BigInt>], cols: usize) -> QMatrix {
+        QMatrix::from_fn(vs.len(), cols, |r, c| Q::from_integer(vs[r][c].clone()))
+    }
+
+    /// Independent reference: plain dense rational Gauss elimination (no scaling, no buckets).
+    fn dense_rank(m: &QMatrix) -> usize {
+        let mut a: Vec<Vec<Q>> = (0..m.rows())
+            .map(|r| (0..m.cols()).map(|c| m.get(r, c).clone()).collect())
+            .collect();
+        let mut rank = 0;
+        for c in 0..m.cols() {
+            let Some(p) = (rank..a.len()).find(|&r| !a[r][c].is_zero()) else {
+                continue;
+            };
+            a.swap(rank, p);
+            let (done, rest) = a.split_at_mut(rank + 1);
+            let pivot = &done[rank];
+            for row in rest.iter_mut() {
+                if !row[c].is_zero() {
+                    let f = &row[c] / &pivot[c];
+                    for (x, y) in row.iter_mut().zip(pivot).skip(c) {
+                        *x -= &f * y;
+                    }
+                }
+            }
+            rank += 1;
+        }
+        rank
+    }
+
+    /// Checks every stated property of rank, rref, null spaces and column dependence.
+    fn check_all(m: &QMatrix) {
+        let r = rank(m);
+        assert_eq!(r, dense_rank(m));
+        assert_eq!(r, rank(&m.transpose()));
+
+        let (rr, pivots) = rref(m);
+        assert_eq!((rr.rows(), rr.cols()), (m.rows(), m.cols()));
+        assert_eq!(pivots.len(), r);
+        assert!(pivots.windows(2).all(|w| w[0] < w[1]));
+        for (k, &p) in pivots.iter().enumerate() {
+            for i in 0..m.rows() {
+                assert_eq!(rr.get(i, p), &if i == k { q(1) } else { q(0) });
+            }
+            for c in 0..p {
+                assert!(rr.get(k, c).is_zero());
+            }
+        }
+        for i in r..m.rows() {
+            assert!((0..m.cols()).all(|c| rr.get(i, c).is_zero()));
+        }
+        assert_eq!(rref(&rr), (rr.clone(), pivots.clone()));
+
+        let ns = null_space(m);
+        assert_eq!(ns.len(), m.cols() - r);
+        for x in &ns {
+            assert_eq!(x.len(), m.cols());
+            assert!(is_primitive(x));
+            assert!(mul_vec(m, x).iter().all(Zero::is_zero));
+        }
+        assert_eq!(rank(&rows_matrix(&ns, m.cols())), ns.len());
+
+        let lns = left_null_space(m);
+        assert_eq!(lns.len(), m.rows() - r);
+        for y in &lns {
+            assert_eq!(y.len(), m.rows());
+            assert!(is_primitive(y));
+            assert!(vec_mul(y, m).iter().all(Zero::is_zero));
+        }
+        assert_eq!(rank(&rows_matrix(&lns, m.rows())), lns.len());
+
+        let dep = column_dependence(m);
+        assert_eq!(dep.independent, pivots);
+        assert_eq!(dep.independent.len() + dep.dependent.len(), m.cols());
+        for (j, coeffs) in &dep.dependent {
+            assert!(!pivots.contains(j));
+            for i in 0..m.rows() {
+                let combo = coeffs
+                    .iter()
+                    .fold(Q::zero(), |acc, (k, c)| acc + c * m.get(i, *k));
+                assert!(
+                    coeffs
+                        .iter()
+                        .all(|(k, c)| pivots.contains(k) && !c.is_zero())
+                );
+                assert_eq!(&combo, m.get(i, *j));
+            }
+        }
+    }
+
+    /// SplitMix64: small deterministic generator for test matrices.
+    struct Rng(u64);
+    impl Rng {
+        fn next(&mut self) -> u64 {
+            self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+            let mut z = self.0;
+            z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+            z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+            z ^ (z >> 31)
+        }
+        fn below(&mut self, n: u64) -> u64 {
+            self.next() % n
+        }
+    }
+
+    /// Steam reforming, species (CH4, H2O, CO, CO2, H2) x reactions
+    /// R1: CH4 + H2O -> CO + 3H2, R2: CO + H2O -> CO2 + H2, R3: CH4 + 2H2O -> CO2 + 4H2.
+    fn steam_reforming() -> QMatrix {
+        mat_i(&[
+            &[-1, 0, -1],
+            &[-1, -1, -2],
+            &[1, -1, 0],
+            &[0, 1, 1],
+            &[3, 1, 4],
+        ])
+    }
+
+    #[test]
+    fn steam_reforming_has_two_independent_reactions() {
+        let s = steam_reforming();
+        // Denbigh, The Principles of Chemical Equilibrium (from memory): at most
+        // species − rank(element matrix) = 5 − 3 = 2 independent reactions; R3 = R1 + R2.
+        assert_eq!(rank(&s), 2);
+        let dep = column_dependence(&s);
+        assert_eq!(dep.independent, vec![0, 1]);
+        assert_eq!(dep.dependent, vec![(2, vec![(0, q(1)), (1, q(1))])]);
+        // Null space: R1 + R2 − R3 = 0, scaled with the first entry positive.
+        let ns = null_space(&s);
+        assert_eq!(
+            ns,
+            vec![vec![BigInt::from(1), BigInt::from(1), BigInt::from(-1)]]
+        );
+        check_all(&s);
+    }
+
+    #[test]
+    fn steam_reforming_conservation_laws_are_the_elements() {
+        let s = steam_reforming();
+        // Element matrix, rows C, H, O over species (CH4, H2O, CO, CO2, H2) (common practice).
+        let elements = mat_i(&[&[1, 0, 1, 1, 0], &[4, 2, 0, 0, 2], &[0, 1, 1, 2, 0]]);
+        assert_eq!(rank(&elements), 3);
+        // Left null space dimension = species − rank S = 5 − 2 = 3 (from memory).
+        let lns = left_null_space(&s);
+        assert_eq!(lns.len(), 3);
+        for y in &lns {
+            assert!(vec_mul(y, &s).iter().all(Zero::is_zero));
+        }
+        // Each element balance yᵀ S = 0, and the element rows span the same space as the basis.
+        for e in 0..3 {
+            let y: Vec<BigInt> = (0..5).map(|i| elements.get(e, i).numer().clone()).collect();
+            assert!(vec_mul(&y, &s).iter().all(Zero::is_zero));
+        }
+        let mut stacked = lns.clone();
+        for e in 0..3 {
+            stacked.push((0..5).map(|i| elements.get(e, i).numer().clone()).collect());
+        }
+        assert_eq!(rank(&rows_matrix(&stacked, 5)), 3);
+    }
+
+    #[test]
+    fn half_coefficients() {
+        // H2 + 0.5 O2 -> H2O, species (H2, O2, H2O): one reaction, rank 1 (common practice).
+        let s = mat(&[&["-1"], &["-0.5"], &["1"]]);
+        assert_eq!(rank(&s), 1);
+        assert!(null_space(&s).is_empty());
+        let (rr, piv) = rref(&s);
+        assert_eq!(piv, vec![0]);
+        assert_eq!(rr.get(0, 0), &q(1));
+        // H and O balances (rows H: 2,0,2; O: 0,2,1) are conservation laws (common practice).
+        let lns = left_null_space(&s);
+        assert_eq!(lns.len(), 2);
+        let mut stacked = lns.clone();
+        stacked.push([2, 0, 2].map(BigInt::from).to_vec());
+        stacked.push([0, 2, 1].map(BigInt::from).to_vec());
+        assert_eq!(rank(&rows_matrix(&stacked, 3)), 2);
+        check_all(&s);
+    }
+
+    #[test]
+    fn zero_matrix() {
+        let z = QMatrix::zeros(3, 4);
+        assert_eq!(rank(&z), 0);
+        let (rr, piv) = rref(&z);
+        assert_eq!(rr, z);
+        assert!(piv.is_empty());
+        // Null space of the zero map is everything: the unit vectors e_0..e_3.
+        let ns = null_space(&z);
+        let unit = |n: usize, i: usize| -> Vec<BigInt> {
+            (0..n).map(|k| BigInt::from(u8::from(k == i))).collect()
+        };
+        assert_eq!(ns, (0..4).map(|i| unit(4, i)).collect::<Vec<_>>());
+        assert_eq!(
+            left_null_space(&z),
+            (0..3).map(|i| unit(3, i)).collect::<Vec<_>>()
+        );
+        let dep = column_dependence(&z);
+        assert!(dep.independent.is_empty());
+        assert_eq!(
+            dep.dependent,
+            (0..4).map(|j| (j, vec![])).collect::<Vec<_>>()
+        );
+        check_all(&z);
+    }
+
+    #[test]
+    fn duplicate_reaction_column() {
+        // Columns: A -> B, B -> C, A -> B again (species A, B, C).
+        let s = mat_i(&[&[-1, 0, -1], &[1, -1, 1], &[0, 1, 0]]);
+        assert_eq!(rank(&s), 2);
+        let dep = column_dependence(&s);
+        assert_eq!(dep.independent, vec![0, 1]);
+        assert_eq!(dep.dependent, vec![(2, vec![(0, q(1))])]);
+        // Total amount A + B + C is conserved for isomerisations (common practice).
+        assert_eq!(
+            left_null_space(&s),
+            vec![[1, 1, 1].map(BigInt::from).to_vec()]
+        );
+        check_all(&s);
+    }
+
+    #[test]
+    fn empty_matrices_do_not_panic() {
+        for (r, c) in [(0, 0), (0, 3), (3, 0)] {
+            let m = QMatrix::zeros(r, c);
+            assert_eq!(rank(&m), 0);
+            assert_eq!(m.transpose(), QMatrix::zeros(c, r));
+            assert_eq!(rref(&m), (m.clone(), vec![]));
+            assert_eq!(null_space(&m).len(), c);
+            assert_eq!(left_null_space(&m).len(), r);
+            let dep = column_dependence(&m);
+            assert!(dep.independent.is_empty());
+            assert_eq!(dep.dependent.len(), c);
+            check_all(&m);
+        }
+    }
+
+    #[test]
+    fn random_small_integer_matrices() {
+        let mut rng = Rng(0x5EED);
+        for _ in 0..300 {
+            let rows = rng.below(7) as usize;
+            let cols = rng.below(7) as usize;
+            let density = 1 + rng.below(4); // out of 4
+            let m = QMatrix::from_fn(rows, cols, |_, _| {
+                if rng.below(4) < density {
+                    q(rng.below(7) as i64 - 3)
+                } else {
+                    q(0)
+                }
+            });
+            check_all(&m);
+        }
+    }
+
+    #[test]
+    fn random_small_rational_matrices() {
+        let mut rng = Rng(0xBEEF);
+        for _ in 0..100 {
+            let rows = 1 + rng.below(5) as usize;
+            let cols = 1 + rng.below(5) as usize;
+            let m = QMatrix::from_fn(rows, cols, |_, _| {
+                Ratio::new(
+                    BigInt::from(rng.below(9) as i64 - 4),
+                    BigInt::from(1 + rng.below(4)),
+                )
+            });
+            check_all(&m);
+        }
+    }
+
+    /// A generated network whose rank is known by construction: species have positive integer
+    /// "masses" w_i; reactions are chain steps w_{i+1} A_i -> w_i A_{i+1} (independent, triangular)
+    /// plus random mass-balanced reactions. Every column satisfies Σ_i w_i ν_ij = 0, so
+    /// rank = species − 1 exactly, and w spans the left null space (common practice: mass balance).
+    fn mass_balanced_network(species: usize, reactions: usize, seed: u64) -> (QMatrix, Vec<i64>) {
+        let mut rng = Rng(seed);
+        let w: Vec<i64> = (0..species).map(|_| 1 + rng.below(4) as i64).collect();
+        let mut cols: Vec<Vec<(usize, i64)>> = (0..species - 1)
+            .map(|i| vec![(i, -w[i + 1]), (i + 1, w[i])])
+            .collect();
+        while cols.len() < reactions {
+            // a A_i + b A_j -> c A_k with a w_i + b w_j = c w_k: take a = w_k, b = w_k, c = w_i + w_j.
+            let i = rng.below(species as u64) as usize;
+            let j = rng.below(species as u64) as usize;
+            let k = rng.below(species as u64) as usize;
+            if i == j || j == k || i == k {
+                continue;
+            }
+            cols.push(vec![(i, -w[k]), (j, -w[k]), (k, w[i] + w[j])]);
+        }
+        // Shuffle the reaction order (Fisher–Yates).
+        for n in (1..cols.len()).rev() {
+            let r = rng.below(n as u64 + 1) as usize;
+            cols.swap(n, r);
+        }
+        let mut m = QMatrix::zeros(species, reactions);
+        for (j, col) in cols.iter().enumerate() {
+            for &(i, v) in col {
+                m.set(i, j, q(v));
+            }
+        }
+        (m, w)
+    }
+
+    fn check_mass_balanced(species: usize, reactions: usize, seed: u64, full: bool) {
+        let (m, w) = mass_balanced_network(species, reactions, seed);
+        let r = rank(&m);
+        assert_eq!(r, species - 1);
+        assert_eq!(rank(&m.transpose()), r);
+        let lns = left_null_space(&m);
+        assert_eq!(lns.len(), 1);
+        let g = w.iter().fold(0i64, |g, x| g.gcd(x));
+        let expected: Vec<BigInt> = w.iter().map(|&x| BigInt::from(x / g)).collect();
+        assert_eq!(lns[0], expected);
+        if full {
+            let ns = null_space(&m);
+            assert_eq!(ns.len(), reactions - r);
+            for x in &ns {
+                assert!(is_primitive(x));
+                assert!(mul_vec(&m, x).iter().all(Zero::is_zero));
+            }
+            let dep = column_dependence(&m);
+            assert_eq!(dep.independent.len(), r);
+            assert_eq!(dep.dependent.len(), reactions - r);
+        }
+    }
+
+    #[test]
+    fn sparse_200_by_600() {
+        check_mass_balanced(200, 600, 42, true);
+    }
+
+    /// Network-size case: run with `cargo test --release -- --ignored`.
+    #[test]
+    #[ignore]
+    fn sparse_1000_by_3000_rank() {
+        check_mass_balanced(1000, 3000, 7, false);
+    }
+
+    #[test]
+    fn decimals_are_exact() {
+        assert_eq!(qd("0.5"), Ratio::new(BigInt::from(1), BigInt::from(2)));
+        assert_eq!(qd("2"), q(2));
+        assert_eq!(qd("1.25e-1"), Ratio::new(BigInt::from(1), BigInt::from(8)));
+        assert_eq!(qd("-3"), q(-3));
+        assert_eq!(qd("+.5E1"), q(5));
+        assert_eq!(qd("3."), q(3));
+        assert_eq!(qd("0e999999999999"), q(0));
+        // 0.1 is exactly 1/10 as a decimal (unlike binary floating point).
+        assert_eq!(qd("0.1"), Ratio::new(BigInt::from(1), BigInt::from(10)));
+        for bad in [
+            "",
+            "-",
+            ".",
+            "e5",
+            "1e",
+            "1e+",
+            "1.2.3",
+            "1,5",
+            "inf",
+            "NaN",
+            "0x10",
+            "1 2",
+            "--1",
+            "1e100001",
+            "1e99999999999999999999",
+        ] {
+            assert_eq!(rational_from_decimal(bad), None, "{bad:?}");
+        }
+    }
+
+    #[test]
+    fn floats_convert_exactly() {
+        // IEEE 754 binary64: 0.1 is stored as 3602879701896397 / 2^55 (from memory).
+        assert_eq!(
+            rational_from_f64(0.1),
+            Some(Ratio::new(
+                BigInt::from(3_602_879_701_896_397u64),
+                BigInt::from(1u64 << 55)
+            ))
+        );
+        assert_eq!(rational_from_f64(-0.5), Some(qd("-0.5")));
+        assert_eq!(rational_from_f64(0.0), Some(q(0)));
+        assert_eq!(rational_from_f64(f64::NAN), None);
+        assert_eq!(rational_from_f64(f64::INFINITY), None);
+        assert_eq!(rational_from_f64(f64::NEG_INFINITY), None);
+        for x in [1.0e-300, 3.5, -7.25e10, f64::MAX, f64::MIN_POSITIVE, 5e-324] {
+            assert_eq!(to_f64(&rational_from_f64(x).unwrap()), x);
+        }
+        assert_eq!(
+            to_f64(&Ratio::new(BigInt::from(1), BigInt::from(3))),
+            1.0 / 3.0
+        );
+        assert_eq!(to_f64(&qd("1e400")), f64::INFINITY);
+    }
+
+    #[test]
+    fn matrix_accessors() {
+        let mut m = QMatrix::from_fn(2, 3, |r, c| q((10 * r + c) as i64));
+        assert_eq!((m.rows(), m.cols()), (2, 3));
+        assert_eq!(m.get(1, 2), &q(12));
+        m.set(0, 1, qd("0.25"));
+        assert_eq!(m.get(0, 1), &qd("0.25"));
+        let t = m.transpose();
+        assert_eq!((t.rows(), t.cols()), (3, 2));
+        assert_eq!(t.get(2, 1), &q(12));
+        assert_eq!(t.transpose(), m);
+    }
+}

@@ -1,0 +1,12 @@
+//! rxnet: a multiple-reaction network solver for reaction engineers.
+//!
+//! The pipeline reads one way: study file -> [`model::Network`] -> [`analysis`] -> reactor
+//! model -> solver -> metrics -> report. See docs/architecture.md for the map.
+
+pub mod analysis;
+pub mod exact;
+pub mod model;
+pub mod report;
+pub mod units;
+
+pub use model::{load_file, load_str, LoadError, Network, Override};

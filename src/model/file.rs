@@ -1,0 +1,169 @@
+//! The study file as written: serde structures that mirror the YAML keys one to one.
+//! Unknown keys are refused (`deny_unknown_fields`) so that a typo never passes silently.
+//! Every key is documented in docs/network-format.md.
+
+use indexmap::IndexMap;
+use serde::de::{self, Deserializer, Visitor};
+use serde::Deserialize;
+use std::fmt;
+
+/// A quantity as written: a bare number or a string "number unit".
+#[derive(Debug, Clone, PartialEq)]
+pub enum RawQty {
+    Number(f64),
+    Text(String),
+}
+
+impl<'de> Deserialize<'de> for RawQty {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl Visitor<'_> for V {
+            type Value = RawQty;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("a quantity: a number with its unit, e.g. \"2 mol/s\" or \"320 K\"")
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<RawQty, E> {
+                Ok(RawQty::Number(v))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<RawQty, E> {
+                Ok(RawQty::Number(v as f64))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<RawQty, E> {
+                Ok(RawQty::Number(v as f64))
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<RawQty, E> {
+                Ok(RawQty::Text(v.to_string()))
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawStudy {
+    pub name: Option<String>,
+    pub phase: Option<RawPhase>,
+    pub species: IndexMap<String, Option<RawSpecies>>,
+    pub reactions: Vec<RawReaction>,
+    pub feed: RawFeed,
+    pub reactor: RawReactor,
+    pub key: Option<String>,
+    pub desired: Option<String>,
+    pub solver: Option<RawSolver>,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy)]
+#[serde(rename_all = "lowercase")]
+pub enum RawPhase {
+    Liquid,
+    Gas,
+}
+
+#[derive(Debug, Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub struct RawSpecies {
+    pub formula: Option<String>,
+    pub molar_mass: Option<RawQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawReaction {
+    pub id: String,
+    pub stoich: String,
+    pub rate: RawRate,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum RawLaw {
+    Power,
+    Hyperbolic,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(non_snake_case)]
+pub struct RawRate {
+    pub law: Option<RawLaw>,
+    pub k: RawQty,
+    pub orders: Option<IndexMap<String, f64>>,
+    pub Ea: Option<RawQty>,
+    pub T_ref: Option<RawQty>,
+    pub K_eq: Option<RawQty>,
+    pub dH: Option<RawQty>,
+    /// Hyperbolic only: species -> adsorption term.
+    pub adsorption: Option<IndexMap<String, RawAdsorption>>,
+    /// Hyperbolic only: exponent n of the denominator (default 1).
+    pub inhibition_power: Option<f64>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(non_snake_case)]
+pub struct RawAdsorption {
+    pub K: RawQty,
+    pub order: Option<f64>,
+    pub dH: Option<RawQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawFeed {
+    #[serde(rename = "T")]
+    pub t: RawQty,
+    #[serde(rename = "P")]
+    pub p: Option<RawQty>,
+    pub flows: Option<IndexMap<String, RawQty>>,
+    pub amounts: Option<IndexMap<String, RawQty>>,
+    pub volumetric: Option<RawQty>,
+    pub concentrations: Option<IndexMap<String, RawQty>>,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum RawReactorType {
+    Pfr,
+    Pbr,
+    Cstr,
+    Batch,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum RawBatchMode {
+    ConstantVolume,
+    ConstantPressure,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawReactor {
+    #[serde(rename = "type")]
+    pub kind: RawReactorType,
+    pub volume: Option<RawQty>,
+    pub catalyst: Option<RawQty>,
+    pub time: Option<RawQty>,
+    pub mode: Option<RawBatchMode>,
+    pub pressure_drop: Option<RawPressureDrop>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawPressureDrop {
+    pub alpha: Option<RawQty>,
+    pub particle_diameter: Option<RawQty>,
+    pub void_fraction: Option<f64>,
+    pub cross_section: Option<RawQty>,
+    pub viscosity: Option<RawQty>,
+    pub solid_density: Option<RawQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawSolver {
+    pub rtol: Option<f64>,
+    pub atol: Option<RawQty>,
+    pub max_steps: Option<usize>,
+}

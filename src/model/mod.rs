@@ -1,0 +1,272 @@
+//! The study model: species, reactions, rate laws, feed and reactor, all in SI.
+//!
+//! A [`Network`] is built only by [`load`] (from a study file) and is known-good afterwards:
+//! every species named anywhere exists, every quantity is in SI, every rate constant's
+//! dimensions match its law, the feed is non-negative and not empty. Later stages rely on it
+//! and do not re-check.
+
+pub mod equation;
+mod file;
+pub mod formula;
+mod load;
+pub mod locate;
+
+pub use load::{load_file, load_str, LoadError, Override};
+
+use formula::Formula;
+use num_rational::BigRational;
+
+/// Liquid (constant density) or ideal gas.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Phase {
+    Liquid,
+    Gas,
+}
+
+/// One species of the study.
+#[derive(Debug, Clone)]
+pub struct Species {
+    pub name: String,
+    /// Elemental formula, where given; atom balances are checked for reactions whose species all have one.
+    pub formula: Option<Formula>,
+    /// Molar mass in kg/mol, where given (or computed from the formula); needed by the Ergun equation.
+    pub molar_mass: Option<f64>,
+}
+
+/// A species and its coefficient on one side of an equation, as written.
+#[derive(Debug, Clone)]
+pub struct Term {
+    pub species: usize,
+    pub coefficient: f64,
+    pub exact: BigRational,
+}
+
+/// Per unit of what a rate is expressed: reactor volume (homogeneous) or catalyst mass (packed bed).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RateBasis {
+    /// r in mol/(m3 s).
+    Volume,
+    /// r' in mol/(kg_cat s).
+    CatalystMass,
+}
+
+/// One adsorption term K_m(T) C_m^b_m of a hyperbolic rate's denominator.
+#[derive(Debug, Clone)]
+pub struct Adsorption {
+    pub species: usize,
+    /// K_m at T_ref in SI ((mol/m3)^-b).
+    pub k_ref: f64,
+    /// Exponent b_m on the concentration.
+    pub order: f64,
+    /// Heat of adsorption (J/mol), K_m(T) = K_m,ref exp(−ΔH/R (1/T − 1/T_ref)); 0 when not given.
+    pub dh: f64,
+}
+
+/// The form of a rate law beyond its power-law numerator.
+#[derive(Debug, Clone)]
+pub enum RateForm {
+    /// r = k Π C_j^a_j.
+    Power,
+    /// r = k Π C_j^a_j / (1 + Σ_m K_m C_m^b_m)^n (adsorption-limited catalytic step).
+    Hyperbolic {
+        adsorption: Vec<Adsorption>,
+        power: f64,
+    },
+}
+
+/// The equilibrium constant of a reversible reaction.
+#[derive(Debug, Clone)]
+pub struct Equilibrium {
+    /// Concentration-based K_c at T_ref, SI units (mol/m3)^Σν.
+    pub k_ref: f64,
+}
+
+/// A rate law, in SI, at a reference temperature.
+#[derive(Debug, Clone)]
+pub struct RateLaw {
+    pub form: RateForm,
+    /// Rate constant at T_ref, SI.
+    pub k_ref: f64,
+    /// Arrhenius activation energy, J/mol (0: no temperature dependence).
+    pub ea: f64,
+    /// Reference temperature of k_ref, K_eq and adsorption constants, K.
+    pub t_ref: f64,
+    /// Concentration exponents (species, order); default the reactant-side coefficients.
+    pub orders: Vec<(usize, f64)>,
+    /// Present for reversible reactions.
+    pub equilibrium: Option<Equilibrium>,
+    pub basis: RateBasis,
+}
+
+/// One reaction. Its rate is a rate of reaction (per unit of extent): species j is produced at
+/// Σ_i ν_ij r_i.
+#[derive(Debug, Clone)]
+pub struct Reaction {
+    pub id: String,
+    /// The equation as written in the file.
+    pub equation: String,
+    pub reactants: Vec<Term>,
+    pub products: Vec<Term>,
+    pub reversible: bool,
+    /// Net coefficients ν_ij (products − reactants), species ascending, zeros dropped.
+    pub net: Vec<(usize, f64)>,
+    /// The same, exact.
+    pub net_exact: Vec<(usize, BigRational)>,
+    pub rate: RateLaw,
+    /// Heat of reaction ΔH_r (J per mol of extent), if given; sets K_eq(T) by van't Hoff.
+    pub dh: Option<f64>,
+}
+
+impl Reaction {
+    /// Σ_j ν_ij: the change in total moles per unit extent.
+    pub fn mole_change(&self) -> f64 {
+        self.net.iter().map(|(_, v)| v).sum()
+    }
+    /// ν of species j in this reaction (0 when absent).
+    pub fn nu(&self, j: usize) -> f64 {
+        self.net
+            .iter()
+            .find(|(s, _)| *s == j)
+            .map(|(_, v)| *v)
+            .unwrap_or(0.0)
+    }
+    /// Whether species j is written on the reactant side.
+    pub fn has_reactant(&self, j: usize) -> bool {
+        self.reactants.iter().any(|t| t.species == j)
+    }
+    /// Whether species j is written on the product side.
+    pub fn has_product(&self, j: usize) -> bool {
+        self.products.iter().any(|t| t.species == j)
+    }
+}
+
+/// The feed (flow reactors) or initial charge (batch), in SI.
+#[derive(Debug, Clone)]
+pub struct Feed {
+    /// K.
+    pub temperature: f64,
+    /// Pa (for a liquid: recorded, not used by the balances).
+    pub pressure: f64,
+    /// Per species: F_j0 in mol/s (flow reactors) or N_j0 in mol (batch).
+    pub amounts: Vec<f64>,
+    /// v0 in m3/s (flow) or the charged volume V0 in m3 (batch).
+    pub volumetric: f64,
+}
+
+impl Feed {
+    /// F_T0 (or N_T0).
+    pub fn total(&self) -> f64 {
+        self.amounts.iter().sum()
+    }
+}
+
+/// Pressure drop along a packed bed.
+#[derive(Debug, Clone)]
+pub enum PressureDrop {
+    /// dy/dW = −(α/2y)(F_T/F_T0)(T/T0), y = P/P0, with α in 1/kg given directly.
+    Lumped { alpha: f64 },
+    /// α from the Ergun equation and the bed properties (all SI).
+    Ergun {
+        particle_diameter: f64,
+        void_fraction: f64,
+        cross_section: f64,
+        viscosity: f64,
+        solid_density: f64,
+    },
+}
+
+/// Batch operation: fixed volume, or fixed pressure (ideal gas; the volume follows the moles).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum BatchMode {
+    ConstantVolume,
+    ConstantPressure,
+}
+
+/// The reactor and its size, SI.
+#[derive(Debug, Clone)]
+pub enum Reactor {
+    Pfr {
+        volume: f64,
+    },
+    Pbr {
+        catalyst: f64,
+        pressure_drop: Option<PressureDrop>,
+    },
+    Cstr {
+        volume: f64,
+    },
+    Batch {
+        volume: f64,
+        time: f64,
+        mode: BatchMode,
+    },
+}
+
+impl Reactor {
+    /// Short lowercase name as in the file (`pfr`, `pbr`, `cstr`, `batch`).
+    pub fn kind(&self) -> &'static str {
+        match self {
+            Reactor::Pfr { .. } => "pfr",
+            Reactor::Pbr { .. } => "pbr",
+            Reactor::Cstr { .. } => "cstr",
+            Reactor::Batch { .. } => "batch",
+        }
+    }
+    /// Whether the feed is an initial charge (moles) rather than flows.
+    pub fn is_batch(&self) -> bool {
+        matches!(self, Reactor::Batch { .. })
+    }
+}
+
+/// Integration settings from the file (the command line may override them).
+#[derive(Debug, Clone, Default)]
+pub struct SolverSettings {
+    pub rtol: Option<f64>,
+    /// Absolute tolerance in the state's units (mol/s or mol).
+    pub atol: Option<f64>,
+    pub max_steps: Option<usize>,
+}
+
+/// A loaded, validated study.
+#[derive(Debug, Clone)]
+pub struct Network {
+    pub name: String,
+    /// The file it came from (for messages), or `<string>`.
+    pub source: String,
+    pub phase: Phase,
+    pub species: Vec<Species>,
+    pub reactions: Vec<Reaction>,
+    pub feed: Feed,
+    pub reactor: Reactor,
+    /// Index of the key (conversion basis) species.
+    pub key: usize,
+    /// Whether the key was chosen automatically as the limiting reactant.
+    pub key_is_default: bool,
+    /// Index of the desired product, if named.
+    pub desired: Option<usize>,
+    pub solver: SolverSettings,
+}
+
+impl Network {
+    /// Index of a species by name.
+    pub fn species_index(&self, name: &str) -> Option<usize> {
+        self.species.iter().position(|s| s.name == name)
+    }
+    /// Index of a reaction by id.
+    pub fn reaction_index(&self, id: &str) -> Option<usize> {
+        self.reactions.iter().position(|r| r.id == id)
+    }
+    /// The stoichiometric matrix ν (species x reactions) in compressed sparse column form.
+    pub fn stoich_matrix(&self) -> sprs::CsMat<f64> {
+        let mut tri = sprs::TriMat::new((self.species.len(), self.reactions.len()));
+        for (i, r) in self.reactions.iter().enumerate() {
+            for &(j, v) in &r.net {
+                tri.add_triplet(j, i, v);
+            }
+        }
+        tri.to_csc()
+    }
+}
