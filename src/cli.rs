@@ -1,7 +1,8 @@
 //! Command-line interface: one function per command. Each returns the exit code.
 
 use clap::{Parser, Subcommand, ValueEnum};
-use rxnet::{analysis, load_file, report, Override};
+use rxnet::solve::{self, Points, SolveOptions};
+use rxnet::{analysis, load_file, metrics, reactor, report, Override};
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -23,8 +24,41 @@ enum Format {
     Json,
 }
 
+#[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
+enum RunFormat {
+    Table,
+    Csv,
+    Json,
+}
+
 #[derive(Subcommand)]
 enum Command {
+    /// Simulate the study's reactor: outlet, conversion, yields, selectivities.
+    Run {
+        file: PathBuf,
+        #[arg(long, value_enum, default_value_t = RunFormat::Table)]
+        format: RunFormat,
+        /// Write the profile along the reactor to this CSV file.
+        #[arg(long, value_name = "FILE.csv")]
+        profile: Option<PathBuf>,
+        /// Number of evenly spaced profile points, inlet and outlet included (default 51 when a profile is asked).
+        #[arg(long)]
+        points: Option<usize>,
+        /// Report every internal step of the integrator instead of even points.
+        #[arg(long, conflicts_with = "points")]
+        steps: bool,
+        /// Relative tolerance of the integration (default 1e-8).
+        #[arg(long)]
+        rtol: Option<f64>,
+        /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch); default 1e-12 of the total feed.
+        #[arg(long)]
+        atol: Option<f64>,
+        /// Also print the element balance closure.
+        #[arg(long, short)]
+        verbose: bool,
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
+    },
     /// Check a network: atom balances, independent reactions, equilibrium consistency, graph.
     Check {
         file: PathBuf,
@@ -75,6 +109,27 @@ pub fn main() -> i32 {
     match cli.command {
         Command::Check { file, format, set } => check(&file, format, &set),
         Command::Table { file, format, set } => table(&file, format, &set),
+        Command::Run {
+            file,
+            format,
+            profile,
+            points,
+            steps,
+            rtol,
+            atol,
+            verbose,
+            set,
+        } => run(&RunArgs {
+            file,
+            format,
+            profile,
+            points,
+            steps,
+            rtol,
+            atol,
+            verbose,
+            set,
+        }),
     }
 }
 
@@ -114,6 +169,112 @@ fn table(file: &std::path::Path, format: Format, set: &[Override]) -> i32 {
     let text = match format {
         Format::Text => report::table_text(&t),
         Format::Json => json(&t),
+    };
+    emit(&text);
+    0
+}
+
+struct RunArgs {
+    file: PathBuf,
+    format: RunFormat,
+    profile: Option<PathBuf>,
+    points: Option<usize>,
+    steps: bool,
+    rtol: Option<f64>,
+    atol: Option<f64>,
+    verbose: bool,
+    set: Vec<Override>,
+}
+
+/// Write a file atomically: a temporary file beside it, then a rename, so an interrupted run
+/// never leaves a half-written file that looks complete.
+fn write_atomic(path: &std::path::Path, text: &str) -> std::io::Result<()> {
+    let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(std::path::Path::new("."));
+    let name = path.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    std::fs::write(&tmp, text)?;
+    std::fs::rename(&tmp, path).inspect_err(|_| {
+        let _ = std::fs::remove_file(&tmp);
+    })
+}
+
+fn check_tolerance(name: &str, v: Option<f64>, upper: f64) -> Result<(), String> {
+    match v {
+        Some(x) if !(x > 0.0 && x < upper) => Err(format!("--{name} must be a positive number below {upper}, got {x}")),
+        _ => Ok(()),
+    }
+}
+
+/// `rxnet run FILE`: exit 0 on success, 1 when the solve fails, 2 for invalid input.
+fn run(a: &RunArgs) -> i32 {
+    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0).and_then(|_| check_tolerance("atol", a.atol, f64::INFINITY)) {
+        eprintln!("error: {m}");
+        return EXIT_INVALID;
+    }
+    if let Some(n) = a.points {
+        if !(2..=1_000_000).contains(&n) {
+            eprintln!("error: --points must be between 2 and 1000000, got {n}");
+            return EXIT_INVALID;
+        }
+    }
+    let net = match load(&a.file, &a.set) {
+        Ok(n) => n,
+        Err(code) => return code,
+    };
+    let analysis = analysis::check(&net);
+    if analysis.has_errors() {
+        eprintln!("error: {}: the network has error findings; run `rxnet check` on it:", a.file.display());
+        for f in analysis.findings.iter().filter(|f| f.severity == analysis::Severity::Error) {
+            eprintln!("  {}", f.message);
+        }
+        return EXIT_FINDINGS;
+    }
+    let want_profile = a.profile.is_some() || a.format == RunFormat::Csv || a.points.is_some() || a.steps;
+    let points = if a.steps {
+        Points::Steps
+    } else if want_profile {
+        Points::Even(a.points.unwrap_or(51))
+    } else {
+        Points::End
+    };
+    let opts = SolveOptions {
+        rtol: a.rtol,
+        atol: a.atol,
+        points,
+        ..Default::default()
+    };
+    let balance = match reactor::Balance::new(&net) {
+        Ok(b) => b,
+        Err(m) => {
+            eprintln!("error: {}: {m}", a.file.display());
+            return EXIT_INVALID;
+        }
+    };
+    let sim = match solve::simulate_with(&net, &balance, &opts) {
+        Ok(s) => s,
+        Err(e) => {
+            eprintln!("error: {}: {e}", a.file.display());
+            return EXIT_FINDINGS;
+        }
+    };
+    let m = metrics::compute(&net, sim.outlet());
+    let rep = report::run::build(&net, &balance, &sim, &m, want_profile && a.format == RunFormat::Json);
+    if let Some(path) = &a.profile {
+        if let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim)) {
+            eprintln!("error: cannot write {}: {e}", path.display());
+            return EXIT_FINDINGS;
+        }
+    }
+    let text = match a.format {
+        RunFormat::Table => {
+            let mut t = report::run::text(&rep, a.verbose);
+            if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
+                t.push_str("caution: exothermic reactions; this isothermal result assumes the heat is removed. Assess runaway and relief under local codes.\n");
+            }
+            t
+        }
+        RunFormat::Csv => report::run::profile_csv(&net, &sim),
+        RunFormat::Json => json(&rep),
     };
     emit(&text);
     0

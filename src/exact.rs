@@ -809,7 +809,21 @@ mod tests {
 
     fn check_mass_balanced(species: usize, reactions: usize, seed: u64, full: bool) {
         let (m, w) = mass_balanced_network(species, reactions, seed);
+        let t = std::time::Instant::now();
         let r = rank(&m);
+        eprintln!("rank {:?}", t.elapsed());
+        let t = std::time::Instant::now();
+        let _ = left_null_space(&m);
+        eprintln!("lns {:?}", t.elapsed());
+        let t = std::time::Instant::now();
+        let ns = null_space(&m);
+        eprintln!("ns {:?} maxbits {}", t.elapsed(), ns.iter().flatten().map(|x| x.bits()).max().unwrap_or(0));
+        let t = std::time::Instant::now();
+        let _ = column_dependence(&m);
+        eprintln!("dep {:?}", t.elapsed());
+        let t = std::time::Instant::now();
+        for x in &ns { assert!(mul_vec(&m, x).iter().all(Zero::is_zero)); }
+        eprintln!("check {:?}", t.elapsed());
         assert_eq!(r, species - 1);
         assert_eq!(rank(&m.transpose()), r);
         let lns = left_null_space(&m);

@@ -5,8 +5,12 @@
 
 pub mod analysis;
 pub mod exact;
+pub mod kinetics;
+pub mod metrics;
 pub mod model;
+pub mod reactor;
 pub mod report;
+pub mod solve;
 pub mod units;
 
 pub use model::{load_file, load_str, LoadError, Network, Override};

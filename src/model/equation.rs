@@ -265,7 +265,7 @@ mod tests {
             "-1 A -> B",
             "2 3 A -> B",
             "A -> A",
-            "1x -> B",
+            "1.2.3A -> B",
             "A <-> B",
         ] {
             assert!(parse_equation(bad, &none).is_err(), "{bad} accepted");

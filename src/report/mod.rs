@@ -3,6 +3,8 @@
 
 use crate::analysis::{Check, Severity};
 use crate::analysis::table::StoichTable;
+pub mod run;
+
 use std::fmt::Write;
 
 /// A number in a compact engineering form: 6 significant digits.

@@ -1,0 +1,310 @@
+//! Rate laws: each reaction's rate and its derivatives from one description.
+//!
+//! For reaction i at temperature T and concentrations C (SI):
+//!
+//! ```text
+//! r_i = k_i(T) [ Π_j C_j^a_j − (1/K_i(T)) Π_j C_j^(a_j+ν_j) ] / D_i^n        (reverse term only if reversible)
+//! k_i(T) = k_ref exp(−Ea/R (1/T − 1/T_ref))                                    (Arrhenius)
+//! K_i(T) = K_ref exp(−ΔH/R (1/T − 1/T_ref))                                    (van't Hoff)
+//! D_i    = 1 + Σ_m K_m(T) C_m^b_m   (hyperbolic laws; D = 1 for a power law)
+//! ```
+//!
+//! The reverse term is r_forward · Q/K written without dividing by a concentration, so it stays
+//! finite when a reactant is absent: with mass-action orders it is k/K Π C_products^ν
+//! (common practice). The rate and its gradient ∂r_i/∂C_j are computed by the same function,
+//! [`RateSet::eval`], so the analytic Jacobian cannot drift from the rate.
+//!
+//! Powers: an integer exponent is applied to the concentration as it is (smooth through zero, so
+//! a small negative overshoot of the integrator does not break the Jacobian); a fractional one
+//! to max(C, 0), with derivative 0 at C ≤ 0.
+
+use crate::model::{Network, RateForm};
+use crate::units::GAS_CONSTANT;
+
+/// One power factor C^e.
+#[derive(Debug, Clone, Copy)]
+struct Factor {
+    species: usize,
+    exponent: f64,
+}
+
+#[derive(Debug, Clone)]
+struct Compiled {
+    k_ref: f64,
+    ea: f64,
+    t_ref: f64,
+    forward: Vec<Factor>,
+    /// (K_ref, ΔH for van't Hoff, reverse factors).
+    reverse: Option<(f64, f64, Vec<Factor>)>,
+    /// (K_m,ref, ΔH_m, factor) terms and the power n.
+    denominator: Option<(Vec<(f64, f64, Factor)>, f64)>,
+    /// Species whose concentration this rate depends on (sorted, unique).
+    depends_on: Vec<usize>,
+}
+
+/// All rate laws of a network, ready to evaluate.
+#[derive(Debug, Clone)]
+pub struct RateSet {
+    laws: Vec<Compiled>,
+}
+
+/// Value and derivative of C^e (see the module notes on powers).
+#[inline]
+fn power(c: f64, e: f64) -> (f64, f64) {
+    let n = e.round();
+    if (e - n).abs() < 1e-12 && n.abs() <= 64.0 {
+        let n = n as i32;
+        match n {
+            0 => (1.0, 0.0),
+            1 => (c, 1.0),
+            2 => (c * c, 2.0 * c),
+            _ => (c.powi(n), n as f64 * c.powi(n - 1)),
+        }
+    } else if c > 0.0 {
+        let v = c.powf(e);
+        (v, e * v / c)
+    } else {
+        (0.0_f64.powf(e), 0.0)
+    }
+}
+
+/// Π_j C_j^e_j and its gradient (added, times `scale`, into `grad` over the factor species).
+fn product(factors: &[Factor], c: &[f64], grad: Option<(&mut [(usize, f64)], f64)>) -> f64 {
+    let mut vals = [(0.0, 0.0); 8];
+    let big: Vec<(f64, f64)>;
+    let pv: &[(f64, f64)] = if factors.len() <= 8 {
+        for (k, f) in factors.iter().enumerate() {
+            vals[k] = power(c[f.species], f.exponent);
+        }
+        &vals[..factors.len()]
+    } else {
+        big = factors.iter().map(|f| power(c[f.species], f.exponent)).collect();
+        &big
+    };
+    let total: f64 = pv.iter().map(|(v, _)| v).product();
+    if let Some((g, scale)) = grad {
+        for (k, f) in factors.iter().enumerate() {
+            // ∂/∂C_k = e C_k^(e−1) Π_{m≠k} C_m^e_m, without dividing by C_k.
+            let others: f64 = pv
+                .iter()
+                .enumerate()
+                .filter(|(m, _)| *m != k)
+                .map(|(_, (v, _))| v)
+                .product();
+            let d = pv[k].1 * others * scale;
+            if let Some(slot) = g.iter_mut().find(|(s, _)| *s == f.species) {
+                slot.1 += d;
+            }
+        }
+    }
+    total
+}
+
+fn arrhenius(k_ref: f64, e: f64, t_ref: f64, t: f64) -> f64 {
+    if e == 0.0 || t == t_ref {
+        k_ref
+    } else {
+        k_ref * (-e / GAS_CONSTANT * (1.0 / t - 1.0 / t_ref)).exp()
+    }
+}
+
+impl RateSet {
+    pub fn new(net: &Network) -> RateSet {
+        let laws = net
+            .reactions
+            .iter()
+            .map(|r| {
+                let law = &r.rate;
+                let forward: Vec<Factor> = law
+                    .orders
+                    .iter()
+                    .map(|&(species, exponent)| Factor { species, exponent })
+                    .collect();
+                let reverse = law.equilibrium.as_ref().map(|eq| {
+                    // Exponents a_j + ν_j over every species in the orders or the equation.
+                    let mut ex: Vec<(usize, f64)> = law.orders.clone();
+                    for &(j, nu) in &r.net {
+                        match ex.iter_mut().find(|(s, _)| *s == j) {
+                            Some(e) => e.1 += nu,
+                            None => ex.push((j, nu)),
+                        }
+                    }
+                    let factors: Vec<Factor> = ex
+                        .into_iter()
+                        .filter(|(_, e)| e.abs() > 1e-14)
+                        .map(|(species, exponent)| Factor { species, exponent })
+                        .collect();
+                    (eq.k_ref, r.dh.unwrap_or(0.0), factors)
+                });
+                let denominator = match &law.form {
+                    RateForm::Power => None,
+                    RateForm::Hyperbolic { adsorption, power } => Some((
+                        adsorption
+                            .iter()
+                            .map(|a| {
+                                (
+                                    a.k_ref,
+                                    a.dh,
+                                    Factor {
+                                        species: a.species,
+                                        exponent: a.order,
+                                    },
+                                )
+                            })
+                            .collect::<Vec<_>>(),
+                        *power,
+                    )),
+                };
+                let mut depends_on: Vec<usize> = forward.iter().map(|f| f.species).collect();
+                if let Some((_, _, fs)) = &reverse {
+                    depends_on.extend(fs.iter().map(|f| f.species));
+                }
+                if let Some((terms, _)) = &denominator {
+                    depends_on.extend(terms.iter().map(|(_, _, f)| f.species));
+                }
+                depends_on.sort_unstable();
+                depends_on.dedup();
+                Compiled {
+                    k_ref: law.k_ref,
+                    ea: law.ea,
+                    t_ref: law.t_ref,
+                    forward,
+                    reverse,
+                    denominator,
+                    depends_on,
+                }
+            })
+            .collect();
+        RateSet { laws }
+    }
+
+    pub fn len(&self) -> usize {
+        self.laws.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.laws.is_empty()
+    }
+
+    /// Species that rate i depends on.
+    pub fn depends_on(&self, i: usize) -> &[usize] {
+        &self.laws[i].depends_on
+    }
+
+    /// Rate of reaction i at T and C; with `grad`, also ∂r_i/∂C_j for j in `depends_on(i)`,
+    /// written into `grad` as (species, derivative) in that order.
+    pub fn eval(&self, i: usize, t: f64, c: &[f64], grad: Option<&mut Vec<(usize, f64)>>) -> f64 {
+        let law = &self.laws[i];
+        let k = arrhenius(law.k_ref, law.ea, law.t_ref, t);
+        let mut g = grad;
+        if let Some(g) = g.as_deref_mut() {
+            g.clear();
+            g.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
+        }
+        // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
+        let mut num = product(&law.forward, c, g.as_deref_mut().map(|g| (&mut g[..], 1.0)));
+        if let Some((k_eq_ref, dh, factors)) = &law.reverse {
+            let k_eq = arrhenius(*k_eq_ref, *dh, law.t_ref, t);
+            num -= product(factors, c, g.as_deref_mut().map(|g| (&mut g[..], -1.0 / k_eq))) / k_eq;
+        }
+        match &law.denominator {
+            None => {
+                if let Some(g) = g {
+                    for e in g.iter_mut() {
+                        e.1 *= k;
+                    }
+                }
+                k * num
+            }
+            Some((terms, n)) => {
+                // r = k N / D^n; ∂r = k (∂N / D^n − n N D^(−n−1) ∂D).
+                let mut d = 1.0;
+                let mut dgrad: Vec<(usize, f64)> = Vec::new();
+                if g.is_some() {
+                    dgrad.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
+                }
+                for (k_ads_ref, dh_ads, f) in terms {
+                    let k_ads = arrhenius(*k_ads_ref, *dh_ads, law.t_ref, t);
+                    let (v, dv) = power(c[f.species], f.exponent);
+                    d += k_ads * v;
+                    if let Some(slot) = dgrad.iter_mut().find(|(s, _)| *s == f.species) {
+                        slot.1 += k_ads * dv;
+                    }
+                }
+                let dn = d.powf(*n);
+                if let Some(g) = g {
+                    for (e, de) in g.iter_mut().zip(dgrad.iter()) {
+                        e.1 = k * (e.1 / dn - n * num * de.1 / (dn * d));
+                    }
+                }
+                k * num / dn
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::load_str;
+
+    fn study(reactions: &str) -> Network {
+        let text = format!(
+            "name: t\nphase: liquid\nspecies: {{A: {{}}, B: {{}}, C: {{}}, I: {{}}}}\nreactions:\n{reactions}\nfeed: {{T: 300 K, volumetric: 1 L/s, flows: {{A: 1 mol/s, B: 0.5 mol/s, C: 0.2 mol/s}}}}\nreactor: {{type: pfr, volume: 1 L}}\n"
+        );
+        load_str(&text, "test", &[]).unwrap()
+    }
+
+    /// Every law's analytic gradient against central finite differences (common practice).
+    fn check_gradient(net: &Network, t: f64, c: &[f64]) {
+        let rs = RateSet::new(net);
+        let mut g = Vec::new();
+        for i in 0..rs.len() {
+            rs.eval(i, t, c, Some(&mut g));
+            for &(j, d) in &g {
+                let h = 1e-6 * c[j].abs().max(1e-3);
+                let mut cp = c.to_vec();
+                let mut cm = c.to_vec();
+                cp[j] += h;
+                cm[j] -= h;
+                let fd = (rs.eval(i, t, &cp, None) - rs.eval(i, t, &cm, None)) / (2.0 * h);
+                let scale = d.abs().max(fd.abs()).max(1e-12);
+                assert!((d - fd).abs() / scale < 1e-6, "reaction {i} species {j}: analytic {d} vs fd {fd}");
+            }
+        }
+    }
+
+    #[test]
+    fn power_reversible_hyperbolic_gradients_match_finite_differences() {
+        let net = study(
+            "  - {id: r1, stoich: A + B -> C, rate: {k: 2e-3 m3/(mol*s), Ea: 30 kJ/mol, T_ref: 320 K}}\n\
+             \x20 - {id: r2, stoich: 2 A <=> C, rate: {k: 1e-3 m3/(mol*s), K_eq: 0.5 m3/mol, dH: -20 kJ/mol}}\n\
+             \x20 - {id: r3, stoich: A -> B, rate: {k: 0.3 (mol/m3)^(-0.5)/s, orders: {A: 1.5}}}\n\
+             \x20 - {id: r4, stoich: A + B -> C, rate: {law: hyperbolic, k: 1e-2 m3/(mol*s), adsorption: {A: {K: 0.01 m3/mol}, C: {K: 0.002 (m3/mol)^2, order: 2, dH: -15 kJ/mol}}, inhibition_power: 2}}\n\
+             \x20 - {id: r5, stoich: 2 B -> B + C, rate: {k: 1e-3 m3/(mol*s)}}",
+        );
+        check_gradient(&net, 330.0, &[800.0, 450.0, 120.0, 0.0]);
+        check_gradient(&net, 300.0, &[5.0, 1e-3, 3.0, 0.0]);
+    }
+
+    #[test]
+    fn reversible_rate_vanishes_at_equilibrium() {
+        // A <=> B with K = 4: r = k (C_A − C_B/K) = 0 at C_B/C_A = K (definition of K_c).
+        let net = study("  - {id: r, stoich: A <=> B, rate: {k: 0.1 1/s, K_eq: 4}}");
+        let rs = RateSet::new(&net);
+        let r = rs.eval(0, 300.0, &[100.0, 400.0, 0.0, 0.0], None);
+        assert!(r.abs() < 1e-12);
+        let r = rs.eval(0, 300.0, &[100.0, 0.0, 0.0, 0.0], None);
+        assert!((r - 10.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn arrhenius_doubles_as_expected() {
+        // k(T)/k(T_ref) = exp(−Ea/R (1/T − 1/T_ref)) (Arrhenius; R from CODATA 2018).
+        let net = study("  - {id: r, stoich: A -> B, rate: {k: 1 1/s, Ea: 50 kJ/mol, T_ref: 300 K}}");
+        let rs = RateSet::new(&net);
+        let r = rs.eval(0, 310.0, &[1.0, 0.0, 0.0, 0.0], None);
+        let expect = (-50_000.0_f64 / 8.314_462_618 * (1.0 / 310.0 - 1.0 / 300.0)).exp();
+        assert!((r - expect).abs() / expect < 1e-9);
+    }
+}

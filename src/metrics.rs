@@ -1,0 +1,183 @@
+//! What an engineer decides with: conversion, yields, selectivities and the element balance.
+//!
+//! Definitions (common practice; textbook notation), with F for flows or N for a batch:
+//! - conversion of the key reactant A: X = (F_A0 − F_A)/F_A0;
+//! - yield of product j on A: Y_j = (F_j − F_j0)/(F_A0 − F_A) · |ν_A|/ν_j, the stoichiometric
+//!   ratio of the one reaction that makes j from A; where no single reaction does (j made in
+//!   series, or by several reactions from A) the ratio is 1 and the yield is on a molar basis;
+//! - yield of j on the feed: (F_j − F_j0)/F_A0;
+//! - overall selectivity of the desired D over another product U: S_D/U = (F_D − F_D0)/(F_U − F_U0);
+//! - instantaneous selectivity along the reactor: R_D/R_U, the net rates of formation.
+//! - element balance closure: |Σ_j a_ej F_j − Σ_j a_ej F_j0| / Σ_j a_ej F_j0 for each element e.
+
+use crate::model::Network;
+use serde::Serialize;
+
+/// The yield of one product.
+#[derive(Debug, Clone, Serialize)]
+pub struct Yield {
+    pub species: String,
+    /// On the key reactant consumed (None when none was consumed).
+    pub on_key: Option<f64>,
+    /// "stoichiometric (reaction ID)" or "molar".
+    pub basis: String,
+    /// On the key reactant fed.
+    pub on_feed: f64,
+}
+
+/// One selectivity of the desired product over another.
+#[derive(Debug, Clone, Serialize)]
+pub struct Selectivity {
+    pub over: String,
+    /// None when the other product is not formed (infinite selectivity).
+    pub value: Option<f64>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Closure {
+    pub element: String,
+    /// Relative closure |out − in| / in.
+    pub relative: f64,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Metrics {
+    pub key: String,
+    pub conversion: f64,
+    pub yields: Vec<Yield>,
+    pub desired: Option<String>,
+    pub selectivity: Vec<Selectivity>,
+    /// Element balance closure (elements of species that all have formulas).
+    pub element_closure: Vec<Closure>,
+}
+
+/// Products: species with a positive net coefficient in some reaction, other than the key.
+pub fn products(net: &Network) -> Vec<usize> {
+    (0..net.species.len())
+        .filter(|&j| j != net.key && net.reactions.iter().any(|r| r.nu(j) > 0.0))
+        .collect()
+}
+
+/// The stoichiometric ratio |ν_A|/ν_j of the single reaction that makes j from A, if there is one.
+pub fn yield_ratio(net: &Network, j: usize) -> Option<(usize, f64)> {
+    let a = net.key;
+    let makers: Vec<usize> = (0..net.reactions.len())
+        .filter(|&i| net.reactions[i].nu(a) < 0.0 && net.reactions[i].nu(j) > 0.0)
+        .collect();
+    match makers.as_slice() {
+        [i] => {
+            let r = &net.reactions[*i];
+            Some((*i, r.nu(a).abs() / r.nu(j)))
+        }
+        _ => None,
+    }
+}
+
+/// Selectivity ratio, None when the denominator is not formed beyond round-off of the total.
+fn ratio(num: f64, den: f64, scale: f64) -> Option<f64> {
+    (den.abs() > 1e-13 * scale).then(|| num / den)
+}
+
+/// Metrics of an outlet state against the feed.
+pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
+    let f0 = &net.feed.amounts;
+    let a = net.key;
+    let total = net.feed.total();
+    let consumed = f0[a] - outlet[a];
+    let conversion = if f0[a] > 0.0 { consumed / f0[a] } else { f64::NAN };
+    let yields = products(net)
+        .into_iter()
+        .map(|j| {
+            let made = outlet[j] - f0[j];
+            let (basis, factor) = match yield_ratio(net, j) {
+                Some((i, k)) => (format!("stoichiometric ({})", net.reactions[i].id), k),
+                None => ("molar".to_string(), 1.0),
+            };
+            Yield {
+                species: net.species[j].name.clone(),
+                on_key: ratio(made * factor, consumed, total),
+                basis,
+                on_feed: if f0[a] > 0.0 { made / f0[a] } else { f64::NAN },
+            }
+        })
+        .collect();
+    let (desired, selectivity) = match net.desired {
+        None => (None, vec![]),
+        Some(d) => (
+            Some(net.species[d].name.clone()),
+            products(net)
+                .into_iter()
+                .filter(|&u| u != d)
+                .map(|u| Selectivity {
+                    over: net.species[u].name.clone(),
+                    value: ratio(outlet[d] - f0[d], outlet[u] - f0[u], total),
+                })
+                .collect(),
+        ),
+    };
+    Metrics {
+        key: net.species[a].name.clone(),
+        conversion,
+        yields,
+        desired,
+        selectivity,
+        element_closure: element_closure(net, outlet),
+    }
+}
+
+/// Element balance closure of a state against the feed.
+pub fn element_closure(net: &Network, state: &[f64]) -> Vec<Closure> {
+    if net.species.iter().any(|s| s.formula.is_none()) {
+        return vec![];
+    }
+    let mut elements: Vec<&String> = net
+        .species
+        .iter()
+        .flat_map(|s| s.formula.as_ref().expect("checked").atoms().keys())
+        .collect();
+    elements.sort();
+    elements.dedup();
+    elements
+        .into_iter()
+        .map(|e| {
+            let count = |j: usize| net.species[j].formula.as_ref().expect("checked").atoms().get(e).copied().unwrap_or(0.0);
+            let inn: f64 = (0..state.len()).map(|j| count(j) * net.feed.amounts[j]).sum();
+            let out: f64 = (0..state.len()).map(|j| count(j) * state[j]).sum();
+            let scale = inn.abs().max(1e-300);
+            Closure {
+                element: e.clone(),
+                relative: (out - inn).abs() / scale,
+            }
+        })
+        .collect()
+}
+
+/// Instantaneous selectivity R_D/R_U (net rates of formation) at a state, for each other product.
+/// `pressure_ratio` is P/P0 at that state (1 where the pressure does not vary).
+pub fn instantaneous_selectivity(
+    net: &Network,
+    balance: &crate::reactor::Balance,
+    state: &[f64],
+    pressure_ratio: f64,
+) -> Vec<Selectivity> {
+    let Some(d) = net.desired else { return vec![] };
+    let mut y = state[..balance.n_species()].to_vec();
+    if balance.has_pressure() {
+        y.push(pressure_ratio);
+    }
+    let mut r = Vec::new();
+    balance.reaction_rates(&y, &mut r);
+    let formation = |j: usize| -> f64 { net.reactions.iter().zip(&r).map(|(rx, ri)| rx.nu(j) * ri).sum() };
+    let rd = formation(d);
+    products(net)
+        .into_iter()
+        .filter(|&u| u != d)
+        .map(|u| {
+            let ru = formation(u);
+            Selectivity {
+                over: net.species[u].name.clone(),
+                value: (ru.abs() > 1e-300).then(|| rd / ru),
+            }
+        })
+        .collect()
+}

@@ -1,0 +1,1297 @@
+//! Integration of the reactor balance equations dy/dx = f(x, y).
+//!
+//! `x` is the independent variable of the reactor model (reactor volume, catalyst mass or
+//! time), always starting at x = 0; `y` holds the species flows or moles (later also pressure
+//! and temperature). Reaction networks are stiff (rate constants spanning 1e-3..1e7), so the
+//! integrator is the variable-order BDF method of the `diffsol` crate, driven by the analytic
+//! Jacobian ∂f/∂y that the reactor model supplies as (row, col, value) triplets.
+//!
+//! The BDF iteration solves, at every step, the Newton system (I − hγJ)Δy = r; `diffsol`
+//! assembles J column by column from Jacobian–vector products J·v, which this module computes
+//! from the triplets (evaluated once per (x, y), then cached), so the right-hand side and its
+//! Jacobian come from one description in the reactor model and cannot drift apart.
+//!
+//! Every value this module hands back is checked to be finite: a non-finite right-hand side,
+//! Jacobian entry, root function or state becomes an [`OdeError`], never a silently wrong number.
+
+use std::cell::{Cell, RefCell};
+use std::collections::HashSet;
+
+use diffsol::{
+    DiffsolError, FaerSparseLU, FaerSparseMat, NalgebraLU, NalgebraMat, OdeBuilder, OdeEquations,
+    OdeSolverMethod, OdeSolverState, OdeSolverStopReason, Vector, error::OdeSolverError,
+};
+
+/// The right-hand side and its Jacobian, supplied by the reactor model (one description, so
+/// they can't drift).
+pub trait OdeSystem {
+    /// Number of states (length of `y`).
+    fn dim(&self) -> usize;
+    /// dy/dx at (x, y) into `dydx` (len dim).
+    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]);
+    /// Jacobian ∂f/∂y at (x, y) as (row, col, value) triplets appended to `out`
+    /// (row = equation, col = state). Duplicates sum.
+    ///
+    /// The set of (row, col) pairs must be the structural pattern of the Jacobian: emit an
+    /// entry even when its value happens to be zero at this (x, y). The sparse solver fixes the
+    /// pattern from the first evaluation at y0 and reports [`OdeError::SparsityChanged`] if a
+    /// later evaluation leaves it.
+    fn jacobian(&self, x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>);
+}
+
+/// Which matrix representation and LU factorization the Newton iteration uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum LinearAlgebra {
+    /// Dense nalgebra matrix with partial-pivoting LU (`NalgebraMat` + `NalgebraLU`).
+    Dense,
+    /// Sparse faer CSC matrix with sparse LU (`FaerSparseMat` + `FaerSparseLU`); the pattern is
+    /// taken from the Jacobian triplets at y0.
+    Sparse,
+    /// Dense up to [`AUTO_SPARSE_ABOVE`] states, sparse above.
+    #[default]
+    Auto,
+}
+
+/// [`LinearAlgebra::Auto`] switches to the sparse solver for more states than this (common
+/// practice: below a few dozen states a dense LU is as fast as a sparse one).
+pub const AUTO_SPARSE_ABOVE: usize = 60;
+
+/// Tolerances and limits of the integration.
+///
+/// The local error of each step is kept below 1 in the weighted RMS norm
+/// ‖e_i / (atol_i + rtol·|y_i|)‖ (common practice for BDF codes).
+#[derive(Debug, Clone)]
+pub struct OdeOptions {
+    /// Relative tolerance, 1e-13 ≤ rtol < 1.
+    pub rtol: f64,
+    /// Absolute tolerance per state (length dim), or a single value used for every state.
+    pub atol: Vec<f64>,
+    /// Largest number of accepted steps before giving up with [`OdeError::MaxSteps`].
+    pub max_steps: usize,
+    /// First step size; `None` lets the solver estimate it from f(0, y0).
+    pub first_step: Option<f64>,
+    /// Dense or sparse linear algebra for the Newton iteration.
+    pub linear_algebra: LinearAlgebra,
+}
+
+impl Default for OdeOptions {
+    /// rtol = 1e-6, atol = 1e-10 for every state, 100 000 steps, estimated first step, Auto.
+    fn default() -> Self {
+        Self {
+            rtol: 1e-6,
+            atol: vec![1e-10],
+            max_steps: 100_000,
+            first_step: None,
+            linear_algebra: LinearAlgebra::Auto,
+        }
+    }
+}
+
+/// Where the solution is wanted: the end only, the given x values (e.g.
+/// [`Output::evenly_spaced`]: N evenly spaced points including 0 and x_end), or every internal
+/// step.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Output {
+    /// Only x = x_end.
+    End,
+    /// Exactly these x values (non-decreasing, within [0, x_end]), from the solver's dense
+    /// output.
+    Points(Vec<f64>),
+    /// x = 0 and every accepted internal step up to x_end.
+    Steps,
+}
+
+impl Output {
+    /// `n` ≥ 2 evenly spaced points x_i = i·x_end/(n−1), the first exactly 0 and the last
+    /// exactly `x_end`.
+    pub fn evenly_spaced(n: usize, x_end: f64) -> Output {
+        let n = n.max(2);
+        let mut xs: Vec<f64> = (0..n)
+            .map(|i| x_end * (i as f64) / ((n - 1) as f64))
+            .collect();
+        xs[n - 1] = x_end;
+        Output::Points(xs)
+    }
+}
+
+/// The solution at the requested x values: `y[i]` is the state at `x[i]`.
+#[derive(Debug, Clone)]
+pub struct OdeSolution {
+    pub x: Vec<f64>,
+    pub y: Vec<Vec<f64>>,
+    pub stats: OdeStats,
+}
+
+/// Work done by the integrator.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct OdeStats {
+    /// Accepted steps (diffsol `number_of_steps`).
+    pub steps: usize,
+    /// Calls of [`OdeSystem::rhs`].
+    pub rhs_evals: usize,
+    /// Calls of [`OdeSystem::jacobian`].
+    pub jac_evals: usize,
+    /// Newton-matrix LU factorizations (diffsol `number_of_linear_solver_setups`).
+    pub lu_factorizations: usize,
+}
+
+/// Why an integration failed. Each variant carries the x where it happened and says what the
+/// user can try.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum OdeError {
+    #[error("invalid input: {what}")]
+    InvalidInput { what: String },
+    #[error(
+        "the right-hand side gave a non-finite value in component {index} at x = {x}; \
+         check the rate expressions for division by zero, overflow or negative amounts raised \
+         to fractional powers, or give the model a guard for such states"
+    )]
+    NonFiniteRhs { x: f64, index: usize },
+    #[error(
+        "the Jacobian gave a non-finite entry (row {row}, col {col}) at x = {x}; check the \
+         derivative expressions of the rate laws"
+    )]
+    NonFiniteJacobian { x: f64, row: usize, col: usize },
+    #[error("the Jacobian gave entry (row {row}, col {col}) outside the {dim}x{dim} system")]
+    JacobianIndexOutOfRange { row: usize, col: usize, dim: usize },
+    #[error(
+        "the Jacobian entry (row {row}, col {col}) at x = {x} is outside the sparsity pattern \
+         found at x = 0; emit every structural entry (also zeros) or use LinearAlgebra::Dense"
+    )]
+    SparsityChanged { x: f64, row: usize, col: usize },
+    #[error("the root function gave a non-finite value at x = {x}; check its expression")]
+    NonFiniteRoot { x: f64 },
+    #[error(
+        "the solution became non-finite in component {index} at x = {x}; tighten rtol/atol or \
+         check the model"
+    )]
+    NonFiniteState { x: f64, index: usize },
+    #[error(
+        "step size became too small at x = {x}; the solution may blow up or have a singularity \
+         there, the Jacobian may be wrong, or the tolerances too tight (try a larger atol/rtol)"
+    )]
+    StepSizeTooSmall { x: f64 },
+    #[error(
+        "reached the maximum of {max_steps} steps at x = {x}; raise OdeOptions::max_steps or \
+         loosen the tolerances"
+    )]
+    MaxSteps { x: f64, max_steps: usize },
+    #[error(
+        "the solver failed to converge at x = {x} ({reason}); check the Jacobian against the \
+         right-hand side, or loosen the tolerances"
+    )]
+    ConvergenceFailure { x: f64, reason: String },
+    #[error("the ODE solver failed at x = {x}: {reason}")]
+    Solver { x: f64, reason: String },
+}
+
+/// Jacobian entries (row, col, value).
+type Triplets = Vec<(usize, usize, f64)>;
+/// Root function g(x, y).
+type RootFn<'g> = &'g dyn Fn(f64, &[f64]) -> f64;
+/// Sparse-pattern record: `None` for the dense solver, then `None` until the first evaluation.
+type PatternCell = Option<RefCell<Option<HashSet<(usize, usize)>>>>;
+
+/// A fault seen inside a callback, which cannot return an error itself; it is reported after
+/// the solver call that triggered it.
+#[derive(Debug, Clone)]
+enum Fault {
+    Rhs { x: f64, index: usize },
+    Jac { x: f64, row: usize, col: usize },
+    Index { row: usize, col: usize },
+    Pattern { x: f64, row: usize, col: usize },
+}
+
+/// The system with counters, a Jacobian cache and the first fault, shared by the closures
+/// handed to diffsol.
+struct Shared<'s> {
+    sys: &'s dyn OdeSystem,
+    dim: usize,
+    rhs_evals: Cell<usize>,
+    jac_evals: Cell<usize>,
+    fault: RefCell<Option<Fault>>,
+    /// (x, y, triplets) of the last Jacobian evaluation.
+    cache: RefCell<(f64, Vec<f64>, Triplets)>,
+    /// Sparse solver only: the pattern fixed at the first evaluation.
+    pattern: PatternCell,
+}
+
+impl<'s> Shared<'s> {
+    fn new(sys: &'s dyn OdeSystem, sparse: bool) -> Self {
+        Self {
+            sys,
+            dim: sys.dim(),
+            rhs_evals: Cell::new(0),
+            jac_evals: Cell::new(0),
+            fault: RefCell::new(None),
+            cache: RefCell::new((f64::NAN, Vec::new(), Vec::new())),
+            pattern: sparse.then(|| RefCell::new(None)),
+        }
+    }
+
+    fn record(&self, fault: Fault) {
+        let mut slot = self.fault.borrow_mut();
+        if slot.is_none() {
+            *slot = Some(fault);
+        }
+    }
+
+    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
+        self.rhs_evals.set(self.rhs_evals.get() + 1);
+        self.sys.rhs(x, y, dydx);
+        if let Some(index) = dydx.iter().position(|v| !v.is_finite()) {
+            self.record(Fault::Rhs { x, index });
+        }
+    }
+
+    /// out = J(x, y)·v from the triplets, re-evaluating them only when (x, y) changed.
+    fn jac_mul(&self, x: f64, y: &[f64], v: &[f64], out: &mut [f64]) {
+        let mut cache = self.cache.borrow_mut();
+        let (cx, cy, trips) = &mut *cache;
+        if *cx != x || cy.as_slice() != y {
+            trips.clear();
+            self.sys.jacobian(x, y, trips);
+            self.jac_evals.set(self.jac_evals.get() + 1);
+            *cx = x;
+            cy.clear();
+            cy.extend_from_slice(y);
+            let n = self.dim;
+            // Drop out-of-range entries (reported), so the product below cannot index out of
+            // bounds.
+            trips.retain(|&(row, col, _)| {
+                let ok = row < n && col < n;
+                if !ok {
+                    self.record(Fault::Index { row, col });
+                }
+                ok
+            });
+            for &(row, col, val) in trips.iter() {
+                if !val.is_finite() {
+                    self.record(Fault::Jac { x, row, col });
+                    break;
+                }
+            }
+            if let Some(pattern) = &self.pattern {
+                let mut pattern = pattern.borrow_mut();
+                match pattern.as_ref() {
+                    None => *pattern = Some(trips.iter().map(|&(r, c, _)| (r, c)).collect()),
+                    Some(p) => {
+                        if let Some(&(row, col, _)) =
+                            trips.iter().find(|&&(r, c, _)| !p.contains(&(r, c)))
+                        {
+                            self.record(Fault::Pattern { x, row, col });
+                        }
+                    }
+                }
+            }
+        }
+        out.fill(0.0);
+        for &(row, col, val) in trips.iter() {
+            out[row] += val * v[col];
+        }
+    }
+
+    fn take_fault(&self) -> Option<OdeError> {
+        let fault = self.fault.borrow_mut().take()?;
+        Some(match fault {
+            Fault::Rhs { x, index } => OdeError::NonFiniteRhs { x, index },
+            Fault::Jac { x, row, col } => OdeError::NonFiniteJacobian { x, row, col },
+            Fault::Index { row, col } => OdeError::JacobianIndexOutOfRange {
+                row,
+                col,
+                dim: self.dim,
+            },
+            Fault::Pattern { x, row, col } => OdeError::SparsityChanged { x, row, col },
+        })
+    }
+}
+
+/// Integrate dy/dx = f(x, y) from x = 0, y = y0 to `x_end` with BDF and the analytic Jacobian,
+/// returning the solution where `out` asks for it.
+pub fn integrate(
+    sys: &dyn OdeSystem,
+    y0: &[f64],
+    x_end: f64,
+    out: &Output,
+    opts: &OdeOptions,
+) -> Result<OdeSolution, OdeError> {
+    validate(sys, y0, x_end, opts)?;
+    if let Output::Points(xs) = out {
+        validate_points(xs, x_end)?;
+    }
+    run(sys, y0, x_end, out, opts, None).map(|(sol, _)| sol)
+}
+
+/// Integrate until g(x, y) crosses zero (e.g. d(F_B)/dV changes sign at the maximum of an
+/// intermediate) or x_end; return the crossing x and y located to solver tolerance, or None.
+///
+/// After each accepted step from x_a to x_b with g(x_a)·g(x_b) < 0 (or g(x_b) = 0) the root is
+/// located on the BDF interpolating polynomial of that step by the Illinois variant of regula
+/// falsi (Dahlquist & Björck, Numerical Methods, from memory) down to a bracket of a few ulps; the
+/// integration stops there. A zero of g at x = 0 itself is not a crossing. The solution holds x = 0
+/// and every accepted step before the crossing, then the crossing point (or x_end).
+#[allow(clippy::type_complexity)] // the signature is the public contract, spelled out
+pub fn integrate_until_root(
+    sys: &dyn OdeSystem,
+    g: &dyn Fn(f64, &[f64]) -> f64,
+    y0: &[f64],
+    x_end: f64,
+    opts: &OdeOptions,
+) -> Result<(OdeSolution, Option<(f64, Vec<f64>)>), OdeError> {
+    validate(sys, y0, x_end, opts)?;
+    run(sys, y0, x_end, &Output::Steps, opts, Some(g))
+}
+
+fn invalid(what: String) -> OdeError {
+    OdeError::InvalidInput { what }
+}
+
+/// Checks done before diffsol sees the problem (diffsol panics or misbehaves on some of these).
+fn validate(
+    sys: &dyn OdeSystem,
+    y0: &[f64],
+    x_end: f64,
+    opts: &OdeOptions,
+) -> Result<(), OdeError> {
+    let n = sys.dim();
+    if n == 0 {
+        return Err(invalid("the system has no states (dim = 0)".into()));
+    }
+    if y0.len() != n {
+        return Err(invalid(format!(
+            "y0 has {} values, the system has {n} states",
+            y0.len()
+        )));
+    }
+    if let Some(i) = y0.iter().position(|v| !v.is_finite()) {
+        return Err(invalid(format!("y0[{i}] = {} is not finite", y0[i])));
+    }
+    if !(x_end.is_finite() && x_end > 0.0) {
+        return Err(invalid(format!("x_end = {x_end} must be finite and > 0")));
+    }
+    if !(opts.rtol.is_finite() && (1e-13..1.0).contains(&opts.rtol)) {
+        return Err(invalid(format!(
+            "rtol = {} must lie in [1e-13, 1)",
+            opts.rtol
+        )));
+    }
+    if opts.atol.len() != n && opts.atol.len() != 1 {
+        return Err(invalid(format!(
+            "atol has {} values; give one per state ({n}) or a single value",
+            opts.atol.len()
+        )));
+    }
+    if let Some(i) = opts.atol.iter().position(|a| !(a.is_finite() && *a > 0.0)) {
+        return Err(invalid(format!(
+            "atol[{i}] = {} must be finite and > 0",
+            opts.atol[i]
+        )));
+    }
+    if opts.max_steps == 0 {
+        return Err(invalid("max_steps must be at least 1".into()));
+    }
+    if let Some(h) = opts.first_step
+        && !(h.is_finite() && h > 0.0 && h <= x_end)
+    {
+        return Err(invalid(format!(
+            "first_step = {h} must be finite and in (0, x_end]"
+        )));
+    }
+    Ok(())
+}
+
+fn validate_points(xs: &[f64], x_end: f64) -> Result<(), OdeError> {
+    if xs.is_empty() {
+        return Err(invalid("Output::Points has no points".into()));
+    }
+    for (i, &x) in xs.iter().enumerate() {
+        if !(x.is_finite() && (0.0..=x_end).contains(&x)) {
+            return Err(invalid(format!(
+                "output point x[{i}] = {x} is outside [0, {x_end}]"
+            )));
+        }
+        if i > 0 && x < xs[i - 1] {
+            return Err(invalid(format!(
+                "output points must not decrease (x[{i}] = {x})"
+            )));
+        }
+    }
+    Ok(())
+}
+
+/// Map a diffsol error at solver position `x` to an [`OdeError`].
+fn map_err(e: DiffsolError, x: f64, max_steps: usize) -> OdeError {
+    match &e {
+        DiffsolError::OdeSolverError(ose) => match ose {
+            OdeSolverError::StepSizeTooSmall { time } => OdeError::StepSizeTooSmall { x: *time },
+            OdeSolverError::TooManyTimesteps { time, .. } => OdeError::MaxSteps {
+                x: *time,
+                max_steps,
+            },
+            OdeSolverError::TooManyNonlinearSolverFailures { time, .. }
+            | OdeSolverError::TooManyErrorTestFailures { time, .. } => {
+                OdeError::ConvergenceFailure {
+                    x: *time,
+                    reason: ose.to_string(),
+                }
+            }
+            _ => OdeError::Solver {
+                x,
+                reason: e.to_string(),
+            },
+        },
+        DiffsolError::NonLinearSolverError(_) => OdeError::ConvergenceFailure {
+            x,
+            reason: e.to_string(),
+        },
+        _ => OdeError::Solver {
+            x,
+            reason: e.to_string(),
+        },
+    }
+}
+
+type RootResult = (OdeSolution, Option<(f64, Vec<f64>)>);
+
+fn run(
+    sys: &dyn OdeSystem,
+    y0: &[f64],
+    x_end: f64,
+    out: &Output,
+    opts: &OdeOptions,
+    g: Option<RootFn>,
+) -> Result<RootResult, OdeError> {
+    let n = sys.dim();
+    let sparse = match opts.linear_algebra {
+        LinearAlgebra::Dense => false,
+        LinearAlgebra::Sparse => true,
+        LinearAlgebra::Auto => n > AUTO_SPARSE_ABOVE,
+    };
+    let sh = Shared::new(sys, sparse);
+    // One body for both matrix types: the closure types are unnameable, so a macro rather than
+    // a generic function carries the builder.
+    macro_rules! solve_with {
+        ($mat:ty, $lu:ty) => {{
+            let fail = |e: DiffsolError| {
+                sh.take_fault()
+                    .unwrap_or_else(|| map_err(e, 0.0, opts.max_steps))
+            };
+            let mut problem = OdeBuilder::<$mat>::new()
+                .rtol(opts.rtol)
+                .atol(opts.atol.iter().copied())
+                .rhs_implicit(
+                    |y: &[f64], _p: &[f64], x: f64, dydx: &mut [f64]| sh.rhs(x, y, dydx),
+                    |y: &[f64], _p: &[f64], x: f64, v: &[f64], jv: &mut [f64]| {
+                        sh.jac_mul(x, y, v, jv)
+                    },
+                )
+                .init(
+                    |_p: &[f64], _x: f64, y: &mut [f64]| y.copy_from_slice(y0),
+                    n,
+                )
+                .build()
+                .map_err(fail)?;
+            if let Some(e) = sh.take_fault() {
+                return Err(e);
+            }
+            problem.ode_options.max_number_timesteps = opts.max_steps;
+            let mut state = problem.bdf_state::<$lu>().map_err(fail)?;
+            if let Some(h) = opts.first_step {
+                *state.as_mut().h = h;
+            }
+            if let Some(e) = sh.take_fault() {
+                return Err(e);
+            }
+            let mut solver = problem.bdf_solver::<$lu>(state).map_err(fail)?;
+            drive(&mut solver, &sh, x_end, out, opts, g)
+        }};
+    }
+    if sparse {
+        solve_with!(FaerSparseMat<f64>, FaerSparseLU<f64>)
+    } else {
+        solve_with!(NalgebraMat<f64>, NalgebraLU<f64>)
+    }
+}
+
+fn check_finite(x: f64, y: &[f64]) -> Result<(), OdeError> {
+    match y.iter().position(|v| !v.is_finite()) {
+        Some(index) => Err(OdeError::NonFiniteState { x, index }),
+        None => Ok(()),
+    }
+}
+
+fn eval_g(g: &dyn Fn(f64, &[f64]) -> f64, x: f64, y: &[f64]) -> Result<f64, OdeError> {
+    let v = g(x, y);
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(OdeError::NonFiniteRoot { x })
+    }
+}
+
+/// The stepping loop shared by the dense and sparse solvers.
+fn drive<'a, Eqn, S>(
+    solver: &mut S,
+    sh: &Shared,
+    x_end: f64,
+    out: &Output,
+    opts: &OdeOptions,
+    g: Option<RootFn>,
+) -> Result<RootResult, OdeError>
+where
+    Eqn: OdeEquations<T = f64> + 'a,
+    S: OdeSolverMethod<'a, Eqn>,
+{
+    let stats = |solver: &S| {
+        let s = solver.get_statistics();
+        OdeStats {
+            steps: s.number_of_steps,
+            rhs_evals: sh.rhs_evals.get(),
+            jac_evals: sh.jac_evals.get(),
+            lu_factorizations: s.number_of_linear_solver_setups,
+        }
+    };
+    let interp = |solver: &S, x: f64| -> Result<Vec<f64>, OdeError> {
+        let y = solver
+            .interpolate(x)
+            .map_err(|e| map_err(e, x, opts.max_steps))?
+            .clone_as_vec();
+        check_finite(x, &y)?;
+        Ok(y)
+    };
+
+    let y0 = solver.state().y.clone_as_vec();
+    let mut xs = Vec::new();
+    let mut ys = Vec::new();
+    let points: &[f64] = match out {
+        Output::Points(p) => p,
+        _ => &[],
+    };
+    let mut next_point = 0;
+    while next_point < points.len() && points[next_point] <= 0.0 {
+        xs.push(points[next_point]);
+        ys.push(y0.clone());
+        next_point += 1;
+    }
+    if matches!(out, Output::Steps) {
+        xs.push(0.0);
+        ys.push(y0.clone());
+    }
+    let mut g_prev = match g {
+        Some(g) => Some(eval_g(g, 0.0, &y0)?),
+        None => None,
+    };
+
+    solver
+        .set_stop_time(x_end)
+        .map_err(|e| map_err(e, 0.0, opts.max_steps))?;
+    let mut x_prev = 0.0;
+    loop {
+        let res = solver.step();
+        if let Some(e) = sh.take_fault() {
+            return Err(e);
+        }
+        let x_now = solver.state().t;
+        let reason = res.map_err(|e| map_err(e, x_now, opts.max_steps))?;
+        let at_end = matches!(reason, OdeSolverStopReason::TstopReached);
+        let y_now = solver.state().y.clone_as_vec();
+        check_finite(x_now, &y_now)?;
+
+        if let (Some(g), Some(ga)) = (g, g_prev) {
+            let gb = eval_g(g, x_now, &y_now)?;
+            if gb == 0.0 || ga * gb < 0.0 {
+                let (xr, yr) = if gb == 0.0 {
+                    (x_now, y_now.clone())
+                } else {
+                    let xr =
+                        illinois(|x| eval_g(g, x, &interp(solver, x)?), x_prev, ga, x_now, gb)?;
+                    (xr, interp(solver, xr)?)
+                };
+                if let Some(e) = sh.take_fault() {
+                    return Err(e);
+                }
+                xs.push(xr);
+                ys.push(yr.clone());
+                let sol = OdeSolution {
+                    x: xs,
+                    y: ys,
+                    stats: stats(solver),
+                };
+                return Ok((sol, Some((xr, yr))));
+            }
+            g_prev = Some(gb);
+        }
+
+        while next_point < points.len() && (points[next_point] <= x_now || at_end) {
+            let xp = points[next_point];
+            let yp = if xp >= x_now {
+                y_now.clone()
+            } else {
+                interp(solver, xp)?
+            };
+            xs.push(xp);
+            ys.push(yp);
+            next_point += 1;
+        }
+        if matches!(out, Output::Steps) || (at_end && matches!(out, Output::End)) {
+            xs.push(x_now);
+            ys.push(y_now);
+        }
+        if at_end {
+            break;
+        }
+        x_prev = x_now;
+    }
+    Ok((
+        OdeSolution {
+            x: xs,
+            y: ys,
+            stats: stats(solver),
+        },
+        None,
+    ))
+}
+
+/// Zero of `f` in [lo, hi] with f(lo)·f(hi) < 0 by the Illinois variant of regula falsi
+/// (Dahlquist & Björck, Numerical Methods, from memory): the secant point of the bracket ends,
+/// with the function value kept at an end that survives twice in a row halved so that the
+/// bracket shrinks from both sides; a bisection step replaces a secant point that falls too
+/// close to an end. Stops when the bracket is a few ulps wide.
+fn illinois(
+    f: impl Fn(f64) -> Result<f64, OdeError>,
+    mut lo: f64,
+    mut flo: f64,
+    mut hi: f64,
+    mut fhi: f64,
+) -> Result<f64, OdeError> {
+    // which end the previous iteration moved: -1 lo, +1 hi, 0 none yet
+    let mut moved = 0i8;
+    for _ in 0..300 {
+        let width = hi - lo;
+        if width <= 4.0 * f64::EPSILON * lo.abs().max(hi.abs()) {
+            break;
+        }
+        let mut c = hi - fhi * width / (fhi - flo);
+        if !(c > lo + 1e-3 * width && c < hi - 1e-3 * width) {
+            c = 0.5 * (lo + hi);
+        }
+        let fc = f(c)?;
+        if fc == 0.0 {
+            return Ok(c);
+        }
+        if (fc < 0.0) == (fhi < 0.0) {
+            hi = c;
+            fhi = fc;
+            if moved == 1 {
+                flo *= 0.5;
+            }
+            moved = 1;
+        } else {
+            lo = c;
+            flo = fc;
+            if moved == -1 {
+                fhi *= 0.5;
+            }
+            moved = -1;
+        }
+    }
+    Ok(0.5 * (lo + hi))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Relative difference |a − b| / |b|.
+    fn rel(a: f64, b: f64) -> f64 {
+        ((a - b) / b).abs()
+    }
+
+    /// First-order chain A → B → C, rates r1 = k1·C_A, r2 = k2·C_B.
+    struct Series {
+        k1: f64,
+        k2: f64,
+    }
+
+    impl OdeSystem for Series {
+        fn dim(&self) -> usize {
+            3
+        }
+        fn rhs(&self, _x: f64, y: &[f64], d: &mut [f64]) {
+            d[0] = -self.k1 * y[0];
+            d[1] = self.k1 * y[0] - self.k2 * y[1];
+            d[2] = self.k2 * y[1];
+        }
+        fn jacobian(&self, _x: f64, _y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+            out.extend([
+                (0, 0, -self.k1),
+                (1, 0, self.k1),
+                (1, 1, -self.k2),
+                (2, 1, self.k2),
+            ]);
+        }
+    }
+
+    /// Bateman closed form for A → B → C from C_A0 = 1 (Levenspiel, Chemical Reaction
+    /// Engineering 3rd ed. ch. 8, from memory): C_A = e^(−k1 x),
+    /// C_B = k1/(k2−k1)(e^(−k1 x) − e^(−k2 x)), C_C = 1 − C_A − C_B.
+    fn bateman(k1: f64, k2: f64, x: f64) -> [f64; 3] {
+        let a = (-k1 * x).exp();
+        let b = k1 / (k2 - k1) * ((-k1 * x).exp() - (-k2 * x).exp());
+        [a, b, 1.0 - a - b]
+    }
+
+    fn tight(n: usize) -> OdeOptions {
+        OdeOptions {
+            rtol: 1e-10,
+            atol: vec![1e-14; n],
+            ..OdeOptions::default()
+        }
+    }
+
+    #[test]
+    fn series_reaction_matches_bateman() {
+        let sys = Series { k1: 1.0, k2: 2.0 };
+        let sol = integrate(&sys, &[1.0, 0.0, 0.0], 3.0, &Output::End, &tight(3)).unwrap();
+        assert_eq!(sol.x, vec![3.0]);
+        let exact = bateman(1.0, 2.0, 3.0);
+        // Levenspiel ch. 8 closed form (from memory), 1e-7 relative
+        for i in 0..3 {
+            assert!(
+                rel(sol.y[0][i], exact[i]) <= 1e-7,
+                "i={i} {:?} vs {exact:?}",
+                sol.y[0]
+            );
+        }
+        assert!(sol.stats.steps > 0 && sol.stats.rhs_evals > 0 && sol.stats.jac_evals > 0);
+        assert!(sol.stats.lu_factorizations > 0);
+    }
+
+    #[test]
+    fn points_output_returns_exactly_those_x() {
+        let sys = Series { k1: 1.0, k2: 2.0 };
+        let xs = vec![0.0, 0.1, 0.1, 0.5, 1.0 / 3.0 + 1.0, 2.9999, 3.0];
+        let sol = integrate(
+            &sys,
+            &[1.0, 0.0, 0.0],
+            3.0,
+            &Output::Points(xs.clone()),
+            &tight(3),
+        )
+        .unwrap();
+        assert_eq!(sol.x, xs);
+        assert_eq!(sol.y.len(), xs.len());
+        for (x, y) in sol.x.iter().zip(&sol.y) {
+            let exact = bateman(1.0, 2.0, *x);
+            // Levenspiel ch. 8 closed form (from memory); interpolated points to 1e-7 absolute
+            for i in 0..3 {
+                assert!((y[i] - exact[i]).abs() <= 1e-7, "x={x} i={i}");
+            }
+        }
+        let Output::Points(even) = Output::evenly_spaced(7, 3.0) else {
+            unreachable!()
+        };
+        assert_eq!(even.len(), 7);
+        assert_eq!((even[0], even[6]), (0.0, 3.0));
+        let sol = integrate(
+            &sys,
+            &[1.0, 0.0, 0.0],
+            3.0,
+            &Output::Points(even.clone()),
+            &tight(3),
+        )
+        .unwrap();
+        assert_eq!(sol.x, even);
+        assert_eq!(sol.y[0], vec![1.0, 0.0, 0.0]);
+    }
+
+    #[test]
+    fn steps_output_is_increasing_and_ends_at_x_end() {
+        let sys = Series { k1: 1.0, k2: 2.0 };
+        let sol = integrate(
+            &sys,
+            &[1.0, 0.0, 0.0],
+            3.0,
+            &Output::Steps,
+            &OdeOptions::default(),
+        )
+        .unwrap();
+        assert_eq!(sol.x[0], 0.0);
+        assert_eq!(*sol.x.last().unwrap(), 3.0);
+        assert!(sol.x.windows(2).all(|w| w[1] > w[0]));
+        assert_eq!(sol.x.len(), sol.stats.steps + 1);
+        for (x, y) in sol.x.iter().zip(&sol.y) {
+            let exact = bateman(1.0, 2.0, *x);
+            // Levenspiel ch. 8 closed form (from memory) at the default rtol 1e-6
+            assert!((y[1] - exact[1]).abs() <= 1e-5, "x={x}");
+        }
+    }
+
+    /// Robertson's chemical kinetics test problem (Hairer & Wanner, Solving ODEs II, the
+    /// chemical kinetics test): y1' = −0.04 y1 + 1e4 y2 y3, y2' = 0.04 y1 − 1e4 y2 y3 − 3e7 y2²,
+    /// y3' = 3e7 y2².
+    struct Robertson;
+
+    impl OdeSystem for Robertson {
+        fn dim(&self) -> usize {
+            3
+        }
+        fn rhs(&self, _x: f64, y: &[f64], d: &mut [f64]) {
+            d[0] = -0.04 * y[0] + 1e4 * y[1] * y[2];
+            d[1] = 0.04 * y[0] - 1e4 * y[1] * y[2] - 3e7 * y[1] * y[1];
+            d[2] = 3e7 * y[1] * y[1];
+        }
+        fn jacobian(&self, _x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+            out.extend([
+                (0, 0, -0.04),
+                (0, 1, 1e4 * y[2]),
+                (0, 2, 1e4 * y[1]),
+                (1, 0, 0.04),
+                (1, 1, -1e4 * y[2] - 6e7 * y[1]),
+                (1, 2, -1e4 * y[1]),
+                // split in two entries on purpose: duplicates must sum
+                (2, 1, 3e7 * y[1]),
+                (2, 1, 3e7 * y[1]),
+            ]);
+        }
+    }
+
+    #[test]
+    fn robertson_at_40() {
+        let opts = OdeOptions {
+            rtol: 1e-10,
+            atol: vec![1e-14, 1e-18, 1e-14],
+            ..OdeOptions::default()
+        };
+        let start = std::time::Instant::now();
+        let sol = integrate(&Robertson, &[1.0, 0.0, 0.0], 40.0, &Output::End, &opts).unwrap();
+        let elapsed = start.elapsed();
+        let y = &sol.y[0];
+        // y1(40) = 0.7158270687 (published reference table, Hairer & Wanner II; from memory)
+        assert!(rel(y[0], 0.7158270687) <= 1e-6, "y1 = {}", y[0]);
+        // y2(40) = 9.185534764e-6, y3(40) = 0.2841637457 (same table, from memory)
+        assert!(rel(y[1], 9.185534764e-6) <= 1e-5, "y2 = {}", y[1]);
+        assert!(rel(y[2], 0.2841637457) <= 1e-5, "y3 = {}", y[2]);
+        // mass conservation: the three rates sum to zero (Hairer & Wanner II)
+        assert!((y[0] + y[1] + y[2] - 1.0).abs() <= 1e-9);
+        eprintln!("Robertson to x=40: {elapsed:?}, y = {y:?}, {:?}", sol.stats);
+    }
+
+    #[test]
+    fn robertson_long_range_is_stiff_stable() {
+        // to x = 4e10 the solution decays to y1 → 0, y3 → 1 (Hairer & Wanner II, the
+        // chemical kinetics test); a non-stiff method would need ~1e12 steps.
+        let opts = OdeOptions {
+            rtol: 1e-8,
+            atol: vec![1e-12, 1e-16, 1e-12],
+            ..OdeOptions::default()
+        };
+        let sol = integrate(&Robertson, &[1.0, 0.0, 0.0], 4e10, &Output::End, &opts).unwrap();
+        let y = &sol.y[0];
+        assert!(sol.stats.steps < 5000, "{:?}", sol.stats);
+        assert!(y[0] < 1e-4 && y[0] >= -1e-10 && y[2] > 0.9999, "{y:?}");
+        assert!((y[0] + y[1] + y[2] - 1.0).abs() <= 1e-9);
+    }
+
+    #[test]
+    fn very_stiff_series_matches_bateman() {
+        // k1 = 1e7, k2 = 1e-3: the rate constant range of real networks; Bateman closed form
+        // (Levenspiel ch. 8, from memory)
+        let sys = Series { k1: 1e7, k2: 1e-3 };
+        let opts = OdeOptions {
+            rtol: 1e-9,
+            atol: vec![1e-14; 3],
+            ..OdeOptions::default()
+        };
+        let xs = vec![1e-7, 1e-6, 1.0, 100.0, 1000.0];
+        let sol = integrate(&sys, &[1.0, 0.0, 0.0], 1000.0, &Output::Points(xs), &opts).unwrap();
+        for (x, y) in sol.x.iter().zip(&sol.y) {
+            let exact = bateman(1e7, 1e-3, *x);
+            assert!(
+                (y[1] - exact[1]).abs() <= 1e-7,
+                "x={x} {} vs {}",
+                y[1],
+                exact[1]
+            );
+            assert!((y[0] - exact[0]).abs() <= 1e-7, "x={x}");
+        }
+        assert!(sol.stats.steps < 2000, "{:?}", sol.stats);
+    }
+
+    #[test]
+    fn root_finds_maximum_of_intermediate() {
+        let sys = Series { k1: 1.0, k2: 2.0 };
+        // g = dC_B/dx, zero at the maximum of C_B
+        let g = |x: f64, y: &[f64]| {
+            let mut d = [0.0; 3];
+            sys.rhs(x, y, &mut d);
+            d[1]
+        };
+        let (sol, root) = integrate_until_root(&sys, &g, &[1.0, 0.0, 0.0], 3.0, &tight(3)).unwrap();
+        let (xr, yr) = root.expect("the maximum of C_B lies inside [0, 3]");
+        // x_max = ln(k2/k1)/(k2 − k1) (Levenspiel ch. 8, from memory)
+        let x_max = (2.0f64).ln() / (2.0 - 1.0);
+        eprintln!(
+            "root: xr - x_max = {:e}, C_B - 1/4 = {:e}",
+            xr - x_max,
+            yr[1] - 0.25
+        );
+        assert!((xr - x_max).abs() <= 1e-8, "xr = {xr}, x_max = {x_max}");
+        // C_B,max = k1/(k2−k1)(e^(−k1 x) − e^(−k2 x)) at x_max = 1/2 − 1/4 (same source)
+        assert!((yr[1] - 0.25).abs() <= 1e-9);
+        assert_eq!(*sol.x.last().unwrap(), xr);
+        assert!(sol.x.iter().all(|&x| x <= xr));
+    }
+
+    #[test]
+    fn root_absent_runs_to_end() {
+        let sys = Series { k1: 1.0, k2: 2.0 };
+        // C_A − 2 never crosses zero from C_A0 = 1
+        let g = |_x: f64, y: &[f64]| y[0] - 2.0;
+        let (sol, root) = integrate_until_root(&sys, &g, &[1.0, 0.0, 0.0], 3.0, &tight(3)).unwrap();
+        assert!(root.is_none());
+        assert_eq!(*sol.x.last().unwrap(), 3.0);
+        let g_nan = |_x: f64, _y: &[f64]| f64::NAN;
+        let err = integrate_until_root(&sys, &g_nan, &[1.0, 0.0, 0.0], 3.0, &tight(3)).unwrap_err();
+        assert!(matches!(err, OdeError::NonFiniteRoot { .. }), "{err}");
+    }
+
+    /// y0' = −y0, y1' = sqrt(y0 − 1/2): NaN as soon as y0 < 1/2, i.e. past x = ln 2.
+    struct SqrtBlowup;
+
+    impl OdeSystem for SqrtBlowup {
+        fn dim(&self) -> usize {
+            2
+        }
+        fn rhs(&self, _x: f64, y: &[f64], d: &mut [f64]) {
+            d[0] = -y[0];
+            d[1] = (y[0] - 0.5).sqrt();
+        }
+        fn jacobian(&self, _x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+            out.push((0, 0, -1.0));
+            out.push((1, 0, 0.5 / (y[0] - 0.5).sqrt()));
+        }
+    }
+
+    #[test]
+    fn nan_rhs_is_an_error() {
+        let err = integrate(
+            &SqrtBlowup,
+            &[1.0, 0.0],
+            2.0,
+            &Output::End,
+            &OdeOptions::default(),
+        )
+        .unwrap_err();
+        match err {
+            // y0 = e^(−x) falls below 1/2 at x = ln 2 ≈ 0.693 (closed form)
+            OdeError::NonFiniteRhs { x, index } => {
+                assert_eq!(index, 1);
+                assert!(x > 0.6 && x < 0.8, "x = {x}");
+            }
+            e => panic!("unexpected {e}"),
+        }
+        // NaN already at the start
+        let err = integrate(
+            &SqrtBlowup,
+            &[0.25, 0.0],
+            2.0,
+            &Output::End,
+            &OdeOptions::default(),
+        )
+        .unwrap_err();
+        assert!(
+            matches!(err, OdeError::NonFiniteRhs { x: 0.0, index: 1 }),
+            "{err}"
+        );
+        assert!(err.to_string().contains("component 1"));
+    }
+
+    struct BadIndex;
+
+    impl OdeSystem for BadIndex {
+        fn dim(&self) -> usize {
+            1
+        }
+        fn rhs(&self, _x: f64, y: &[f64], d: &mut [f64]) {
+            d[0] = -y[0];
+        }
+        fn jacobian(&self, _x: f64, _y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+            out.push((0, 1, -1.0));
+        }
+    }
+
+    #[test]
+    fn bad_jacobian_index_is_an_error() {
+        let err =
+            integrate(&BadIndex, &[1.0], 1.0, &Output::End, &OdeOptions::default()).unwrap_err();
+        assert_eq!(
+            err,
+            OdeError::JacobianIndexOutOfRange {
+                row: 0,
+                col: 1,
+                dim: 1
+            }
+        );
+    }
+
+    /// Finite rhs y' = −y, but a Jacobian entry that is NaN.
+    struct NanJacobian;
+
+    impl OdeSystem for NanJacobian {
+        fn dim(&self) -> usize {
+            1
+        }
+        fn rhs(&self, _x: f64, y: &[f64], d: &mut [f64]) {
+            d[0] = -y[0];
+        }
+        fn jacobian(&self, _x: f64, _y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+            out.push((0, 0, f64::NAN));
+        }
+    }
+
+    #[test]
+    fn nan_jacobian_is_an_error() {
+        for la in [LinearAlgebra::Dense, LinearAlgebra::Sparse] {
+            let opts = OdeOptions {
+                linear_algebra: la,
+                ..OdeOptions::default()
+            };
+            let err = integrate(&NanJacobian, &[1.0], 1.0, &Output::End, &opts).unwrap_err();
+            assert_eq!(
+                err,
+                OdeError::NonFiniteJacobian {
+                    x: 0.0,
+                    row: 0,
+                    col: 0
+                },
+                "{la:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn invalid_input_is_an_error() {
+        let sys = Series { k1: 1.0, k2: 2.0 };
+        let y0 = [1.0, 0.0, 0.0];
+        let o = OdeOptions::default();
+        let bad = |r: Result<OdeSolution, OdeError>| {
+            assert!(matches!(r, Err(OdeError::InvalidInput { .. })), "{r:?}")
+        };
+        bad(integrate(&sys, &y0, 0.0, &Output::End, &o));
+        bad(integrate(&sys, &y0, -1.0, &Output::End, &o));
+        bad(integrate(&sys, &y0, f64::NAN, &Output::End, &o));
+        bad(integrate(&sys, &y0, f64::INFINITY, &Output::End, &o));
+        bad(integrate(
+            &sys,
+            &[1.0, f64::NAN, 0.0],
+            1.0,
+            &Output::End,
+            &o,
+        ));
+        bad(integrate(&sys, &[1.0, 0.0], 1.0, &Output::End, &o));
+        bad(integrate(
+            &sys,
+            &y0,
+            1.0,
+            &Output::End,
+            &OdeOptions {
+                rtol: 0.0,
+                ..o.clone()
+            },
+        ));
+        bad(integrate(
+            &sys,
+            &y0,
+            1.0,
+            &Output::End,
+            &OdeOptions {
+                atol: vec![1e-8; 2],
+                ..o.clone()
+            },
+        ));
+        bad(integrate(
+            &sys,
+            &y0,
+            1.0,
+            &Output::End,
+            &OdeOptions {
+                atol: vec![0.0],
+                ..o.clone()
+            },
+        ));
+        bad(integrate(
+            &sys,
+            &y0,
+            1.0,
+            &Output::End,
+            &OdeOptions {
+                first_step: Some(2.0),
+                ..o.clone()
+            },
+        ));
+        bad(integrate(
+            &sys,
+            &y0,
+            1.0,
+            &Output::Points(vec![0.5, 0.2]),
+            &o,
+        ));
+        bad(integrate(
+            &sys,
+            &y0,
+            1.0,
+            &Output::Points(vec![0.5, 1.5]),
+            &o,
+        ));
+        bad(integrate(&sys, &y0, 1.0, &Output::Points(vec![]), &o));
+        struct Empty;
+        impl OdeSystem for Empty {
+            fn dim(&self) -> usize {
+                0
+            }
+            fn rhs(&self, _x: f64, _y: &[f64], _d: &mut [f64]) {}
+            fn jacobian(&self, _x: f64, _y: &[f64], _o: &mut Vec<(usize, usize, f64)>) {}
+        }
+        bad(integrate(&Empty, &[], 1.0, &Output::End, &o));
+    }
+
+    #[test]
+    fn max_steps_is_an_error() {
+        let opts = OdeOptions {
+            max_steps: 5,
+            ..OdeOptions::default()
+        };
+        let err = integrate(&Robertson, &[1.0, 0.0, 0.0], 40.0, &Output::End, &opts).unwrap_err();
+        assert!(
+            matches!(err, OdeError::MaxSteps { max_steps: 5, .. }),
+            "{err}"
+        );
+    }
+
+    #[test]
+    fn first_step_is_honoured() {
+        let sys = Series { k1: 1.0, k2: 2.0 };
+        let opts = OdeOptions {
+            first_step: Some(1e-9),
+            ..tight(3)
+        };
+        let sol = integrate(&sys, &[1.0, 0.0, 0.0], 3.0, &Output::Steps, &opts).unwrap();
+        assert!((sol.x[1] - 1e-9).abs() <= 1e-15, "x1 = {}", sol.x[1]);
+        let exact = bateman(1.0, 2.0, 3.0);
+        // Levenspiel ch. 8 closed form (from memory)
+        assert!(rel(sol.y.last().unwrap()[1], exact[1]) <= 1e-7);
+    }
+
+    /// Chain A_0 → A_1 → … → A_{n−1} of first-order steps with k_i = 1 + i/10.
+    struct Chain(usize);
+
+    impl Chain {
+        fn k(i: usize) -> f64 {
+            1.0 + i as f64 / 10.0
+        }
+    }
+
+    impl OdeSystem for Chain {
+        fn dim(&self) -> usize {
+            self.0
+        }
+        fn rhs(&self, _x: f64, y: &[f64], d: &mut [f64]) {
+            let n = self.0;
+            for (i, di) in d.iter_mut().enumerate().take(n) {
+                let out = if i + 1 < n { Self::k(i) * y[i] } else { 0.0 };
+                let inp = if i > 0 {
+                    Self::k(i - 1) * y[i - 1]
+                } else {
+                    0.0
+                };
+                *di = inp - out;
+            }
+        }
+        fn jacobian(&self, _x: f64, _y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+            let n = self.0;
+            for i in 0..n - 1 {
+                out.push((i, i, -Self::k(i)));
+                out.push((i + 1, i, Self::k(i)));
+            }
+        }
+    }
+
+    #[test]
+    fn sparse_and_dense_agree_on_long_chain() {
+        let n = 80;
+        let mut y0 = vec![0.0; n];
+        y0[0] = 1.0;
+        let base = OdeOptions {
+            rtol: 1e-9,
+            atol: vec![1e-14],
+            ..OdeOptions::default()
+        };
+        let mut sols = Vec::new();
+        for la in [
+            LinearAlgebra::Dense,
+            LinearAlgebra::Sparse,
+            LinearAlgebra::Auto,
+        ] {
+            let opts = OdeOptions {
+                linear_algebra: la,
+                ..base.clone()
+            };
+            let start = std::time::Instant::now();
+            let sol = integrate(&Chain(n), &y0, 20.0, &Output::End, &opts).unwrap();
+            eprintln!("chain n={n} {la:?}: {:?} {:?}", start.elapsed(), sol.stats);
+            sols.push(sol);
+        }
+        let y = &sols[1].y[0];
+        // first two members: Bateman closed form (Levenspiel ch. 8, from memory)
+        let exact = bateman(Chain::k(0), Chain::k(1), 20.0);
+        assert!((y[0] - exact[0]).abs() <= 1e-12);
+        assert!(rel(y[1], exact[1]) <= 1e-6);
+        // the chain conserves the total amount
+        assert!((y.iter().sum::<f64>() - 1.0).abs() <= 1e-9);
+        for s in &sols[..] {
+            for (i, (a, b)) in s.y[0].iter().zip(y).enumerate() {
+                assert!((a - b).abs() <= 1e-8 * b.abs().max(1e-6), "i={i}");
+            }
+        }
+    }
+
+    /// A Jacobian whose pattern grows after x = 0 (entry (0,1) appears only once y1 > 0).
+    struct Growing;
+
+    impl OdeSystem for Growing {
+        fn dim(&self) -> usize {
+            2
+        }
+        fn rhs(&self, _x: f64, y: &[f64], d: &mut [f64]) {
+            d[0] = -y[0] + 0.1 * y[1];
+            d[1] = y[0] - 0.1 * y[1];
+        }
+        fn jacobian(&self, _x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+            out.extend([(0, 0, -1.0), (1, 0, 1.0)]);
+            if y[1] > 0.0 {
+                out.extend([(0, 1, 0.1), (1, 1, -0.1)]);
+            }
+        }
+    }
+
+    #[test]
+    fn sparse_pattern_change_is_an_error() {
+        let opts = OdeOptions {
+            linear_algebra: LinearAlgebra::Sparse,
+            ..OdeOptions::default()
+        };
+        let err = integrate(&Growing, &[1.0, 0.0], 10.0, &Output::End, &opts).unwrap_err();
+        assert!(
+            matches!(err, OdeError::SparsityChanged { row: 0, col: 1, .. }),
+            "{err}"
+        );
+        // dense copes, and the total is conserved (the two rates cancel)
+        let opts = OdeOptions {
+            linear_algebra: LinearAlgebra::Dense,
+            ..OdeOptions::default()
+        };
+        let sol = integrate(&Growing, &[1.0, 0.0], 10.0, &Output::End, &opts).unwrap();
+        assert!((sol.y[0][0] + sol.y[0][1] - 1.0).abs() <= 1e-9);
+    }
+}

@@ -1,0 +1,93 @@
+//! Helpers shared by the integration tests: run the `rxnet` binary on a study written to a
+//! unique temporary file, and read its exit code, stdout and stderr.
+
+#![allow(dead_code)]
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+/// What one run of the binary gave.
+pub struct Run {
+    pub code: i32,
+    pub stdout: String,
+    pub stderr: String,
+}
+
+impl Run {
+    /// Parse stdout as JSON, failing the test with the run's output when it does not parse.
+    pub fn json(&self) -> serde_json::Value {
+        serde_json::from_str(&self.stdout).unwrap_or_else(|e| {
+            panic!(
+                "stdout is not JSON ({e}):\n{}\nstderr:\n{}",
+                self.stdout, self.stderr
+            )
+        })
+    }
+}
+
+static COUNTER: AtomicUsize = AtomicUsize::new(0);
+
+/// The absolute path of a bundled study in `networks/`.
+pub fn network(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("networks")
+        .join(name)
+}
+
+/// Write `text` to a new file in the system temporary directory; the name is unique per
+/// process, call and time so that parallel tests and parallel test binaries never collide.
+pub fn write_temp(tag: &str, text: &str) -> PathBuf {
+    let n = COUNTER.fetch_add(1, Ordering::SeqCst);
+    let nanos = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_nanos())
+        .unwrap_or(0);
+    let path = std::env::temp_dir().join(format!(
+        "rxnet-test-{}-{tag}-{n}-{nanos}.yaml",
+        std::process::id()
+    ));
+    std::fs::write(&path, text).expect("write a temporary study file");
+    path
+}
+
+/// Run `rxnet` with these arguments.
+pub fn rxnet(args: &[&str]) -> Run {
+    let out = Command::new(env!("CARGO_BIN_EXE_rxnet"))
+        .args(args)
+        .output()
+        .expect("start the rxnet binary");
+    Run {
+        code: out.status.code().unwrap_or(-1),
+        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+    }
+}
+
+/// Run `rxnet COMMAND FILE [--format FORMAT]` on a study given as text; the temporary file
+/// is removed afterwards.
+pub fn run_study(command: &str, tag: &str, yaml: &str, format: &str) -> Run {
+    let path = write_temp(tag, yaml);
+    let p = path.to_str().expect("temporary path is UTF-8");
+    let run = rxnet(&[command, p, "--format", format]);
+    let _ = std::fs::remove_file(&path);
+    run
+}
+
+/// `rxnet check FILE --format json` on a study given as text.
+pub fn check_json(tag: &str, yaml: &str) -> Run {
+    run_study("check", tag, yaml, "json")
+}
+
+/// `rxnet table FILE --format json` on a study given as text.
+pub fn table_json(tag: &str, yaml: &str) -> Run {
+    run_study("table", tag, yaml, "json")
+}
+
+/// 1-based number of the first line of `text` that contains `needle`.
+pub fn line_of(text: &str, needle: &str) -> usize {
+    text.lines()
+        .position(|l| l.contains(needle))
+        .unwrap_or_else(|| panic!("`{needle}` is not in the study text"))
+        + 1
+}
