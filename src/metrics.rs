@@ -3,8 +3,9 @@
 //! Definitions (common practice; textbook notation), with F for flows or N for a batch:
 //! - conversion of the key reactant A: X = (F_A0 − F_A)/F_A0;
 //! - yield of product j on A: Y_j = (F_j − F_j0)/(F_A0 − F_A) · |ν_A|/ν_j, the stoichiometric
-//!   ratio of the one reaction that makes j from A; where no single reaction does (j made in
-//!   series, or by several reactions from A) the ratio is 1 and the yield is on a molar basis;
+//!   ratio of the reaction that makes j, where j is made by that one reaction only and it
+//!   consumes A; otherwise (j made in series, or by several reactions) the ratio is 1 and the
+//!   yield is on a molar basis;
 //! - yield of j on the feed: (F_j − F_j0)/F_A0;
 //! - overall selectivity of the desired D over another product U: S_D/U = (F_D − F_D0)/(F_U − F_U0);
 //! - instantaneous selectivity along the reactor: R_D/R_U, the net rates of formation.
@@ -58,14 +59,12 @@ pub fn products(net: &Network) -> Vec<usize> {
         .collect()
 }
 
-/// The stoichiometric ratio |ν_A|/ν_j of the single reaction that makes j from A, if there is one.
+/// The stoichiometric ratio |ν_A|/ν_j when a single reaction makes j and it consumes A.
 pub fn yield_ratio(net: &Network, j: usize) -> Option<(usize, f64)> {
     let a = net.key;
-    let makers: Vec<usize> = (0..net.reactions.len())
-        .filter(|&i| net.reactions[i].nu(a) < 0.0 && net.reactions[i].nu(j) > 0.0)
-        .collect();
+    let makers: Vec<usize> = (0..net.reactions.len()).filter(|&i| net.reactions[i].nu(j) > 0.0).collect();
     match makers.as_slice() {
-        [i] => {
+        [i] if net.reactions[*i].nu(a) < 0.0 => {
             let r = &net.reactions[*i];
             Some((*i, r.nu(a).abs() / r.nu(j)))
         }

@@ -17,7 +17,7 @@ pub struct TableRow {
     pub theta: Option<f64>,
     /// The reactions that change j, with ν_ij.
     pub change: Vec<Change>,
-    /// The outlet as text, e.g. "F_D0 − ξ_to_mono".
+    /// The outlet as text, e.g. "F_D,0 − ξ_to_mono".
     pub outlet: String,
 }
 

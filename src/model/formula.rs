@@ -13,7 +13,7 @@
 //!
 //! Element symbols are checked against the 118 elements H..Og. A `.` between two digits is
 //! a decimal point (`Fe0.95O`); any other `.` separates an adduct/hydrate, so write
-//! `CuSO4·5H2O` or `CuSO4*5H2O` (in `CuSO4.5H2O` the `4.5` is read as a count).
+//! `CuSO4·5H2O` or `CuSO4*5H2O`; `CuSO4.5H2O` is refused as ambiguous (decimal count or hydrate?).
 //! The multiplier after a separator applies to the whole following part:
 //! `CuSO4·5H2O` = Cu1 S1 O4 + 5 × (H2 O1). Ionic charges (`SO4^2-`, `Na+`) are not
 //! supported.
@@ -51,6 +51,8 @@ pub struct Formula {
 pub enum FormulaError {
     #[error("empty formula; expected e.g. `H2O`, `Ca(OH)2` or `CuSO4·5H2O`")]
     Empty,
+    #[error("ambiguous `{text}`: a decimal count or a hydrate? Write a hydrate as `CuSO4·5H2O` or `CuSO4*5H2O`; a decimal count of 1 or more before another element as a group, e.g. `(Li)1.5Co`")]
+    Ambiguous { text: String },
     #[error("unknown element `{symbol}` at position {pos}{}", hint(.suggestion))]
     UnknownElement {
         symbol: String,
@@ -370,6 +372,23 @@ impl Formula {
             chars: chars[..chars.len() - trail].to_vec(),
             i: lead,
         };
+        // `CuSO4.5H2O`: a dot between digits reads as a decimal count (Fe0.95O), but after a
+        // whole count of 1 or more and before an element it is far more often a hydrate
+        // separator. Refuse the ambiguity rather than guess.
+        for w in 1..p.chars.len().saturating_sub(2) {
+            let c = &p.chars;
+            if c[w] == '.' && c[w - 1].is_ascii_digit() && c[w + 1].is_ascii_digit() {
+                let int_start = (0..w).rev().take_while(|&k| c[k].is_ascii_digit()).last().unwrap_or(w - 1);
+                let whole: String = c[int_start..w].iter().collect();
+                let after = c[w + 1..].iter().find(|ch| !ch.is_ascii_digit());
+                let after_element = int_start > 0 && c[int_start - 1].is_ascii_alphabetic();
+                if after_element && whole.parse::<u64>().map(|v| v >= 1).unwrap_or(false) && after.is_some_and(|ch| ch.is_ascii_uppercase() || *ch == '(' || *ch == '[') {
+                    return Err(FormulaError::Ambiguous {
+                        text: c[int_start..].iter().take(w - int_start + 4).collect(),
+                    });
+                }
+            }
+        }
         let atoms = p.formula()?;
         Ok(Formula { atoms })
     }
@@ -378,7 +397,59 @@ impl Formula {
     pub fn atoms(&self) -> &BTreeMap<String, f64> {
         &self.atoms
     }
+
+    /// Molar mass in kg/mol from standard atomic weights, when every element is in
+    /// [`ATOMIC_WEIGHTS`]; None otherwise (then a study gives `molar_mass` itself).
+    pub fn molar_mass(&self) -> Option<f64> {
+        let mut grams = 0.0;
+        for (el, n) in &self.atoms {
+            let w = ATOMIC_WEIGHTS.iter().find(|(s, _)| s == el)?.1;
+            grams += w * n;
+        }
+        Some(grams * 1e-3)
+    }
 }
+
+/// Standard atomic weights (g/mol) of common elements, abridged conventional values of the
+/// IUPAC Commission on Isotopic Abundances and Atomic Weights (from memory; four to five
+/// significant digits, ample for gas densities in the Ergun equation).
+pub const ATOMIC_WEIGHTS: &[(&str, f64)] = &[
+    ("H", 1.008),
+    ("He", 4.0026),
+    ("Li", 6.94),
+    ("B", 10.81),
+    ("C", 12.011),
+    ("N", 14.007),
+    ("O", 15.999),
+    ("F", 18.998),
+    ("Ne", 20.180),
+    ("Na", 22.990),
+    ("Mg", 24.305),
+    ("Al", 26.982),
+    ("Si", 28.085),
+    ("P", 30.974),
+    ("S", 32.06),
+    ("Cl", 35.45),
+    ("Ar", 39.95),
+    ("K", 39.098),
+    ("Ca", 40.078),
+    ("Ti", 47.867),
+    ("Cr", 51.996),
+    ("Mn", 54.938),
+    ("Fe", 55.845),
+    ("Co", 58.933),
+    ("Ni", 58.693),
+    ("Cu", 63.546),
+    ("Zn", 65.38),
+    ("Br", 79.904),
+    ("Mo", 95.95),
+    ("Pd", 106.42),
+    ("Ag", 107.87),
+    ("Sn", 118.71),
+    ("I", 126.90),
+    ("Xe", 131.29),
+    ("Pt", 195.08),
+];
 
 #[cfg(test)]
 mod tests {
@@ -469,11 +540,17 @@ mod tests {
             "La0.8Sr0.2MnO3",
             &[("La", 0.8), ("Sr", 0.2), ("Mn", 1.0), ("O", 3.0)],
         );
-        // A '.' between digits is a decimal point, as documented.
-        expect(
-            "CuSO4.5H2O",
-            &[("Cu", 1.0), ("S", 1.0), ("O", 5.5), ("H", 2.0)],
-        );
+        // A '.' between a whole count and more digits before an element is ambiguous.
+        assert!(matches!(Formula::parse("CuSO4.5H2O"), Err(FormulaError::Ambiguous { .. })));
+        expect("(Li)1.5Co", &[("Li", 1.5), ("Co", 1.0)]);
+    }
+
+    #[test]
+    fn molar_mass_from_standard_atomic_weights() {
+        // H2O: 2(1.008) + 15.999 = 18.015 g/mol (IUPAC standard atomic weights, from memory).
+        let m = Formula::parse("H2O").unwrap().molar_mass().unwrap();
+        assert!((m - 18.015e-3).abs() < 1e-9);
+        assert!(Formula::parse("Og").unwrap().molar_mass().is_none());
     }
 
     fn err(s: &str) -> FormulaError {

@@ -135,7 +135,14 @@ pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Networ
     }
     let raw: RawStudy = serde_path_to_error::deserialize(value).map_err(|e| {
         let path = serde_path(e.path());
-        let inner = e.into_inner().to_string();
+        let inner = e
+            .into_inner()
+            .to_string()
+            .replace(
+                "expected struct RawStudy",
+                "expected a mapping with the keys species, reactions, feed and reactor",
+            )
+            .replace("struct Raw", "mapping ");
         let hint = unknown_field_hint(&inner);
         cx.err(&path, &strip_location(&inner), hint)
     })?;
@@ -262,7 +269,10 @@ impl Cx {
                     return Err(self.err(
                         field,
                         &format!("the bare number {x} needs a unit: expected {what} in units of {want}"),
-                        Some(format!("write it with its unit, e.g. \"{x} {example}\"")),
+                        Some(format!(
+                            "write it with its unit, e.g. \"{x} {}\"",
+                            example.split_once(' ').map(|(_, u)| u).unwrap_or(example)
+                        )),
                     ));
                 }
                 (*x, Dim::NONE)
@@ -336,7 +346,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
             })?),
         };
         let molar_mass = match sp.and_then(|s| s.molar_mass.as_ref()) {
-            None => None,
+            None => formula.as_ref().and_then(|f| f.molar_mass()),
             Some(q) => {
                 let f = format!("{field}.molar_mass");
                 let m = cx.qty(&f, q, Dim::MASS.div(Dim::AMOUNT), "a molar mass", "28.0 g/mol")?;
@@ -816,7 +826,7 @@ fn build_reaction(
     let base = format!("reactions[{i}]");
     let fid = format!("{base}.id");
     if !valid_name(&rr.id) {
-        return Err(cx.err(&fid, &format!("`{}` is not a valid reaction id", rr.id), Some("letters, digits and `_`, starting with a letter".into())));
+        return Err(cx.err(&fid, &format!("`{}` is not a valid reaction id", rr.id), Some("a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`".into())));
     }
     let fs = format!("{base}.stoich");
     let eq = parse_equation(&rr.stoich, &|s| index.contains_key(s))

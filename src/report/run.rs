@@ -123,7 +123,7 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     let _ = writeln!(o, "{}", r.study);
     let _ = writeln!(
         o,
-        "{} ({}), {}, T = {} K, P_in = {} bar{}",
+        "{} ({}), {}, T = {} K{}{}",
         r.reactor.to_uppercase(),
         match r.phase {
             crate::model::Phase::Gas => "gas",
@@ -131,7 +131,11 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         },
         size_text(r),
         num(r.temperature),
-        num(r.inlet_pressure / 1e5),
+        if r.phase == crate::model::Phase::Gas {
+            format!(", P_in = {} bar", num(r.inlet_pressure / 1e5))
+        } else {
+            String::new()
+        },
         if (r.outlet_pressure - r.inlet_pressure).abs() > 0.0 {
             format!(", P_out = {} bar", num(r.outlet_pressure / 1e5))
         } else {
