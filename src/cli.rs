@@ -2,7 +2,7 @@
 
 use clap::{Parser, Subcommand, ValueEnum};
 use rxnet::solve::{self, Points, SolveOptions};
-use rxnet::{analysis, load_file, metrics, reactor, report, Override};
+use rxnet::{Override, analysis, load_file, metrics, reactor, report};
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -12,7 +12,11 @@ pub const EXIT_INVALID: i32 = 2;
 pub const EXIT_FINDINGS: i32 = 1;
 
 #[derive(Parser)]
-#[command(name = "rxnet", version, about = "Check, simulate, size and screen reactors for multiple-reaction networks")]
+#[command(
+    name = "rxnet",
+    version,
+    about = "Check, simulate, size and screen reactors for multiple-reaction networks"
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -152,11 +156,7 @@ fn check(file: &std::path::Path, format: Format, set: &[Override]) -> i32 {
         Format::Json => json(&c),
     };
     emit(&text);
-    if c.has_errors() {
-        EXIT_FINDINGS
-    } else {
-        0
-    }
+    if c.has_errors() { EXIT_FINDINGS } else { 0 }
 }
 
 /// `rxnet table FILE`.
@@ -189,8 +189,14 @@ struct RunArgs {
 /// Write a file atomically: a temporary file beside it, then a rename, so an interrupted run
 /// never leaves a half-written file that looks complete.
 fn write_atomic(path: &std::path::Path, text: &str) -> std::io::Result<()> {
-    let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(std::path::Path::new("."));
-    let name = path.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(std::path::Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
     let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
     std::fs::write(&tmp, text)?;
     std::fs::rename(&tmp, path).inspect_err(|_| {
@@ -200,14 +206,18 @@ fn write_atomic(path: &std::path::Path, text: &str) -> std::io::Result<()> {
 
 fn check_tolerance(name: &str, v: Option<f64>, upper: f64) -> Result<(), String> {
     match v {
-        Some(x) if !(x > 0.0 && x < upper) => Err(format!("--{name} must be a positive number below {upper}, got {x}")),
+        Some(x) if !(x > 0.0 && x < upper) => Err(format!(
+            "--{name} must be a positive number below {upper}, got {x}"
+        )),
         _ => Ok(()),
     }
 }
 
 /// `rxnet run FILE`: exit 0 on success, 1 when the solve fails, 2 for invalid input.
 fn run(a: &RunArgs) -> i32 {
-    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0).and_then(|_| check_tolerance("atol", a.atol, f64::INFINITY)) {
+    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0)
+        .and_then(|_| check_tolerance("atol", a.atol, f64::INFINITY))
+    {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
@@ -223,13 +233,21 @@ fn run(a: &RunArgs) -> i32 {
     };
     let analysis = analysis::check(&net);
     if analysis.has_errors() {
-        eprintln!("error: {}: the network has error findings; run `rxnet check` on it:", a.file.display());
-        for f in analysis.findings.iter().filter(|f| f.severity == analysis::Severity::Error) {
+        eprintln!(
+            "error: {}: the network has error findings; run `rxnet check` on it:",
+            a.file.display()
+        );
+        for f in analysis
+            .findings
+            .iter()
+            .filter(|f| f.severity == analysis::Severity::Error)
+        {
             eprintln!("  {}", f.message);
         }
         return EXIT_FINDINGS;
     }
-    let want_profile = a.profile.is_some() || a.format == RunFormat::Csv || a.points.is_some() || a.steps;
+    let want_profile =
+        a.profile.is_some() || a.format == RunFormat::Csv || a.points.is_some() || a.steps;
     let points = if a.steps {
         Points::Steps
     } else if want_profile {
@@ -258,7 +276,13 @@ fn run(a: &RunArgs) -> i32 {
         }
     };
     let m = metrics::compute(&net, sim.outlet());
-    let rep = report::run::build(&net, &balance, &sim, &m, want_profile && a.format == RunFormat::Json);
+    let rep = report::run::build(
+        &net,
+        &balance,
+        &sim,
+        &m,
+        want_profile && a.format == RunFormat::Json,
+    );
     if let Some(path) = &a.profile {
         if let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim)) {
             eprintln!("error: cannot write {}: {e}", path.display());

@@ -817,12 +817,18 @@ mod tests {
         eprintln!("lns {:?}", t.elapsed());
         let t = std::time::Instant::now();
         let ns = null_space(&m);
-        eprintln!("ns {:?} maxbits {}", t.elapsed(), ns.iter().flatten().map(|x| x.bits()).max().unwrap_or(0));
+        eprintln!(
+            "ns {:?} maxbits {}",
+            t.elapsed(),
+            ns.iter().flatten().map(|x| x.bits()).max().unwrap_or(0)
+        );
         let t = std::time::Instant::now();
         let _ = column_dependence(&m);
         eprintln!("dep {:?}", t.elapsed());
         let t = std::time::Instant::now();
-        for x in &ns { assert!(mul_vec(&m, x).iter().all(Zero::is_zero)); }
+        for x in &ns {
+            assert!(mul_vec(&m, x).iter().all(Zero::is_zero));
+        }
         eprintln!("check {:?}", t.elapsed());
         assert_eq!(r, species - 1);
         assert_eq!(rank(&m.transpose()), r);

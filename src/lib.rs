@@ -13,4 +13,4 @@ pub mod report;
 pub mod solve;
 pub mod units;
 
-pub use model::{load_file, load_str, LoadError, Network, Override};
+pub use model::{LoadError, Network, Override, load_file, load_str};

@@ -62,7 +62,9 @@ pub fn products(net: &Network) -> Vec<usize> {
 /// The stoichiometric ratio |ν_A|/ν_j when a single reaction makes j and it consumes A.
 pub fn yield_ratio(net: &Network, j: usize) -> Option<(usize, f64)> {
     let a = net.key;
-    let makers: Vec<usize> = (0..net.reactions.len()).filter(|&i| net.reactions[i].nu(j) > 0.0).collect();
+    let makers: Vec<usize> = (0..net.reactions.len())
+        .filter(|&i| net.reactions[i].nu(j) > 0.0)
+        .collect();
     match makers.as_slice() {
         [i] if net.reactions[*i].nu(a) < 0.0 => {
             let r = &net.reactions[*i];
@@ -83,7 +85,11 @@ pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
     let a = net.key;
     let total = net.feed.total();
     let consumed = f0[a] - outlet[a];
-    let conversion = if f0[a] > 0.0 { consumed / f0[a] } else { f64::NAN };
+    let conversion = if f0[a] > 0.0 {
+        consumed / f0[a]
+    } else {
+        f64::NAN
+    };
     let yields = products(net)
         .into_iter()
         .map(|j| {
@@ -139,8 +145,19 @@ pub fn element_closure(net: &Network, state: &[f64]) -> Vec<Closure> {
     elements
         .into_iter()
         .map(|e| {
-            let count = |j: usize| net.species[j].formula.as_ref().expect("checked").atoms().get(e).copied().unwrap_or(0.0);
-            let inn: f64 = (0..state.len()).map(|j| count(j) * net.feed.amounts[j]).sum();
+            let count = |j: usize| {
+                net.species[j]
+                    .formula
+                    .as_ref()
+                    .expect("checked")
+                    .atoms()
+                    .get(e)
+                    .copied()
+                    .unwrap_or(0.0)
+            };
+            let inn: f64 = (0..state.len())
+                .map(|j| count(j) * net.feed.amounts[j])
+                .sum();
             let out: f64 = (0..state.len()).map(|j| count(j) * state[j]).sum();
             let scale = inn.abs().max(1e-300);
             Closure {
@@ -166,7 +183,13 @@ pub fn instantaneous_selectivity(
     }
     let mut r = Vec::new();
     balance.reaction_rates(&y, &mut r);
-    let formation = |j: usize| -> f64 { net.reactions.iter().zip(&r).map(|(rx, ri)| rx.nu(j) * ri).sum() };
+    let formation = |j: usize| -> f64 {
+        net.reactions
+            .iter()
+            .zip(&r)
+            .map(|(rx, ri)| rx.nu(j) * ri)
+            .sum()
+    };
     let rd = formation(d);
     products(net)
         .into_iter()

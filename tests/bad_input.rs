@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{line_of, run_study, rxnet, Run};
+use common::{Run, line_of, run_study, rxnet};
 
 /// A valid liquid-phase study; every bad study below is this one with one fault.
 const BASE: &str = "name: base study (demo values)

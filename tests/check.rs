@@ -501,9 +501,11 @@ fn wegscheider_is_checked_at_the_feed_temperature_not_at_t_ref() {
     assert!(findings.iter().any(|f| f["severity"] == "error"
         && f["message"].as_str().unwrap().contains("direct")
         && f["message"].as_str().unwrap().contains("900.00 K")));
-    assert!(findings
-        .iter()
-        .any(|f| f["severity"] == "warning" && f["message"].as_str().unwrap().contains("Hess")));
+    assert!(
+        findings
+            .iter()
+            .any(|f| f["severity"] == "warning" && f["message"].as_str().unwrap().contains("Hess"))
+    );
 
     // The converse: K_direct at 800 K chosen so that the three agree at 900 K. The check
     // passes (K's disagree at 800 K only), and the Hess's-law warning remains.
@@ -520,11 +522,13 @@ fn wegscheider_is_checked_at_the_feed_temperature_not_at_t_ref() {
     assert_eq!(run.code, 0, "{}\n{}", run.stderr, run.stdout);
     let v = run.json();
     assert_eq!(cycle(&v)["consistent"], true);
-    assert!(v["findings"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .any(|f| f["severity"] == "warning" && f["message"].as_str().unwrap().contains("Hess")));
+    assert!(
+        v["findings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .any(|f| f["severity"] == "warning" && f["message"].as_str().unwrap().contains("Hess"))
+    );
 }
 
 // ---------------------------------------------------------------------------------------

@@ -4,7 +4,7 @@
 //! With an element matrix A (elements x species) of rank r, at most (species − r) reactions can
 //! be independent (Denbigh, The Principles of Chemical Equilibrium; from memory).
 
-use crate::exact::{rank, rational_from_decimal, rational_from_f64, to_f64, QMatrix, Q};
+use crate::exact::{Q, QMatrix, rank, rational_from_decimal, rational_from_f64, to_f64};
 use crate::model::Network;
 use num_traits::Zero;
 use std::collections::BTreeMap;
@@ -98,7 +98,10 @@ pub fn element_matrix(net: &Network) -> ElementMatrix {
         .collect();
     let m = QMatrix::from_fn(elements.len(), with.len(), |e, c| {
         let f = net.species[with[c]].formula.as_ref().expect("filtered");
-        f.atoms().get(&elements[e]).map(|n| exact_count(*n)).unwrap_or_else(Q::zero)
+        f.atoms()
+            .get(&elements[e])
+            .map(|n| exact_count(*n))
+            .unwrap_or_else(Q::zero)
     });
     let r = rank(&m);
     let bound = (with.len() == net.species.len()).then(|| net.species.len() - r);

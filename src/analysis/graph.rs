@@ -13,8 +13,8 @@
 //! reported.
 
 use crate::model::Network;
-use petgraph::graph::{DiGraph, NodeIndex};
 use petgraph::Direction;
+use petgraph::graph::{DiGraph, NodeIndex};
 use serde::Serialize;
 
 /// How a pair of reactions is related.
@@ -137,14 +137,16 @@ pub fn analyse(net: &Network) -> GraphReport {
             let forward = r.reactants.iter().all(|t| present[t.species])
                 && r.rate.orders.iter().all(|&(j, a)| a <= 0.0 || present[j])
                 && r.rate.k_ref > 0.0;
-            let backward = r.reversible && r.products.iter().all(|t| present[t.species]) && r.rate.k_ref > 0.0;
+            let backward =
+                r.reversible && r.products.iter().all(|t| present[t.species]) && r.rate.k_ref > 0.0;
             if forward || backward {
                 runs[i] = true;
                 changed = true;
                 for t in r.products.iter().chain(r.reactants.iter()) {
                     // A reaction that runs either way can make what stands on the other side;
                     // forward makes products, backward reactants.
-                    let makes = (forward && r.has_product(t.species)) || (backward && r.has_reactant(t.species));
+                    let makes = (forward && r.has_product(t.species))
+                        || (backward && r.has_reactant(t.species));
                     if makes && !present[t.species] {
                         present[t.species] = true;
                     }
@@ -155,7 +157,11 @@ pub fn analyse(net: &Network) -> GraphReport {
             break;
         }
     }
-    let involved = |j: usize| net.reactions.iter().any(|r| r.has_reactant(j) || r.has_product(j));
+    let involved = |j: usize| {
+        net.reactions
+            .iter()
+            .any(|r| r.has_reactant(j) || r.has_product(j))
+    };
     GraphReport {
         pairs,
         intermediates,

@@ -112,7 +112,11 @@ fn combination_text(net: &Network, d: &stoich::Dependent) -> String {
         let id = &net.reactions[*i].id;
         let mag = c.abs();
         let sign = if c.is_negative() { "−" } else { "+" };
-        let body = if mag.is_one() { id.clone() } else { format!("{} {id}", fmt_coef(&mag)) };
+        let body = if mag.is_one() {
+            id.clone()
+        } else {
+            format!("{} {id}", fmt_coef(&mag))
+        };
         if n == 0 {
             if c.is_negative() {
                 s.push_str(&format!(" −{body}"));
@@ -144,10 +148,18 @@ pub fn check(net: &Network) -> Check {
             let names: Vec<String> = b.missing_formula.iter().map(|&j| sp(j)).collect();
             add(
                 Severity::Info,
-                format!("atom balance of `{}` not checked: no formula for {}", r.id, names.join(", ")),
+                format!(
+                    "atom balance of `{}` not checked: no formula for {}",
+                    r.id,
+                    names.join(", ")
+                ),
             );
         } else if !b.balanced {
-            let parts: Vec<String> = b.imbalance.iter().map(|(e, n)| format!("{e} {n:+}")).collect();
+            let parts: Vec<String> = b
+                .imbalance
+                .iter()
+                .map(|(e, n)| format!("{e} {n:+}"))
+                .collect();
             add(
                 Severity::Error,
                 format!(
@@ -190,7 +202,11 @@ pub fn check(net: &Network) -> Check {
     }
     for c in &cycles {
         if !c.consistent {
-            let d = st.dependent.iter().find(|d| d.reaction == c.reaction).expect("checked");
+            let d = st
+                .dependent
+                .iter()
+                .find(|d| d.reaction == c.reaction)
+                .expect("checked");
             add(
                 Severity::Error,
                 format!(
@@ -219,19 +235,34 @@ pub fn check(net: &Network) -> Check {
     }
     // Species usage.
     for (j, s) in net.species.iter().enumerate() {
-        let in_any = net.reactions.iter().any(|r| r.has_reactant(j) || r.has_product(j));
+        let in_any = net
+            .reactions
+            .iter()
+            .any(|r| r.has_reactant(j) || r.has_product(j));
         let fed = net.feed.amounts[j] > 0.0;
         if !in_any && !fed {
             add(
                 Severity::Warning,
-                format!("species `{}` is in no reaction and not fed: it plays no part", s.name),
+                format!(
+                    "species `{}` is in no reaction and not fed: it plays no part",
+                    s.name
+                ),
             );
         } else if !in_any && fed {
-            add(Severity::Info, format!("species `{}` is fed and in no reaction: treated as an inert", s.name));
+            add(
+                Severity::Info,
+                format!(
+                    "species `{}` is fed and in no reaction: treated as an inert",
+                    s.name
+                ),
+            );
         } else if fed && !net.reactions.iter().any(|r| r.nu(j) < 0.0) {
             add(
                 Severity::Info,
-                format!("fed species `{}` is consumed by no reaction (only made, or a catalyst)", s.name),
+                format!(
+                    "fed species `{}` is consumed by no reaction (only made, or a catalyst)",
+                    s.name
+                ),
             );
         }
     }
@@ -248,23 +279,38 @@ pub fn check(net: &Network) -> Check {
     if net.feed.amounts[key] <= 0.0 {
         add(
             Severity::Error,
-            format!("key species `{}` is not fed: conversion (F_A0 − F_A)/F_A0 is undefined", sp(key)),
+            format!(
+                "key species `{}` is not fed: conversion (F_A0 − F_A)/F_A0 is undefined",
+                sp(key)
+            ),
         );
     }
     if let Some(d) = net.desired {
         if !net.reactions.iter().any(|r| r.nu(d) > 0.0) {
-            add(Severity::Error, format!("desired product `{}` is made by no reaction", sp(d)));
+            add(
+                Severity::Error,
+                format!("desired product `{}` is made by no reaction", sp(d)),
+            );
         }
     }
     for &j in &gr.unreachable_species {
-        add(Severity::Warning, format!("species `{}` can never form from this feed", sp(j)));
+        add(
+            Severity::Warning,
+            format!("species `{}` can never form from this feed", sp(j)),
+        );
     }
     for &i in &gr.dead_reactions {
-        add(Severity::Warning, format!("reaction `{}` can never run from this feed", rx(i)));
+        add(
+            Severity::Warning,
+            format!("reaction `{}` can never run from this feed", rx(i)),
+        );
     }
     for r in &net.reactions {
         if r.rate.k_ref == 0.0 {
-            add(Severity::Warning, format!("reaction `{}` has k = 0: it never runs", r.id));
+            add(
+                Severity::Warning,
+                format!("reaction `{}` has k = 0: it never runs", r.id),
+            );
         }
     }
     if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
@@ -288,7 +334,11 @@ pub fn check(net: &Network) -> Check {
             .iter()
             .map(|d| DependentOut {
                 reaction: rx(d.reaction),
-                combination: d.combination.iter().map(|(i, c)| (rx(*i), to_f64(c))).collect(),
+                combination: d
+                    .combination
+                    .iter()
+                    .map(|(i, c)| (rx(*i), to_f64(c)))
+                    .collect(),
                 text: combination_text(net, d),
             })
             .collect(),

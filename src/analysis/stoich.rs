@@ -6,7 +6,7 @@
 //! null space {y : yᵀν = 0}: every such y is a combination of species amounts that no reaction
 //! changes (element balances are among them).
 
-use crate::exact::{column_dependence, left_null_space, QMatrix, Q};
+use crate::exact::{Q, QMatrix, column_dependence, left_null_space};
 use crate::model::Network;
 use num_bigint::BigInt;
 use num_traits::Zero;
@@ -49,7 +49,10 @@ pub fn analyse(net: &Network) -> Stoichiometry {
         .into_iter()
         .map(|(reaction, combination)| Dependent {
             reaction,
-            combination: combination.into_iter().filter(|(_, c)| !c.is_zero()).collect(),
+            combination: combination
+                .into_iter()
+                .filter(|(_, c)| !c.is_zero())
+                .collect(),
         })
         .collect();
     Stoichiometry {

@@ -128,7 +128,11 @@ pub fn build(net: &Network) -> StoichTable {
                 id: r.id.clone(),
                 mole_change: r.mole_change(),
                 delta,
-                epsilon: if net.phase == Phase::Gas { delta.map(|d| y_a0 * d) } else { None },
+                epsilon: if net.phase == Phase::Gas {
+                    delta.map(|d| y_a0 * d)
+                } else {
+                    None
+                },
                 limiting,
                 unfed_reactants,
             }
@@ -141,7 +145,11 @@ pub fn build(net: &Network) -> StoichTable {
         }
     }
     StoichTable {
-        basis: if batch { "moles (batch charge)" } else { "molar flows" },
+        basis: if batch {
+            "moles (batch charge)"
+        } else {
+            "molar flows"
+        },
         unit: if batch { "mol" } else { "mol/s" },
         key: net.species[a].name.clone(),
         key_is_default: net.key_is_default,

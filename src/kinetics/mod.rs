@@ -78,7 +78,10 @@ fn product(factors: &[Factor], c: &[f64], grad: Option<(&mut [(usize, f64)], f64
         }
         &vals[..factors.len()]
     } else {
-        big = factors.iter().map(|f| power(c[f.species], f.exponent)).collect();
+        big = factors
+            .iter()
+            .map(|f| power(c[f.species], f.exponent))
+            .collect();
         &big
     };
     let total: f64 = pv.iter().map(|(v, _)| v).product();
@@ -205,7 +208,11 @@ impl RateSet {
         let mut num = product(&law.forward, c, g.as_deref_mut().map(|g| (&mut g[..], 1.0)));
         if let Some((k_eq_ref, dh, factors)) = &law.reverse {
             let k_eq = arrhenius(*k_eq_ref, *dh, law.t_ref, t);
-            num -= product(factors, c, g.as_deref_mut().map(|g| (&mut g[..], -1.0 / k_eq))) / k_eq;
+            num -= product(
+                factors,
+                c,
+                g.as_deref_mut().map(|g| (&mut g[..], -1.0 / k_eq)),
+            ) / k_eq;
         }
         match &law.denominator {
             None => {
@@ -269,7 +276,10 @@ mod tests {
                 cm[j] -= h;
                 let fd = (rs.eval(i, t, &cp, None) - rs.eval(i, t, &cm, None)) / (2.0 * h);
                 let scale = d.abs().max(fd.abs()).max(1e-12);
-                assert!((d - fd).abs() / scale < 1e-6, "reaction {i} species {j}: analytic {d} vs fd {fd}");
+                assert!(
+                    (d - fd).abs() / scale < 1e-6,
+                    "reaction {i} species {j}: analytic {d} vs fd {fd}"
+                );
             }
         }
     }
@@ -301,7 +311,8 @@ mod tests {
     #[test]
     fn arrhenius_doubles_as_expected() {
         // k(T)/k(T_ref) = exp(−Ea/R (1/T − 1/T_ref)) (Arrhenius; R from CODATA 2018).
-        let net = study("  - {id: r, stoich: A -> B, rate: {k: 1 1/s, Ea: 50 kJ/mol, T_ref: 300 K}}");
+        let net =
+            study("  - {id: r, stoich: A -> B, rate: {k: 1 1/s, Ea: 50 kJ/mol, T_ref: 300 K}}");
         let rs = RateSet::new(&net);
         let r = rs.eval(0, 310.0, &[1.0, 0.0, 0.0, 0.0], None);
         let expect = (-50_000.0_f64 / 8.314_462_618 * (1.0 / 310.0 - 1.0 / 300.0)).exp();

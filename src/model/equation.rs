@@ -52,7 +52,9 @@ pub enum EquationError {
     BadTerm(String),
     #[error("coefficient `{0}` must be a finite positive decimal number")]
     BadCoefficient(String),
-    #[error("`{0}` is not a valid species name (a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`)")]
+    #[error(
+        "`{0}` is not a valid species name (a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`)"
+    )]
     BadName(String),
     #[error("the equation has no net change: every species cancels")]
     NoNetChange,
@@ -248,7 +250,10 @@ mod tests {
     fn species_on_both_sides_nets_out() {
         let e = parse_equation("2 B -> B + C", &none).unwrap();
         let net = e.net();
-        assert_eq!(net[0], ("B".to_string(), BigRational::from_integer((-1).into())));
+        assert_eq!(
+            net[0],
+            ("B".to_string(), BigRational::from_integer((-1).into()))
+        );
     }
 
     #[test]

@@ -3,8 +3,8 @@
 //! Every key is documented in docs/network-format.md.
 
 use indexmap::IndexMap;
-use serde::de::{self, Deserializer, Visitor};
 use serde::Deserialize;
+use serde::de::{self, Deserializer, Visitor};
 use std::fmt;
 
 /// A quantity as written: a bare number or a string "number unit".

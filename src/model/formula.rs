@@ -51,7 +51,9 @@ pub struct Formula {
 pub enum FormulaError {
     #[error("empty formula; expected e.g. `H2O`, `Ca(OH)2` or `CuSO4·5H2O`")]
     Empty,
-    #[error("ambiguous `{text}`: a decimal count or a hydrate? Write a hydrate as `CuSO4·5H2O` or `CuSO4*5H2O`; a decimal count of 1 or more before another element as a group, e.g. `(Li)1.5Co`")]
+    #[error(
+        "ambiguous `{text}`: a decimal count or a hydrate? Write a hydrate as `CuSO4·5H2O` or `CuSO4*5H2O`; a decimal count of 1 or more before another element as a group, e.g. `(Li)1.5Co`"
+    )]
     Ambiguous { text: String },
     #[error("unknown element `{symbol}` at position {pos}{}", hint(.suggestion))]
     UnknownElement {
@@ -378,11 +380,18 @@ impl Formula {
         for w in 1..p.chars.len().saturating_sub(2) {
             let c = &p.chars;
             if c[w] == '.' && c[w - 1].is_ascii_digit() && c[w + 1].is_ascii_digit() {
-                let int_start = (0..w).rev().take_while(|&k| c[k].is_ascii_digit()).last().unwrap_or(w - 1);
+                let int_start = (0..w)
+                    .rev()
+                    .take_while(|&k| c[k].is_ascii_digit())
+                    .last()
+                    .unwrap_or(w - 1);
                 let whole: String = c[int_start..w].iter().collect();
                 let after = c[w + 1..].iter().find(|ch| !ch.is_ascii_digit());
                 let after_element = int_start > 0 && c[int_start - 1].is_ascii_alphabetic();
-                if after_element && whole.parse::<u64>().map(|v| v >= 1).unwrap_or(false) && after.is_some_and(|ch| ch.is_ascii_uppercase() || *ch == '(' || *ch == '[') {
+                if after_element
+                    && whole.parse::<u64>().map(|v| v >= 1).unwrap_or(false)
+                    && after.is_some_and(|ch| ch.is_ascii_uppercase() || *ch == '(' || *ch == '[')
+                {
                     return Err(FormulaError::Ambiguous {
                         text: c[int_start..].iter().take(w - int_start + 4).collect(),
                     });
@@ -541,7 +550,10 @@ mod tests {
             &[("La", 0.8), ("Sr", 0.2), ("Mn", 1.0), ("O", 3.0)],
         );
         // A '.' between a whole count and more digits before an element is ambiguous.
-        assert!(matches!(Formula::parse("CuSO4.5H2O"), Err(FormulaError::Ambiguous { .. })));
+        assert!(matches!(
+            Formula::parse("CuSO4.5H2O"),
+            Err(FormulaError::Ambiguous { .. })
+        ));
         expect("(Li)1.5Co", &[("Li", 1.5), ("Co", 1.0)]);
     }
 

@@ -8,7 +8,7 @@ use super::file::*;
 use super::formula::Formula;
 use super::locate::{Locator, Position};
 use super::*;
-use crate::units::{parse_quantity, Dim, GAS_CONSTANT};
+use crate::units::{Dim, GAS_CONSTANT, parse_quantity};
 use indexmap::IndexMap;
 use std::fmt;
 
@@ -122,7 +122,11 @@ pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Networ
         }
     })?;
     if value.is_null() {
-        return Err(cx.err("", "the file is empty; a study needs species, reactions, feed and reactor", None));
+        return Err(cx.err(
+            "",
+            "the file is empty; a study needs species, reactions, feed and reactor",
+            None,
+        ));
     }
     for o in overrides {
         apply_override(&mut value, o).map_err(|m| LoadError {
@@ -176,10 +180,12 @@ fn unknown_field_hint(msg: &str) -> Option<String> {
 
 fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), String> {
     use serde_yaml::Value;
-    let new: Value =
-        serde_yaml::from_str(&o.value).map_err(|e| format!("the value is not a YAML scalar: {e}"))?;
+    let new: Value = serde_yaml::from_str(&o.value)
+        .map_err(|e| format!("the value is not a YAML scalar: {e}"))?;
     if new.is_mapping() || new.is_sequence() {
-        return Err("only a scalar can be set (a number, a word or a quantity such as \"2 mol/s\")".into());
+        return Err(
+            "only a scalar can be set (a number, a word or a quantity such as \"2 mol/s\")".into(),
+        );
     }
     let segs: Vec<&str> = o.path.split('.').collect();
     let mut cur = root;
@@ -189,8 +195,25 @@ fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), Stri
             Value::Mapping(m) => {
                 let key = Value::String(seg.to_string());
                 if !m.contains_key(&key) {
-                    if last || matches!(*seg, "rate" | "feed" | "reactor" | "solver" | "pressure_drop" | "orders" | "flows" | "concentrations" | "amounts") {
-                        let fresh = if last { Value::Null } else { Value::Mapping(Default::default()) };
+                    if last
+                        || matches!(
+                            *seg,
+                            "rate"
+                                | "feed"
+                                | "reactor"
+                                | "solver"
+                                | "pressure_drop"
+                                | "orders"
+                                | "flows"
+                                | "concentrations"
+                                | "amounts"
+                        )
+                    {
+                        let fresh = if last {
+                            Value::Null
+                        } else {
+                            Value::Mapping(Default::default())
+                        };
                         m.insert(key.clone(), fresh);
                     } else {
                         return Err(format!("no field `{seg}` here"));
@@ -201,7 +224,9 @@ fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), Stri
             Value::Sequence(items) => {
                 let idx = match seg.parse::<usize>() {
                     Ok(i) if i < items.len() => i,
-                    Ok(i) => return Err(format!("index {i} is past the end ({} items)", items.len())),
+                    Ok(i) => {
+                        return Err(format!("index {i} is past the end ({} items)", items.len()));
+                    }
                     Err(_) => items
                         .iter()
                         .position(|it| it.get("id").and_then(|v| v.as_str()) == Some(seg))
@@ -220,7 +245,11 @@ fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), Stri
 pub(crate) fn closest<'a>(name: &str, cands: impl Iterator<Item = &'a str>) -> Option<&'a str> {
     let mut best: Option<(usize, &str)> = None;
     for c in cands {
-        let d = if c.eq_ignore_ascii_case(name) { 0 } else { levenshtein(name, c) };
+        let d = if c.eq_ignore_ascii_case(name) {
+            0
+        } else {
+            levenshtein(name, c)
+        };
         if d <= 2 && d < name.len().max(1) && best.is_none_or(|(bd, _)| d < bd) {
             best = Some((d, c));
         }
@@ -262,13 +291,22 @@ impl Cx {
 
     /// Convert a quantity to SI, checking its dimensions. `what` describes the expected
     /// quantity for the message ("a molar flow", "a rate constant").
-    fn qty(&self, field: &str, q: &RawQty, want: Dim, what: &str, example: &str) -> Result<f64, LoadError> {
+    fn qty(
+        &self,
+        field: &str,
+        q: &RawQty,
+        want: Dim,
+        what: &str,
+        example: &str,
+    ) -> Result<f64, LoadError> {
         let (si, dim) = match q {
             RawQty::Number(x) => {
                 if !want.approx_eq(Dim::NONE) {
                     return Err(self.err(
                         field,
-                        &format!("the bare number {x} needs a unit: expected {what} in units of {want}"),
+                        &format!(
+                            "the bare number {x} needs a unit: expected {what} in units of {want}"
+                        ),
                         Some(format!(
                             "write it with its unit, e.g. \"{x} {}\"",
                             example.split_once(' ').map(|(_, u)| u).unwrap_or(example)
@@ -305,7 +343,12 @@ impl Cx {
         }
     }
 
-    fn species(&self, field: &str, name: &str, index: &IndexMap<String, usize>) -> Result<usize, LoadError> {
+    fn species(
+        &self,
+        field: &str,
+        name: &str,
+        index: &IndexMap<String, usize>,
+    ) -> Result<usize, LoadError> {
         index.get(name).copied().ok_or_else(|| {
             let hint = closest(name, index.keys().map(|s| s.as_str()))
                 .map(|c| format!("did you mean `{c}`?"))
@@ -335,21 +378,33 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
             return Err(cx.err(
                 &field,
                 &format!("`{name}` is not a valid species name"),
-                Some("a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`".into()),
+                Some(
+                    "a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`".into(),
+                ),
             ));
         }
         let sp = sp.as_ref();
         let formula = match sp.and_then(|s| s.formula.as_deref()) {
             None => None,
             Some(f) => Some(Formula::parse(f).map_err(|e| {
-                cx.err(&format!("{field}.formula"), &format!("bad formula `{f}`: {e}"), None)
+                cx.err(
+                    &format!("{field}.formula"),
+                    &format!("bad formula `{f}`: {e}"),
+                    None,
+                )
             })?),
         };
         let molar_mass = match sp.and_then(|s| s.molar_mass.as_ref()) {
             None => formula.as_ref().and_then(|f| f.molar_mass()),
             Some(q) => {
                 let f = format!("{field}.molar_mass");
-                let m = cx.qty(&f, q, Dim::MASS.div(Dim::AMOUNT), "a molar mass", "28.0 g/mol")?;
+                let m = cx.qty(
+                    &f,
+                    q,
+                    Dim::MASS.div(Dim::AMOUNT),
+                    "a molar mass",
+                    "28.0 g/mol",
+                )?;
                 Some(cx.positive(&f, m, "a molar mass")?)
             }
         };
@@ -370,7 +425,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
                 "phase",
                 "missing field `phase`",
                 Some("write `phase: liquid` or `phase: gas`".into()),
-            ))
+            ));
         }
     };
 
@@ -395,7 +450,10 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         if let Some(prev) = reactions.iter().find(|p| p.id == r.id) {
             return Err(cx.err(
                 &format!("reactions[{i}].id"),
-                &format!("duplicate reaction id `{}` (already used by `{}`)", r.id, prev.equation),
+                &format!(
+                    "duplicate reaction id `{}` (already used by `{}`)",
+                    r.id, prev.equation
+                ),
                 Some("give each reaction its own id".into()),
             ));
         }
@@ -443,7 +501,12 @@ fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Reactor, LoadE
             Some(what.to_string()),
         )
     };
-    let size = |field: &str, q: &Option<RawQty>, want: Dim, what: &str, ex: &str| -> Result<f64, LoadError> {
+    let size = |field: &str,
+                q: &Option<RawQty>,
+                want: Dim,
+                what: &str,
+                ex: &str|
+     -> Result<f64, LoadError> {
         let f = format!("reactor.{field}");
         match q {
             None => Err(cx.err(
@@ -459,32 +522,65 @@ fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Reactor, LoadE
     };
     if r.kind != RawReactorType::Pbr {
         if r.catalyst.is_some() {
-            return Err(not_for("catalyst", "catalyst mass sizes a packed bed (type: pbr)"));
+            return Err(not_for(
+                "catalyst",
+                "catalyst mass sizes a packed bed (type: pbr)",
+            ));
         }
         if r.pressure_drop.is_some() {
-            return Err(not_for("pressure_drop", "pressure drop is modelled for a packed bed (type: pbr)"));
+            return Err(not_for(
+                "pressure_drop",
+                "pressure drop is modelled for a packed bed (type: pbr)",
+            ));
         }
     }
     if r.kind != RawReactorType::Batch {
         if r.time.is_some() {
-            return Err(not_for("time", "a flow reactor is sized by volume or catalyst; `time` is for type: batch"));
+            return Err(not_for(
+                "time",
+                "a flow reactor is sized by volume or catalyst; `time` is for type: batch",
+            ));
         }
         if r.mode.is_some() {
-            return Err(not_for("mode", "`mode` (constant_volume or constant_pressure) is for type: batch"));
+            return Err(not_for(
+                "mode",
+                "`mode` (constant_volume or constant_pressure) is for type: batch",
+            ));
         }
     }
     Ok(match r.kind {
         RawReactorType::Pfr => Reactor::Pfr {
-            volume: size("volume", &r.volume, Dim::volume(), "reactor volume", "1.2 m3")?,
+            volume: size(
+                "volume",
+                &r.volume,
+                Dim::volume(),
+                "reactor volume",
+                "1.2 m3",
+            )?,
         },
         RawReactorType::Cstr => Reactor::Cstr {
-            volume: size("volume", &r.volume, Dim::volume(), "reactor volume", "1.2 m3")?,
+            volume: size(
+                "volume",
+                &r.volume,
+                Dim::volume(),
+                "reactor volume",
+                "1.2 m3",
+            )?,
         },
         RawReactorType::Pbr => {
             if r.volume.is_some() {
-                return Err(not_for("volume", "a packed bed is sized by its catalyst mass: `catalyst: 300 kg`"));
+                return Err(not_for(
+                    "volume",
+                    "a packed bed is sized by its catalyst mass: `catalyst: 300 kg`",
+                ));
             }
-            let catalyst = size("catalyst", &r.catalyst, Dim::MASS, "catalyst mass", "300 kg")?;
+            let catalyst = size(
+                "catalyst",
+                &r.catalyst,
+                Dim::MASS,
+                "catalyst mass",
+                "300 kg",
+            )?;
             let pressure_drop = match &r.pressure_drop {
                 None => None,
                 Some(pd) => Some(build_pressure_drop(pd, phase, cx)?),
@@ -510,14 +606,24 @@ fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Reactor, LoadE
             let volume = match (&r.volume, mode) {
                 // A constant-pressure gas batch gets its initial volume from the charge.
                 (None, BatchMode::ConstantPressure) => 0.0,
-                _ => size("volume", &r.volume, Dim::volume(), "reactor volume", "1.2 m3")?,
+                _ => size(
+                    "volume",
+                    &r.volume,
+                    Dim::volume(),
+                    "reactor volume",
+                    "1.2 m3",
+                )?,
             };
             Reactor::Batch { volume, time, mode }
         }
     })
 }
 
-fn build_pressure_drop(pd: &RawPressureDrop, phase: Phase, cx: &Cx) -> Result<PressureDrop, LoadError> {
+fn build_pressure_drop(
+    pd: &RawPressureDrop,
+    phase: Phase,
+    cx: &Cx,
+) -> Result<PressureDrop, LoadError> {
     let f = |k: &str| format!("reactor.pressure_drop.{k}");
     if phase == Phase::Liquid {
         return Err(cx.err(
@@ -539,27 +645,48 @@ fn build_pressure_drop(pd: &RawPressureDrop, phase: Phase, cx: &Cx) -> Result<Pr
                 None,
             ));
         }
-        let alpha = cx.qty(&f("alpha"), a, Dim::MASS.powf(-1.0), "a bed constant α", "0.002 1/kg")?;
+        let alpha = cx.qty(
+            &f("alpha"),
+            a,
+            Dim::MASS.powf(-1.0),
+            "a bed constant α",
+            "0.002 1/kg",
+        )?;
         if !(alpha >= 0.0) {
             return Err(cx.err(&f("alpha"), "α must be zero or positive", None));
         }
         return Ok(PressureDrop::Lumped { alpha });
     }
-    let need = |k: &str, q: &Option<RawQty>, want: Dim, what: &str, ex: &str| -> Result<f64, LoadError> {
-        match q {
-            None => Err(cx.err(
-                "reactor.pressure_drop",
-                &format!("the Ergun equation needs `{k}` ({what})"),
-                Some(format!("e.g. `{k}: {ex}`, or give the lumped constant `alpha: 0.002 1/kg`")),
-            )),
-            Some(q) => {
-                let v = cx.qty(&f(k), q, want, what, ex)?;
-                cx.positive(&f(k), v, what)
+    let need =
+        |k: &str, q: &Option<RawQty>, want: Dim, what: &str, ex: &str| -> Result<f64, LoadError> {
+            match q {
+                None => Err(cx.err(
+                    "reactor.pressure_drop",
+                    &format!("the Ergun equation needs `{k}` ({what})"),
+                    Some(format!(
+                        "e.g. `{k}: {ex}`, or give the lumped constant `alpha: 0.002 1/kg`"
+                    )),
+                )),
+                Some(q) => {
+                    let v = cx.qty(&f(k), q, want, what, ex)?;
+                    cx.positive(&f(k), v, what)
+                }
             }
-        }
-    };
-    let particle_diameter = need("particle_diameter", &pd.particle_diameter, Dim::LENGTH, "particle diameter", "3 mm")?;
-    let cross_section = need("cross_section", &pd.cross_section, Dim::LENGTH.powf(2.0), "bed cross-section", "0.01 m2")?;
+        };
+    let particle_diameter = need(
+        "particle_diameter",
+        &pd.particle_diameter,
+        Dim::LENGTH,
+        "particle diameter",
+        "3 mm",
+    )?;
+    let cross_section = need(
+        "cross_section",
+        &pd.cross_section,
+        Dim::LENGTH.powf(2.0),
+        "bed cross-section",
+        "0.01 m2",
+    )?;
     let viscosity = need(
         "viscosity",
         &pd.viscosity,
@@ -574,19 +701,22 @@ fn build_pressure_drop(pd: &RawPressureDrop, phase: Phase, cx: &Cx) -> Result<Pr
         "catalyst solid density",
         "2000 kg/m3",
     )?;
-    let void_fraction = match pd.void_fraction {
-        None => {
-            return Err(cx.err(
+    let void_fraction =
+        match pd.void_fraction {
+            None => return Err(cx.err(
                 "reactor.pressure_drop",
                 "the Ergun equation needs `void_fraction` (bed porosity, a number between 0 and 1)",
                 None,
-            ))
-        }
-        Some(v) if v > 0.0 && v < 1.0 => v,
-        Some(v) => {
-            return Err(cx.err(&f("void_fraction"), &format!("void fraction must lie strictly between 0 and 1, got {v}"), None))
-        }
-    };
+            )),
+            Some(v) if v > 0.0 && v < 1.0 => v,
+            Some(v) => {
+                return Err(cx.err(
+                    &f("void_fraction"),
+                    &format!("void fraction must lie strictly between 0 and 1, got {v}"),
+                    None,
+                ));
+            }
+        };
     Ok(PressureDrop::Ergun {
         particle_diameter,
         void_fraction,
@@ -612,7 +742,11 @@ fn species_map(
         let j = cx.species(&f, name, index)?;
         let v = cx.qty(&f, q, want, what, ex)?;
         if v < 0.0 {
-            return Err(cx.err(&f, &format!("{what} cannot be negative, got {v} (SI)"), None));
+            return Err(cx.err(
+                &f,
+                &format!("{what} cannot be negative, got {v} (SI)"),
+                None,
+            ));
         }
         out[j] = v;
     }
@@ -657,7 +791,9 @@ fn build_feed(
                 None,
             ));
         }
-        let Reactor::Batch { volume, mode, .. } = reactor else { unreachable!("batch checked above") };
+        let Reactor::Batch { volume, mode, .. } = reactor else {
+            unreachable!("batch checked above")
+        };
         let amounts = match (&f.amounts, &f.concentrations) {
             (Some(_), Some(_)) => {
                 return Err(cx.err("feed", "give the charge as `amounts` or as `concentrations`, not both", None))
@@ -684,11 +820,19 @@ fn build_feed(
         };
         let total: f64 = amounts.iter().sum();
         if !(total > 0.0) {
-            return Err(cx.err("feed", "the charge is empty: at least one species needs a positive amount", None));
+            return Err(cx.err(
+                "feed",
+                "the charge is empty: at least one species needs a positive amount",
+                None,
+            ));
         }
         let v0 = if gas {
             let p = pressure.ok_or_else(|| {
-                cx.err("feed", "a gas-phase study needs the feed pressure `P`", Some("e.g. `P: 2 bar`".into()))
+                cx.err(
+                    "feed",
+                    "a gas-phase study needs the feed pressure `P`",
+                    Some("e.g. `P: 2 bar`".into()),
+                )
             })?;
             let v_ideal = total * GAS_CONSTANT * temperature / p;
             if *mode == BatchMode::ConstantPressure && *volume == 0.0 {
@@ -720,31 +864,55 @@ fn build_feed(
         }
         match (&f.flows, &f.concentrations) {
             (Some(_), Some(_)) => {
-                return Err(cx.err("feed", "give the feed as `flows` or as `volumetric` with `concentrations`, not both", None))
-            }
-            (None, None) => {
                 return Err(cx.err(
                     "feed",
-                    "the feed needs `flows` (e.g. {A: 2 mol/s}) or `volumetric` with `concentrations`",
+                    "give the feed as `flows` or as `volumetric` with `concentrations`, not both",
                     None,
-                ))
+                ));
             }
+            (None, None) => return Err(cx.err(
+                "feed",
+                "the feed needs `flows` (e.g. {A: 2 mol/s}) or `volumetric` with `concentrations`",
+                None,
+            )),
             (Some(fl), None) => {
-                let amounts = species_map("feed.flows", fl, index, Dim::AMOUNT.div(Dim::TIME), "a molar flow", "2 mol/s", cx)?;
+                let amounts = species_map(
+                    "feed.flows",
+                    fl,
+                    index,
+                    Dim::AMOUNT.div(Dim::TIME),
+                    "a molar flow",
+                    "2 mol/s",
+                    cx,
+                )?;
                 let total: f64 = amounts.iter().sum();
                 if !(total > 0.0) {
-                    return Err(cx.err("feed.flows", "the feed is empty: at least one species needs a positive flow", None));
+                    return Err(cx.err(
+                        "feed.flows",
+                        "the feed is empty: at least one species needs a positive flow",
+                        None,
+                    ));
                 }
                 let given = match &f.volumetric {
                     Some(q) => {
-                        let v = cx.qty("feed.volumetric", q, Dim::volume().div(Dim::TIME), "a volumetric flow", "50 L/min")?;
+                        let v = cx.qty(
+                            "feed.volumetric",
+                            q,
+                            Dim::volume().div(Dim::TIME),
+                            "a volumetric flow",
+                            "50 L/min",
+                        )?;
                         Some(cx.positive("feed.volumetric", v, "the volumetric flow")?)
                     }
                     None => None,
                 };
                 let v0 = if gas {
                     let p = pressure.ok_or_else(|| {
-                        cx.err("feed", "a gas-phase study needs the feed pressure `P`", Some("e.g. `P: 2 bar`".into()))
+                        cx.err(
+                            "feed",
+                            "a gas-phase study needs the feed pressure `P`",
+                            Some("e.g. `P: 2 bar`".into()),
+                        )
                     })?;
                     let v_ideal = total * GAS_CONSTANT * temperature / p;
                     if let Some(v) = given {
@@ -782,14 +950,30 @@ fn build_feed(
                         ))
                     }
                 };
-                let cs = species_map("feed.concentrations", c, index, conc(), "a concentration", "1 mol/L", cx)?;
+                let cs = species_map(
+                    "feed.concentrations",
+                    c,
+                    index,
+                    conc(),
+                    "a concentration",
+                    "1 mol/L",
+                    cx,
+                )?;
                 let amounts: Vec<f64> = cs.iter().map(|c| c * v0).collect();
                 if !(amounts.iter().sum::<f64>() > 0.0) {
-                    return Err(cx.err("feed.concentrations", "the feed is empty: at least one species needs a positive concentration", None));
+                    return Err(cx.err(
+                        "feed.concentrations",
+                        "the feed is empty: at least one species needs a positive concentration",
+                        None,
+                    ));
                 }
                 if gas {
                     let ct = c_total_ideal.ok_or_else(|| {
-                        cx.err("feed", "a gas-phase study needs the feed pressure `P`", Some("e.g. `P: 2 bar`".into()))
+                        cx.err(
+                            "feed",
+                            "a gas-phase study needs the feed pressure `P`",
+                            Some("e.g. `P: 2 bar`".into()),
+                        )
                     })?;
                     let sum: f64 = cs.iter().sum();
                     if (sum - ct).abs() / ct > IDEAL_GAS_CONSISTENCY {
@@ -805,7 +989,11 @@ fn build_feed(
         }
     };
     if gas && pressure.is_none() {
-        return Err(cx.err("feed", "a gas-phase study needs the feed pressure `P`", Some("e.g. `P: 2 bar`".into())));
+        return Err(cx.err(
+            "feed",
+            "a gas-phase study needs the feed pressure `P`",
+            Some("e.g. `P: 2 bar`".into()),
+        ));
     }
     Ok(Feed {
         temperature,
@@ -826,7 +1014,11 @@ fn build_reaction(
     let base = format!("reactions[{i}]");
     let fid = format!("{base}.id");
     if !valid_name(&rr.id) {
-        return Err(cx.err(&fid, &format!("`{}` is not a valid reaction id", rr.id), Some("a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`".into())));
+        return Err(cx.err(
+            &fid,
+            &format!("`{}` is not a valid reaction id", rr.id),
+            Some("a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`".into()),
+        ));
     }
     let fs = format!("{base}.stoich");
     let eq = parse_equation(&rr.stoich, &|s| index.contains_key(s))
@@ -848,7 +1040,10 @@ fn build_reaction(
         }
     }
     net_exact.sort_by_key(|(j, _)| *j);
-    let net: Vec<(usize, f64)> = net_exact.iter().map(|(j, c)| (*j, crate::exact::to_f64(c))).collect();
+    let net: Vec<(usize, f64)> = net_exact
+        .iter()
+        .map(|(j, c)| (*j, crate::exact::to_f64(c)))
+        .collect();
     let sum_nu: f64 = net.iter().map(|(_, v)| v).sum();
 
     // --- rate law
@@ -872,7 +1067,11 @@ fn build_reaction(
                 let f = format!("{fr}.orders.{name}");
                 let j = cx.species(&f, name, index)?;
                 if !a.is_finite() || a.abs() > 20.0 {
-                    return Err(cx.err(&f, &format!("order {a} is out of range (|order| ≤ 20)"), None));
+                    return Err(cx.err(
+                        &f,
+                        &format!("order {a} is out of range (|order| ≤ 20)"),
+                        None,
+                    ));
                 }
                 if *a != 0.0 {
                     o.push((j, *a));
@@ -885,23 +1084,41 @@ fn build_reaction(
     // Volumetric rate r [mol m^-3 s^-1] = k Π C^a  =>  [k] = (mol/m3)^(1−n) / s.
     // Per catalyst mass r' [mol kg^-1 s^-1]      =>  [k] = mol kg^-1 s^-1 (mol/m3)^(−n).
     let (k_dim, k_example) = match basis {
-        RateBasis::Volume => (conc().powf(1.0 - n_total).div(Dim::TIME), volumetric_example(n_total)),
+        RateBasis::Volume => (
+            conc().powf(1.0 - n_total).div(Dim::TIME),
+            volumetric_example(n_total),
+        ),
         RateBasis::CatalystMass => (
-            Dim::AMOUNT.div(Dim::MASS).div(Dim::TIME).mul(conc().powf(-n_total)),
+            Dim::AMOUNT
+                .div(Dim::MASS)
+                .div(Dim::TIME)
+                .mul(conc().powf(-n_total)),
             catalytic_example(n_total),
         ),
     };
     let what = match basis {
         RateBasis::Volume => format!("a rate constant for total order {n_total} per unit volume"),
-        RateBasis::CatalystMass => format!("a rate constant for total order {n_total} per unit catalyst mass"),
+        RateBasis::CatalystMass => {
+            format!("a rate constant for total order {n_total} per unit catalyst mass")
+        }
     };
     let k_ref = cx.qty(&format!("{fr}.k"), &rate.k, k_dim, &what, &k_example)?;
     if k_ref < 0.0 {
-        return Err(cx.err(&format!("{fr}.k"), "a rate constant cannot be negative", None));
+        return Err(cx.err(
+            &format!("{fr}.k"),
+            "a rate constant cannot be negative",
+            None,
+        ));
     }
     let ea = match &rate.Ea {
         None => 0.0,
-        Some(q) => cx.qty(&format!("{fr}.Ea"), q, molar_energy(), "an activation energy", "38 kJ/mol")?,
+        Some(q) => cx.qty(
+            &format!("{fr}.Ea"),
+            q,
+            molar_energy(),
+            "an activation energy",
+            "38 kJ/mol",
+        )?,
     };
     let t_ref = match &rate.T_ref {
         None => t_feed,
@@ -913,7 +1130,13 @@ fn build_reaction(
     };
     let dh = match &rate.dH {
         None => None,
-        Some(q) => Some(cx.qty(&format!("{fr}.dH"), q, molar_energy(), "a heat of reaction", "-120 kJ/mol")?),
+        Some(q) => Some(cx.qty(
+            &format!("{fr}.dH"),
+            q,
+            molar_energy(),
+            "a heat of reaction",
+            "-120 kJ/mol",
+        )?),
     };
     let equilibrium = match (&rate.K_eq, eq.reversible) {
         (Some(_), false) => {
@@ -965,21 +1188,50 @@ fn build_reaction(
                 let species = cx.species(&fa, name, index)?;
                 let order = a.order.unwrap_or(1.0);
                 if !order.is_finite() || order <= 0.0 || order > 20.0 {
-                    return Err(cx.err(&format!("{fa}.order"), &format!("adsorption order must be in (0, 20], got {order}"), None));
+                    return Err(cx.err(
+                        &format!("{fa}.order"),
+                        &format!("adsorption order must be in (0, 20], got {order}"),
+                        None,
+                    ));
                 }
-                let k = cx.qty(&format!("{fa}.K"), &a.K, conc().powf(-order), "an adsorption constant", "0.5 m3/mol")?;
+                let k = cx.qty(
+                    &format!("{fa}.K"),
+                    &a.K,
+                    conc().powf(-order),
+                    "an adsorption constant",
+                    "0.5 m3/mol",
+                )?;
                 if k < 0.0 {
-                    return Err(cx.err(&format!("{fa}.K"), "an adsorption constant cannot be negative", None));
+                    return Err(cx.err(
+                        &format!("{fa}.K"),
+                        "an adsorption constant cannot be negative",
+                        None,
+                    ));
                 }
                 let dh = match &a.dH {
                     None => 0.0,
-                    Some(q) => cx.qty(&format!("{fa}.dH"), q, molar_energy(), "a heat of adsorption", "-20 kJ/mol")?,
+                    Some(q) => cx.qty(
+                        &format!("{fa}.dH"),
+                        q,
+                        molar_energy(),
+                        "a heat of adsorption",
+                        "-20 kJ/mol",
+                    )?,
                 };
-                adsorption.push(Adsorption { species, k_ref: k, order, dh });
+                adsorption.push(Adsorption {
+                    species,
+                    k_ref: k,
+                    order,
+                    dh,
+                });
             }
             let power = rate.inhibition_power.unwrap_or(1.0);
             if !power.is_finite() || power <= 0.0 || power > 10.0 {
-                return Err(cx.err(&format!("{fr}.inhibition_power"), &format!("must be in (0, 10], got {power}"), None));
+                return Err(cx.err(
+                    &format!("{fr}.inhibition_power"),
+                    &format!("must be in (0, 10], got {power}"),
+                    None,
+                ));
             }
             RateForm::Hyperbolic { adsorption, power }
         }
@@ -1048,12 +1300,24 @@ fn default_key(reactions: &[Reaction], feed: &Feed, cx: &Cx) -> Result<usize, Lo
     ))
 }
 
-fn build_solver(s: Option<&RawSolver>, reactor: &Reactor, cx: &Cx) -> Result<SolverSettings, LoadError> {
-    let Some(s) = s else { return Ok(SolverSettings::default()) };
+fn build_solver(
+    s: Option<&RawSolver>,
+    reactor: &Reactor,
+    cx: &Cx,
+) -> Result<SolverSettings, LoadError> {
+    let Some(s) = s else {
+        return Ok(SolverSettings::default());
+    };
     let rtol = match s.rtol {
         None => None,
         Some(r) if r > 0.0 && r < 1.0 => Some(r),
-        Some(r) => return Err(cx.err("solver.rtol", &format!("rtol must lie in (0, 1), got {r}"), None)),
+        Some(r) => {
+            return Err(cx.err(
+                "solver.rtol",
+                &format!("rtol must lie in (0, 1), got {r}"),
+                None,
+            ));
+        }
     };
     let atol = match &s.atol {
         None => None,
@@ -1063,7 +1327,13 @@ fn build_solver(s: Option<&RawSolver>, reactor: &Reactor, cx: &Cx) -> Result<Sol
             } else {
                 (Dim::AMOUNT.div(Dim::TIME), "1e-10 mol/s")
             };
-            let v = cx.qty("solver.atol", q, want, "an absolute tolerance on the state", ex)?;
+            let v = cx.qty(
+                "solver.atol",
+                q,
+                want,
+                "an absolute tolerance on the state",
+                ex,
+            )?;
             Some(cx.positive("solver.atol", v, "atol")?)
         }
     };
@@ -1071,7 +1341,11 @@ fn build_solver(s: Option<&RawSolver>, reactor: &Reactor, cx: &Cx) -> Result<Sol
         Some(0) => return Err(cx.err("solver.max_steps", "max_steps must be at least 1", None)),
         m => m,
     };
-    Ok(SolverSettings { rtol, atol, max_steps })
+    Ok(SolverSettings {
+        rtol,
+        atol,
+        max_steps,
+    })
 }
 
 #[cfg(test)]

@@ -24,14 +24,8 @@ pub struct Locator {
 }
 
 enum Frame {
-    Map {
-        path: String,
-        key: Option<String>,
-    },
-    Seq {
-        path: String,
-        index: usize,
-    },
+    Map { path: String, key: Option<String> },
+    Seq { path: String, index: usize },
 }
 
 struct Builder {
@@ -54,10 +48,7 @@ impl Builder {
         match self.stack.last() {
             None => Some(String::new()),
             Some(Frame::Map { key: None, .. }) => None,
-            Some(Frame::Map {
-                path,
-                key: Some(k),
-            }) => Some(join(path, k)),
+            Some(Frame::Map { path, key: Some(k) }) => Some(join(path, k)),
             Some(Frame::Seq { path, index }) => Some(format!("{path}[{index}]")),
         }
     }

@@ -11,7 +11,7 @@ pub mod formula;
 mod load;
 pub mod locate;
 
-pub use load::{load_file, load_str, LoadError, Override};
+pub use load::{LoadError, Override, load_file, load_str};
 
 use formula::Formula;
 use num_rational::BigRational;

@@ -79,7 +79,8 @@ pub fn ergun_alpha(net: &Network, pd: &PressureDrop) -> Option<f64> {
             let mean_m = mass_flow / feed.total();
             let rho0 = feed.pressure * mean_m / (GAS_CONSTANT * feed.temperature);
             let g = mass_flow / ac;
-            let beta0 = g * (1.0 - phi) / (rho0 * dp * phi.powi(3)) * (150.0 * (1.0 - phi) * mu / dp + 1.75 * g);
+            let beta0 = g * (1.0 - phi) / (rho0 * dp * phi.powi(3))
+                * (150.0 * (1.0 - phi) * mu / dp + 1.75 * g);
             Some(2.0 * beta0 / (ac * (1.0 - phi) * rho_c * feed.pressure))
         }
     }
@@ -135,7 +136,11 @@ impl Balance {
                 None,
             ),
         };
-        let mut reactive: Vec<usize> = net.reactions.iter().flat_map(|r| r.net.iter().map(|(j, _)| *j)).collect();
+        let mut reactive: Vec<usize> = net
+            .reactions
+            .iter()
+            .flat_map(|r| r.net.iter().map(|(j, _)| *j))
+            .collect();
         reactive.sort_unstable();
         reactive.dedup();
         Ok(Balance {
@@ -308,7 +313,11 @@ mod tests {
             for r in 0..n {
                 let fd = (fp[r] - fm[r]) / (2.0 * h);
                 let scale = fd.abs().max(j[r][k].abs()).max(1e-10);
-                assert!((fd - j[r][k]).abs() / scale < 1e-5, "J[{r}][{k}] = {} vs fd {fd}", j[r][k]);
+                assert!(
+                    (fd - j[r][k]).abs() / scale < 1e-5,
+                    "J[{r}][{k}] = {} vs fd {fd}",
+                    j[r][k]
+                );
             }
         }
     }
@@ -320,10 +329,30 @@ mod tests {
     #[test]
     fn jacobians_match_finite_differences() {
         let y = [0.8, 0.5, 0.3, 0.2, 0.1, 0.4];
-        fd_check(&format!("{SPECIES}phase: liquid\n{REACTIONS}feed: {{T: 300 K, volumetric: 2 L/s, flows: {{A: 1 mol/s, B: 1 mol/s}}}}\nreactor: {{type: pfr, volume: 1 m3}}\n"), &y);
-        fd_check(&format!("{SPECIES}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor: {{type: cstr, volume: 1 m3}}\n"), &y);
-        fd_check(&format!("{SPECIES}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, amounts: {{A: 1 mol, B: 1 mol, I: 1 mol}}}}\nreactor: {{type: batch, time: 1 h, mode: constant_pressure}}\n"), &y);
-        fd_check(&format!("{SPECIES}phase: liquid\n{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor: {{type: batch, time: 1 h, volume: 3 L}}\n"), &y);
+        fd_check(
+            &format!(
+                "{SPECIES}phase: liquid\n{REACTIONS}feed: {{T: 300 K, volumetric: 2 L/s, flows: {{A: 1 mol/s, B: 1 mol/s}}}}\nreactor: {{type: pfr, volume: 1 m3}}\n"
+            ),
+            &y,
+        );
+        fd_check(
+            &format!(
+                "{SPECIES}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor: {{type: cstr, volume: 1 m3}}\n"
+            ),
+            &y,
+        );
+        fd_check(
+            &format!(
+                "{SPECIES}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, amounts: {{A: 1 mol, B: 1 mol, I: 1 mol}}}}\nreactor: {{type: batch, time: 1 h, mode: constant_pressure}}\n"
+            ),
+            &y,
+        );
+        fd_check(
+            &format!(
+                "{SPECIES}phase: liquid\n{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor: {{type: batch, time: 1 h, volume: 3 L}}\n"
+            ),
+            &y,
+        );
         let pbr = "name: t\nspecies: {A: {}, B: {}, C: {}, D: {}, E: {}, I: {}}\nphase: gas\nreactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-6 m6/(mol*kg*s)}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 m3/(kg*s), K_eq: 3}}\nfeed: {T: 500 K, P: 5 bar, flows: {A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}\nreactor: {type: pbr, catalyst: 10 kg, pressure_drop: {alpha: 0.01 1/kg}}\n";
         fd_check(pbr, &[0.8, 0.5, 0.3, 0.2, 0.1, 0.4, 0.7]);
     }

@@ -1,8 +1,8 @@
 //! Reports for people (text tables with units) and for programs (JSON in SI).
 //! Units leave SI only here.
 
-use crate::analysis::{Check, Severity};
 use crate::analysis::table::StoichTable;
+use crate::analysis::{Check, Severity};
 pub mod run;
 
 use std::fmt::Write;
@@ -55,7 +55,11 @@ pub fn check_text(c: &Check) -> String {
             None => "not checked (formula missing)".to_string(),
             Some(true) => "balanced".to_string(),
             Some(false) => {
-                let parts: Vec<String> = b.imbalance.iter().map(|(e, n)| format!("{e} {n:+}")).collect();
+                let parts: Vec<String> = b
+                    .imbalance
+                    .iter()
+                    .map(|(e, n)| format!("{e} {n:+}"))
+                    .collect();
                 format!("UNBALANCED: {} (products − reactants)", parts.join(", "))
             }
         };
@@ -73,7 +77,10 @@ pub fn check_text(c: &Check) -> String {
             }
         }
     }
-    let _ = writeln!(o, "\nConservation laws (Σ coefficient × amount is constant)");
+    let _ = writeln!(
+        o,
+        "\nConservation laws (Σ coefficient × amount is constant)"
+    );
     if c.conservation_laws.is_empty() {
         let _ = writeln!(o, "  none");
     }
@@ -84,7 +91,11 @@ pub fn check_text(c: &Check) -> String {
                 Some(m) => (true, m),
                 None => (false, k.as_str()),
             };
-            let body = if mag == "1" { s.clone() } else { format!("{mag} {s}") };
+            let body = if mag == "1" {
+                s.clone()
+            } else {
+                format!("{mag} {s}")
+            };
             line.push_str(&match (n, neg) {
                 (0, false) => body,
                 (0, true) => format!("−{body}"),
@@ -106,15 +117,29 @@ pub fn check_text(c: &Check) -> String {
         if !p.shared_reactants.is_empty() {
             why.push(format!("share {}", p.shared_reactants.join(", ")));
         }
-        let _ = writeln!(o, "  {} / {}: {} ({})", p.reactions[0], p.reactions[1], p.relation, why.join("; "));
+        let _ = writeln!(
+            o,
+            "  {} / {}: {} ({})",
+            p.reactions[0],
+            p.reactions[1],
+            p.relation,
+            why.join("; ")
+        );
     }
     let _ = writeln!(
         o,
         "  intermediates: {}",
-        if c.intermediates.is_empty() { "none".to_string() } else { c.intermediates.join(", ") }
+        if c.intermediates.is_empty() {
+            "none".to_string()
+        } else {
+            c.intermediates.join(", ")
+        }
     );
     if !c.equilibrium_cycles.is_empty() {
-        let _ = writeln!(o, "\nEquilibrium constants around dependent reactions (Wegscheider)");
+        let _ = writeln!(
+            o,
+            "\nEquilibrium constants around dependent reactions (Wegscheider)"
+        );
         for cy in &c.equilibrium_cycles {
             let _ = writeln!(
                 o,
@@ -123,7 +148,11 @@ pub fn check_text(c: &Check) -> String {
                 num(cy.k_given),
                 num(cy.k_combined),
                 num(cy.temperature),
-                if cy.consistent { "consistent" } else { "MISMATCH" }
+                if cy.consistent {
+                    "consistent"
+                } else {
+                    "MISMATCH"
+                }
             );
         }
     }
@@ -134,8 +163,16 @@ pub fn check_text(c: &Check) -> String {
     for f in &c.findings {
         let _ = writeln!(o, "  {}: {}", severity_word(f.severity), f.message);
     }
-    let errors = c.findings.iter().filter(|f| f.severity == Severity::Error).count();
-    let warnings = c.findings.iter().filter(|f| f.severity == Severity::Warning).count();
+    let errors = c
+        .findings
+        .iter()
+        .filter(|f| f.severity == Severity::Error)
+        .count();
+    let warnings = c
+        .findings
+        .iter()
+        .filter(|f| f.severity == Severity::Warning)
+        .count();
     let _ = writeln!(o, "\n{errors} error(s), {warnings} warning(s)");
     o
 }
@@ -149,17 +186,52 @@ pub fn table_text(t: &StoichTable) -> String {
         o,
         "key reactant A = {}{}; y_A0 = {}",
         t.key,
-        if t.key_is_default { " (limiting reactant of the feed)" } else { "" },
+        if t.key_is_default {
+            " (limiting reactant of the feed)"
+        } else {
+            ""
+        },
         num(t.y_key0)
     );
-    let w = t.rows.iter().map(|r| r.species.len()).max().unwrap_or(4).max(7);
-    let _ = writeln!(o, "\n  {:<w$}  {:>12}  {:>10}  outlet", "species", format!("{sym}_j,0"), "Θ_j");
+    let w = t
+        .rows
+        .iter()
+        .map(|r| r.species.len())
+        .max()
+        .unwrap_or(4)
+        .max(7);
+    let _ = writeln!(
+        o,
+        "\n  {:<w$}  {:>12}  {:>10}  outlet",
+        "species",
+        format!("{sym}_j,0"),
+        "Θ_j"
+    );
     for r in &t.rows {
         let theta = r.theta.map(num).unwrap_or_else(|| "—".into());
-        let _ = writeln!(o, "  {:<w$}  {:>12}  {:>10}  {sym}_{} = {}", r.species, num(r.feed), theta, r.species, r.outlet);
+        let _ = writeln!(
+            o,
+            "  {:<w$}  {:>12}  {:>10}  {sym}_{} = {}",
+            r.species,
+            num(r.feed),
+            theta,
+            r.species,
+            r.outlet
+        );
     }
-    let _ = writeln!(o, "  {:<w$}  {:>12}  {:>10}  {sym}_T = {}", "total", num(t.total_feed), "", t.total_outlet);
-    let _ = writeln!(o, "\n  {:<16}  {:>8}  {:>10}  {:>10}  limiting reactant", "reaction", "Σν", "δ", "ε");
+    let _ = writeln!(
+        o,
+        "  {:<w$}  {:>12}  {:>10}  {sym}_T = {}",
+        "total",
+        num(t.total_feed),
+        "",
+        t.total_outlet
+    );
+    let _ = writeln!(
+        o,
+        "\n  {:<16}  {:>8}  {:>10}  {:>10}  limiting reactant",
+        "reaction", "Σν", "δ", "ε"
+    );
     for c in &t.reactions {
         let d = c.delta.map(num).unwrap_or_else(|| "—".into());
         let e = c.epsilon.map(num).unwrap_or_else(|| "—".into());
@@ -167,8 +239,19 @@ pub fn table_text(t: &StoichTable) -> String {
             Some(l) => l.clone(),
             None => format!("— ({} not fed)", c.unfed_reactants.join(", ")),
         };
-        let _ = writeln!(o, "  {:<16}  {:>8}  {:>10}  {:>10}  {lim}", c.id, num(c.mole_change), d, e);
+        let _ = writeln!(
+            o,
+            "  {:<16}  {:>8}  {:>10}  {:>10}  {lim}",
+            c.id,
+            num(c.mole_change),
+            d,
+            e
+        );
     }
-    let _ = writeln!(o, "\nδ = Σν / |ν_A| for reactions that involve A; ε = y_A0 δ (gas only); ξ_i is the extent of reaction i ({}).", t.unit);
+    let _ = writeln!(
+        o,
+        "\nδ = Σν / |ν_A| for reactions that involve A; ε = y_A0 δ (gas only); ξ_i is the extent of reaction i ({}).",
+        t.unit
+    );
     o
 }

@@ -53,14 +53,27 @@ pub struct RunReport {
 }
 
 fn pressure_ratio(net: &Network, sim: &Simulation, k: usize) -> f64 {
-    sim.pressure.as_ref().map(|p| p[k] / net.feed.pressure).unwrap_or(1.0)
+    sim.pressure
+        .as_ref()
+        .map(|p| p[k] / net.feed.pressure)
+        .unwrap_or(1.0)
 }
 
 /// Build the report of a run.
-pub fn build(net: &Network, balance: &Balance, sim: &Simulation, m: &Metrics, with_profile: bool) -> RunReport {
+pub fn build(
+    net: &Network,
+    balance: &Balance,
+    sim: &Simulation,
+    m: &Metrics,
+    with_profile: bool,
+) -> RunReport {
     let out = sim.outlet();
     let names = |v: &[f64]| -> IndexMap<String, f64> {
-        net.species.iter().zip(v).map(|(s, x)| (s.name.clone(), *x)).collect()
+        net.species
+            .iter()
+            .zip(v)
+            .map(|(s, x)| (s.name.clone(), *x))
+            .collect()
     };
     let last = sim.x.len() - 1;
     let mut y = out.to_vec();
@@ -77,10 +90,15 @@ pub fn build(net: &Network, balance: &Balance, sim: &Simulation, m: &Metrics, wi
                 x: *x,
                 state: names(&sim.states[k]),
                 pressure: sim.pressure.as_ref().map(|p| p[k]),
-                instantaneous_selectivity: metrics::instantaneous_selectivity(net, balance, &sim.states[k], pressure_ratio(net, sim, k))
-                    .into_iter()
-                    .map(|s| (s.over, s.value))
-                    .collect(),
+                instantaneous_selectivity: metrics::instantaneous_selectivity(
+                    net,
+                    balance,
+                    &sim.states[k],
+                    pressure_ratio(net, sim, k),
+                )
+                .into_iter()
+                .map(|s| (s.over, s.value))
+                .collect(),
             })
             .collect()
     });
@@ -92,18 +110,46 @@ pub fn build(net: &Network, balance: &Balance, sim: &Simulation, m: &Metrics, wi
         size: sim.size,
         temperature: net.feed.temperature,
         inlet_pressure: net.feed.pressure,
-        outlet_pressure: sim.pressure.as_ref().map(|p| p[last]).unwrap_or(net.feed.pressure),
-        state_unit: if net.reactor.is_batch() { "mol" } else { "mol/s" },
+        outlet_pressure: sim
+            .pressure
+            .as_ref()
+            .map(|p| p[last])
+            .unwrap_or(net.feed.pressure),
+        state_unit: if net.reactor.is_batch() {
+            "mol"
+        } else {
+            "mol/s"
+        },
         outlet: names(out),
         concentrations: names(&c),
         key: m.key.clone(),
         conversion: m.conversion,
-        yields: m.yields.iter().map(|y| (y.species.clone(), y.on_key)).collect(),
-        yield_basis: m.yields.iter().map(|y| (y.species.clone(), y.basis.clone())).collect(),
-        yield_on_feed: m.yields.iter().map(|y| (y.species.clone(), y.on_feed)).collect(),
+        yields: m
+            .yields
+            .iter()
+            .map(|y| (y.species.clone(), y.on_key))
+            .collect(),
+        yield_basis: m
+            .yields
+            .iter()
+            .map(|y| (y.species.clone(), y.basis.clone()))
+            .collect(),
+        yield_on_feed: m
+            .yields
+            .iter()
+            .map(|y| (y.species.clone(), y.on_feed))
+            .collect(),
         desired: m.desired.clone(),
-        selectivity: m.selectivity.iter().map(|s| (s.over.clone(), s.value)).collect(),
-        element_closure: m.element_closure.iter().map(|c| (c.element.clone(), c.relative)).collect(),
+        selectivity: m
+            .selectivity
+            .iter()
+            .map(|s| (s.over.clone(), s.value))
+            .collect(),
+        element_closure: m
+            .element_closure
+            .iter()
+            .map(|c| (c.element.clone(), c.relative))
+            .collect(),
         solver: sim.stats.clone(),
         profile,
     }
@@ -143,10 +189,24 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         }
     );
     let w = r.outlet.keys().map(|k| k.len()).max().unwrap_or(7).max(7);
-    let flow = if r.state_unit == "mol" { "N [mol]" } else { "F [mol/s]" };
-    let _ = writeln!(o, "\n  {:<w$}  {:>14}  {:>14}", "species", flow, "C [mol/L]");
+    let flow = if r.state_unit == "mol" {
+        "N [mol]"
+    } else {
+        "F [mol/s]"
+    };
+    let _ = writeln!(
+        o,
+        "\n  {:<w$}  {:>14}  {:>14}",
+        "species", flow, "C [mol/L]"
+    );
     for (s, v) in &r.outlet {
-        let _ = writeln!(o, "  {:<w$}  {:>14}  {:>14}", s, num(*v), num(r.concentrations[s] / 1e3));
+        let _ = writeln!(
+            o,
+            "  {:<w$}  {:>14}  {:>14}",
+            s,
+            num(*v),
+            num(r.concentrations[s] / 1e3)
+        );
     }
     let _ = writeln!(o, "\n  conversion of {}: {}", r.key, num(r.conversion));
     for (s, y) in &r.yields {
@@ -170,8 +230,16 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         }
     }
     if verbose && !r.element_closure.is_empty() {
-        let parts: Vec<String> = r.element_closure.iter().map(|(e, c)| format!("{e} {c:.1e}")).collect();
-        let _ = writeln!(o, "  element balance closure (relative): {}", parts.join(", "));
+        let parts: Vec<String> = r
+            .element_closure
+            .iter()
+            .map(|(e, c)| format!("{e} {c:.1e}"))
+            .collect();
+        let _ = writeln!(
+            o,
+            "  element balance closure (relative): {}",
+            parts.join(", ")
+        );
     }
     let s = &r.solver;
     if s.newton_iterations > 0 || s.residual.is_some() {
@@ -188,7 +256,14 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         let _ = writeln!(
             o,
             "\n{}: {} steps, {} rhs, {} Jacobians, {} LU; rtol {:.0e}, atol {:.1e} {}",
-            s.method, s.steps, s.rhs_evals, s.jac_evals, s.lu_factorizations, s.rtol, s.atol, r.state_unit
+            s.method,
+            s.steps,
+            s.rhs_evals,
+            s.jac_evals,
+            s.lu_factorizations,
+            s.rtol,
+            s.atol,
+            r.state_unit
         );
     }
     o
@@ -197,7 +272,11 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
 /// The profile as CSV: the independent variable, every species, and P where it varies.
 pub fn profile_csv(net: &Network, sim: &Simulation) -> String {
     let mut o = String::new();
-    let unit = if net.reactor.is_batch() { "mol" } else { "mol/s" };
+    let unit = if net.reactor.is_batch() {
+        "mol"
+    } else {
+        "mol/s"
+    };
     let _ = write!(o, "{} [{}]", sim.x_name, sim.x_unit);
     for s in &net.species {
         let _ = write!(o, ",{} [{unit}]", s.name);

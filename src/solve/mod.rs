@@ -84,7 +84,9 @@ pub struct Simulation {
 
 impl Simulation {
     pub fn outlet(&self) -> &[f64] {
-        self.states.last().expect("a simulation has at least the outlet")
+        self.states
+            .last()
+            .expect("a simulation has at least the outlet")
     }
 }
 
@@ -102,7 +104,9 @@ pub enum SolveError {
     },
     #[error("CSTR steady state: {0}")]
     Newton(#[from] newton::NewtonError),
-    #[error("species `{species}` goes negative ({value:.3e} {unit}) at {x_name} = {x:.6e} {x_unit}: the solution is not physical; tighten --rtol/--atol, or check the rate laws (orders, units of k)")]
+    #[error(
+        "species `{species}` goes negative ({value:.3e} {unit}) at {x_name} = {x:.6e} {x_unit}: the solution is not physical; tighten --rtol/--atol, or check the rate laws (orders, units of k)"
+    )]
     Negative {
         species: String,
         value: f64,
@@ -111,7 +115,9 @@ pub enum SolveError {
         x: f64,
         x_unit: &'static str,
     },
-    #[error("the pressure in the packed bed falls to zero at W = {w:.6e} kg, before the end of the bed (αW → 1): use less catalyst, a smaller bed constant α or a larger cross-section")]
+    #[error(
+        "the pressure in the packed bed falls to zero at W = {w:.6e} kg, before the end of the bed (αW → 1): use less catalyst, a smaller bed constant α or a larger cross-section"
+    )]
     PressureCollapse { w: f64 },
 }
 
@@ -161,7 +167,11 @@ pub fn simulate(net: &Network, opts: &SolveOptions) -> Result<Simulation, SolveE
 }
 
 /// Solve with a balance already set up (studies reuse it across runs).
-pub fn simulate_with(net: &Network, balance: &Balance, opts: &SolveOptions) -> Result<Simulation, SolveError> {
+pub fn simulate_with(
+    net: &Network,
+    balance: &Balance,
+    opts: &SolveOptions,
+) -> Result<Simulation, SolveError> {
     let (x_name, x_unit, size) = reactor_axis(net);
     let (rtol, atol) = tolerances(net, opts);
     let n = net.species.len();
@@ -174,7 +184,9 @@ pub fn simulate_with(net: &Network, balance: &Balance, opts: &SolveOptions) -> R
     let sim = if let Reactor::Cstr { volume } = net.reactor {
         stats.method = "damped Newton (analytic Jacobian)";
         // Residual tolerance: far below what the ODE tolerances ask of a flow reactor.
-        let tol = (1e-3 * rtol * total).max(1e-14 * total).min(atol.max(1e-14 * total));
+        let tol = (1e-3 * rtol * total)
+            .max(1e-14 * total)
+            .min(atol.max(1e-14 * total));
         let (f, ns) = newton::solve_cstr(balance, &net.feed.amounts, volume, tol)?;
         stats.newton_iterations = ns.iterations;
         stats.continuation_stages = ns.continuation_stages;
@@ -212,43 +224,47 @@ pub fn simulate_with(net: &Network, balance: &Balance, opts: &SolveOptions) -> R
             Reactor::Pbr { .. } => "packed bed",
             _ => "batch reactor",
         };
-        let sol = ode::integrate(&Adapter(balance), &y0, size, &out, &ode_opts).map_err(|source| {
-            let x = match &source {
-                OdeError::NonFiniteRhs { x, .. }
-                | OdeError::NonFiniteJacobian { x, .. }
-                | OdeError::SparsityChanged { x, .. }
-                | OdeError::NonFiniteRoot { x }
-                | OdeError::NonFiniteState { x, .. }
-                | OdeError::StepSizeTooSmall { x }
-                | OdeError::MaxSteps { x, .. }
-                | OdeError::ConvergenceFailure { x, .. }
-                | OdeError::Solver { x, .. } => *x,
-                _ => 0.0,
-            };
-            if balance.has_pressure() {
-                if let Some(alpha) = balance.alpha() {
-                    // P/P0 = (1 − αW)^(1/2) reaches zero at W = 1/α without mole change; a
-                    // failure near there is the pressure collapsing.
-                    if x > 0.5 / alpha {
-                        return SolveError::PressureCollapse { w: x };
+        let sol =
+            ode::integrate(&Adapter(balance), &y0, size, &out, &ode_opts).map_err(|source| {
+                let x = match &source {
+                    OdeError::NonFiniteRhs { x, .. }
+                    | OdeError::NonFiniteJacobian { x, .. }
+                    | OdeError::SparsityChanged { x, .. }
+                    | OdeError::NonFiniteRoot { x }
+                    | OdeError::NonFiniteState { x, .. }
+                    | OdeError::StepSizeTooSmall { x }
+                    | OdeError::MaxSteps { x, .. }
+                    | OdeError::ConvergenceFailure { x, .. }
+                    | OdeError::Solver { x, .. } => *x,
+                    _ => 0.0,
+                };
+                if balance.has_pressure() {
+                    if let Some(alpha) = balance.alpha() {
+                        // P/P0 = (1 − αW)^(1/2) reaches zero at W = 1/α without mole change; a
+                        // failure near there is the pressure collapsing.
+                        if x > 0.5 / alpha {
+                            return SolveError::PressureCollapse { w: x };
+                        }
                     }
                 }
-            }
-            SolveError::Integration {
-                reactor,
-                x_name,
-                x_unit,
-                x,
-                source,
-            }
-        })?;
+                SolveError::Integration {
+                    reactor,
+                    x_name,
+                    x_unit,
+                    x,
+                    source,
+                }
+            })?;
         stats.steps = sol.stats.steps;
         stats.rhs_evals = sol.stats.rhs_evals;
         stats.jac_evals = sol.stats.jac_evals;
         stats.lu_factorizations = sol.stats.lu_factorizations;
-        let pressure = balance
-            .has_pressure()
-            .then(|| sol.y.iter().map(|y| y[n] * net.feed.pressure).collect::<Vec<f64>>());
+        let pressure = balance.has_pressure().then(|| {
+            sol.y
+                .iter()
+                .map(|y| y[n] * net.feed.pressure)
+                .collect::<Vec<f64>>()
+        });
         if let Some(p) = &pressure {
             if let Some(k) = p.iter().position(|v| !(*v > 0.0)) {
                 return Err(SolveError::PressureCollapse { w: sol.x[k] });
@@ -259,16 +275,24 @@ pub fn simulate_with(net: &Network, balance: &Balance, opts: &SolveOptions) -> R
             x_unit,
             size,
             x: sol.x,
-            states: sol.y.into_iter().map(|mut y| {
-                y.truncate(n);
-                y
-            }).collect(),
+            states: sol
+                .y
+                .into_iter()
+                .map(|mut y| {
+                    y.truncate(n);
+                    y
+                })
+                .collect(),
             pressure,
             stats,
         }
     };
     let limit = negative_limit(rtol, atol, total);
-    let unit = if net.reactor.is_batch() { "mol" } else { "mol/s" };
+    let unit = if net.reactor.is_batch() {
+        "mol"
+    } else {
+        "mol/s"
+    };
     for (x, y) in sim.x.iter().zip(&sim.states) {
         if let Some((j, v)) = y.iter().enumerate().find(|(_, v)| **v < -limit) {
             return Err(SolveError::Negative {

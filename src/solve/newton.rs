@@ -22,16 +22,22 @@ pub struct NewtonStats {
 
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum NewtonError {
-    #[error("the rates are not finite at the trial flows (species or reaction rates overflow); check units and rate constants")]
+    #[error(
+        "the rates are not finite at the trial flows (species or reaction rates overflow); check units and rate constants"
+    )]
     NonFinite,
-    #[error("the Newton iteration for the CSTR steady state did not converge (‖G‖∞ = {residual:.3e} mol/s at V = {volume:.6e} m3 after {iterations} iterations and {stages} continuation stages); try a different volume, check the rate constants' units, or look for multiple steady states")]
+    #[error(
+        "the Newton iteration for the CSTR steady state did not converge (‖G‖∞ = {residual:.3e} mol/s at V = {volume:.6e} m3 after {iterations} iterations and {stages} continuation stages); try a different volume, check the rate constants' units, or look for multiple steady states"
+    )]
     NoConvergence {
         residual: f64,
         volume: f64,
         iterations: usize,
         stages: usize,
     },
-    #[error("the steady-state Jacobian is singular at V = {volume:.6e} m3 (a turning point or an unreactive species' balance); try a slightly different volume")]
+    #[error(
+        "the steady-state Jacobian is singular at V = {volume:.6e} m3 (a turning point or an unreactive species' balance); try a slightly different volume"
+    )]
     Singular { volume: f64 },
 }
 
@@ -52,7 +58,13 @@ fn norm_inf(x: &[f64]) -> f64 {
 }
 
 /// One Newton solve at fixed V from the start `f`. Returns the iterations used.
-fn newton(b: &Balance, f0: &[f64], v: f64, f: &mut Vec<f64>, tol: f64) -> Result<usize, (NewtonError, usize)> {
+fn newton(
+    b: &Balance,
+    f0: &[f64],
+    v: f64,
+    f: &mut Vec<f64>,
+    tol: f64,
+) -> Result<usize, (NewtonError, usize)> {
     let n = f.len();
     let mut g = vec![0.0; n];
     if !residual(b, f0, v, f, &mut g) {
@@ -136,7 +148,12 @@ fn newton(b: &Balance, f0: &[f64], v: f64, f: &mut Vec<f64>, tol: f64) -> Result
 
 /// Solve F_0 − F + V f(F) = 0 for F, starting from the feed, with continuation in V when needed.
 /// `tol` bounds ‖G‖∞ (mol/s).
-pub fn solve_cstr(b: &Balance, f0: &[f64], volume: f64, tol: f64) -> Result<(Vec<f64>, NewtonStats), NewtonError> {
+pub fn solve_cstr(
+    b: &Balance,
+    f0: &[f64],
+    volume: f64,
+    tol: f64,
+) -> Result<(Vec<f64>, NewtonStats), NewtonError> {
     let mut stats = NewtonStats::default();
     let mut f = f0.to_vec();
     match newton(b, f0, volume, &mut f, tol) {

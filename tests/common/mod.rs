@@ -91,3 +91,66 @@ pub fn line_of(text: &str, needle: &str) -> usize {
         .unwrap_or_else(|| panic!("`{needle}` is not in the study text"))
         + 1
 }
+
+/// `rxnet run FILE ARGS...` on a study given as text; the temporary file is removed afterwards.
+pub fn run_args(tag: &str, yaml: &str, args: &[&str]) -> Run {
+    let path = write_temp(tag, yaml);
+    let p = path.to_str().expect("temporary path is UTF-8");
+    let mut all = vec!["run", p];
+    all.extend_from_slice(args);
+    let run = rxnet(&all);
+    let _ = std::fs::remove_file(&path);
+    run
+}
+
+/// |got − want| / |want|, or |got| when want is 0.
+pub fn rel_err(got: f64, want: f64) -> f64 {
+    if want == 0.0 {
+        got.abs()
+    } else {
+        (got - want).abs() / want.abs()
+    }
+}
+
+/// The worst relative error seen by one family of comparisons; each comparison also asserts
+/// its own tolerance. `report` prints the figure (visible with `--nocapture`).
+pub struct Agreement {
+    what: String,
+    worst: f64,
+    count: usize,
+}
+
+impl Agreement {
+    pub fn new(what: &str) -> Agreement {
+        Agreement {
+            what: what.to_string(),
+            worst: 0.0,
+            count: 0,
+        }
+    }
+
+    /// Require rel_err(got, want) <= tol; `context` names the value in the failure message.
+    pub fn check(&mut self, got: f64, want: f64, tol: f64, context: &str) {
+        let e = rel_err(got, want);
+        assert!(
+            got.is_finite() && e <= tol,
+            "{}: {context}: got {got:.15e}, expected {want:.15e}, relative error {e:.3e} > {tol:.0e}",
+            self.what
+        );
+        self.worst = self.worst.max(e);
+        self.count += 1;
+    }
+
+    pub fn worst(&self) -> f64 {
+        self.worst
+    }
+
+    /// Print the worst error; fails when nothing was compared (a check that asserts nothing).
+    pub fn report(&self) {
+        assert!(self.count > 0, "{}: no value was compared", self.what);
+        println!(
+            "agreement | {} | {} values | max relative error {:.2e}",
+            self.what, self.count, self.worst
+        );
+    }
+}
