@@ -5,6 +5,7 @@
 
 pub mod analysis;
 pub mod exact;
+pub mod generate;
 pub mod kinetics;
 pub mod metrics;
 pub mod model;

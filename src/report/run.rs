@@ -279,7 +279,7 @@ pub fn profile_csv(net: &Network, sim: &Simulation) -> String {
     };
     let _ = write!(o, "{} [{}]", sim.x_name, sim.x_unit);
     for s in &net.species {
-        let _ = write!(o, ",{} [{unit}]", s.name);
+        let _ = write!(o, ",{}", csv_field(&format!("{} [{unit}]", s.name)));
     }
     if sim.pressure.is_some() {
         let _ = write!(o, ",P [Pa]");
@@ -296,4 +296,13 @@ pub fn profile_csv(net: &Network, sim: &Simulation) -> String {
         o.push('\n');
     }
     o
+}
+
+/// One CSV field, quoted when it holds a comma, a quote or a line break (RFC 4180).
+pub fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
 }

@@ -44,6 +44,9 @@ impl Default for SolveOptions {
     }
 }
 
+/// A packed bed whose integration fails with P/P0 below this has run out of pressure.
+pub const PRESSURE_COLLAPSE: f64 = 0.05;
+
 /// Default relative tolerance of the integration.
 pub const DEFAULT_RTOL: f64 = 1e-8;
 /// Default absolute tolerance, as a fraction of the total feed (F_T0 or N_T0).
@@ -238,11 +241,17 @@ pub fn simulate_with(
                     | OdeError::Solver { x, .. } => *x,
                     _ => 0.0,
                 };
-                if balance.has_pressure() {
-                    if let Some(alpha) = balance.alpha() {
-                        // P/P0 = (1 − αW)^(1/2) reaches zero at W = 1/α without mole change; a
-                        // failure near there is the pressure collapsing.
-                        if x > 0.5 / alpha {
+                if balance.has_pressure() && x > 0.0 {
+                    // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
+                    let before = ode::integrate(
+                        &Adapter(balance),
+                        &y0,
+                        x * (1.0 - 1e-6),
+                        &Output::End,
+                        &ode_opts,
+                    );
+                    if let Ok(sol) = before {
+                        if sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE) {
                             return SolveError::PressureCollapse { w: x };
                         }
                     }
