@@ -221,12 +221,11 @@ fn run(a: &RunArgs) -> i32 {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
-    if let Some(n) = a.points {
-        if !(2..=1_000_000).contains(&n) {
+    if let Some(n) = a.points
+        && !(2..=1_000_000).contains(&n) {
             eprintln!("error: --points must be between 2 and 1000000, got {n}");
             return EXIT_INVALID;
         }
-    }
     let net = match load(&a.file, &a.set) {
         Ok(n) => n,
         Err(code) => return code,
@@ -283,12 +282,11 @@ fn run(a: &RunArgs) -> i32 {
         &m,
         want_profile && a.format == RunFormat::Json,
     );
-    if let Some(path) = &a.profile {
-        if let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim)) {
+    if let Some(path) = &a.profile
+        && let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim)) {
             eprintln!("error: cannot write {}: {e}", path.display());
             return EXIT_FINDINGS;
         }
-    }
     let text = match a.format {
         RunFormat::Table => {
             let mut t = report::run::text(&rep, a.verbose);

@@ -189,8 +189,8 @@ pub fn check(net: &Network) -> Check {
             );
         }
     }
-    if let Some(bound) = el.bound {
-        if st.rank > bound {
+    if let Some(bound) = el.bound
+        && st.rank > bound {
             add(
                 Severity::Error,
                 format!(
@@ -199,7 +199,6 @@ pub fn check(net: &Network) -> Check {
                 ),
             );
         }
-    }
     for c in &cycles {
         if !c.consistent {
             let d = st
@@ -219,8 +218,8 @@ pub fn check(net: &Network) -> Check {
                 ),
             );
         }
-        if let Some((given, combined)) = c.dh {
-            if (given - combined).abs() > 1e-6 * given.abs().max(combined.abs()).max(1.0) {
+        if let Some((given, combined)) = c.dh
+            && (given - combined).abs() > 1e-6 * given.abs().max(combined.abs()).max(1.0) {
                 add(
                     Severity::Warning,
                     format!(
@@ -231,7 +230,6 @@ pub fn check(net: &Network) -> Check {
                     ),
                 );
             }
-        }
     }
     // Species usage.
     for (j, s) in net.species.iter().enumerate() {
@@ -285,14 +283,13 @@ pub fn check(net: &Network) -> Check {
             ),
         );
     }
-    if let Some(d) = net.desired {
-        if !net.reactions.iter().any(|r| r.nu(d) > 0.0) {
+    if let Some(d) = net.desired
+        && !net.reactions.iter().any(|r| r.nu(d) > 0.0) {
             add(
                 Severity::Error,
                 format!("desired product `{}` is made by no reaction", sp(d)),
             );
         }
-    }
     for &j in &gr.unreachable_species {
         add(
             Severity::Warning,
@@ -321,7 +318,7 @@ pub fn check(net: &Network) -> Check {
                 .to_string(),
         );
     }
-    findings.sort_by(|a, b| b.severity.cmp(&a.severity));
+    findings.sort_by_key(|f| std::cmp::Reverse(f.severity));
 
     Check {
         name: net.name.clone(),

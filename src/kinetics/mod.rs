@@ -28,6 +28,9 @@ struct Factor {
     exponent: f64,
 }
 
+/// (K_m,ref, ΔH_m, factor C_m^b_m) of one denominator term.
+type AdsorptionTerm = (f64, f64, Factor);
+
 #[derive(Debug, Clone)]
 struct Compiled {
     k_ref: f64,
@@ -37,7 +40,7 @@ struct Compiled {
     /// (K_ref, ΔH for van't Hoff, reverse factors).
     reverse: Option<(f64, f64, Vec<Factor>)>,
     /// (K_m,ref, ΔH_m, factor) terms and the power n.
-    denominator: Option<(Vec<(f64, f64, Factor)>, f64)>,
+    denominator: Option<(Vec<AdsorptionTerm>, f64)>,
     /// Species whose concentration this rate depends on (sorted, unique).
     depends_on: Vec<usize>,
 }

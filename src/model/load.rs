@@ -915,15 +915,14 @@ fn build_feed(
                         )
                     })?;
                     let v_ideal = total * GAS_CONSTANT * temperature / p;
-                    if let Some(v) = given {
-                        if (v - v_ideal).abs() / v_ideal > IDEAL_GAS_CONSISTENCY {
+                    if let Some(v) = given
+                        && (v - v_ideal).abs() / v_ideal > IDEAL_GAS_CONSISTENCY {
                             return Err(cx.err(
                                 "feed.volumetric",
                                 &format!("for an ideal gas F_T0 R T0 / P0 = {v_ideal:.6e} m3/s, but volumetric = {v:.6e} m3/s"),
                                 Some("drop `volumetric` (it follows from flows, T and P) or correct it".into()),
                             ));
                         }
-                    }
                     v_ideal
                 } else {
                     given.ok_or_else(|| {

@@ -77,11 +77,10 @@ impl MarkedEventReceiver for Builder {
                 Event::MappingStart(..) | Event::SequenceStart(..) => self.skipping += 1,
                 Event::MappingEnd | Event::SequenceEnd => {
                     self.skipping -= 1;
-                    if self.skipping == 0 {
-                        if let Some(Frame::Map { key, .. }) = self.stack.last_mut() {
+                    if self.skipping == 0
+                        && let Some(Frame::Map { key, .. }) = self.stack.last_mut() {
                             *key = Some("?".to_string());
                         }
-                    }
                 }
                 _ => {}
             }

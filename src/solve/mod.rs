@@ -250,11 +250,10 @@ pub fn simulate_with(
                         &Output::End,
                         &ode_opts,
                     );
-                    if let Ok(sol) = before {
-                        if sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE) {
+                    if let Ok(sol) = before
+                        && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE) {
                             return SolveError::PressureCollapse { w: x };
                         }
-                    }
                 }
                 SolveError::Integration {
                     reactor,
@@ -274,11 +273,10 @@ pub fn simulate_with(
                 .map(|y| y[n] * net.feed.pressure)
                 .collect::<Vec<f64>>()
         });
-        if let Some(p) = &pressure {
-            if let Some(k) = p.iter().position(|v| !(*v > 0.0)) {
+        if let Some(p) = &pressure
+            && let Some(k) = p.iter().position(|v| !(*v > 0.0)) {
                 return Err(SolveError::PressureCollapse { w: sol.x[k] });
             }
-        }
         Simulation {
             x_name,
             x_unit,

@@ -62,7 +62,7 @@ fn newton(
     b: &Balance,
     f0: &[f64],
     v: f64,
-    f: &mut Vec<f64>,
+    f: &mut [f64],
     tol: f64,
 ) -> Result<usize, (NewtonError, usize)> {
     let n = f.len();
