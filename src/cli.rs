@@ -35,6 +35,12 @@ enum RunFormat {
     Json,
 }
 
+#[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
+enum SweepFormat {
+    Csv,
+    Json,
+}
+
 #[derive(Subcommand)]
 enum Command {
     /// Simulate the study's reactor: outlet, conversion, yields, selectivities.
@@ -60,8 +66,80 @@ enum Command {
         /// Also print the element balance closure.
         #[arg(long, short)]
         verbose: bool,
+        /// Draw the species profile along the reactor to this SVG file.
+        #[arg(long, value_name = "FILE.svg")]
+        plot: Option<PathBuf>,
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
+    },
+    /// Find the reactor size (default) or other inputs that maximise a target.
+    Optimize {
+        file: PathBuf,
+        /// B (outlet amount), yield:B, selectivity:B/C or conversion.
+        #[arg(long, value_name = "TARGET")]
+        maximize: String,
+        /// Input to vary: `size` (default) or a --set path such as feed.T; may repeat, each with --bounds.
+        #[arg(long, value_name = "VAR")]
+        over: Vec<String>,
+        /// Bounds of the matching --over, e.g. --bounds "300 K" "400 K"; for the size, in SI
+        /// (m3, kg or s) or with a unit. Default for the size: 0 to the study's size.
+        #[arg(long, num_args = 2, value_names = ["LO", "HI"], allow_hyphen_values = true)]
+        bounds: Vec<String>,
+        /// Only accept points where the key conversion is at least this.
+        #[arg(long)]
+        min_conversion: Option<f64>,
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
+        #[arg(long)]
+        rtol: Option<f64>,
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
+    },
+    /// Run a full grid over one or more inputs (in parallel).
+    Sweep {
+        file: PathBuf,
+        /// PATH=LO:HI:N (or PATH=LO:HI:N:log), e.g. "feed.T=300 K:400 K:11"; may repeat.
+        #[arg(long, value_name = "PATH=LO:HI:N", required = true)]
+        vary: Vec<String>,
+        /// Write the CSV here (atomically) instead of standard output.
+        #[arg(long, value_name = "FILE.csv")]
+        out: Option<PathBuf>,
+        #[arg(long, value_enum, default_value_t = SweepFormat::Csv)]
+        format: SweepFormat,
+        /// Run only shard K of N (every N-th point from point K−1), for cluster job arrays.
+        #[arg(long, value_name = "K/N")]
+        shard: Option<String>,
+        /// Draw the result to this SVG file: a line for one input, a heat map for two.
+        #[arg(long, value_name = "FILE.svg")]
+        plot: Option<PathBuf>,
+        /// Quantity to plot (default: yield of the desired product, else conversion).
+        #[arg(long, value_name = "TARGET")]
+        plot_target: Option<String>,
+        #[arg(long)]
+        rtol: Option<f64>,
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
+    },
+    /// Screen studies and reactor types side by side, ranked by a target.
+    Compare {
+        #[arg(required = true)]
+        files: Vec<PathBuf>,
+        /// Reactor types to screen each study in, e.g. pfr,cstr,batch (default: as in each file).
+        #[arg(long, value_delimiter = ',')]
+        reactors: Vec<String>,
+        /// Rank by this target (default: yield of the desired product).
+        #[arg(long, value_name = "TARGET")]
+        rank_by: Option<String>,
+        /// Resize every entry to reach this key conversion first (compare at equal conversion).
+        #[arg(long)]
+        at_conversion: Option<f64>,
+        /// Also find the size (up to the study's) that maximises this target.
+        #[arg(long, value_name = "TARGET")]
+        optimum: Option<String>,
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
+        #[arg(long)]
+        rtol: Option<f64>,
     },
     /// Check a network: atom balances, independent reactions, equilibrium consistency, graph.
     Check {
@@ -83,7 +161,7 @@ enum Command {
 }
 
 /// Print to stdout; a closed pipe (`rxnet ... | head`) ends quietly.
-fn emit(text: &str) -> bool {
+pub fn emit(text: &str) -> bool {
     let mut out = std::io::stdout().lock();
     match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
         Ok(()) => true,
@@ -95,7 +173,7 @@ fn emit(text: &str) -> bool {
     }
 }
 
-fn json<T: serde::Serialize>(v: &T) -> String {
+pub fn json<T: serde::Serialize>(v: &T) -> String {
     let mut s = serde_json::to_string_pretty(v).expect("report types serialize");
     s.push('\n');
     s
@@ -122,6 +200,7 @@ pub fn main() -> i32 {
             rtol,
             atol,
             verbose,
+            plot,
             set,
         } => run(&RunArgs {
             file,
@@ -132,12 +211,70 @@ pub fn main() -> i32 {
             rtol,
             atol,
             verbose,
+            plot,
             set,
         }),
+        Command::Optimize {
+            file,
+            maximize,
+            over,
+            bounds,
+            min_conversion,
+            format,
+            rtol,
+            set,
+        } => crate::studies_cli::optimize(
+            &file,
+            &maximize,
+            &over,
+            &bounds,
+            min_conversion,
+            format == Format::Json,
+            rtol,
+            &set,
+        ),
+        Command::Sweep {
+            file,
+            vary,
+            out,
+            format,
+            shard,
+            plot,
+            plot_target,
+            rtol,
+            set,
+        } => crate::studies_cli::sweep(&crate::studies_cli::SweepArgs {
+            file,
+            vary,
+            out,
+            json: format == SweepFormat::Json,
+            shard,
+            plot,
+            plot_target,
+            rtol,
+            set,
+        }),
+        Command::Compare {
+            files,
+            reactors,
+            rank_by,
+            at_conversion,
+            optimum,
+            format,
+            rtol,
+        } => crate::studies_cli::compare(
+            &files,
+            &reactors,
+            rank_by.as_deref(),
+            at_conversion,
+            optimum.as_deref(),
+            format == Format::Json,
+            rtol,
+        ),
     }
 }
 
-fn load(file: &std::path::Path, set: &[Override]) -> Result<rxnet::Network, i32> {
+pub fn load(file: &std::path::Path, set: &[Override]) -> Result<rxnet::Network, i32> {
     load_file(file, set).map_err(|e| {
         eprintln!("error: {e}");
         EXIT_INVALID
@@ -183,12 +320,13 @@ struct RunArgs {
     rtol: Option<f64>,
     atol: Option<f64>,
     verbose: bool,
+    plot: Option<PathBuf>,
     set: Vec<Override>,
 }
 
 /// Write a file atomically: a temporary file beside it, then a rename, so an interrupted run
 /// never leaves a half-written file that looks complete.
-fn write_atomic(path: &std::path::Path, text: &str) -> std::io::Result<()> {
+pub fn write_atomic(path: &std::path::Path, text: &str) -> std::io::Result<()> {
     let dir = path
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
@@ -204,7 +342,7 @@ fn write_atomic(path: &std::path::Path, text: &str) -> std::io::Result<()> {
     })
 }
 
-fn check_tolerance(name: &str, v: Option<f64>, upper: f64) -> Result<(), String> {
+pub fn check_tolerance(name: &str, v: Option<f64>, upper: f64) -> Result<(), String> {
     match v {
         Some(x) if !(x > 0.0 && x < upper) => Err(format!(
             "--{name} must be a positive number below {upper}, got {x}"
@@ -222,10 +360,11 @@ fn run(a: &RunArgs) -> i32 {
         return EXIT_INVALID;
     }
     if let Some(n) = a.points
-        && !(2..=1_000_000).contains(&n) {
-            eprintln!("error: --points must be between 2 and 1000000, got {n}");
-            return EXIT_INVALID;
-        }
+        && !(2..=1_000_000).contains(&n)
+    {
+        eprintln!("error: --points must be between 2 and 1000000, got {n}");
+        return EXIT_INVALID;
+    }
     let net = match load(&a.file, &a.set) {
         Ok(n) => n,
         Err(code) => return code,
@@ -245,12 +384,15 @@ fn run(a: &RunArgs) -> i32 {
         }
         return EXIT_FINDINGS;
     }
-    let want_profile =
-        a.profile.is_some() || a.format == RunFormat::Csv || a.points.is_some() || a.steps;
+    let want_profile = a.profile.is_some()
+        || a.plot.is_some()
+        || a.format == RunFormat::Csv
+        || a.points.is_some()
+        || a.steps;
     let points = if a.steps {
         Points::Steps
     } else if want_profile {
-        Points::Even(a.points.unwrap_or(51))
+        Points::Even(a.points.unwrap_or(if a.plot.is_some() { 201 } else { 51 }))
     } else {
         Points::End
     };
@@ -283,10 +425,18 @@ fn run(a: &RunArgs) -> i32 {
         want_profile && a.format == RunFormat::Json,
     );
     if let Some(path) = &a.profile
-        && let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim)) {
+        && let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim))
+    {
+        eprintln!("error: cannot write {}: {e}", path.display());
+        return EXIT_FINDINGS;
+    }
+    if let Some(path) = &a.plot {
+        let svg = crate::studies_cli::profile_plot(&net, &sim);
+        if let Err(e) = svg.and_then(|s| write_atomic(path, &s).map_err(|e| e.to_string())) {
             eprintln!("error: cannot write {}: {e}", path.display());
             return EXIT_FINDINGS;
         }
+    }
     let text = match a.format {
         RunFormat::Table => {
             let mut t = report::run::text(&rep, a.verbose);

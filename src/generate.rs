@@ -30,7 +30,9 @@
 //! log-uniform in [1e-3, 1e7] 1/s, with C_ref the total feed concentration (F_T0/v0 for a
 //! liquid, P/(RT) for a gas, N_T0/V for a batch), so the spread of time scales is ten decades
 //! whatever the order: k = κ for a first-order step, κ/C_ref in m3/(mol·s) for a second-order
-//! one.
+//! one. For a reversible step κ goes to the faster direction: with K' = K_c·C_ref^(−Σν) the
+//! ratio of forward to reverse pseudo-first-order constants, κ_f = κ·min(1, K') and
+//! κ_r = κ_f/K', so no time scale is shorter than 1e-7 s.
 //!
 //! **Equilibrium constants.** Each species gets a reference concentration c°_j = C_ref·10^u,
 //! u uniform in [−1.5, 1.5], and a reversible step gets K_c = Π_j (c°_j)^ν_j in (mol/m3)^Σν.
@@ -101,9 +103,12 @@ pub const KAPPA_RANGE: (f64, f64) = (1e-3, 1e7);
 const TEMPERATURE: f64 = 320.0;
 /// Gas feed pressure, Pa.
 const GAS_PRESSURE: f64 = 10.0e5;
-/// Total liquid feed (mol/s) and volumetric flow (m3/s): C_ref = 1000 mol/m3.
-const LIQUID_FLOW: f64 = 1.0;
-const LIQUID_V0: f64 = 1.0e-3;
+/// Total liquid feed (mol/s) and volumetric flow (m3/s): C_ref = 1000 mol/m3. Plant scale on
+/// purpose: the integrator's x is V in m3, and its smallest allowed step is absolute (diffsol's
+/// default minimum, f64::EPSILON), so with v0 = 1 L/s the fast start-up transients of large
+/// networks need steps below it (see docs/performance.md).
+const LIQUID_FLOW: f64 = 100.0;
+const LIQUID_V0: f64 = 0.1;
 /// Total batch charge, mol (liquid: in 1 m3).
 const BATCH_AMOUNT: f64 = 1000.0;
 
@@ -423,20 +428,29 @@ pub fn generate_study(spec: &GeneratorSpec) -> Result<String, String> {
     let _ = writeln!(out, "phase: {phase}\nspecies:");
     for j in 0..n {
         let s = layout.size[j];
-        let c = if s == 1 {
-            String::new()
-        } else {
-            s.to_string()
-        };
+        let c = if s == 1 { String::new() } else { s.to_string() };
         let _ = writeln!(out, "  {}: {{formula: C{c}H{}}}", layout.name(j), 2 * s);
     }
     out.push_str("reactions:\n");
     for (i, st) in steps.iter().enumerate() {
         let reversible = rng.unit() < spec.reversible_fraction;
         let kappa = rng.log_uniform(KAPPA_RANGE.0, KAPPA_RANGE.1);
+        let dn = st.mole_change();
+        // K_c = Π c°_j^ν_j in (mol/m3)^Σν, and K' = K_c C_ref^(−Σν), the dimensionless ratio
+        // of the forward to the reverse pseudo-first-order constant at C_ref.
+        let k_eq = reversible.then(|| {
+            let ln_k: f64 = st.products.iter().map(|&j| c_std[j].ln()).sum::<f64>()
+                - st.reactants.iter().map(|&j| c_std[j].ln()).sum::<f64>();
+            ln_k.exp()
+        });
+        // The faster direction gets κ, so neither exceeds the top of KAPPA_RANGE.
+        let kappa_fwd = match k_eq {
+            Some(k) => kappa * (k * c_ref.powi(-dn)).min(1.0),
+            None => kappa,
+        };
         let k = match st.order() {
-            1 => format!("{kappa:.6e} 1/s"),
-            _ => format!("{:.6e} m3/(mol*s)", kappa / c_ref),
+            1 => format!("{kappa_fwd:.6e} 1/s"),
+            _ => format!("{:.6e} m3/(mol*s)", kappa_fwd / c_ref),
         };
         let arrow = if reversible { "<=>" } else { "->" };
         let _ = write!(
@@ -446,12 +460,8 @@ pub fn generate_study(spec: &GeneratorSpec) -> Result<String, String> {
             side(&layout, &st.reactants),
             side(&layout, &st.products)
         );
-        if reversible {
-            // K_c = Π c°_j^ν_j, in (mol/m3)^Σν.
-            let ln_k: f64 = st.products.iter().map(|&j| c_std[j].ln()).sum::<f64>()
-                - st.reactants.iter().map(|&j| c_std[j].ln()).sum::<f64>();
-            let kv = ln_k.exp();
-            let unit = match st.mole_change() {
+        if let Some(kv) = k_eq {
+            let unit = match dn {
                 0 => "",
                 -1 => " m3/mol",
                 1 => " mol/m3",
@@ -492,10 +502,7 @@ pub fn generate_study(spec: &GeneratorSpec) -> Result<String, String> {
             let _ = writeln!(out, "  type: pfr\n  volume: {:.12e} m3", SPACE_TIME * v0);
         }
         (true, false) => {
-            let _ = writeln!(
-                out,
-                "  type: batch\n  volume: 1 m3\n  time: {SPACE_TIME} s"
-            );
+            let _ = writeln!(out, "  type: batch\n  volume: 1 m3\n  time: {SPACE_TIME} s");
         }
         (true, true) => {
             // A gas charge fills V = N_T0 R T0 / P0 (ideal gas).
@@ -580,7 +587,11 @@ mod tests {
         let text = generate_study(&spec(80, 240, 11)).unwrap();
         let net = crate::load_str(&text, "generated", &[]).unwrap();
         let c = analysis::check(&net);
-        assert!(c.unreachable_species.is_empty(), "{:?}", c.unreachable_species);
+        assert!(
+            c.unreachable_species.is_empty(),
+            "{:?}",
+            c.unreachable_species
+        );
         assert!(c.dead_reactions.is_empty(), "{:?}", c.dead_reactions);
         // A multiple of another step would show as a one-member dependent combination.
         assert!(c.dependent.iter().all(|d| d.combination.len() > 1));
@@ -631,15 +642,24 @@ mod tests {
         let mut hi = 0.0_f64;
         for r in &net.reactions {
             let order: f64 = r.rate.orders.iter().map(|(_, a)| a).sum();
-            // κ = k C_ref^(order − 1) is the pseudo-first-order constant.
-            let kappa = r.rate.k_ref * c_ref.powf(order - 1.0);
+            // κ = k C_ref^(order − 1) is the pseudo-first-order constant; for a reversible
+            // step the reverse one is κ_f / (K_c C_ref^(−Σν)) and the faster of the two is
+            // the drawn κ.
+            let kappa_f = r.rate.k_ref * c_ref.powf(order - 1.0);
+            let fastest = match &r.rate.equilibrium {
+                Some(eq) => {
+                    let k_dimless = eq.k_ref * c_ref.powf(-r.mole_change());
+                    kappa_f.max(kappa_f / k_dimless)
+                }
+                None => kappa_f,
+            };
             assert!(
-                kappa >= KAPPA_RANGE.0 * 0.999 && kappa <= KAPPA_RANGE.1 * 1.001,
-                "{}: κ = {kappa}",
+                fastest >= KAPPA_RANGE.0 * 0.999 && fastest <= KAPPA_RANGE.1 * 1.001,
+                "{}: fastest κ = {fastest}",
                 r.id
             );
-            lo = lo.min(kappa);
-            hi = hi.max(kappa);
+            lo = lo.min(fastest);
+            hi = hi.max(fastest);
         }
         // 600 log-uniform draws over 10 decades: the extremes fall within a decade of the ends.
         assert!(lo < 1e-2 && hi > 1e6, "κ in [{lo}, {hi}]");

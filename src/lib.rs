@@ -15,6 +15,7 @@ pub mod model;
 pub mod reactor;
 pub mod report;
 pub mod solve;
+pub mod studies;
 pub mod units;
 
 pub use model::{LoadError, Network, Override, load_file, load_str};

@@ -3,6 +3,7 @@
 //! 0 success, 1 the analysis found errors (or a run failed), 2 the input cannot be used.
 
 mod cli;
+mod studies_cli;
 
 fn main() {
     std::process::exit(cli::main());

@@ -190,15 +190,16 @@ pub fn check(net: &Network) -> Check {
         }
     }
     if let Some(bound) = el.bound
-        && st.rank > bound {
-            add(
-                Severity::Error,
-                format!(
-                    "{} independent reactions, but the elements allow at most {bound} (species − rank of the element matrix)",
-                    st.rank
-                ),
-            );
-        }
+        && st.rank > bound
+    {
+        add(
+            Severity::Error,
+            format!(
+                "{} independent reactions, but the elements allow at most {bound} (species − rank of the element matrix)",
+                st.rank
+            ),
+        );
+    }
     for c in &cycles {
         if !c.consistent {
             let d = st
@@ -219,17 +220,18 @@ pub fn check(net: &Network) -> Check {
             );
         }
         if let Some((given, combined)) = c.dh
-            && (given - combined).abs() > 1e-6 * given.abs().max(combined.abs()).max(1.0) {
-                add(
-                    Severity::Warning,
-                    format!(
-                        "heats of reaction disagree with Hess's law for `{}`: given {:.6e} J/mol, combination gives {:.6e} J/mol (a missing dH counts as 0); the K's can then agree at one temperature only",
-                        rx(c.reaction),
-                        given,
-                        combined
-                    ),
-                );
-            }
+            && (given - combined).abs() > 1e-6 * given.abs().max(combined.abs()).max(1.0)
+        {
+            add(
+                Severity::Warning,
+                format!(
+                    "heats of reaction disagree with Hess's law for `{}`: given {:.6e} J/mol, combination gives {:.6e} J/mol (a missing dH counts as 0); the K's can then agree at one temperature only",
+                    rx(c.reaction),
+                    given,
+                    combined
+                ),
+            );
+        }
     }
     // Species usage.
     for (j, s) in net.species.iter().enumerate() {
@@ -284,12 +286,13 @@ pub fn check(net: &Network) -> Check {
         );
     }
     if let Some(d) = net.desired
-        && !net.reactions.iter().any(|r| r.nu(d) > 0.0) {
-            add(
-                Severity::Error,
-                format!("desired product `{}` is made by no reaction", sp(d)),
-            );
-        }
+        && !net.reactions.iter().any(|r| r.nu(d) > 0.0)
+    {
+        add(
+            Severity::Error,
+            format!("desired product `{}` is made by no reaction", sp(d)),
+        );
+    }
     for &j in &gr.unreachable_species {
         add(
             Severity::Warning,

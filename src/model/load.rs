@@ -74,6 +74,12 @@ impl std::str::FromStr for Override {
 
 /// Read and load a study file.
 pub fn load_file(path: &std::path::Path, overrides: &[Override]) -> Result<Network, LoadError> {
+    let text = read_text(path)?;
+    load_str(&text, &path.display().to_string(), overrides)
+}
+
+/// Read a study file's text: refuses files over [`MAX_FILE_BYTES`] and text that is not UTF-8.
+pub fn read_text(path: &std::path::Path) -> Result<String, LoadError> {
     let name = path.display().to_string();
     let whole = |message: String| LoadError {
         file: name.clone(),
@@ -90,13 +96,12 @@ pub fn load_file(path: &std::path::Path, overrides: &[Override]) -> Result<Netwo
         )));
     }
     let bytes = std::fs::read(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
-    let text = String::from_utf8(bytes).map_err(|e| {
+    String::from_utf8(bytes).map_err(|e| {
         whole(format!(
             "the file is not UTF-8 text (invalid byte at offset {})",
             e.utf8_error().valid_up_to()
         ))
-    })?;
-    load_str(&text, &name, overrides)
+    })
 }
 
 /// Load a study from its text; `file` names it in messages.
@@ -916,13 +921,14 @@ fn build_feed(
                     })?;
                     let v_ideal = total * GAS_CONSTANT * temperature / p;
                     if let Some(v) = given
-                        && (v - v_ideal).abs() / v_ideal > IDEAL_GAS_CONSISTENCY {
-                            return Err(cx.err(
+                        && (v - v_ideal).abs() / v_ideal > IDEAL_GAS_CONSISTENCY
+                    {
+                        return Err(cx.err(
                                 "feed.volumetric",
                                 &format!("for an ideal gas F_T0 R T0 / P0 = {v_ideal:.6e} m3/s, but volumetric = {v:.6e} m3/s"),
                                 Some("drop `volumetric` (it follows from flows, T and P) or correct it".into()),
                             ));
-                        }
+                    }
                     v_ideal
                 } else {
                     given.ok_or_else(|| {

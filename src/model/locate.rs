@@ -78,9 +78,10 @@ impl MarkedEventReceiver for Builder {
                 Event::MappingEnd | Event::SequenceEnd => {
                     self.skipping -= 1;
                     if self.skipping == 0
-                        && let Some(Frame::Map { key, .. }) = self.stack.last_mut() {
-                            *key = Some("?".to_string());
-                        }
+                        && let Some(Frame::Map { key, .. }) = self.stack.last_mut()
+                    {
+                        *key = Some("?".to_string());
+                    }
                 }
                 _ => {}
             }

@@ -11,7 +11,7 @@ pub mod formula;
 mod load;
 pub mod locate;
 
-pub use load::{LoadError, Override, load_file, load_str};
+pub use load::{LoadError, Override, load_file, load_str, read_text};
 
 use formula::Formula;
 use num_rational::BigRational;
@@ -268,5 +268,42 @@ impl Network {
             }
         }
         tri.to_csc()
+    }
+}
+
+/// The name in `names` closest to `name` (at most two edits, or equal ignoring case), for
+/// "did you mean" hints.
+pub fn closest_name<'a>(name: &str, names: &[&'a str]) -> Option<&'a str> {
+    load::closest(name, names.iter().copied())
+}
+
+impl Network {
+    /// The reactor size (V, W or batch time, SI).
+    pub fn size(&self) -> f64 {
+        match self.reactor {
+            Reactor::Pfr { volume } | Reactor::Cstr { volume } => volume,
+            Reactor::Pbr { catalyst, .. } => catalyst,
+            Reactor::Batch { time, .. } => time,
+        }
+    }
+
+    /// The same study with another reactor size (V, W or batch time, SI, positive).
+    pub fn with_size(&self, size: f64) -> Network {
+        let mut n = self.clone();
+        match &mut n.reactor {
+            Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
+            Reactor::Pbr { catalyst, .. } => *catalyst = size,
+            Reactor::Batch { time, .. } => *time = size,
+        }
+        n
+    }
+
+    /// The key of the reactor size in the study file (`reactor.volume`, ...).
+    pub fn size_path(&self) -> &'static str {
+        match self.reactor {
+            Reactor::Pfr { .. } | Reactor::Cstr { .. } => "reactor.volume",
+            Reactor::Pbr { .. } => "reactor.catalyst",
+            Reactor::Batch { .. } => "reactor.time",
+        }
     }
 }

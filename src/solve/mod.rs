@@ -251,9 +251,10 @@ pub fn simulate_with(
                         &ode_opts,
                     );
                     if let Ok(sol) = before
-                        && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE) {
-                            return SolveError::PressureCollapse { w: x };
-                        }
+                        && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
+                    {
+                        return SolveError::PressureCollapse { w: x };
+                    }
                 }
                 SolveError::Integration {
                     reactor,
@@ -274,9 +275,10 @@ pub fn simulate_with(
                 .collect::<Vec<f64>>()
         });
         if let Some(p) = &pressure
-            && let Some(k) = p.iter().position(|v| !(*v > 0.0)) {
-                return Err(SolveError::PressureCollapse { w: sol.x[k] });
-            }
+            && let Some(k) = p.iter().position(|v| !(*v > 0.0))
+        {
+            return Err(SolveError::PressureCollapse { w: sol.x[k] });
+        }
         Simulation {
             x_name,
             x_unit,
@@ -324,4 +326,77 @@ pub fn batch_volume(net: &Network, n: &[f64]) -> f64 {
         } => n.iter().sum::<f64>() * GAS_CONSTANT * net.feed.temperature / net.feed.pressure,
         _ => net.feed.volumetric,
     }
+}
+
+/// The ODE options of a solve (tolerances in force, pressure state tolerance).
+pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> OdeOptions {
+    let (rtol, atol) = tolerances(net, opts);
+    let mut atols = vec![atol; balance.dim()];
+    if balance.has_pressure() {
+        atols[net.species.len()] = 1e-12;
+    }
+    OdeOptions {
+        rtol,
+        atol: atols,
+        max_steps: opts.max_steps.or(net.solver.max_steps).unwrap_or(200_000),
+        first_step: None,
+        linear_algebra: opts.linear_algebra,
+    }
+}
+
+fn study_error(net: &Network, x: f64, source: OdeError) -> SolveError {
+    let (x_name, x_unit, _) = reactor_axis(net);
+    SolveError::Integration {
+        reactor: match net.reactor {
+            Reactor::Pfr { .. } => "PFR",
+            Reactor::Pbr { .. } => "packed bed",
+            _ => "batch reactor",
+        },
+        x_name,
+        x_unit,
+        x,
+        source,
+    }
+}
+
+/// Integrate the (autonomous, isothermal) balances from state `y0` over a length `length` of
+/// the reactor and return the end state (full state: species, then p where modelled).
+pub fn advance(
+    net: &Network,
+    balance: &Balance,
+    y0: &[f64],
+    length: f64,
+    opts: &SolveOptions,
+) -> Result<Vec<f64>, SolveError> {
+    let o = ode_options(net, balance, opts);
+    let sol = ode::integrate(&Adapter(balance), y0, length, &Output::End, &o)
+        .map_err(|e| study_error(net, length, e))?;
+    Ok(sol
+        .y
+        .last()
+        .expect("the solution has its end point")
+        .clone())
+}
+
+/// Integrate from `y0` over `length` until g(y) crosses zero. Returns the crossing (distance
+/// from the start, full state) if any, and the last state reached.
+#[allow(clippy::type_complexity)]
+pub fn trace_root(
+    net: &Network,
+    balance: &Balance,
+    y0: &[f64],
+    length: f64,
+    g: &dyn Fn(&[f64]) -> f64,
+    opts: &SolveOptions,
+) -> Result<(Option<(f64, Vec<f64>)>, Vec<f64>), SolveError> {
+    let o = ode_options(net, balance, opts);
+    let gx = |_x: f64, y: &[f64]| g(y);
+    let (sol, root) = ode::integrate_until_root(&Adapter(balance), &gx, y0, length, &o)
+        .map_err(|e| study_error(net, length, e))?;
+    let last = sol
+        .y
+        .last()
+        .expect("the solution has its end point")
+        .clone();
+    Ok((root, last))
 }

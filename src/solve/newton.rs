@@ -217,3 +217,26 @@ pub fn solve_cstr(
     stats.residual = norm_inf(&g);
     Ok((f, stats))
 }
+
+/// dF/dV at a steady state: differentiating F_0 − F + V f(F) = 0 in V gives
+/// (−I + V ∂f/∂F) dF/dV = −f(F) (implicit function theorem). None if the matrix is singular.
+pub fn volume_sensitivity(b: &Balance, volume: f64, f: &[f64]) -> Option<Vec<f64>> {
+    let n = f.len();
+    let mut trip = Vec::new();
+    b.jacobian(f, &mut trip);
+    let mut jm = DMatrix::<f64>::zeros(n, n);
+    for &(r, c, val) in &trip {
+        if r < n && c < n {
+            jm[(r, c)] += volume * val;
+        }
+    }
+    for j in 0..n {
+        jm[(j, j)] -= 1.0;
+    }
+    let mut rhs = vec![0.0; n];
+    b.rhs(f, &mut rhs);
+    let rhs = DVector::from_iterator(n, rhs.iter().map(|x| -x));
+    let x = jm.lu().solve(&rhs)?;
+    let out: Vec<f64> = x.iter().copied().collect();
+    out.iter().all(|v| v.is_finite()).then_some(out)
+}

@@ -1,0 +1,200 @@
+//! SVG plots (plotters): a run's profile along the reactor, a sweep's line or heat map.
+//! Axis labels carry units; each series is labelled at its line's end, so no legend hunt.
+
+use plotters::prelude::*;
+
+/// Colours for the lines (a plain qualitative set of our own).
+const COLOURS: [RGBColor; 8] = [
+    RGBColor(31, 90, 160),
+    RGBColor(200, 80, 30),
+    RGBColor(40, 140, 60),
+    RGBColor(150, 50, 150),
+    RGBColor(120, 100, 40),
+    RGBColor(20, 150, 150),
+    RGBColor(200, 40, 90),
+    RGBColor(90, 90, 90),
+];
+
+fn bounds(values: impl Iterator<Item = f64>) -> (f64, f64) {
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for v in values.filter(|v| v.is_finite()) {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    if !lo.is_finite() {
+        return (0.0, 1.0);
+    }
+    if hi - lo <= 1e-300 {
+        let pad = if lo.abs() > 0.0 { 0.05 * lo.abs() } else { 1.0 };
+        return (lo - pad, hi + pad);
+    }
+    let pad = 0.05 * (hi - lo);
+    (lo - pad, hi + pad)
+}
+
+/// Lines y_k(x) with names, and an optional marked point (x, y, label).
+pub struct LinePlot<'a> {
+    pub title: &'a str,
+    pub x_label: &'a str,
+    pub y_label: &'a str,
+    pub x: &'a [f64],
+    pub series: Vec<(String, Vec<f64>)>,
+    pub mark: Option<(f64, f64, String)>,
+}
+
+/// Draw a line plot into an SVG string.
+pub fn line_svg(p: &LinePlot) -> Result<String, String> {
+    let mut out = String::new();
+    {
+        let root = SVGBackend::with_string(&mut out, (900, 560)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| e.to_string())?;
+        let (x0, x1) = bounds(p.x.iter().copied());
+        let (y0, y1) = bounds(p.series.iter().flat_map(|(_, v)| v.iter().copied()));
+        let mut chart = ChartBuilder::on(&root)
+            .caption(p.title, ("sans-serif", 20))
+            .margin(15)
+            .margin_right(120)
+            .x_label_area_size(50)
+            .y_label_area_size(80)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(|e| e.to_string())?;
+        chart
+            .configure_mesh()
+            .x_desc(p.x_label)
+            .y_desc(p.y_label)
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(|e| e.to_string())?;
+        for (k, (name, ys)) in p.series.iter().enumerate() {
+            let colour = COLOURS[k % COLOURS.len()];
+            let pts: Vec<(f64, f64)> =
+                p.x.iter()
+                    .copied()
+                    .zip(ys.iter().copied())
+                    .filter(|(_, y)| y.is_finite())
+                    .collect();
+            chart
+                .draw_series(LineSeries::new(pts.clone(), colour.stroke_width(2)))
+                .map_err(|e| e.to_string())?;
+            if let Some(&(xl, yl)) = pts.last() {
+                chart
+                    .draw_series(std::iter::once(Text::new(
+                        format!(" {name}"),
+                        (xl, yl),
+                        ("sans-serif", 15).into_font().color(&colour),
+                    )))
+                    .map_err(|e| e.to_string())?;
+            }
+        }
+        if let Some((mx, my, label)) = &p.mark {
+            chart
+                .draw_series(std::iter::once(Circle::new(
+                    (*mx, *my),
+                    6,
+                    BLACK.stroke_width(2),
+                )))
+                .map_err(|e| e.to_string())?;
+            chart
+                .draw_series(std::iter::once(Text::new(
+                    format!("  {label}"),
+                    (*mx, *my),
+                    ("sans-serif", 14).into_font(),
+                )))
+                .map_err(|e| e.to_string())?;
+        }
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(out)
+}
+
+/// A heat map of z over a grid (xs × ys), z[i][j] at (xs[i], ys[j]); None cells are grey.
+pub struct HeatMap<'a> {
+    pub title: &'a str,
+    pub x_label: &'a str,
+    pub y_label: &'a str,
+    pub z_label: &'a str,
+    pub xs: &'a [f64],
+    pub ys: &'a [f64],
+    pub z: Vec<Vec<Option<f64>>>,
+}
+
+fn heat_colour(t: f64) -> RGBColor {
+    // Light yellow (low) to dark blue (high), a sequential ramp of our own.
+    let t = t.clamp(0.0, 1.0);
+    let lerp = |a: f64, b: f64| (a + (b - a) * t).round() as u8;
+    RGBColor(lerp(250.0, 20.0), lerp(240.0, 50.0), lerp(180.0, 130.0))
+}
+
+/// Draw a heat map into an SVG string, with a colour bar.
+pub fn heat_svg(h: &HeatMap) -> Result<String, String> {
+    let mut out = String::new();
+    {
+        let root = SVGBackend::with_string(&mut out, (900, 600)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| e.to_string())?;
+        let (main, bar) = root.split_horizontally(760);
+        let step = |v: &[f64]| {
+            if v.len() > 1 {
+                (v[v.len() - 1] - v[0]) / (v.len() - 1) as f64
+            } else {
+                1.0
+            }
+        };
+        let (dx, dy) = (step(h.xs), step(h.ys));
+        let (x0, x1) = (h.xs[0] - dx / 2.0, h.xs[h.xs.len() - 1] + dx / 2.0);
+        let (y0, y1) = (h.ys[0] - dy / 2.0, h.ys[h.ys.len() - 1] + dy / 2.0);
+        let (zlo, zhi) = bounds(h.z.iter().flatten().flatten().copied());
+        let mut chart = ChartBuilder::on(&main)
+            .caption(h.title, ("sans-serif", 20))
+            .margin(15)
+            .x_label_area_size(50)
+            .y_label_area_size(80)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(|e| e.to_string())?;
+        chart
+            .configure_mesh()
+            .x_desc(h.x_label)
+            .y_desc(h.y_label)
+            .disable_mesh()
+            .draw()
+            .map_err(|e| e.to_string())?;
+        for (i, x) in h.xs.iter().enumerate() {
+            for (j, y) in h.ys.iter().enumerate() {
+                let colour = match h.z[i][j] {
+                    Some(z) => heat_colour((z - zlo) / (zhi - zlo)),
+                    None => RGBColor(200, 200, 200),
+                };
+                chart
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(x - dx / 2.0, y - dy / 2.0), (x + dx / 2.0, y + dy / 2.0)],
+                        colour.filled(),
+                    )))
+                    .map_err(|e| e.to_string())?;
+            }
+        }
+        let mut cb = ChartBuilder::on(&bar)
+            .margin(15)
+            .margin_top(50)
+            .y_label_area_size(70)
+            .caption(h.z_label, ("sans-serif", 14))
+            .build_cartesian_2d(0.0..1.0, zlo..zhi)
+            .map_err(|e| e.to_string())?;
+        cb.configure_mesh()
+            .disable_x_axis()
+            .disable_mesh()
+            .y_label_style(("sans-serif", 13))
+            .draw()
+            .map_err(|e| e.to_string())?;
+        let n = 60;
+        for k in 0..n {
+            let a = zlo + (zhi - zlo) * k as f64 / n as f64;
+            let b = zlo + (zhi - zlo) * (k + 1) as f64 / n as f64;
+            cb.draw_series(std::iter::once(Rectangle::new(
+                [(0.0, a), (1.0, b)],
+                heat_colour(k as f64 / n as f64).filled(),
+            )))
+            .map_err(|e| e.to_string())?;
+        }
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(out)
+}

@@ -1,0 +1,7 @@
+//! Design studies on top of the pipeline: optimise, sweep, compare. Each calls the same
+//! load → solve → metrics path many times; per-run set-up is one load and one `Balance`.
+
+pub mod compare;
+pub mod optimize;
+pub mod sweep;
+pub mod target;

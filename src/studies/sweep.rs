@@ -1,0 +1,288 @@
+//! `rxnet sweep`: a full grid over one or more inputs, each point a full run, in parallel.
+//!
+//! Points are numbered in row-major order (the last `--vary` changes fastest). `--shard K/N`
+//! keeps the points whose number p satisfies p mod N = K − 1, so the shards of a cluster job
+//! array together cover the grid once; their CSVs concatenate (only shard 1 writes the header)
+//! and, sorted by the `point` column, equal the unsharded sweep.
+
+use super::optimize::{Study, Variable};
+use crate::metrics;
+use crate::model::Network;
+use crate::solve::{self, SolveOptions};
+use rayon::prelude::*;
+
+/// Most points one sweep may have (a bound on time and memory; split larger grids into shards).
+pub const MAX_POINTS: usize = 1_000_000;
+
+/// One varied input: `PATH=LO:HI:N` or `PATH=LO:HI:N:log`.
+#[derive(Debug, Clone)]
+pub struct Axis {
+    pub var: Variable,
+    pub n: usize,
+    pub log: bool,
+}
+
+impl Axis {
+    pub fn parse(s: &str) -> Result<Axis, String> {
+        let (path, spec) = s.split_once('=').ok_or_else(|| {
+            format!("`{s}`: a varied input is PATH=LO:HI:N, e.g. feed.T=300 K:400 K:11")
+        })?;
+        let parts: Vec<&str> = spec.split(':').collect();
+        let (lo, hi, n, log) = match parts.as_slice() {
+            [lo, hi, n] => (*lo, *hi, *n, false),
+            [lo, hi, n, "log"] => (*lo, *hi, *n, true),
+            _ => return Err(format!("`{s}`: expected PATH=LO:HI:N or PATH=LO:HI:N:log")),
+        };
+        let n: usize = n
+            .trim()
+            .parse()
+            .map_err(|_| format!("`{s}`: the number of points `{n}` is not a whole number"))?;
+        if n == 0 {
+            return Err(format!("`{s}`: at least one point is needed"));
+        }
+        if n > MAX_POINTS {
+            return Err(format!(
+                "`{s}`: {n} points on one axis is more than the {MAX_POINTS} a sweep may have"
+            ));
+        }
+        let var = Variable::new(path.trim(), lo, hi)?;
+        if log && var.lo <= 0.0 {
+            return Err(format!("`{s}`: a log axis needs LO > 0"));
+        }
+        Ok(Axis { var, n, log })
+    }
+
+    /// The k-th value of the axis.
+    pub fn value(&self, k: usize) -> f64 {
+        if self.n == 1 {
+            return self.var.lo;
+        }
+        let t = k as f64 / (self.n - 1) as f64;
+        if self.log {
+            (self.var.lo.ln() + t * (self.var.hi.ln() - self.var.lo.ln())).exp()
+        } else {
+            self.var.lo + t * (self.var.hi - self.var.lo)
+        }
+    }
+}
+
+/// The metrics of one successful point.
+#[derive(Debug, Clone)]
+pub struct PointResult {
+    pub conversion: f64,
+    /// Per product (column order of [`Columns`]).
+    pub yields: Vec<Option<f64>>,
+    pub selectivity: Vec<Option<f64>>,
+    pub outlet: Vec<f64>,
+}
+
+#[derive(Debug, Clone)]
+pub struct SweepRow {
+    pub point: usize,
+    pub inputs: Vec<f64>,
+    pub result: Result<PointResult, String>,
+}
+
+/// Column names, fixed by the base study.
+#[derive(Debug, Clone)]
+pub struct Columns {
+    pub inputs: Vec<String>,
+    pub products: Vec<String>,
+    pub desired: Option<String>,
+    pub others: Vec<String>,
+    pub species: Vec<String>,
+    pub state_unit: &'static str,
+}
+
+impl Columns {
+    pub fn new(net: &Network, axes: &[Axis]) -> Columns {
+        let products: Vec<String> = metrics::products(net)
+            .iter()
+            .map(|&j| net.species[j].name.clone())
+            .collect();
+        let desired = net.desired.map(|d| net.species[d].name.clone());
+        let others = products
+            .iter()
+            .filter(|p| Some(*p) != desired.as_ref())
+            .cloned()
+            .collect();
+        Columns {
+            inputs: axes
+                .iter()
+                .map(|a| {
+                    if a.var.unit.is_empty() {
+                        a.var.path.clone()
+                    } else {
+                        format!("{} [{}]", a.var.path, a.var.unit)
+                    }
+                })
+                .collect(),
+            products,
+            desired,
+            others,
+            species: net.species.iter().map(|s| s.name.clone()).collect(),
+            state_unit: if net.reactor.is_batch() {
+                "mol"
+            } else {
+                "mol/s"
+            },
+        }
+    }
+}
+
+/// Total number of grid points, refused above [`MAX_POINTS`].
+pub fn grid_size(axes: &[Axis]) -> Result<usize, String> {
+    let mut total: usize = 1;
+    for a in axes {
+        total = total
+            .checked_mul(a.n)
+            .filter(|t| *t <= MAX_POINTS)
+            .ok_or_else(|| format!("the grid has more than {MAX_POINTS} points; use fewer points or split it with --shard"))?;
+    }
+    Ok(total)
+}
+
+/// Inputs of point p (row-major, last axis fastest).
+pub fn point_inputs(axes: &[Axis], p: usize) -> Vec<f64> {
+    let mut k = p;
+    let mut idx = vec![0; axes.len()];
+    for (i, a) in axes.iter().enumerate().rev() {
+        idx[i] = k % a.n;
+        k /= a.n;
+    }
+    axes.iter().zip(idx).map(|(a, i)| a.value(i)).collect()
+}
+
+fn run_point(
+    study: &Study,
+    cols: &Columns,
+    axes: &[Axis],
+    inputs: &[f64],
+    opts: &SolveOptions,
+) -> Result<PointResult, String> {
+    let sets: Vec<_> = axes
+        .iter()
+        .zip(inputs)
+        .map(|(a, v)| a.var.set(*v))
+        .collect();
+    let net = study.load(&sets).map_err(|e| e.to_string())?;
+    let sim = solve::simulate(&net, opts).map_err(|e| e.to_string())?;
+    let m = metrics::compute(&net, sim.outlet());
+    let find_y = |name: &String| {
+        m.yields
+            .iter()
+            .find(|y| &y.species == name)
+            .and_then(|y| y.on_key)
+    };
+    let find_s = |name: &String| {
+        m.selectivity
+            .iter()
+            .find(|s| &s.over == name)
+            .and_then(|s| s.value)
+    };
+    Ok(PointResult {
+        conversion: m.conversion,
+        yields: cols.products.iter().map(find_y).collect(),
+        selectivity: cols.others.iter().map(find_s).collect(),
+        outlet: sim.outlet().to_vec(),
+    })
+}
+
+/// Run the grid (or one shard of it) in parallel. `progress` is called once per finished point.
+pub fn run(
+    study: &Study,
+    cols: &Columns,
+    axes: &[Axis],
+    shard: Option<(usize, usize)>,
+    opts: &SolveOptions,
+    progress: &(dyn Fn() + Sync),
+) -> Result<Vec<SweepRow>, String> {
+    let total = grid_size(axes)?;
+    let points: Vec<usize> = match shard {
+        None => (0..total).collect(),
+        Some((k, n)) => (0..total).filter(|p| p % n == k - 1).collect(),
+    };
+    Ok(points
+        .into_par_iter()
+        .map(|p| {
+            let inputs = point_inputs(axes, p);
+            let result = run_point(study, cols, axes, &inputs, opts);
+            progress();
+            SweepRow {
+                point: p,
+                inputs,
+                result,
+            }
+        })
+        .collect())
+}
+
+/// A number in its shortest round-trip form, in scientific notation when very small or large.
+pub fn fmt_num(x: f64) -> String {
+    let a = x.abs();
+    if x == 0.0 || (1e-4..1e15).contains(&a) {
+        format!("{x}")
+    } else {
+        format!("{x:e}")
+    }
+}
+
+fn opt(v: Option<f64>) -> String {
+    v.map(fmt_num).unwrap_or_default()
+}
+
+/// The rows as CSV; numbers in SI (inputs in the unit of their bounds), shortest round-trip form.
+pub fn csv(cols: &Columns, rows: &[SweepRow], header: bool) -> String {
+    use crate::report::run::csv_field;
+    let mut o = String::new();
+    if header {
+        let mut h: Vec<String> = vec!["point".into()];
+        h.extend(cols.inputs.iter().cloned());
+        h.push("status".into());
+        h.push("conversion".into());
+        h.extend(cols.products.iter().map(|p| format!("yield:{p}")));
+        if let Some(d) = &cols.desired {
+            h.extend(cols.others.iter().map(|u| format!("selectivity:{d}/{u}")));
+        }
+        h.extend(
+            cols.species
+                .iter()
+                .map(|s| format!("{s} [{}]", cols.state_unit)),
+        );
+        h.push("error".into());
+        o.push_str(&h.iter().map(|s| csv_field(s)).collect::<Vec<_>>().join(","));
+        o.push('\n');
+    }
+    for r in rows {
+        let mut f: Vec<String> = vec![r.point.to_string()];
+        f.extend(r.inputs.iter().map(|v| fmt_num(*v)));
+        match &r.result {
+            Ok(p) => {
+                f.push("ok".into());
+                f.push(fmt_num(p.conversion));
+                f.extend(p.yields.iter().map(|v| opt(*v)));
+                if cols.desired.is_some() {
+                    f.extend(p.selectivity.iter().map(|v| opt(*v)));
+                }
+                f.extend(p.outlet.iter().map(|v| fmt_num(*v)));
+                f.push(String::new());
+            }
+            Err(e) => {
+                f.push("failed".into());
+                let blanks = 1
+                    + cols.products.len()
+                    + if cols.desired.is_some() {
+                        cols.others.len()
+                    } else {
+                        0
+                    }
+                    + cols.species.len();
+                f.extend(std::iter::repeat_n(String::new(), blanks));
+                f.push(csv_field(e));
+            }
+        }
+        o.push_str(&f.join(","));
+        o.push('\n');
+    }
+    o
+}
