@@ -206,27 +206,13 @@ pub fn simulate_with(
     } else {
         stats.method = "BDF (diffsol, analytic Jacobian)";
         let y0 = balance.initial_state(net);
-        let mut atols = vec![atol; balance.dim()];
-        if balance.has_pressure() {
-            atols[n] = 1e-12;
-        }
-        let ode_opts = OdeOptions {
-            rtol,
-            atol: atols,
-            max_steps: opts.max_steps.or(net.solver.max_steps).unwrap_or(200_000),
-            first_step: None,
-            linear_algebra: opts.linear_algebra,
-        };
+        let ode_opts = ode_options(net, balance, opts);
         let out = match opts.points {
             Points::End => Output::End,
             Points::Even(k) => Output::evenly_spaced(k, size),
             Points::Steps => Output::Steps,
         };
-        let reactor = match net.reactor {
-            Reactor::Pfr { .. } => "PFR",
-            Reactor::Pbr { .. } => "packed bed",
-            _ => "batch reactor",
-        };
+        let reactor = reactor_name(net);
         let sol =
             ode::integrate(&Adapter(balance), &y0, size, &out, &ode_opts).map_err(|source| {
                 let x = match &source {
@@ -328,6 +314,16 @@ pub fn batch_volume(net: &Network, n: &[f64]) -> f64 {
     }
 }
 
+/// The integrated reactor's name for messages.
+fn reactor_name(net: &Network) -> &'static str {
+    match net.reactor {
+        Reactor::Pfr { .. } => "PFR",
+        Reactor::Pbr { .. } => "packed bed",
+        Reactor::Cstr { .. } => "CSTR",
+        Reactor::Batch { .. } => "batch reactor",
+    }
+}
+
 /// The ODE options of a solve (tolerances in force, pressure state tolerance).
 pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> OdeOptions {
     let (rtol, atol) = tolerances(net, opts);
@@ -347,11 +343,7 @@ pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> Ode
 fn study_error(net: &Network, x: f64, source: OdeError) -> SolveError {
     let (x_name, x_unit, _) = reactor_axis(net);
     SolveError::Integration {
-        reactor: match net.reactor {
-            Reactor::Pfr { .. } => "PFR",
-            Reactor::Pbr { .. } => "packed bed",
-            _ => "batch reactor",
-        },
+        reactor: reactor_name(net),
         x_name,
         x_unit,
         x,
