@@ -44,34 +44,7 @@ enum SweepFormat {
 #[derive(Subcommand)]
 enum Command {
     /// Simulate the study's reactor: outlet, conversion, yields, selectivities.
-    Run {
-        file: PathBuf,
-        #[arg(long, value_enum, default_value_t = RunFormat::Table)]
-        format: RunFormat,
-        /// Write the profile along the reactor to this CSV file.
-        #[arg(long, value_name = "FILE.csv")]
-        profile: Option<PathBuf>,
-        /// Number of evenly spaced profile points, inlet and outlet included (default 51 when a profile is asked).
-        #[arg(long)]
-        points: Option<usize>,
-        /// Report every internal step of the integrator instead of even points.
-        #[arg(long, conflicts_with = "points")]
-        steps: bool,
-        /// Relative tolerance of the integration (default 1e-8).
-        #[arg(long)]
-        rtol: Option<f64>,
-        /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch); default 1e-12 of the total feed.
-        #[arg(long)]
-        atol: Option<f64>,
-        /// Also print the element balance closure.
-        #[arg(long, short)]
-        verbose: bool,
-        /// Draw the species profile along the reactor to this SVG file.
-        #[arg(long, value_name = "FILE.svg")]
-        plot: Option<PathBuf>,
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        set: Vec<Override>,
-    },
+    Run(RunArgs),
     /// Find the reactor size (default) or other inputs that maximise a target.
     Optimize {
         file: PathBuf,
@@ -191,29 +164,7 @@ pub fn main() -> i32 {
     match cli.command {
         Command::Check { file, format, set } => check(&file, format, &set),
         Command::Table { file, format, set } => table(&file, format, &set),
-        Command::Run {
-            file,
-            format,
-            profile,
-            points,
-            steps,
-            rtol,
-            atol,
-            verbose,
-            plot,
-            set,
-        } => run(&RunArgs {
-            file,
-            format,
-            profile,
-            points,
-            steps,
-            rtol,
-            atol,
-            verbose,
-            plot,
-            set,
-        }),
+        Command::Run(args) => run(&args),
         Command::Optimize {
             file,
             maximize,
@@ -311,16 +262,34 @@ fn table(file: &std::path::Path, format: Format, set: &[Override]) -> i32 {
     0
 }
 
+/// Arguments of `rxnet run`.
+#[derive(clap::Args)]
 struct RunArgs {
     file: PathBuf,
+    #[arg(long, value_enum, default_value_t = RunFormat::Table)]
     format: RunFormat,
+    /// Write the profile along the reactor to this CSV file.
+    #[arg(long, value_name = "FILE.csv")]
     profile: Option<PathBuf>,
+    /// Number of evenly spaced profile points, inlet and outlet included (default 51 when a profile is asked).
+    #[arg(long)]
     points: Option<usize>,
+    /// Report every internal step of the integrator instead of even points.
+    #[arg(long, conflicts_with = "points")]
     steps: bool,
+    /// Relative tolerance of the integration (default 1e-8).
+    #[arg(long)]
     rtol: Option<f64>,
+    /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch); default 1e-12 of the total feed.
+    #[arg(long)]
     atol: Option<f64>,
+    /// Also print the element balance closure.
+    #[arg(long, short)]
     verbose: bool,
+    /// Draw the species profile along the reactor to this SVG file.
+    #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
+    #[arg(long = "set", value_name = "PATH=VALUE")]
     set: Vec<Override>,
 }
 

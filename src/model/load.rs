@@ -553,25 +553,18 @@ fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Reactor, LoadE
             ));
         }
     }
+    let volume = || {
+        size(
+            "volume",
+            &r.volume,
+            Dim::volume(),
+            "reactor volume",
+            "1.2 m3",
+        )
+    };
     Ok(match r.kind {
-        RawReactorType::Pfr => Reactor::Pfr {
-            volume: size(
-                "volume",
-                &r.volume,
-                Dim::volume(),
-                "reactor volume",
-                "1.2 m3",
-            )?,
-        },
-        RawReactorType::Cstr => Reactor::Cstr {
-            volume: size(
-                "volume",
-                &r.volume,
-                Dim::volume(),
-                "reactor volume",
-                "1.2 m3",
-            )?,
-        },
+        RawReactorType::Pfr => Reactor::Pfr { volume: volume()? },
+        RawReactorType::Cstr => Reactor::Cstr { volume: volume()? },
         RawReactorType::Pbr => {
             if r.volume.is_some() {
                 return Err(not_for(
@@ -611,13 +604,7 @@ fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Reactor, LoadE
             let volume = match (&r.volume, mode) {
                 // A constant-pressure gas batch gets its initial volume from the charge.
                 (None, BatchMode::ConstantPressure) => 0.0,
-                _ => size(
-                    "volume",
-                    &r.volume,
-                    Dim::volume(),
-                    "reactor volume",
-                    "1.2 m3",
-                )?,
+                _ => volume()?,
             };
             Reactor::Batch { volume, time, mode }
         }

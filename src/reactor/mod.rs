@@ -93,18 +93,17 @@ impl Balance {
         let feed = &net.feed;
         let c_tot = feed.pressure / (GAS_CONSTANT * feed.temperature);
         let gas = net.phase == Phase::Gas;
+        // Flow reactors: an ideal gas, or a liquid of constant density.
+        let flow = if gas {
+            Mixture::GasFlow { c_tot }
+        } else {
+            Mixture::Fixed {
+                volume: feed.volumetric,
+                sigma: 1.0,
+            }
+        };
         let (mixture, alpha) = match &net.reactor {
-            Reactor::Pfr { .. } | Reactor::Cstr { .. } => (
-                if gas {
-                    Mixture::GasFlow { c_tot }
-                } else {
-                    Mixture::Fixed {
-                        volume: feed.volumetric,
-                        sigma: 1.0,
-                    }
-                },
-                None,
-            ),
+            Reactor::Pfr { .. } | Reactor::Cstr { .. } => (flow, None),
             Reactor::Pbr { pressure_drop, .. } => {
                 let alpha = match pressure_drop {
                     None => None,
@@ -113,17 +112,7 @@ impl Balance {
                             .to_string()
                     })?),
                 };
-                (
-                    if gas {
-                        Mixture::GasFlow { c_tot }
-                    } else {
-                        Mixture::Fixed {
-                            volume: feed.volumetric,
-                            sigma: 1.0,
-                        }
-                    },
-                    alpha,
-                )
+                (flow, alpha)
             }
             Reactor::Batch { mode, .. } => (
                 match (gas, mode) {
