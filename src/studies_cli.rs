@@ -150,7 +150,12 @@ pub fn optimize(
             }
             Err(e) => {
                 eprintln!("error: {}: {e}", file.display());
-                return EXIT_FINDINGS;
+                // A bad request (bounds) is a command-line error; anything else a failed study.
+                return if matches!(e, rxnet::studies::optimize::StudyError::Invalid(_)) {
+                    EXIT_INVALID
+                } else {
+                    EXIT_FINDINGS
+                };
             }
         }
     } else {

@@ -154,3 +154,43 @@ impl Agreement {
         );
     }
 }
+
+/// A file in the system temporary directory that is removed when dropped.
+pub struct TempFile {
+    pub path: PathBuf,
+}
+
+impl TempFile {
+    /// The path as text (temporary paths are UTF-8 in the test environments).
+    pub fn p(&self) -> &str {
+        self.path.to_str().expect("temporary path is UTF-8")
+    }
+}
+
+impl Drop for TempFile {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_file(&self.path);
+    }
+}
+
+/// A study written to a temporary file that lives as long as the returned value.
+pub fn temp_study(tag: &str, yaml: &str) -> TempFile {
+    TempFile {
+        path: write_temp(tag, yaml),
+    }
+}
+
+/// A unique temporary path with extension `ext` for an output file (not created here).
+pub fn temp_out(tag: &str, ext: &str) -> TempFile {
+    let n = COUNTER.fetch_add(1, Ordering::SeqCst);
+    let nanos = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_nanos())
+        .unwrap_or(0);
+    TempFile {
+        path: std::env::temp_dir().join(format!(
+            "rxnet-test-{}-{tag}-{n}-{nanos}.{ext}",
+            std::process::id()
+        )),
+    }
+}
