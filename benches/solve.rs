@@ -9,7 +9,8 @@
 //! - `bundled/NAME`: whole `simulate()` of each networks/*.yaml without error findings;
 //! - `generated/NxR`: whole `simulate()` of generated liquid PFR studies (rxnet::generate,
 //!   seed 1), default options (Auto linear algebra: sparse above 60 states);
-//! - `linear_algebra/NxR/{dense,sparse}`: the same solve with the linear algebra forced;
+//! - `linear_algebra/NxR/{dense,sparse}`: the same solve with the linear algebra forced
+//!   (100/300 only; 1000/3000 dense is measured once with examples/solve_once.rs);
 //! - `rhs/NxR/...`: one evaluation of `Balance::rhs` against a plain loop over flat arrays
 //!   doing the same mass-action rates and the same multiply-adds over the ν non-zeros, the
 //!   scatter alone with the rates given, and one `Balance::jacobian`;
@@ -97,7 +98,9 @@ fn bench_linear_algebra(c: &mut Criterion) {
     g.sample_size(10)
         .warm_up_time(Duration::from_millis(200))
         .measurement_time(Duration::from_secs(3));
-    for (n, r) in [(100, 300), (1000, 3000)] {
+    // 1000/3000 dense takes ~18 s per solve here: measured once with
+    // `cargo run --release --example solve_once -- gen:1000:3000 dense` instead.
+    for (n, r) in [(100, 300)] {
         let net = generated(n, r);
         for (label, la) in [
             ("dense", LinearAlgebra::Dense),

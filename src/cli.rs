@@ -41,10 +41,28 @@ enum SweepFormat {
     Json,
 }
 
+#[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
+enum GenReactor {
+    Pfr,
+    Batch,
+}
+
 #[derive(Subcommand)]
 enum Command {
     /// Simulate the study's reactor: outlet, conversion, yields, selectivities.
     Run(RunArgs),
+    /// Write a generated, atom-consistent mass-action network (for benchmarks) to standard output.
+    Generate {
+        #[arg(long, default_value_t = 100)]
+        species: usize,
+        #[arg(long, default_value_t = 300)]
+        reactions: usize,
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Reactor of the generated study.
+        #[arg(long, value_enum, default_value_t = GenReactor::Pfr)]
+        reactor: GenReactor,
+    },
     /// Find the reactor size (default) or other inputs that maximise a target.
     Optimize {
         file: PathBuf,
@@ -165,6 +183,12 @@ pub fn main() -> i32 {
         Command::Check { file, format, set } => check(&file, format, &set),
         Command::Table { file, format, set } => table(&file, format, &set),
         Command::Run(args) => run(&args),
+        Command::Generate {
+            species,
+            reactions,
+            seed,
+            reactor,
+        } => generate(species, reactions, seed, reactor),
         Command::Optimize {
             file,
             maximize,
@@ -419,4 +443,28 @@ fn run(a: &RunArgs) -> i32 {
     };
     emit(&text);
     0
+}
+
+/// `rxnet generate`: a generated study on standard output; exit 2 for an impossible request.
+fn generate(species: usize, reactions: usize, seed: u64, reactor: GenReactor) -> i32 {
+    let spec = rxnet::generate::GeneratorSpec {
+        species,
+        reactions,
+        seed,
+        reactor: match reactor {
+            GenReactor::Pfr => rxnet::generate::GeneratedReactor::Pfr,
+            GenReactor::Batch => rxnet::generate::GeneratedReactor::Batch,
+        },
+        ..Default::default()
+    };
+    match rxnet::generate::generate_study(&spec) {
+        Ok(text) => {
+            emit(&text);
+            0
+        }
+        Err(m) => {
+            eprintln!("error: {m}");
+            EXIT_INVALID
+        }
+    }
 }

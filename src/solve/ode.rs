@@ -52,9 +52,13 @@ pub enum LinearAlgebra {
     Auto,
 }
 
-/// [`LinearAlgebra::Auto`] switches to the sparse solver for more states than this (common
-/// practice: below a few dozen states a dense LU is as fast as a sparse one).
-pub const AUTO_SPARSE_ABOVE: usize = 60;
+/// [`LinearAlgebra::Auto`] switches to the sparse solver for more states than this: measured on
+/// generated networks (docs/performance.md), dense LU was about 2x faster at 100-150 states and
+/// sparse 5x faster at 1,000, where faer's sparse LU fills in heavily below that.
+pub const AUTO_SPARSE_ABOVE: usize = 400;
+
+/// Smallest step allowed, as a fraction of the integration length.
+pub const MIN_STEP_FRACTION: f64 = 1e-22;
 
 /// Tolerances and limits of the integration.
 ///
@@ -495,6 +499,10 @@ fn run(
                 return Err(e);
             }
             problem.ode_options.max_number_timesteps = opts.max_steps;
+            // diffsol's default step floor is an absolute f64::EPSILON, which is wrong for a
+            // reactor measured in m3 (a 0.1 m3 PFR with fast steps needs steps far below it);
+            // make the floor relative to the length of the integration instead.
+            problem.ode_options.min_timestep = MIN_STEP_FRACTION * x_end;
             let mut state = problem.bdf_state::<$lu>().map_err(fail)?;
             if let Some(h) = opts.first_step {
                 *state.as_mut().h = h;
