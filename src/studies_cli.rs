@@ -97,11 +97,11 @@ pub fn optimize(
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
-    if let Some(x) = min_conversion {
-        if !(0.0..1.0).contains(&x) {
-            eprintln!("error: --min-conversion must lie in [0, 1), got {x}");
-            return EXIT_INVALID;
-        }
+    if let Some(x) = min_conversion
+        && !(0.0..1.0).contains(&x)
+    {
+        eprintln!("error: --min-conversion must lie in [0, 1), got {x}");
+        return EXIT_INVALID;
     }
     let (study, net) = match read_study(file, set) {
         Ok(s) => s,
@@ -259,14 +259,14 @@ pub fn optimize(
             };
             let _ = writeln!(o, "  best {path} = {}{bound}", num(*x));
         }
-        if let (Some(s), false) = (rep.best.size, net.reactor.is_batch()) {
-            if !matches!(net.reactor, rxnet::model::Reactor::Pbr { .. }) {
-                let _ = writeln!(
-                    o,
-                    "  space time τ = V/v0 = {} s",
-                    num(s / net.feed.volumetric)
-                );
-            }
+        if let (Some(s), false) = (rep.best.size, net.reactor.is_batch())
+            && !matches!(net.reactor, rxnet::model::Reactor::Pbr { .. })
+        {
+            let _ = writeln!(
+                o,
+                "  space time τ = V/v0 = {} s",
+                num(s / net.feed.volumetric)
+            );
         }
         let _ = writeln!(o, "  {} = {}\n", rep.target, num(rep.best.value));
         o.push_str(&report::run::text(&rep.run, false));
@@ -414,13 +414,12 @@ pub fn sweep(a: &SweepArgs) -> i32 {
     } else {
         sweep::csv(&cols, &rows, shard.is_none_or(|(k, _)| k == 1))
     };
-    if let Some(path) = &a.plot {
-        if let Err(e) = sweep_plot(&net, &study, &axes, &rows, &target)
+    if let Some(path) = &a.plot
+        && let Err(e) = sweep_plot(&net, &study, &axes, &rows, &target)
             .and_then(|s| write_atomic(path, &s).map_err(|e| e.to_string()))
-        {
-            eprintln!("error: cannot write {}: {e}", path.display());
-            return EXIT_FINDINGS;
-        }
+    {
+        eprintln!("error: cannot write {}: {e}", path.display());
+        return EXIT_FINDINGS;
     }
     match &a.out {
         Some(path) => {
@@ -575,11 +574,11 @@ pub fn compare(
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
-    if let Some(x) = at_conversion {
-        if !(x > 0.0 && x < 1.0) {
-            eprintln!("error: --at-conversion must lie in (0, 1), got {x}");
-            return EXIT_INVALID;
-        }
+    if let Some(x) = at_conversion
+        && !(x > 0.0 && x < 1.0)
+    {
+        eprintln!("error: --at-conversion must lie in (0, 1), got {x}");
+        return EXIT_INVALID;
     }
     let mut kinds = Vec::new();
     for r in reactors {

@@ -94,15 +94,15 @@ pub fn optimize_size(
         if *x < lo_eff * (1.0 - 1e-12) || *x > hi * (1.0 + 1e-12) {
             continue;
         }
-        if let Some(xc) = x_conv {
-            if *x < xc * (1.0 - 1e-12) {
-                continue;
-            }
+        if let Some(xc) = x_conv
+            && *x < xc * (1.0 - 1e-12)
+        {
+            continue;
         }
-        if let Some(v) = target.value(net, y) {
-            if best.is_none_or(|(_, bv)| v > bv) {
-                best = Some((*x, v));
-            }
+        if let Some(v) = target.value(net, y)
+            && best.is_none_or(|(_, bv)| v > bv)
+        {
+            best = Some((*x, v));
         }
     }
     let (size, value) = best.ok_or_else(|| {
@@ -212,7 +212,7 @@ fn cstr_candidates(
     };
     let slope_at = |v: f64| -> Result<(f64, Vec<f64>), StudyError> {
         let f = solve_at(v)?;
-        let d = newton::volume_sensitivity(b, v, &f).ok_or_else(|| {
+        let d = newton::volume_sensitivity(b, v, &f).ok_or({
             StudyError::Solve(SolveError::Newton(newton::NewtonError::Singular {
                 volume: v,
             }))
@@ -381,10 +381,10 @@ fn evaluate(
         Err(_) => return Ok(None),
     };
     let out = sim.outlet();
-    if let Some(xmin) = min_conversion {
-        if metrics::compute(&net, out).conversion < xmin {
-            return Ok(None);
-        }
+    if let Some(xmin) = min_conversion
+        && metrics::compute(&net, out).conversion < xmin
+    {
+        return Ok(None);
     }
     Ok(target.value(&net, out))
 }
