@@ -358,13 +358,7 @@ pub fn check(net: &Network) -> Check {
         conservation_laws: st
             .conservation_laws
             .iter()
-            .map(|v| {
-                v.iter()
-                    .enumerate()
-                    .filter(|(_, c)| !num_traits::Zero::is_zero(*c))
-                    .map(|(j, c)| (sp(j), c.to_string()))
-                    .collect()
-            })
+            .map(|v| v.iter().map(|(j, c)| (sp(*j), c.to_string())).collect())
             .collect(),
         classification: gr
             .pairs

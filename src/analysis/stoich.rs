@@ -25,24 +25,39 @@ pub struct Stoichiometry {
     /// Independent reactions, greedy in file order.
     pub independent: Vec<usize>,
     pub dependent: Vec<Dependent>,
-    /// Basis of the conservation laws, integer coefficients per species.
-    pub conservation_laws: Vec<Vec<BigInt>>,
+    /// Basis of the conservation laws: each a sparse list of (species, integer coefficient).
+    pub conservation_laws: Vec<Vec<(usize, BigInt)>>,
 }
 
-/// The exact stoichiometric matrix (species x reactions).
-pub fn exact_matrix(net: &Network) -> QMatrix {
-    let mut m = QMatrix::zeros(net.species.len(), net.reactions.len());
+/// The exact stoichiometric matrix over the given species rows (x reactions).
+fn exact_matrix(net: &Network, rows: &[usize]) -> QMatrix {
+    let mut row_of = vec![usize::MAX; net.species.len()];
+    for (r, &j) in rows.iter().enumerate() {
+        row_of[j] = r;
+    }
+    let mut m = QMatrix::zeros(rows.len(), net.reactions.len());
     for (i, r) in net.reactions.iter().enumerate() {
         for (j, c) in &r.net_exact {
-            m.set(*j, i, c.clone());
+            m.set(row_of[*j], i, c.clone());
         }
     }
     m
 }
 
 /// Rank, independent set, dependent combinations and conservation laws, all exact.
+///
+/// Only species that some reaction changes enter the matrix: each of the others (inerts,
+/// catalysts that cancel) is its own conservation law, N_j = constant. This keeps the work and
+/// memory to the reacting part of a network with many inert species.
 pub fn analyse(net: &Network) -> Stoichiometry {
-    let m = exact_matrix(net);
+    let mut reacting: Vec<usize> = net
+        .reactions
+        .iter()
+        .flat_map(|r| r.net_exact.iter().map(|(j, _)| *j))
+        .collect();
+    reacting.sort_unstable();
+    reacting.dedup();
+    let m = exact_matrix(net, &reacting);
     let dep = column_dependence(&m);
     let dependent = dep
         .dependent
@@ -55,10 +70,29 @@ pub fn analyse(net: &Network) -> Stoichiometry {
                 .collect(),
         })
         .collect();
+    let mut conservation_laws: Vec<Vec<(usize, BigInt)>> = left_null_space(&m)
+        .into_iter()
+        .map(|v| {
+            v.into_iter()
+                .enumerate()
+                .filter(|(_, c)| !c.is_zero())
+                .map(|(r, c)| (reacting[r], c))
+                .collect()
+        })
+        .collect();
+    let mut is_reacting = vec![false; net.species.len()];
+    for &j in &reacting {
+        is_reacting[j] = true;
+    }
+    conservation_laws.extend(
+        (0..net.species.len())
+            .filter(|&j| !is_reacting[j])
+            .map(|j| vec![(j, BigInt::from(1))]),
+    );
     Stoichiometry {
         rank: dep.independent.len(),
         independent: dep.independent,
         dependent,
-        conservation_laws: left_null_space(&m),
+        conservation_laws,
     }
 }
