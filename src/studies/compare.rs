@@ -7,7 +7,7 @@
 //! With `--at-conversion X` every entry is resized to reach that conversion, so yields and
 //! selectivities are compared at equal conversion.
 
-use super::optimize::{StudyError, optimize_size};
+use super::optimize::{StudyError, bisect_ln, optimize_size};
 use super::target::Target;
 use crate::metrics;
 use crate::model::{BatchMode, Network, Phase, Reactor};
@@ -101,18 +101,7 @@ pub fn size_for_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result
                 "conversion {x} is not reached below V = {cap:.3e} m3"
             )));
         }
-        let (mut lo, mut hi) = ((1e-9 * net.size()).ln(), cap.ln());
-        for _ in 0..200 {
-            if hi - lo < 1e-14 {
-                break;
-            }
-            let m = 0.5 * (lo + hi);
-            if at(m.exp())? < x {
-                lo = m;
-            } else {
-                hi = m;
-            }
-        }
+        let (lo, hi) = bisect_ln(1e-9 * net.size(), cap, |v| Ok(at(v)? < x))?;
         Ok((0.5 * (lo + hi)).exp())
     } else {
         let y0 = b.initial_state(net);

@@ -232,18 +232,7 @@ fn cstr_candidates(
         let ((va, (sa, _)), (vb, (sb, _))) = (&w[0], &w[1]);
         if *sa > 0.0 && *sb <= 0.0 {
             // Bisection on ln V keeps the bracket [a, b] with slope(a) > 0 ≥ slope(b).
-            let (mut a, mut c) = (va.ln(), vb.ln());
-            for _ in 0..200 {
-                if c - a < 1e-14 {
-                    break;
-                }
-                let m = 0.5 * (a + c);
-                if slope_at(m.exp())?.0 > 0.0 {
-                    a = m;
-                } else {
-                    c = m;
-                }
-            }
+            let (a, c) = bisect_ln(*va, *vb, |v| Ok(slope_at(v)?.0 > 0.0))?;
             let v = (0.5 * (a + c)).exp();
             cands.push((v, solve_at(v)?));
         }
@@ -258,24 +247,35 @@ fn cstr_candidates(
             )));
         }
         if conv(lo)? < xmin {
-            let (mut a, mut c) = (lo.ln(), hi.ln());
-            for _ in 0..200 {
-                if c - a < 1e-14 {
-                    break;
-                }
-                let m = 0.5 * (a + c);
-                if conv(m.exp())? < xmin {
-                    a = m;
-                } else {
-                    c = m;
-                }
-            }
+            let (_, c) = bisect_ln(lo, hi, |v| Ok(conv(v)? < xmin))?;
             let v = c.exp();
             cands.push((v, solve_at(v)?));
             x_conv = Some(v);
         }
     }
     Ok((cands, x_conv))
+}
+
+/// Bisection on ln V over [lo, hi]: keeps `left(V)` true at the lower end of the bracket and
+/// false at the upper, until the bracket is 1e-14 wide in ln V. Returns the bracket (ln V).
+pub(crate) fn bisect_ln(
+    lo: f64,
+    hi: f64,
+    mut left: impl FnMut(f64) -> Result<bool, StudyError>,
+) -> Result<(f64, f64), StudyError> {
+    let (mut a, mut c) = (lo.ln(), hi.ln());
+    for _ in 0..200 {
+        if c - a < 1e-14 {
+            break;
+        }
+        let m = 0.5 * (a + c);
+        if left(m.exp())? {
+            a = m;
+        } else {
+            c = m;
+        }
+    }
+    Ok((a, c))
 }
 
 /// One input varied by a general optimisation: a `--set` path and its bounds, in the unit the
