@@ -110,43 +110,161 @@ impl QMatrix {
     }
 }
 
+/// An exact sparse matrix of rationals: per row, the non-zero entries sorted by column.
+///
+/// Stoichiometric matrices of large networks are very sparse (a reaction touches a handful of
+/// species), so the analysis works on this form throughout; memory is proportional to the
+/// non-zero entries, not to species × reactions.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SparseQMatrix {
+    rows: usize,
+    cols: usize,
+    entries: Vec<Vec<(usize, Q)>>,
+}
+
+impl SparseQMatrix {
+    /// The `rows × cols` matrix with the given `(row, column, value)` entries. Repeated
+    /// positions are summed and zero values dropped.
+    ///
+    /// # Panics
+    /// If an entry lies outside the shape: a bug in the caller, like slice indexing.
+    pub fn from_entries(
+        rows: usize,
+        cols: usize,
+        entries: impl IntoIterator<Item = (usize, usize, Q)>,
+    ) -> Self {
+        let mut by_row: Vec<Vec<(usize, Q)>> = vec![Vec::new(); rows];
+        for (r, c, v) in entries {
+            assert!(
+                r < rows && c < cols,
+                "SparseQMatrix entry ({r}, {c}) out of range for a {rows}x{cols} matrix"
+            );
+            by_row[r].push((c, v));
+        }
+        for row in by_row.iter_mut() {
+            row.sort_by_key(|(c, _)| *c);
+            let mut merged: Vec<(usize, Q)> = Vec::with_capacity(row.len());
+            for (c, v) in row.drain(..) {
+                match merged.last_mut() {
+                    Some((lc, lv)) if *lc == c => *lv += v,
+                    _ => merged.push((c, v)),
+                }
+            }
+            merged.retain(|(_, v)| !v.is_zero());
+            *row = merged;
+        }
+        SparseQMatrix {
+            rows,
+            cols,
+            entries: by_row,
+        }
+    }
+
+    /// Number of rows (species, for a stoichiometric matrix).
+    pub fn rows(&self) -> usize {
+        self.rows
+    }
+
+    /// Number of columns (reactions, for a stoichiometric matrix).
+    pub fn cols(&self) -> usize {
+        self.cols
+    }
+
+    /// The non-zero entries of row `r`, sorted by column.
+    pub fn row(&self, r: usize) -> &[(usize, Q)] {
+        &self.entries[r]
+    }
+
+    /// Number of non-zero entries.
+    pub fn nnz(&self) -> usize {
+        self.entries.iter().map(Vec::len).sum()
+    }
+
+    /// Rank: see [`rank`].
+    pub fn rank(&self) -> usize {
+        let transpose = self.cols > self.rows;
+        rank_of_rows(integer_rows(self, transpose), self.shape_along(transpose))
+    }
+
+    /// Column dependence: see [`column_dependence`].
+    pub fn column_dependence(&self) -> ColumnDependence {
+        dependence_of_rows(integer_rows(self, false), self.cols)
+    }
+
+    /// Sparse basis of the null space {x : m x = 0}: see [`null_space`]. Each vector is given
+    /// by its non-zero entries `(column, value)`, sorted by column.
+    pub fn null_space(&self) -> Vec<SparseRow> {
+        null_space_of_rows(integer_rows(self, false), self.cols)
+    }
+
+    /// Sparse basis of the left null space {y : yᵀ m = 0}: see [`left_null_space`]. Each
+    /// vector is given by its non-zero entries `(row, value)`, sorted by row.
+    pub fn left_null_space(&self) -> Vec<SparseRow> {
+        null_space_of_rows(integer_rows(self, true), self.rows)
+    }
+
+    /// Number of columns of the rows [`integer_rows`] gives for this orientation.
+    fn shape_along(&self, transpose: bool) -> usize {
+        if transpose { self.rows } else { self.cols }
+    }
+}
+
+impl From<&QMatrix> for SparseQMatrix {
+    fn from(m: &QMatrix) -> Self {
+        let entries = (0..m.rows)
+            .map(|r| {
+                (0..m.cols)
+                    .filter_map(|c| {
+                        let v = &m.data[r * m.cols + c];
+                        (!v.is_zero()).then(|| (c, v.clone()))
+                    })
+                    .collect()
+            })
+            .collect();
+        SparseQMatrix {
+            rows: m.rows,
+            cols: m.cols,
+            entries,
+        }
+    }
+}
+
 /// A sparse integer row: `(column, value)` pairs sorted by column, no zero values.
-type SparseRow = Vec<(usize, BigInt)>;
+pub type SparseRow = Vec<(usize, BigInt)>;
 
 /// The rows of `m` (or of `mᵀ` when `transpose` is set), each scaled by the lcm of its
 /// denominators and divided by its content, as sparse integer rows. Scaling a row by a non-zero
 /// constant leaves the row space, the pivots and the null space unchanged.
-fn integer_rows(m: &QMatrix, transpose: bool) -> Vec<SparseRow> {
-    let (n_out, n_in) = if transpose {
-        (m.cols, m.rows)
-    } else {
-        (m.rows, m.cols)
-    };
-    let mut out = Vec::with_capacity(n_out);
-    let mut entries: Vec<(usize, &Q)> = Vec::new();
-    for i in 0..n_out {
-        entries.clear();
-        for j in 0..n_in {
-            let q = if transpose {
-                &m.data[j * m.cols + i]
-            } else {
-                &m.data[i * m.cols + j]
-            };
-            if !q.is_zero() {
-                entries.push((j, q));
+fn integer_rows(m: &SparseQMatrix, transpose: bool) -> Vec<SparseRow> {
+    let transposed: Vec<Vec<(usize, &Q)>>;
+    let rows: Vec<Vec<(usize, &Q)>> = if transpose {
+        let mut t: Vec<Vec<(usize, &Q)>> = vec![Vec::new(); m.cols];
+        for (r, row) in m.entries.iter().enumerate() {
+            for (c, v) in row {
+                t[*c].push((r, v));
             }
         }
-        let lcm = entries
+        transposed = t;
+        transposed
+    } else {
+        m.entries
             .iter()
-            .fold(BigInt::one(), |acc, (_, q)| acc.lcm(q.denom()));
-        let mut row: SparseRow = entries
-            .iter()
-            .map(|(j, q)| (*j, q.numer() * (&lcm / q.denom())))
-            .collect();
-        remove_content(&mut row);
-        out.push(row);
-    }
-    out
+            .map(|row| row.iter().map(|(c, v)| (*c, v)).collect())
+            .collect()
+    };
+    rows.into_iter()
+        .map(|entries| {
+            let lcm = entries
+                .iter()
+                .fold(BigInt::one(), |acc, (_, q)| acc.lcm(q.denom()));
+            let mut row: SparseRow = entries
+                .iter()
+                .map(|(j, q)| (*j, q.numer() * (&lcm / q.denom())))
+                .collect();
+            remove_content(&mut row);
+            row
+        })
+        .collect()
 }
 
 /// Divides a sparse integer row by the gcd of its entries (keeps numbers small).
@@ -241,12 +359,33 @@ fn forward(rows: Vec<SparseRow>, ncols: usize) -> (Vec<SparseRow>, Vec<usize>) {
 /// Integer reduced echelon form: like [`forward`], and in addition each pivot column is zero in
 /// every row but its own. Row `k` is `a_k` times the corresponding row of the rational RREF,
 /// with `a_k` its entry in column `pivots[k]`.
+///
+/// Back-substitution runs from the last pivot up. Row `k` then holds entries only in its own
+/// pivot column and in columns to its right that are not pivots of rows above it, so clearing
+/// column `pivots[k]` from a row above never puts an entry into a pivot column still to be
+/// cleared. The rows holding each pivot column can therefore be listed once, after the forward
+/// pass, and only those rows are visited: the work follows the non-zeros, not rank².
 fn integer_rref(rows: Vec<SparseRow>, ncols: usize) -> (Vec<SparseRow>, Vec<usize>) {
     let (mut echelon, pivots) = forward(rows, ncols);
+    let mut pivot_row_of = vec![usize::MAX; ncols];
+    for (k, &p) in pivots.iter().enumerate() {
+        pivot_row_of[p] = k;
+    }
+    // For each pivot row k, the rows above it with an entry in column pivots[k].
+    let mut holders: Vec<Vec<usize>> = vec![Vec::new(); echelon.len()];
+    for (r, row) in echelon.iter().enumerate() {
+        for (c, _) in row.iter().skip(1) {
+            let k = pivot_row_of[*c];
+            if k != usize::MAX {
+                holders[k].push(r);
+            }
+        }
+    }
     for k in (0..echelon.len()).rev() {
         let (upper, lower) = echelon.split_at_mut(k);
         let pivot_row = &lower[0];
-        for row in upper.iter_mut() {
+        for &r in &holders[k] {
+            let row = &mut upper[r];
             if entry(row, pivots[k]).is_some() {
                 *row = eliminate(row, pivot_row, pivots[k]);
             }
@@ -268,7 +407,7 @@ fn integer_rref(rows: Vec<SparseRow>, ncols: usize) -> (Vec<SparseRow>, Vec<usiz
 /// `rref` has the shape of `m`; its first `rank` rows have a leading 1 in the pivot columns,
 /// each pivot column is zero elsewhere, and the remaining rows are zero.
 pub fn rref(m: &QMatrix) -> (QMatrix, Vec<usize>) {
-    let (rows, pivots) = integer_rref(integer_rows(m, false), m.cols);
+    let (rows, pivots) = integer_rref(integer_rows(&SparseQMatrix::from(m), false), m.cols);
     let mut out = QMatrix::zeros(m.rows, m.cols);
     for (k, row) in rows.iter().enumerate() {
         let lead = row[0].1.clone();
@@ -286,12 +425,12 @@ pub fn rref(m: &QMatrix) -> (QMatrix, Vec<usize>) {
 /// pick the cheaper orientation (`rank M = rank Mᵀ`, eliminating along the shorter side) and
 /// to eliminate the sparsest columns first, both of which limit fill-in (common practice).
 pub fn rank(m: &QMatrix) -> usize {
-    let transpose = m.cols > m.rows;
-    let (mut rows, ncols) = if transpose {
-        (integer_rows(m, true), m.rows)
-    } else {
-        (integer_rows(m, false), m.cols)
-    };
+    SparseQMatrix::from(m).rank()
+}
+
+/// Rank of the matrix with the given integer rows over `ncols` columns, eliminating the
+/// sparsest columns first.
+fn rank_of_rows(mut rows: Vec<SparseRow>, ncols: usize) -> usize {
     let mut count = vec![0usize; ncols];
     for row in &rows {
         for (c, _) in row {
@@ -331,12 +470,16 @@ pub struct ColumnDependence {
 /// The coefficients are column `j` of the RREF `R = E m`: since `E` is invertible, the relation
 /// `col_j(R) = Σ_k R_kj e_k = Σ_k R_kj col_{p_k}(R)` holds for `m` as well.
 pub fn column_dependence(m: &QMatrix) -> ColumnDependence {
-    let (rows, pivots) = integer_rref(integer_rows(m, false), m.cols);
-    let mut is_pivot = vec![false; m.cols];
+    SparseQMatrix::from(m).column_dependence()
+}
+
+fn dependence_of_rows(rows: Vec<SparseRow>, ncols: usize) -> ColumnDependence {
+    let (rows, pivots) = integer_rref(rows, ncols);
+    let mut is_pivot = vec![false; ncols];
     for &p in &pivots {
         is_pivot[p] = true;
     }
-    let mut coeffs: Vec<Vec<(usize, Q)>> = vec![Vec::new(); m.cols];
+    let mut coeffs: Vec<Vec<(usize, Q)>> = vec![Vec::new(); ncols];
     for (k, row) in rows.iter().enumerate() {
         let lead = &row[0].1;
         for (c, v) in row.iter().skip(1) {
@@ -354,27 +497,24 @@ pub fn column_dependence(m: &QMatrix) -> ColumnDependence {
     }
 }
 
-/// Scales an integer vector to coprime entries with the first non-zero entry positive.
-fn primitive(mut v: Vec<BigInt>) -> Vec<BigInt> {
-    let g = v.iter().fold(BigInt::zero(), |g, x| g.gcd(x));
-    let negative = v
-        .iter()
-        .find(|x| !x.is_zero())
-        .is_some_and(|x| x.is_negative());
+/// Scales a sparse integer vector to coprime entries with the first non-zero entry positive.
+fn primitive(mut v: SparseRow) -> SparseRow {
+    let g = v.iter().fold(BigInt::zero(), |g, (_, x)| g.gcd(x));
+    let negative = v.first().is_some_and(|(_, x)| x.is_negative());
     if g.is_zero() {
         return v;
     }
     let g = if negative { -g } else { g };
     if !g.is_one() {
-        for x in v.iter_mut() {
+        for (_, x) in v.iter_mut() {
             *x /= &g;
         }
     }
     v
 }
 
-/// Null-space basis from sparse integer rows of a matrix with `ncols` columns.
-fn null_space_of_rows(rows: Vec<SparseRow>, ncols: usize) -> Vec<Vec<BigInt>> {
+/// Sparse null-space basis from sparse integer rows of a matrix with `ncols` columns.
+fn null_space_of_rows(rows: Vec<SparseRow>, ncols: usize) -> Vec<SparseRow> {
     let (rows, pivots) = integer_rref(rows, ncols);
     let mut is_pivot = vec![false; ncols];
     for &p in &pivots {
@@ -393,14 +533,24 @@ fn null_space_of_rows(rows: Vec<SparseRow>, ncols: usize) -> Vec<Vec<BigInt>> {
         let l = by_free[f]
             .iter()
             .fold(BigInt::one(), |acc, (k, _)| acc.lcm(&rows[*k][0].1));
-        let mut x = vec![BigInt::zero(); ncols];
-        for (k, b) in &by_free[f] {
-            x[pivots[*k]] = -(*b * (&l / &rows[*k][0].1));
-        }
-        x[f] = l;
+        let mut x: SparseRow = by_free[f]
+            .iter()
+            .map(|(k, b)| (pivots[*k], -(*b * (&l / &rows[*k][0].1))))
+            .collect();
+        x.push((f, l));
+        x.sort_unstable_by_key(|(c, _)| *c);
         basis.push(primitive(x));
     }
     basis
+}
+
+/// The dense form of a sparse vector of length `n`.
+fn dense(v: SparseRow, n: usize) -> Vec<BigInt> {
+    let mut out = vec![BigInt::zero(); n];
+    for (c, x) in v {
+        out[c] = x;
+    }
+    out
 }
 
 /// Basis of the null space {x : m x = 0}, each vector scaled to coprime integers with the first
@@ -408,14 +558,22 @@ fn null_space_of_rows(rows: Vec<SparseRow>, ncols: usize) -> Vec<Vec<BigInt>> {
 /// zero in every other free column). For a stoichiometric matrix these are the reaction
 /// combinations with no net change of any species.
 pub fn null_space(m: &QMatrix) -> Vec<Vec<BigInt>> {
-    null_space_of_rows(integer_rows(m, false), m.cols)
+    let s = SparseQMatrix::from(m);
+    s.null_space()
+        .into_iter()
+        .map(|v| dense(v, m.cols))
+        .collect()
 }
 
 /// Basis of the left null space {y : yᵀ m = 0} (conservation laws when m is species x
 /// reactions), same scaling. There are `rows − rank` vectors: `yᵀ S = 0` means
 /// `d(yᵀ n)/dt = yᵀ S r = 0` for every rate vector `r`, so `yᵀ n` is conserved (from memory).
 pub fn left_null_space(m: &QMatrix) -> Vec<Vec<BigInt>> {
-    null_space_of_rows(integer_rows(m, true), m.rows)
+    let s = SparseQMatrix::from(m);
+    s.left_null_space()
+        .into_iter()
+        .map(|v| dense(v, m.rows))
+        .collect()
 }
 
 /// Decimal exponents beyond this magnitude are refused: `10^100000` already takes about 41 kB,

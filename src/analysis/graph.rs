@@ -48,9 +48,18 @@ pub struct Pair {
     pub shared: Vec<usize>,
 }
 
+/// At most this many related pairs are kept (in order of the first reaction, then the second).
+/// A species shared by many reactions (oxygen in an oxidation network, a radical in a chain)
+/// relates every pair of them, so the number of pairs can grow as the square of the reactions;
+/// the count stays exact, only the list is cut.
+pub const MAX_LISTED_PAIRS: usize = 10_000;
+
 #[derive(Debug, Clone)]
 pub struct GraphReport {
+    /// The first [`MAX_LISTED_PAIRS`] related pairs.
     pub pairs: Vec<Pair>,
+    /// How many pairs are related in all.
+    pub pair_count: usize,
     pub intermediates: Vec<usize>,
     pub unreachable_species: Vec<usize>,
     pub dead_reactions: Vec<usize>,
@@ -74,39 +83,87 @@ pub fn build_graph(net: &Network) -> (DiGraph<(), f64>, Vec<NodeIndex>, Vec<Node
 }
 
 pub fn analyse(net: &Network) -> GraphReport {
-    let (g, sp, rx) = build_graph(net);
-    // Species nodes were added first, so a node index below the species count is a species.
-    let species_of = |n: NodeIndex| (n.index() < sp.len()).then_some(n.index());
-    let consumed = |i: usize| -> Vec<usize> {
-        g.neighbors_directed(rx[i], Direction::Incoming)
-            .filter_map(species_of)
-            .collect()
-    };
-    let made = |i: usize| -> Vec<usize> {
-        g.neighbors_directed(rx[i], Direction::Outgoing)
-            .filter_map(species_of)
-            .collect()
-    };
+    let (g, _, rx) = build_graph(net);
+    let ns = net.species.len();
     let nr = net.reactions.len();
+    // Species nodes were added first, so a node index below the species count is a species.
+    let species_of = |n: NodeIndex| (n.index() < ns).then_some(n.index());
+    let consumed: Vec<Vec<usize>> = (0..nr)
+        .map(|i| {
+            g.neighbors_directed(rx[i], Direction::Incoming)
+                .filter_map(species_of)
+                .collect()
+        })
+        .collect();
+    let made: Vec<Vec<usize>> = (0..nr)
+        .map(|i| {
+            g.neighbors_directed(rx[i], Direction::Outgoing)
+                .filter_map(species_of)
+                .collect()
+        })
+        .collect();
+    let mut consumers: Vec<Vec<usize>> = vec![Vec::new(); ns];
+    let mut makers: Vec<Vec<usize>> = vec![Vec::new(); ns];
+    for i in 0..nr {
+        for &j in &consumed[i] {
+            consumers[j].push(i);
+        }
+        for &j in &made[i] {
+            makers[j].push(i);
+        }
+    }
+    // Pairs (a, b), a < b, found through the species they share: the work is the sum over
+    // species of (reactions touching it)², not reactions². `slot[b]` is b's place in `links`
+    // while reaction a is visited (stamped by a, so it never needs clearing).
     let mut pairs = Vec::new();
+    let mut pair_count = 0usize;
+    let mut stamp = vec![usize::MAX; nr];
+    let mut slot = vec![0usize; nr];
+    let mut links: Vec<(usize, Vec<usize>, Vec<usize>)> = Vec::new();
     for a in 0..nr {
-        for b in a + 1..nr {
-            let (ca, ma, cb, mb) = (consumed(a), made(a), consumed(b), made(b));
-            let mut via: Vec<usize> = ma
-                .iter()
-                .filter(|j| cb.contains(j))
-                .chain(mb.iter().filter(|j| ca.contains(j)))
-                .copied()
-                .collect();
-            via.sort();
+        links.clear();
+        let mut link = |b: usize, j: usize, series: bool| {
+            if b <= a {
+                return;
+            }
+            if stamp[b] != a {
+                stamp[b] = a;
+                slot[b] = links.len();
+                links.push((b, Vec::new(), Vec::new()));
+            }
+            let l = &mut links[slot[b]];
+            if series { l.1.push(j) } else { l.2.push(j) }
+        };
+        for &j in &consumed[a] {
+            for &b in &consumers[j] {
+                link(b, j, false);
+            }
+            for &b in &makers[j] {
+                link(b, j, true);
+            }
+        }
+        for &j in &made[a] {
+            for &b in &consumers[j] {
+                link(b, j, true);
+            }
+        }
+        pair_count += links.len();
+        if pairs.len() >= MAX_LISTED_PAIRS {
+            continue;
+        }
+        links.sort_unstable_by_key(|l| l.0);
+        for (b, mut via, mut shared) in links.drain(..) {
+            if pairs.len() >= MAX_LISTED_PAIRS {
+                break;
+            }
+            via.sort_unstable();
             via.dedup();
-            let mut shared: Vec<usize> = ca.iter().filter(|j| cb.contains(j)).copied().collect();
-            shared.sort();
+            shared.sort_unstable();
+            shared.dedup();
             let relation = match (!via.is_empty(), !shared.is_empty()) {
                 (true, true) => Relation::SeriesParallel,
                 (true, false) => Relation::Series,
-                (false, true) => Relation::Parallel,
-                (false, false) => continue,
+                _ => Relation::Parallel,
             };
             pairs.push(Pair {
                 first: a,
@@ -117,12 +174,10 @@ pub fn analyse(net: &Network) -> GraphReport {
             });
         }
     }
-    let intermediates: Vec<usize> = (0..net.species.len())
-        .filter(|&j| {
-            let makers: Vec<NodeIndex> = g.neighbors_directed(sp[j], Direction::Incoming).collect();
-            let users: Vec<NodeIndex> = g.neighbors_directed(sp[j], Direction::Outgoing).collect();
-            makers.iter().any(|m| users.iter().any(|u| u != m))
-        })
+    // A reaction either makes or consumes a species net, never both, so one maker and one
+    // consumer are always two different reactions.
+    let intermediates: Vec<usize> = (0..ns)
+        .filter(|&j| !makers[j].is_empty() && !consumers[j].is_empty())
         .collect();
 
     // Reachability fixed point from the fed species.
@@ -157,16 +212,18 @@ pub fn analyse(net: &Network) -> GraphReport {
             break;
         }
     }
-    let involved = |j: usize| {
-        net.reactions
-            .iter()
-            .any(|r| r.has_reactant(j) || r.has_product(j))
-    };
+    let mut involved = vec![false; ns];
+    for r in &net.reactions {
+        for t in r.reactants.iter().chain(r.products.iter()) {
+            involved[t.species] = true;
+        }
+    }
     GraphReport {
         pairs,
+        pair_count,
         intermediates,
         unreachable_species: (0..net.species.len())
-            .filter(|&j| !present[j] && involved(j))
+            .filter(|&j| !present[j] && involved[j])
             .collect(),
         dead_reactions: (0..nr).filter(|&i| !runs[i]).collect(),
     }

@@ -83,7 +83,10 @@ pub struct Check {
     pub element_matrix: ElementsOut,
     /// Each law as species -> integer coefficient; Σ coef·N_j is constant.
     pub conservation_laws: Vec<BTreeMap<String, String>>,
+    /// Related pairs, the first `graph::MAX_LISTED_PAIRS` of them.
     pub classification: Vec<PairOut>,
+    /// How many pairs of reactions are related in all (`classification` may list fewer).
+    pub related_pairs: usize,
     pub intermediates: Vec<String>,
     pub unreachable_species: Vec<String>,
     pub dead_reactions: Vec<String>,
@@ -370,6 +373,7 @@ pub fn check(net: &Network) -> Check {
                 shared_reactants: p.shared.iter().map(|&j| sp(j)).collect(),
             })
             .collect(),
+        related_pairs: gr.pair_count,
         intermediates: gr.intermediates.iter().map(|&j| sp(j)).collect(),
         unreachable_species: gr.unreachable_species.iter().map(|&j| sp(j)).collect(),
         dead_reactions: gr.dead_reactions.iter().map(|&i| rx(i)).collect(),

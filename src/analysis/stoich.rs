@@ -6,7 +6,7 @@
 //! null space {y : yᵀν = 0}: every such y is a combination of species amounts that no reaction
 //! changes (element balances are among them).
 
-use crate::exact::{Q, QMatrix, column_dependence, left_null_space};
+use crate::exact::{Q, SparseQMatrix};
 use crate::model::Network;
 use num_bigint::BigInt;
 use num_traits::Zero;
@@ -29,19 +29,23 @@ pub struct Stoichiometry {
     pub conservation_laws: Vec<Vec<(usize, BigInt)>>,
 }
 
-/// The exact stoichiometric matrix over the given species rows (x reactions).
-fn exact_matrix(net: &Network, rows: &[usize]) -> QMatrix {
+/// The exact stoichiometric matrix over the given species rows (x reactions), sparse: its
+/// memory follows the non-zero coefficients, not species × reactions.
+fn exact_matrix(net: &Network, rows: &[usize]) -> SparseQMatrix {
     let mut row_of = vec![usize::MAX; net.species.len()];
     for (r, &j) in rows.iter().enumerate() {
         row_of[j] = r;
     }
-    let mut m = QMatrix::zeros(rows.len(), net.reactions.len());
-    for (i, r) in net.reactions.iter().enumerate() {
-        for (j, c) in &r.net_exact {
-            m.set(row_of[*j], i, c.clone());
-        }
-    }
-    m
+    SparseQMatrix::from_entries(
+        rows.len(),
+        net.reactions.len(),
+        net.reactions.iter().enumerate().flat_map(|(i, r)| {
+            let row_of = &row_of;
+            r.net_exact
+                .iter()
+                .map(move |(j, c)| (row_of[*j], i, c.clone()))
+        }),
+    )
 }
 
 /// Rank, independent set, dependent combinations and conservation laws, all exact.
@@ -58,7 +62,7 @@ pub fn analyse(net: &Network) -> Stoichiometry {
     reacting.sort_unstable();
     reacting.dedup();
     let m = exact_matrix(net, &reacting);
-    let dep = column_dependence(&m);
+    let dep = m.column_dependence();
     let dependent = dep
         .dependent
         .into_iter()
@@ -70,15 +74,10 @@ pub fn analyse(net: &Network) -> Stoichiometry {
                 .collect(),
         })
         .collect();
-    let mut conservation_laws: Vec<Vec<(usize, BigInt)>> = left_null_space(&m)
+    let mut conservation_laws: Vec<Vec<(usize, BigInt)>> = m
+        .left_null_space()
         .into_iter()
-        .map(|v| {
-            v.into_iter()
-                .enumerate()
-                .filter(|(_, c)| !c.is_zero())
-                .map(|(r, c)| (reacting[r], c))
-                .collect()
-        })
+        .map(|v| v.into_iter().map(|(r, c)| (reacting[r], c)).collect())
         .collect();
     let mut is_reacting = vec![false; net.species.len()];
     for &j in &reacting {

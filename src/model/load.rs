@@ -450,9 +450,11 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         return Err(cx.err("reactions", "no reactions given", None));
     }
     let mut reactions: Vec<Reaction> = Vec::with_capacity(raw.reactions.len());
+    let mut by_id: std::collections::HashMap<String, usize> =
+        std::collections::HashMap::with_capacity(raw.reactions.len());
     for (i, rr) in raw.reactions.iter().enumerate() {
         let r = build_reaction(i, rr, &index, basis, feed.temperature, cx)?;
-        if let Some(prev) = reactions.iter().find(|p| p.id == r.id) {
+        if let Some(prev) = by_id.get(&r.id).map(|&k| &reactions[k]) {
             return Err(cx.err(
                 &format!("reactions[{i}].id"),
                 &format!(
@@ -462,6 +464,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
                 Some("give each reaction its own id".into()),
             ));
         }
+        by_id.insert(r.id.clone(), reactions.len());
         reactions.push(r);
     }
 

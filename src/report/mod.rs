@@ -34,6 +34,44 @@ fn severity_word(s: Severity) -> &'static str {
     }
 }
 
+/// Lists in the text report (reactions, laws, pairs, cycles) show at most this many entries,
+/// then a count of the rest: a 10,000-reaction mechanism would otherwise print megabytes. The
+/// JSON report (`--format json`) always lists everything; findings are never cut.
+pub const TEXT_LIST_LIMIT: usize = 50;
+
+/// ", … and N more (--format json lists all)" when `total` exceeds `shown`, else nothing.
+fn more(total: usize, shown: usize) -> String {
+    if total > shown {
+        format!(" … and {} more (--format json lists all)", total - shown)
+    } else {
+        String::new()
+    }
+}
+
+/// A combination `r9 = r1 − 2 r4 + …` cut after [`TEXT_COMBINATION_TERMS`] terms, with the
+/// number of terms left out.
+fn shorten_combination(text: &str) -> String {
+    // Terms after the first are separated by " + " or " − ".
+    let cuts: Vec<usize> = text
+        .match_indices(" + ")
+        .chain(text.match_indices(" − "))
+        .map(|(i, _)| i)
+        .collect();
+    if cuts.len() < TEXT_COMBINATION_TERMS {
+        return text.to_string();
+    }
+    let mut cuts = cuts;
+    cuts.sort_unstable();
+    let left = cuts.len() + 1 - TEXT_COMBINATION_TERMS;
+    format!(
+        "{} … and {left} more terms (--format json lists all)",
+        &text[..cuts[TEXT_COMBINATION_TERMS - 1]]
+    )
+}
+
+/// Terms of a dependent-reaction combination shown in the text report.
+const TEXT_COMBINATION_TERMS: usize = 12;
+
 /// `rxnet check` as text.
 pub fn check_text(c: &Check) -> String {
     let mut o = String::new();
@@ -41,17 +79,32 @@ pub fn check_text(c: &Check) -> String {
     let _ = writeln!(o, "{} species, {} reactions", c.species, c.reactions);
     let _ = writeln!(o, "\nStoichiometry");
     let _ = writeln!(o, "  rank of the stoichiometric matrix: {}", c.rank);
-    let _ = writeln!(o, "  independent reactions: {}", c.independent.join(", "));
+    let _ = writeln!(
+        o,
+        "  independent reactions: {}{}",
+        c.independent[..c.independent.len().min(TEXT_LIST_LIMIT)].join(", "),
+        more(c.independent.len(), TEXT_LIST_LIMIT)
+    );
     if c.dependent.is_empty() {
         let _ = writeln!(o, "  dependent reactions: none");
     } else {
-        let _ = writeln!(o, "  dependent reactions:");
-        for d in &c.dependent {
-            let _ = writeln!(o, "    {}", d.text);
+        let _ = writeln!(o, "  dependent reactions ({}):", c.dependent.len());
+        for d in c.dependent.iter().take(TEXT_LIST_LIMIT) {
+            let _ = writeln!(o, "    {}", shorten_combination(&d.text));
+        }
+        if c.dependent.len() > TEXT_LIST_LIMIT {
+            let _ = writeln!(o, "   {}", more(c.dependent.len(), TEXT_LIST_LIMIT));
         }
     }
     let _ = writeln!(o, "\nAtom balances");
+    // A long network lists only the reactions that are not balanced (up to the limit).
+    let long = c.atom_balance.len() > TEXT_LIST_LIMIT;
+    let mut shown = 0;
     for b in &c.atom_balance {
+        if long && (b.balanced == Some(true) || shown == TEXT_LIST_LIMIT) {
+            continue;
+        }
+        shown += 1;
         let state = match b.balanced {
             None => "not checked (formula missing)".to_string(),
             Some(true) => "balanced".to_string(),
@@ -65,6 +118,20 @@ pub fn check_text(c: &Check) -> String {
             }
         };
         let _ = writeln!(o, "  {:<16} {state}", b.reaction);
+    }
+    if long {
+        let balanced = c.atom_balance.iter().filter(|b| b.balanced == Some(true));
+        let _ = writeln!(
+            o,
+            "  {} of {} reactions balanced{}",
+            balanced.count(),
+            c.atom_balance.len(),
+            if shown == TEXT_LIST_LIMIT {
+                " (first unbalanced or unchecked listed above; --format json lists all)"
+            } else {
+                ""
+            }
+        );
     }
     let e = &c.element_matrix;
     if !e.elements.is_empty() {
@@ -85,7 +152,7 @@ pub fn check_text(c: &Check) -> String {
     if c.conservation_laws.is_empty() {
         let _ = writeln!(o, "  none");
     }
-    for law in &c.conservation_laws {
+    for law in c.conservation_laws.iter().take(TEXT_LIST_LIMIT) {
         let mut line = String::new();
         for (n, (s, k)) in law.iter().enumerate() {
             let (neg, mag) = match k.strip_prefix('-') {
@@ -106,11 +173,16 @@ pub fn check_text(c: &Check) -> String {
         }
         let _ = writeln!(o, "  {line}");
     }
-    let _ = writeln!(o, "\nReaction graph");
-    if c.classification.is_empty() {
-        let _ = writeln!(o, "  no related pairs");
+    if c.conservation_laws.len() > TEXT_LIST_LIMIT {
+        let _ = writeln!(o, " {}", more(c.conservation_laws.len(), TEXT_LIST_LIMIT));
     }
-    for p in &c.classification {
+    let _ = writeln!(o, "\nReaction graph");
+    if c.related_pairs == 0 {
+        let _ = writeln!(o, "  no related pairs");
+    } else if c.related_pairs > TEXT_LIST_LIMIT {
+        let _ = writeln!(o, "  {} related pairs", c.related_pairs);
+    }
+    for p in c.classification.iter().take(TEXT_LIST_LIMIT) {
         let mut why = Vec::new();
         if !p.via.is_empty() {
             why.push(format!("via {}", p.via.join(", ")));
@@ -127,13 +199,20 @@ pub fn check_text(c: &Check) -> String {
             why.join("; ")
         );
     }
+    if c.related_pairs > TEXT_LIST_LIMIT {
+        let _ = writeln!(o, " {}", more(c.related_pairs, TEXT_LIST_LIMIT));
+    }
     let _ = writeln!(
         o,
         "  intermediates: {}",
         if c.intermediates.is_empty() {
             "none".to_string()
         } else {
-            c.intermediates.join(", ")
+            format!(
+                "{}{}",
+                c.intermediates[..c.intermediates.len().min(TEXT_LIST_LIMIT)].join(", "),
+                more(c.intermediates.len(), TEXT_LIST_LIMIT)
+            )
         }
     );
     if !c.equilibrium_cycles.is_empty() {
@@ -141,7 +220,7 @@ pub fn check_text(c: &Check) -> String {
             o,
             "\nEquilibrium constants around dependent reactions (Wegscheider)"
         );
-        for cy in &c.equilibrium_cycles {
+        for cy in c.equilibrium_cycles.iter().take(TEXT_LIST_LIMIT) {
             let _ = writeln!(
                 o,
                 "  {:<16} K given {}  K from combination {}  at {} K: {}",
@@ -155,6 +234,9 @@ pub fn check_text(c: &Check) -> String {
                     "MISMATCH"
                 }
             );
+        }
+        if c.equilibrium_cycles.len() > TEXT_LIST_LIMIT {
+            let _ = writeln!(o, " {}", more(c.equilibrium_cycles.len(), TEXT_LIST_LIMIT));
         }
     }
     let _ = writeln!(o, "\nFindings");
