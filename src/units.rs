@@ -1206,6 +1206,12 @@ mod tests {
             UnitError::AmbiguousDivision { col: 7, .. }
         ));
         assert!(matches!(err("s-1"), UnitError::Expected { .. }));
+        // Spaces beside an operator are spacing only, as docs/network-format.md says.
+        for spaced in ["kJ/ mol", "kJ / mol", "kJ /mol"] {
+            let a = parse_unit(spaced).expect("spaced division");
+            let b = parse_unit("kJ/mol").expect("kJ/mol");
+            assert_eq!((a.factor, a.dim), (b.factor, b.dim), "{spaced}");
+        }
         let deep = format!("{}m{}", "(".repeat(1000), ")".repeat(1000));
         assert!(matches!(err(&deep), UnitError::TooDeep { .. }));
         // Nested powers that overflow the dimension or factor.

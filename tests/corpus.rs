@@ -458,10 +458,16 @@ fn chain(n: usize) -> String {
     )
 }
 
-/// `rxnet check` on `text` within `max_secs` and `max_mib`; exit 0 or 1 and no panic.
-fn check_within(tag: &str, text: &str, max_secs: f64, max_mib: f64) {
+/// `rxnet check --format json` on `text` within `max_secs` and `max_mib`; exit 0 or 1 and no
+/// panic. Returns the report, after checking rank–nullity on it: the number of conservation
+/// laws is species − rank (standard linear algebra, from memory).
+fn check_within(tag: &str, text: &str, max_secs: f64, max_mib: f64) -> serde_json::Value {
     let path = write_temp(tag, text);
-    let w = run_watched(&["check", path.to_str().expect("UTF-8")], max_secs, max_mib);
+    let w = run_watched(
+        &["check", path.to_str().expect("UTF-8"), "--format", "json"],
+        max_secs,
+        max_mib,
+    );
     remove(&path);
     println!(
         "{tag} | {} bytes | exit {} | {:.2} s | peak {:.0} MiB",
@@ -482,6 +488,12 @@ fn check_within(tag: &str, text: &str, max_secs: f64, max_mib: f64) {
         "{tag}: {}",
         w.run.stderr
     );
+    let v: serde_json::Value = serde_json::from_str(&w.run.stdout).expect("JSON report");
+    let species = v["species"].as_u64().expect("species count");
+    let rank = v["rank"].as_u64().expect("rank");
+    let laws = v["conservation_laws"].as_array().expect("laws").len() as u64;
+    assert_eq!(laws, species - rank, "{tag}: laws = species − rank");
+    v
 }
 
 /// 10,000 inert species (species in no reaction): each is its own conservation law and stays
@@ -491,33 +503,32 @@ fn ten_thousand_inert_species_are_checked_in_bounded_memory() {
     check_within("inert-species", &many_inert_species(10_000), 60.0, 1024.0);
 }
 
-/// 2,000 reacting species in one reaction, and a 1,000-species chain: bounded (release: about
-/// 0.1 s and 130 MiB, 0.2 s and 70 MiB). Kept at these sizes because the exact stoichiometric
-/// analysis needs memory quadratic in the number of reacting species (see the ignored
-/// reproducers below).
+/// 2,000 reacting species in one reaction, and a 1,000-species chain: bounded.
 #[test]
 fn two_thousand_reacting_species_are_checked_in_bounded_memory() {
     check_within("many-products", &many_products(2_000), 60.0, 1024.0);
     check_within("chain", &chain(1_000), 60.0, 1024.0);
 }
 
-/// Known defect, kept as a reproducer: one reaction with 10,000 products (a 200 kB file) makes
-/// `rxnet check` (and `run`, which checks first) allocate about 3 GB: the left null space is
-/// built as one dense vector of BigInts per conservation law (src/exact.rs,
-/// `null_space_of_rows`). The watchdog kills the child at 1 GiB.
+/// One reaction with 10,000 products (a 200 kB file): the exact analysis keeps the
+/// stoichiometric matrix and every conservation law sparse, so memory follows the non-zeros
+/// (it took about 3 GB while the laws were dense vectors).
 #[test]
-#[ignore = "known defect: check memory is quadratic in the reacting species (docs/reliability.md)"]
 fn ten_thousand_reacting_species_fit_in_a_gigabyte() {
-    check_within("many-products-10k", &many_products(10_000), 60.0, 1024.0);
+    let v = check_within("many-products-10k", &many_products(10_000), 60.0, 1024.0);
+    assert_eq!(v["rank"], 1);
 }
 
-/// Known defect, kept as a reproducer: a chain of 10,000 species and 9,999 reactions (the size
-/// `rxnet generate` is meant for) needs several GB in `check`, as the exact stoichiometric
-/// matrix is dense (species x reactions BigRationals; 3,000 x 3,000 already takes 580 MiB).
+/// A chain of 10,000 species and 9,999 reactions: checked within 1 GiB (a dense exact
+/// species × reactions matrix would need several GB).
 #[test]
-#[ignore = "known defect: the exact stoichiometric matrix is dense (docs/reliability.md)"]
 fn ten_thousand_reaction_chain_fits_in_a_gigabyte() {
-    check_within("chain-10k", &chain(10_000), 120.0, 1024.0);
+    let v = check_within("chain-10k", &chain(10_000), 120.0, 1024.0);
+    // A chain S0 -> ... -> S9999: every step independent, one law (the total amount).
+    assert_eq!(v["rank"], 9_999);
+    let law = v["conservation_laws"][0].as_object().expect("one law");
+    assert_eq!(law.len(), 10_000);
+    assert!(law.values().all(|c| c == "1"));
 }
 
 /// 10,000 nested `[` (and `{`): refused with exit 2, no stack overflow, no report.
@@ -607,4 +618,35 @@ fn billion_point_sweep_is_refused_quickly() {
         assert!(w.seconds < 5.0, "{args:?} took {:.1} s", w.seconds);
     }
     remove(&path);
+}
+
+/// A unit of 1,000,000 nested parentheses and a 1,000,000-character species name: refused with
+/// exit 2, and the message stays short (it once echoed the whole 1 MB text).
+#[test]
+fn long_offending_text_is_cut_in_messages() {
+    let base = std::fs::read_to_string(root().join("networks").join("diene_hydrogenation.yaml"))
+        .expect("bundled study");
+    assert!(base.contains("  T: 320 K\n"));
+    let deep_unit = base.replace(
+        "  T: 320 K\n",
+        &format!("  T: 320 {}K\n", "(".repeat(1_000_000)),
+    );
+    let long_name = format!("{}\n  {}: {{}}\n", base.trim_end(), "Q".repeat(1_000_000));
+    for (tag, text) in [("deep-unit", deep_unit), ("long-key", long_name)] {
+        let path = write_temp(tag, &text);
+        let run = rxnet(&["check", path.to_str().expect("UTF-8")]);
+        remove(&path);
+        assert_eq!(
+            run.code,
+            2,
+            "{tag}: {}",
+            &run.stderr[..run.stderr.len().min(300)]
+        );
+        assert!(run.stderr.starts_with("error: "), "{tag}");
+        assert!(
+            run.stderr.len() < 4_000,
+            "{tag}: {} bytes of message",
+            run.stderr.len()
+        );
+    }
 }

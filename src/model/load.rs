@@ -34,17 +34,37 @@ impl fmt::Display for LoadError {
             write!(f, ":{}:{}", p.line, p.column)?;
         }
         if !self.field.is_empty() {
-            write!(f, ": field `{}`", self.field)?;
+            write!(
+                f,
+                ": field `{}`",
+                shorten(&self.field, MAX_MESSAGE_CHARS / 4)
+            )?;
         }
-        write!(f, ": {}", self.message)?;
+        write!(f, ": {}", shorten(&self.message, MAX_MESSAGE_CHARS))?;
         if let Some(h) = &self.hint {
-            write!(f, " ({h})")?;
+            write!(f, " ({})", shorten(h, MAX_MESSAGE_CHARS / 2))?;
         }
         Ok(())
     }
 }
 
 impl std::error::Error for LoadError {}
+
+/// Longest message (in characters) printed for a load error. Messages quote the offending
+/// text, and a hostile file can make that text megabytes long (a unit of a million nested
+/// parentheses); the start says what is wrong, the rest is cut with a count.
+pub const MAX_MESSAGE_CHARS: usize = 600;
+
+/// `text` cut to at most `max` characters, with the number of characters left out.
+fn shorten(text: &str, max: usize) -> std::borrow::Cow<'_, str> {
+    match text.char_indices().nth(max) {
+        None => std::borrow::Cow::Borrowed(text),
+        Some((cut, _)) => {
+            let left = text[cut..].chars().count();
+            std::borrow::Cow::Owned(format!("{} … [{left} more characters]", &text[..cut]))
+        }
+    }
+}
 
 /// A command-line change to one scalar of the study, `path=value`, applied before validation
 /// so it meets the same checks as the file. In a path, a list item may be named by its index
@@ -114,6 +134,18 @@ pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Networ
         return Err(cx.err("", "the study text is too large", None));
     }
     let mut value: serde_yaml::Value = serde_yaml::from_str(text).map_err(|e| {
+        let message = strip_location(&e.to_string());
+        if message.starts_with("duplicate entry")
+            && let Some((key, at)) = cx.loc.duplicate_key()
+        {
+            return LoadError {
+                file: file.to_string(),
+                position: Some(at),
+                field: key.to_string(),
+                message: "this key is given twice in the same mapping".into(),
+                hint: Some("keep one of the two".into()),
+            };
+        }
         let position = e.location().map(|l| Position {
             line: l.line(),
             column: l.column(),
@@ -122,7 +154,7 @@ pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Networ
             file: file.to_string(),
             position,
             field: String::new(),
-            message: format!("not valid YAML: {}", strip_location(&e.to_string())),
+            message: format!("not valid YAML: {}", yaml_wording(&message)),
             hint: None,
         }
     })?;
@@ -152,10 +184,51 @@ pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Networ
                 "expected a mapping with the keys species, reactions, feed and reactor",
             )
             .replace("struct Raw", "mapping ");
+        let inner = yaml_wording(&inner);
         let hint = unknown_field_hint(&inner);
         cx.err(&path, &strip_location(&inner), hint)
     })?;
     build(raw, &cx)
+}
+
+/// A number rounded to 10 significant digits for a message, so that a unit conversion's last
+/// bits (−300 °C = −26.850000000000023 K) do not show.
+fn significant(v: f64) -> String {
+    let r: f64 = format!("{v:.9e}").parse().unwrap_or(v);
+    if r != 0.0 && !(1e-4..1e12).contains(&r.abs()) {
+        format!("{r:e}")
+    } else {
+        format!("{r}")
+    }
+}
+
+/// serde and serde_yaml wording rewritten for a study file's author: internal type names
+/// (`mapping Feed`, `u128`, `any YAML value`) replaced by what the file should hold.
+fn yaml_wording(message: &str) -> String {
+    let mut m = message.to_string();
+    if m.contains(" as u128") || m.contains(" as i128") {
+        return "a whole number too large for any field (integers are limited to 64 bits)".into();
+    }
+    // "expected mapping Feed" -> "expected a mapping (the `feed` section)"
+    for (ty, section) in [
+        ("mapping Feed", "feed"),
+        ("mapping Reactor", "reactor"),
+        ("mapping Solver", "solver"),
+        ("mapping Species", "species.NAME"),
+        ("mapping Reaction", "reactions[i]"),
+        ("mapping Rate", "reactions[i].rate"),
+        ("mapping PressureDrop", "reactor.pressure_drop"),
+        ("mapping Adsorption", "reactions[i].rate.adsorption.NAME"),
+    ] {
+        if let Some(i) = m.find(ty) {
+            let end = i + ty.len();
+            // Only the whole type name ("mapping Rate", not a prefix of "mapping RateLaw").
+            if !m[end..].starts_with(|c: char| c.is_alphanumeric()) {
+                m.replace_range(i..end, &format!("a mapping (the `{section}` section)"));
+            }
+        }
+    }
+    m
 }
 
 /// serde's path display uses `?` for unknown segments; keep what is known.
@@ -185,8 +258,12 @@ fn unknown_field_hint(msg: &str) -> Option<String> {
 
 fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), String> {
     use serde_yaml::Value;
-    let new: Value = serde_yaml::from_str(&o.value)
-        .map_err(|e| format!("the value is not a YAML scalar: {e}"))?;
+    let new: Value = serde_yaml::from_str(&o.value).map_err(|e| {
+        format!(
+            "the value is not a YAML scalar: {}",
+            yaml_wording(&e.to_string())
+        )
+    })?;
     if new.is_mapping() || new.is_sequence() {
         return Err(
             "only a scalar can be set (a number, a word or a quantity such as \"2 mol/s\")".into(),
@@ -340,11 +417,24 @@ impl Cx {
         Ok(si)
     }
 
+    /// A positive, finite, normal number. Subnormal values (below 2.2e-308 in SI) are refused:
+    /// no physical size is that small, and arithmetic on them loses precision silently
+    /// (IEEE 754), so a typo such as `1e-320 m3` would otherwise end as a solver failure.
     fn positive(&self, field: &str, v: f64, what: &str) -> Result<f64, LoadError> {
-        if v > 0.0 && v.is_finite() {
+        if v > 0.0 && v.is_finite() && v.is_normal() {
             Ok(v)
+        } else if v > 0.0 && v.is_finite() {
+            Err(self.err(
+                field,
+                &format!("{what} is too small to compute with, got {v:e} (SI)"),
+                Some("check the exponent and the unit".into()),
+            ))
         } else {
-            Err(self.err(field, &format!("{what} must be positive, got {v}"), None))
+            Err(self.err(
+                field,
+                &format!("{what} must be positive, got {} (SI)", significant(v)),
+                None,
+            ))
         }
     }
 
@@ -444,6 +534,38 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
 
     // --- feed (temperature needed as the default T_ref)
     let feed = build_feed(&raw.feed, phase, &reactor, &index, cx)?;
+    if let Reactor::Pbr {
+        pressure_drop: Some(PressureDrop::Ergun { .. }),
+        ..
+    } = &reactor
+    {
+        // The Ergun equation needs the mass flux G = Σ F_j0 M_j / A_c of the feed.
+        let missing: Vec<&str> = feed
+            .amounts
+            .iter()
+            .enumerate()
+            .filter(|(j, f)| **f > 0.0 && species[*j].molar_mass.is_none())
+            .map(|(j, _)| species[j].name.as_str())
+            .collect();
+        if let Some(first) = missing.first() {
+            return Err(cx.err(
+                "reactor.pressure_drop",
+                &format!(
+                    "the Ergun equation needs the molar mass of every fed species (for the mass \
+                     flux); none is known for {}",
+                    missing
+                        .iter()
+                        .map(|n| format!("`{n}`"))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+                Some(format!(
+                    "give `species.{first}.molar_mass` (e.g. `molar_mass: 28 g/mol`) or a \
+                     `formula` of common elements, or use the lumped constant `alpha`"
+                )),
+            ));
+        }
+    }
 
     // --- reactions
     if raw.reactions.is_empty() {
@@ -759,6 +881,16 @@ fn build_feed(
     cx: &Cx,
 ) -> Result<Feed, LoadError> {
     let temperature = cx.qty("feed.T", &f.t, Dim::TEMPERATURE, "a temperature", "320 K")?;
+    if temperature <= 0.0 {
+        return Err(cx.err(
+            "feed.T",
+            &format!(
+                "the temperature is at or below absolute zero: {} K",
+                significant(temperature)
+            ),
+            Some("check the value and its unit (`K`, or `degC` alone as in `25 degC`)".into()),
+        ));
+    }
     cx.positive("feed.T", temperature, "the absolute temperature")?;
     let pressure = match &f.p {
         Some(p) => {
@@ -1295,6 +1427,11 @@ fn default_key(reactions: &[Reaction], feed: &Feed, cx: &Cx) -> Result<usize, Lo
     ))
 }
 
+/// The tightest relative tolerance accepted: about 50 × the f64 machine epsilon (2.2e-16,
+/// IEEE 754). A tighter error test cannot be met in double precision and would only end in a
+/// step-size failure (common practice).
+pub const MIN_RTOL: f64 = 1e-14;
+
 fn build_solver(
     s: Option<&RawSolver>,
     reactor: &Reactor,
@@ -1305,12 +1442,19 @@ fn build_solver(
     };
     let rtol = match s.rtol {
         None => None,
-        Some(r) if r > 0.0 && r < 1.0 => Some(r),
+        Some(r) if (MIN_RTOL..1.0).contains(&r) => Some(r),
         Some(r) => {
             return Err(cx.err(
                 "solver.rtol",
-                &format!("rtol must lie in (0, 1), got {r}"),
-                None,
+                &format!("rtol must lie in [{MIN_RTOL:e}, 1), got {}", significant(r)),
+                Some(if r > 0.0 && r < MIN_RTOL {
+                    format!(
+                        "below {MIN_RTOL:e} the error test asks for more than double precision \
+                         resolves (machine epsilon 2.2e-16); 1e-8 is the default"
+                    )
+                } else {
+                    "1e-8 is the default".to_string()
+                }),
             ));
         }
     };

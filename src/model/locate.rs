@@ -21,6 +21,8 @@ pub struct Position {
 pub struct Locator {
     keys: HashMap<String, Position>,
     values: HashMap<String, Position>,
+    /// The first key written twice in one mapping: its path and the position of the repeat.
+    duplicate: Option<(String, Position)>,
 }
 
 enum Frame {
@@ -92,7 +94,16 @@ impl MarkedEventReceiver for Builder {
                 None => {
                     if let Some(Frame::Map { path, key }) = self.stack.last_mut() {
                         let p = join(path, &text);
-                        self.loc.keys.entry(p).or_insert(pos(mark));
+                        match self.loc.keys.entry(p) {
+                            std::collections::hash_map::Entry::Occupied(e) => {
+                                if self.loc.duplicate.is_none() {
+                                    self.loc.duplicate = Some((e.key().clone(), pos(mark)));
+                                }
+                            }
+                            std::collections::hash_map::Entry::Vacant(e) => {
+                                e.insert(pos(mark));
+                            }
+                        }
                         *key = Some(text);
                     }
                 }
@@ -158,6 +169,12 @@ impl Locator {
         }
     }
 
+    /// The first key repeated within one mapping (path and position of the second
+    /// occurrence), which YAML forbids and serde_yaml reports without a useful position.
+    pub fn duplicate_key(&self) -> Option<(&str, Position)> {
+        self.duplicate.as_ref().map(|(k, p)| (k.as_str(), *p))
+    }
+
     /// Position of a field's value (for an error about the value itself).
     pub fn find_value(&self, path: &str) -> Option<Position> {
         self.values.get(path).copied().or_else(|| self.find(path))
@@ -179,6 +196,14 @@ mod tests {
         assert_eq!((k2.line, k2.column), (7, 7));
         // Unknown deeper path falls back to the nearest known parent.
         assert_eq!(l.find("reactions[1].rate.k.zzz").unwrap().line, 7);
+    }
+
+    #[test]
+    fn a_repeated_key_is_found_at_its_second_occurrence() {
+        let l = Locator::new("name: x\nfeed:\n  T: 300 K\n  P: 1 bar\n  T: 310 K\n");
+        let (k, p) = l.duplicate_key().expect("a duplicate");
+        assert_eq!((k, p.line, p.column), ("feed.T", 5, 3));
+        assert!(Locator::new("a: 1\nb: {a: 2}\n").duplicate_key().is_none());
     }
 
     #[test]

@@ -146,46 +146,46 @@ pub enum OdeError {
     #[error("invalid input: {what}")]
     InvalidInput { what: String },
     #[error(
-        "the right-hand side gave a non-finite value in component {index} at x = {x}; \
+        "the right-hand side gave a non-finite value in component {index} at x = {x:.6e}; \
          check the rate expressions for division by zero, overflow or negative amounts raised \
          to fractional powers, or give the model a guard for such states"
     )]
     NonFiniteRhs { x: f64, index: usize },
     #[error(
-        "the Jacobian gave a non-finite entry (row {row}, col {col}) at x = {x}; check the \
+        "the Jacobian gave a non-finite entry (row {row}, col {col}) at x = {x:.6e}; check the \
          derivative expressions of the rate laws"
     )]
     NonFiniteJacobian { x: f64, row: usize, col: usize },
     #[error("the Jacobian gave entry (row {row}, col {col}) outside the {dim}x{dim} system")]
     JacobianIndexOutOfRange { row: usize, col: usize, dim: usize },
     #[error(
-        "the Jacobian entry (row {row}, col {col}) at x = {x} is outside the sparsity pattern \
+        "the Jacobian entry (row {row}, col {col}) at x = {x:.6e} is outside the sparsity pattern \
          found at x = 0; emit every structural entry (also zeros) or use LinearAlgebra::Dense"
     )]
     SparsityChanged { x: f64, row: usize, col: usize },
-    #[error("the root function gave a non-finite value at x = {x}; check its expression")]
+    #[error("the root function gave a non-finite value at x = {x:.6e}; check its expression")]
     NonFiniteRoot { x: f64 },
     #[error(
-        "the solution became non-finite in component {index} at x = {x}; tighten rtol/atol or \
+        "the solution became non-finite in component {index} at x = {x:.6e}; tighten rtol/atol or \
          check the model"
     )]
     NonFiniteState { x: f64, index: usize },
     #[error(
-        "step size became too small at x = {x}; the solution may blow up or have a singularity \
+        "step size became too small at x = {x:.6e}; the solution may blow up or have a singularity \
          there, the Jacobian may be wrong, or the tolerances too tight (try a larger atol/rtol)"
     )]
     StepSizeTooSmall { x: f64 },
     #[error(
-        "reached the maximum of {max_steps} steps at x = {x}; raise OdeOptions::max_steps or \
-         loosen the tolerances"
+        "reached the maximum of {max_steps} steps at x = {x:.6e}; raise `solver.max_steps` in the \
+         study file (or `--set solver.max_steps=N`) or loosen the tolerances"
     )]
     MaxSteps { x: f64, max_steps: usize },
     #[error(
-        "the solver failed to converge at x = {x} ({reason}); check the Jacobian against the \
+        "the solver failed to converge at x = {x:.6e} ({reason}); check the Jacobian against the \
          right-hand side, or loosen the tolerances"
     )]
     ConvergenceFailure { x: f64, reason: String },
-    #[error("the ODE solver failed at x = {x}: {reason}")]
+    #[error("the ODE solver failed at x = {x:.6e}: {reason}")]
     Solver { x: f64, reason: String },
 }
 
