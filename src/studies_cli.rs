@@ -19,11 +19,10 @@ fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network), i32> {
         eprintln!("error: {e}");
         EXIT_INVALID
     })?;
-    let study = Study {
-        text,
-        file: file.display().to_string(),
-        overrides: set.to_vec(),
-    };
+    let study = Study::new(text, file.display().to_string(), set.to_vec()).map_err(|e| {
+        eprintln!("error: {e}");
+        EXIT_INVALID
+    })?;
     let net = study.load(&[]).map_err(|e| {
         eprintln!("error: {e}");
         EXIT_INVALID

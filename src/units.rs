@@ -759,6 +759,34 @@ impl Parser<'_> {
 /// Examples: `L/(mol*s)` → factor 1e-3, dimension m³ mol⁻¹ s⁻¹; `degC` → factor 1,
 /// offset 273.15, dimension K.
 pub fn parse_unit(s: &str) -> Result<Unit, UnitError> {
+    // A sweep or an optimiser loads the same study thousands of times, with the same handful of
+    // unit strings; parsing is pure, so successful results are remembered per thread (a small,
+    // bounded table: a hostile file cannot grow it past UNIT_CACHE_SIZE entries).
+    thread_local! {
+        static CACHE: std::cell::RefCell<std::collections::HashMap<String, Unit>> =
+            std::cell::RefCell::new(std::collections::HashMap::new());
+    }
+    if s.len() <= 64
+        && let Some(u) = CACHE.with(|c| c.borrow().get(s).copied())
+    {
+        return Ok(u);
+    }
+    let u = parse_unit_uncached(s)?;
+    if s.len() <= 64 {
+        CACHE.with(|c| {
+            let mut c = c.borrow_mut();
+            if c.len() < UNIT_CACHE_SIZE {
+                c.insert(s.to_string(), u);
+            }
+        });
+    }
+    Ok(u)
+}
+
+/// Most unit strings remembered per thread by [`parse_unit`].
+const UNIT_CACHE_SIZE: usize = 256;
+
+fn parse_unit_uncached(s: &str) -> Result<Unit, UnitError> {
     let trimmed = s.trim();
     if trimmed.is_empty() {
         return Err(UnitError::Empty);

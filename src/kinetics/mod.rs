@@ -21,11 +21,32 @@
 use crate::model::{Network, RateForm};
 use crate::units::GAS_CONSTANT;
 
-/// One power factor C^e.
+/// An exponent, sorted at build time: integer powers are applied with `powi` and need no
+/// rounding test per evaluation.
+#[derive(Debug, Clone, Copy)]
+enum Exponent {
+    Int(i32),
+    Real(f64),
+}
+
+impl Exponent {
+    fn new(e: f64) -> Exponent {
+        let n = e.round();
+        if (e - n).abs() < 1e-12 && n.abs() <= 64.0 {
+            Exponent::Int(n as i32)
+        } else {
+            Exponent::Real(e)
+        }
+    }
+}
+
+/// One power factor C^e, with the place of its species in the rate's `depends_on` list (where
+/// its derivative goes).
 #[derive(Debug, Clone, Copy)]
 struct Factor {
     species: usize,
-    exponent: f64,
+    exponent: Exponent,
+    slot: usize,
 }
 
 /// (K_m,ref, ΔH_m, factor C_m^b_m) of one denominator term.
@@ -45,34 +66,61 @@ struct Compiled {
     depends_on: Vec<usize>,
 }
 
+/// The temperature-dependent constants of one rate at the network's temperature, computed once
+/// (the reactors are isothermal, so every evaluation of a solve uses the same T).
+#[derive(Debug, Clone)]
+struct AtTemperature {
+    k: f64,
+    /// 1/K_eq(T), for a reversible step.
+    inv_k_eq: f64,
+    /// K_m(T) of each adsorption term.
+    k_ads: Vec<f64>,
+}
+
 /// All rate laws of a network, ready to evaluate.
 #[derive(Debug, Clone)]
 pub struct RateSet {
     laws: Vec<Compiled>,
+    /// The temperature `cached` was computed at.
+    temperature: f64,
+    cached: Vec<AtTemperature>,
 }
 
 /// Value and derivative of C^e (see the module notes on powers).
 #[inline]
-fn power(c: f64, e: f64) -> (f64, f64) {
-    let n = e.round();
-    if (e - n).abs() < 1e-12 && n.abs() <= 64.0 {
-        let n = n as i32;
-        match n {
-            0 => (1.0, 0.0),
-            1 => (c, 1.0),
-            2 => (c * c, 2.0 * c),
-            _ => (c.powi(n), n as f64 * c.powi(n - 1)),
+fn power(c: f64, e: Exponent) -> (f64, f64) {
+    match e {
+        Exponent::Int(0) => (1.0, 0.0),
+        Exponent::Int(1) => (c, 1.0),
+        Exponent::Int(2) => (c * c, 2.0 * c),
+        Exponent::Int(n) => (c.powi(n), n as f64 * c.powi(n - 1)),
+        Exponent::Real(e) => {
+            if c > 0.0 {
+                let v = c.powf(e);
+                (v, e * v / c)
+            } else {
+                (0.0_f64.powf(e), 0.0)
+            }
         }
-    } else if c > 0.0 {
-        let v = c.powf(e);
-        (v, e * v / c)
-    } else {
-        (0.0_f64.powf(e), 0.0)
     }
 }
 
-/// Π_j C_j^e_j and its gradient (added, times `scale`, into `grad` over the factor species).
-fn product(factors: &[Factor], c: &[f64], grad: Option<(&mut [(usize, f64)], f64)>) -> f64 {
+/// Π_j C_j^e_j.
+#[inline]
+fn product_value(factors: &[Factor], c: &[f64]) -> f64 {
+    let mut total = 1.0;
+    for f in factors {
+        total *= match f.exponent {
+            Exponent::Int(1) => c[f.species],
+            Exponent::Int(2) => c[f.species] * c[f.species],
+            e => power(c[f.species], e).0,
+        };
+    }
+    total
+}
+
+/// Π_j C_j^e_j, with its gradient times `scale` added into `grad` (indexed like `depends_on`).
+fn product(factors: &[Factor], c: &[f64], grad: &mut [(usize, f64)], scale: f64) -> f64 {
     let mut vals = [(0.0, 0.0); 8];
     let big: Vec<(f64, f64)>;
     let pv: &[(f64, f64)] = if factors.len() <= 8 {
@@ -88,20 +136,15 @@ fn product(factors: &[Factor], c: &[f64], grad: Option<(&mut [(usize, f64)], f64
         &big
     };
     let total: f64 = pv.iter().map(|(v, _)| v).product();
-    if let Some((g, scale)) = grad {
-        for (k, f) in factors.iter().enumerate() {
-            // ∂/∂C_k = e C_k^(e−1) Π_{m≠k} C_m^e_m, without dividing by C_k.
-            let others: f64 = pv
-                .iter()
-                .enumerate()
-                .filter(|(m, _)| *m != k)
-                .map(|(_, (v, _))| v)
-                .product();
-            let d = pv[k].1 * others * scale;
-            if let Some(slot) = g.iter_mut().find(|(s, _)| *s == f.species) {
-                slot.1 += d;
-            }
-        }
+    for (k, f) in factors.iter().enumerate() {
+        // ∂/∂C_k = e C_k^(e−1) Π_{m≠k} C_m^e_m, without dividing by C_k.
+        let others: f64 = pv
+            .iter()
+            .enumerate()
+            .filter(|(m, _)| *m != k)
+            .map(|(_, (v, _))| v)
+            .product();
+        grad[f.slot].1 += pv[k].1 * others * scale;
     }
     total
 }
@@ -114,19 +157,43 @@ fn arrhenius(k_ref: f64, e: f64, t_ref: f64, t: f64) -> f64 {
     }
 }
 
+impl Compiled {
+    fn at(&self, t: f64) -> AtTemperature {
+        AtTemperature {
+            k: arrhenius(self.k_ref, self.ea, self.t_ref, t),
+            inv_k_eq: self
+                .reverse
+                .as_ref()
+                .map_or(0.0, |(k, dh, _)| 1.0 / arrhenius(*k, *dh, self.t_ref, t)),
+            k_ads: self
+                .denominator
+                .as_ref()
+                .map_or_else(Vec::new, |(terms, _)| {
+                    terms
+                        .iter()
+                        .map(|(k, dh, _)| arrhenius(*k, *dh, self.t_ref, t))
+                        .collect()
+                }),
+        }
+    }
+}
+
 impl RateSet {
+    /// Compile the network's rate laws, with their constants at the feed temperature.
     pub fn new(net: &Network) -> RateSet {
-        let laws = net
+        let factor = |species: usize, exponent: f64| Factor {
+            species,
+            exponent: Exponent::new(exponent),
+            slot: usize::MAX,
+        };
+        let laws: Vec<Compiled> = net
             .reactions
             .iter()
             .map(|r| {
                 let law = &r.rate;
-                let forward: Vec<Factor> = law
-                    .orders
-                    .iter()
-                    .map(|&(species, exponent)| Factor { species, exponent })
-                    .collect();
-                let reverse = law.equilibrium.as_ref().map(|eq| {
+                let mut forward: Vec<Factor> =
+                    law.orders.iter().map(|&(j, e)| factor(j, e)).collect();
+                let mut reverse = law.equilibrium.as_ref().map(|eq| {
                     // Exponents a_j + ν_j over every species in the orders or the equation.
                     let mut ex: Vec<(usize, f64)> = law.orders.clone();
                     for &(j, nu) in &r.net {
@@ -138,25 +205,16 @@ impl RateSet {
                     let factors: Vec<Factor> = ex
                         .into_iter()
                         .filter(|(_, e)| e.abs() > 1e-14)
-                        .map(|(species, exponent)| Factor { species, exponent })
+                        .map(|(j, e)| factor(j, e))
                         .collect();
                     (eq.k_ref, r.dh.unwrap_or(0.0), factors)
                 });
-                let denominator = match &law.form {
+                let mut denominator = match &law.form {
                     RateForm::Power => None,
                     RateForm::Hyperbolic { adsorption, power } => Some((
                         adsorption
                             .iter()
-                            .map(|a| {
-                                (
-                                    a.k_ref,
-                                    a.dh,
-                                    Factor {
-                                        species: a.species,
-                                        exponent: a.order,
-                                    },
-                                )
-                            })
+                            .map(|a| (a.k_ref, a.dh, factor(a.species, a.order)))
                             .collect::<Vec<_>>(),
                         *power,
                     )),
@@ -170,6 +228,18 @@ impl RateSet {
                 }
                 depends_on.sort_unstable();
                 depends_on.dedup();
+                let slot_of = |f: &mut Factor| {
+                    f.slot = depends_on
+                        .binary_search(&f.species)
+                        .expect("every factor's species is in depends_on");
+                };
+                forward.iter_mut().for_each(slot_of);
+                if let Some((_, _, fs)) = &mut reverse {
+                    fs.iter_mut().for_each(slot_of);
+                }
+                if let Some((terms, _)) = &mut denominator {
+                    terms.iter_mut().for_each(|(_, _, f)| slot_of(f));
+                }
                 Compiled {
                     k_ref: law.k_ref,
                     ea: law.ea,
@@ -181,7 +251,13 @@ impl RateSet {
                 }
             })
             .collect();
-        RateSet { laws }
+        let temperature = net.feed.temperature;
+        let cached = laws.iter().map(|l| l.at(temperature)).collect();
+        RateSet {
+            laws,
+            temperature,
+            cached,
+        }
     }
 
     pub fn len(&self) -> usize {
@@ -199,53 +275,62 @@ impl RateSet {
 
     /// Rate of reaction i at T and C; with `grad`, also ∂r_i/∂C_j for j in `depends_on(i)`,
     /// written into `grad` as (species, derivative) in that order.
+    ///
+    /// At the network's own temperature the constants k(T), K_eq(T) and K_m(T) come from the
+    /// values computed once in [`RateSet::new`]; at any other T they are evaluated afresh.
     pub fn eval(&self, i: usize, t: f64, c: &[f64], grad: Option<&mut Vec<(usize, f64)>>) -> f64 {
         let law = &self.laws[i];
-        let k = arrhenius(law.k_ref, law.ea, law.t_ref, t);
-        let mut g = grad;
-        if let Some(g) = g.as_deref_mut() {
-            g.clear();
-            g.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
-        }
+        let fresh;
+        let at = if t == self.temperature {
+            &self.cached[i]
+        } else {
+            fresh = law.at(t);
+            &fresh
+        };
+        let k = at.k;
+        let Some(g) = grad else {
+            // Rate only: no gradient bookkeeping.
+            let mut num = product_value(&law.forward, c);
+            if let Some((_, _, factors)) = &law.reverse {
+                num -= product_value(factors, c) * at.inv_k_eq;
+            }
+            return match &law.denominator {
+                None => k * num,
+                Some((terms, n)) => {
+                    let mut d = 1.0;
+                    for ((_, _, f), k_ads) in terms.iter().zip(&at.k_ads) {
+                        d += k_ads * power(c[f.species], f.exponent).0;
+                    }
+                    k * num / d.powf(*n)
+                }
+            };
+        };
+        g.clear();
+        g.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
         // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
-        let mut num = product(&law.forward, c, g.as_deref_mut().map(|g| (&mut g[..], 1.0)));
-        if let Some((k_eq_ref, dh, factors)) = &law.reverse {
-            let k_eq = arrhenius(*k_eq_ref, *dh, law.t_ref, t);
-            num -= product(
-                factors,
-                c,
-                g.as_deref_mut().map(|g| (&mut g[..], -1.0 / k_eq)),
-            ) / k_eq;
+        let mut num = product(&law.forward, c, g, 1.0);
+        if let Some((_, _, factors)) = &law.reverse {
+            num -= product(factors, c, g, -at.inv_k_eq) * at.inv_k_eq;
         }
         match &law.denominator {
             None => {
-                if let Some(g) = g {
-                    for e in g.iter_mut() {
-                        e.1 *= k;
-                    }
+                for e in g.iter_mut() {
+                    e.1 *= k;
                 }
                 k * num
             }
             Some((terms, n)) => {
                 // r = k N / D^n; ∂r = k (∂N / D^n − n N D^(−n−1) ∂D).
                 let mut d = 1.0;
-                let mut dgrad: Vec<(usize, f64)> = Vec::new();
-                if g.is_some() {
-                    dgrad.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
-                }
-                for (k_ads_ref, dh_ads, f) in terms {
-                    let k_ads = arrhenius(*k_ads_ref, *dh_ads, law.t_ref, t);
+                let mut dgrad = vec![0.0; law.depends_on.len()];
+                for ((_, _, f), k_ads) in terms.iter().zip(&at.k_ads) {
                     let (v, dv) = power(c[f.species], f.exponent);
                     d += k_ads * v;
-                    if let Some(slot) = dgrad.iter_mut().find(|(s, _)| *s == f.species) {
-                        slot.1 += k_ads * dv;
-                    }
+                    dgrad[f.slot] += k_ads * dv;
                 }
                 let dn = d.powf(*n);
-                if let Some(g) = g {
-                    for (e, de) in g.iter_mut().zip(dgrad.iter()) {
-                        e.1 = k * (e.1 / dn - n * num * de.1 / (dn * d));
-                    }
+                for (e, de) in g.iter_mut().zip(dgrad.iter()) {
+                    e.1 = k * (e.1 / dn - n * num * de / (dn * d));
                 }
                 k * num / dn
             }

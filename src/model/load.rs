@@ -126,17 +126,42 @@ pub fn read_text(path: &std::path::Path) -> Result<String, LoadError> {
 
 /// Load a study from its text; `file` names it in messages.
 pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Network, LoadError> {
-    let cx = Cx {
-        file: file.to_string(),
-        loc: Locator::new(text),
-    };
+    load_parsed(parse_text(text, file)?, text, file, overrides)
+}
+
+/// A study text parsed into its YAML tree, for loading it many times with different overrides
+/// (every point of a sweep, every evaluation of an optimiser) without parsing the text again.
+/// Each load still applies its overrides to the tree and validates the whole study.
+#[derive(Debug, Clone)]
+pub struct ParsedStudy {
+    pub text: String,
+    pub file: String,
+    tree: serde_yaml::Value,
+}
+
+impl ParsedStudy {
+    /// Parse `text` (errors name `file`).
+    pub fn new(text: String, file: String) -> Result<ParsedStudy, LoadError> {
+        let tree = parse_text(&text, &file)?;
+        Ok(ParsedStudy { text, file, tree })
+    }
+
+    /// The network with `overrides` applied, validated as [`load_str`] would.
+    pub fn load(&self, overrides: &[Override]) -> Result<Network, LoadError> {
+        load_parsed(self.tree.clone(), &self.text, &self.file, overrides)
+    }
+}
+
+/// The YAML tree of a study text.
+fn parse_text(text: &str, file: &str) -> Result<serde_yaml::Value, LoadError> {
+    let cx = Cx::new(file, text);
     if text.len() > MAX_FILE_BYTES {
         return Err(cx.err("", "the study text is too large", None));
     }
-    let mut value: serde_yaml::Value = serde_yaml::from_str(text).map_err(|e| {
+    let value: serde_yaml::Value = serde_yaml::from_str(text).map_err(|e| {
         let message = strip_location(&e.to_string());
         if message.starts_with("duplicate entry")
-            && let Some((key, at)) = cx.loc.duplicate_key()
+            && let Some((key, at)) = cx.loc().duplicate_key()
         {
             return LoadError {
                 file: file.to_string(),
@@ -165,6 +190,18 @@ pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Networ
             None,
         ));
     }
+    Ok(value)
+}
+
+/// Apply `overrides` to a parsed tree and build the network; `text` gives the positions for
+/// messages (its position map is built only if there is an error to place).
+fn load_parsed(
+    mut value: serde_yaml::Value,
+    text: &str,
+    file: &str,
+    overrides: &[Override],
+) -> Result<Network, LoadError> {
+    let cx = Cx::new(file, text);
     for o in overrides {
         apply_override(&mut value, o).map_err(|m| LoadError {
             file: file.to_string(),
@@ -354,17 +391,32 @@ fn levenshtein(a: &str, b: &str) -> usize {
     prev[b.len()]
 }
 
-/// Loading context: the file's name and its position map.
-struct Cx {
+/// Loading context: the file's name, its text and the position map, built from the text on
+/// the first error (a valid study never needs it, and building it costs about as much as
+/// parsing the YAML).
+struct Cx<'t> {
     file: String,
-    loc: Locator,
+    text: &'t str,
+    loc: std::cell::OnceCell<Locator>,
 }
 
-impl Cx {
+impl Cx<'_> {
+    fn new<'t>(file: &str, text: &'t str) -> Cx<'t> {
+        Cx {
+            file: file.to_string(),
+            text,
+            loc: std::cell::OnceCell::new(),
+        }
+    }
+
+    fn loc(&self) -> &Locator {
+        self.loc.get_or_init(|| Locator::new(self.text))
+    }
+
     fn err(&self, field: &str, message: &str, hint: Option<String>) -> LoadError {
         LoadError {
             file: self.file.clone(),
-            position: self.loc.find(field),
+            position: self.loc().find(field),
             field: field.to_string(),
             message: message.to_string(),
             hint,

@@ -11,7 +11,7 @@ pub mod formula;
 mod load;
 pub mod locate;
 
-pub use load::{LoadError, Override, load_file, load_str, read_text};
+pub use load::{LoadError, Override, ParsedStudy, load_file, load_str, read_text};
 
 use formula::Formula;
 use num_rational::BigRational;

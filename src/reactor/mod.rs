@@ -86,6 +86,10 @@ pub fn ergun_alpha(net: &Network, pd: &PressureDrop) -> Option<f64> {
     }
 }
 
+/// Networks with at most this many species keep their concentrations on the stack in
+/// [`Balance::rhs`].
+const SMALL_NETWORK: usize = 32;
+
 impl Balance {
     /// Set up the balances of the network's reactor. Fails only when the Ergun equation needs a
     /// molar mass that no species gives.
@@ -208,12 +212,23 @@ impl Balance {
     /// dy/dx at state y.
     pub fn rhs(&self, y: &[f64], dydx: &mut [f64]) {
         let (kappa, sigma, s) = self.scales(y);
-        let c: Vec<f64> = y[..self.n_species].iter().map(|v| kappa * v).collect();
+        // C on the stack for small networks (no allocation per call), on the heap beyond.
+        let mut small = [0.0; SMALL_NETWORK];
+        let mut large = Vec::new();
+        let c: &mut [f64] = if self.n_species <= SMALL_NETWORK {
+            &mut small[..self.n_species]
+        } else {
+            large.resize(self.n_species, 0.0);
+            &mut large
+        };
+        for (cj, yj) in c.iter_mut().zip(y) {
+            *cj = kappa * yj;
+        }
         dydx.iter_mut().for_each(|v| *v = 0.0);
         for (i, nu) in self.nu.iter().enumerate() {
-            let r = self.rates.eval(i, self.temperature, &c, None);
+            let r = sigma * self.rates.eval(i, self.temperature, c, None);
             for &(j, v) in nu {
-                dydx[j] += sigma * v * r;
+                dydx[j] += v * r;
             }
         }
         if let Some(alpha) = self.alpha {

@@ -196,6 +196,78 @@ type RootFn<'g> = &'g dyn Fn(f64, &[f64]) -> f64;
 /// Sparse-pattern record: `None` for the dense solver, then `None` until the first evaluation.
 type PatternCell = Option<RefCell<Option<HashSet<(usize, usize)>>>>;
 
+/// The Jacobian in compressed-row form, built from the system's triplets with duplicates summed.
+///
+/// A system emits its triplets in the same order at every evaluation (the structure is fixed by
+/// the network), so the place of each triplet in `values` is worked out once and reused while
+/// the (row, column) sequence stays the same; the many J·v products that diffsol's coloured
+/// Jacobian assembly asks for then walk each non-zero once instead of every raw triplet.
+#[derive(Default)]
+struct Csr {
+    /// (row, col) of each triplet of the last structure, in emission order.
+    keys: Vec<(usize, usize)>,
+    /// Index into `values` of each triplet.
+    slot: Vec<usize>,
+    row_start: Vec<usize>,
+    cols: Vec<usize>,
+    values: Vec<f64>,
+}
+
+impl Csr {
+    /// Sum `trips` into the values; returns true when the structure had to be rebuilt.
+    fn load(&mut self, n: usize, trips: &[(usize, usize, f64)]) -> bool {
+        let same = self.row_start.len() == n + 1
+            && self.keys.len() == trips.len()
+            && self
+                .keys
+                .iter()
+                .zip(trips)
+                .all(|(k, t)| k.0 == t.0 && k.1 == t.1);
+        if !same {
+            self.keys.clear();
+            self.keys.extend(trips.iter().map(|&(r, c, _)| (r, c)));
+            let mut order: Vec<usize> = (0..trips.len()).collect();
+            order.sort_unstable_by_key(|&t| self.keys[t]);
+            self.slot.clear();
+            self.slot.resize(trips.len(), 0);
+            self.cols.clear();
+            self.row_start.clear();
+            self.row_start.resize(n + 1, 0);
+            let mut last = None;
+            for &t in &order {
+                let key = self.keys[t];
+                if last != Some(key) {
+                    self.cols.push(key.1);
+                    self.row_start[key.0 + 1] += 1;
+                    last = Some(key);
+                }
+                self.slot[t] = self.cols.len() - 1;
+            }
+            for r in 0..n {
+                self.row_start[r + 1] += self.row_start[r];
+            }
+        }
+        self.values.clear();
+        self.values.resize(self.cols.len(), 0.0);
+        for (t, &(_, _, v)) in trips.iter().enumerate() {
+            self.values[self.slot[t]] += v;
+        }
+        !same
+    }
+
+    /// out = J v.
+    fn mul(&self, v: &[f64], out: &mut [f64]) {
+        for (r, o) in out.iter_mut().enumerate() {
+            let (a, b) = (self.row_start[r], self.row_start[r + 1]);
+            *o = self.cols[a..b]
+                .iter()
+                .zip(&self.values[a..b])
+                .map(|(&c, &x)| x * v[c])
+                .sum();
+        }
+    }
+}
+
 /// A fault seen inside a callback, which cannot return an error itself; it is reported after
 /// the solver call that triggered it.
 #[derive(Debug, Clone)]
@@ -214,8 +286,8 @@ struct Shared<'s> {
     rhs_evals: Cell<usize>,
     jac_evals: Cell<usize>,
     fault: RefCell<Option<Fault>>,
-    /// (x, y, triplets) of the last Jacobian evaluation.
-    cache: RefCell<(f64, Vec<f64>, Triplets)>,
+    /// (x, y, triplets, compressed rows) of the last Jacobian evaluation.
+    cache: RefCell<(f64, Vec<f64>, Triplets, Csr)>,
     /// Sparse solver only: the pattern fixed at the first evaluation.
     pattern: PatternCell,
 }
@@ -228,7 +300,7 @@ impl<'s> Shared<'s> {
             rhs_evals: Cell::new(0),
             jac_evals: Cell::new(0),
             fault: RefCell::new(None),
-            cache: RefCell::new((f64::NAN, Vec::new(), Vec::new())),
+            cache: RefCell::new((f64::NAN, Vec::new(), Vec::new(), Csr::default())),
             pattern: sparse.then(|| RefCell::new(None)),
         }
     }
@@ -248,10 +320,10 @@ impl<'s> Shared<'s> {
         }
     }
 
-    /// out = J(x, y)·v from the triplets, re-evaluating them only when (x, y) changed.
+    /// out = J(x, y)·v, re-evaluating the triplets only when (x, y) changed.
     fn jac_mul(&self, x: f64, y: &[f64], v: &[f64], out: &mut [f64]) {
         let mut cache = self.cache.borrow_mut();
-        let (cx, cy, trips) = &mut *cache;
+        let (cx, cy, trips, csr) = &mut *cache;
         if *cx != x || cy.as_slice() != y {
             trips.clear();
             self.sys.jacobian(x, y, trips);
@@ -275,7 +347,11 @@ impl<'s> Shared<'s> {
                     break;
                 }
             }
-            if let Some(pattern) = &self.pattern {
+            let rebuilt = csr.load(n, trips);
+            // The pattern can only have changed when the structure was rebuilt.
+            if let Some(pattern) = &self.pattern
+                && rebuilt
+            {
                 let mut pattern = pattern.borrow_mut();
                 match pattern.as_ref() {
                     None => *pattern = Some(trips.iter().map(|&(r, c, _)| (r, c)).collect()),
@@ -289,10 +365,7 @@ impl<'s> Shared<'s> {
                 }
             }
         }
-        out.fill(0.0);
-        for &(row, col, val) in trips.iter() {
-            out[row] += val * v[col];
-        }
+        csr.mul(v, out);
     }
 
     fn take_fault(&self) -> Option<OdeError> {
@@ -1027,6 +1100,35 @@ mod tests {
         fn jacobian(&self, _x: f64, _y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
             out.push((0, 1, -1.0));
         }
+    }
+
+    /// The compressed rows sum duplicate triplets and give the same J·v as the raw triplets
+    /// (plain matrix–vector product, from memory), also after a change of structure.
+    #[test]
+    fn compressed_rows_sum_duplicates() {
+        let mut csr = Csr::default();
+        let v = [1.0, -2.0, 0.5];
+        let naive = |trips: &[(usize, usize, f64)]| {
+            let mut out = [0.0; 3];
+            for &(r, c, x) in trips {
+                out[r] += x * v[c];
+            }
+            out
+        };
+        let a = [
+            (2, 0, 1.5),
+            (0, 1, 2.0),
+            (2, 0, -0.25),
+            (1, 2, 4.0),
+            (0, 1, 1.0),
+        ];
+        for trips in [&a[..], &a[..], &a[1..], &[][..]] {
+            csr.load(3, trips);
+            let mut out = [f64::NAN; 3];
+            csr.mul(&v, &mut out);
+            assert_eq!(out, naive(trips));
+        }
+        assert_eq!(csr.values.len(), 0);
     }
 
     #[test]

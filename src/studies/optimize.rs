@@ -337,19 +337,28 @@ impl Variable {
     }
 }
 
-/// A study as text, so every evaluation goes through the same loading and validation.
+/// A study parsed once, with the command line's overrides, so every evaluation goes through
+/// the same loading and validation (overrides applied to the YAML tree, whole study checked)
+/// without parsing the text again.
 #[derive(Debug, Clone)]
 pub struct Study {
-    pub text: String,
-    pub file: String,
+    pub parsed: crate::model::ParsedStudy,
     pub overrides: Vec<Override>,
 }
 
 impl Study {
+    /// Parse `text` (named `file` in messages); `overrides` apply to every load.
+    pub fn new(text: String, file: String, overrides: Vec<Override>) -> Result<Study, StudyError> {
+        let parsed = crate::model::ParsedStudy::new(text, file)
+            .map_err(|e| StudyError::Load(e.to_string()))?;
+        Ok(Study { parsed, overrides })
+    }
+
     pub fn load(&self, extra: &[Override]) -> Result<Network, StudyError> {
         let mut all = self.overrides.clone();
         all.extend_from_slice(extra);
-        crate::model::load_str(&self.text, &self.file, &all)
+        self.parsed
+            .load(&all)
             .map_err(|e| StudyError::Load(e.to_string()))
     }
 }
