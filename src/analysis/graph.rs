@@ -88,20 +88,18 @@ pub fn analyse(net: &Network) -> GraphReport {
     let nr = net.reactions.len();
     // Species nodes were added first, so a node index below the species count is a species.
     let species_of = |n: NodeIndex| (n.index() < ns).then_some(n.index());
-    let consumed: Vec<Vec<usize>> = (0..nr)
-        .map(|i| {
-            g.neighbors_directed(rx[i], Direction::Incoming)
-                .filter_map(species_of)
-                .collect()
-        })
-        .collect();
-    let made: Vec<Vec<usize>> = (0..nr)
-        .map(|i| {
-            g.neighbors_directed(rx[i], Direction::Outgoing)
-                .filter_map(species_of)
-                .collect()
-        })
-        .collect();
+    // Per reaction, the species on one side of it: net reactants (edges in), net products (out).
+    let side = |dir: Direction| -> Vec<Vec<usize>> {
+        (0..nr)
+            .map(|i| {
+                g.neighbors_directed(rx[i], dir)
+                    .filter_map(species_of)
+                    .collect()
+            })
+            .collect()
+    };
+    let consumed = side(Direction::Incoming);
+    let made = side(Direction::Outgoing);
     let mut consumers: Vec<Vec<usize>> = vec![Vec::new(); ns];
     let mut makers: Vec<Vec<usize>> = vec![Vec::new(); ns];
     for i in 0..nr {
