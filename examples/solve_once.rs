@@ -48,6 +48,7 @@ fn main() {
     let la = match args.get(1).map(String::as_str) {
         Some("dense") => LinearAlgebra::Dense,
         Some("sparse") => LinearAlgebra::Sparse,
+        Some("krylov") => LinearAlgebra::Krylov,
         _ => LinearAlgebra::Auto,
     };
     let opts = SolveOptions {
@@ -69,11 +70,14 @@ fn main() {
     );
     match res {
         Ok(s) => println!(
-            "ok: {} steps, {} rhs, {} jac, {} LU; outlet[key] = {:.6e}",
+            "ok: {} steps, {} rhs, {} jac, {} LU; {} linear solves, {} GMRES iterations, {} fallbacks; outlet[key] = {:.6e}",
             s.stats.steps,
             s.stats.rhs_evals,
             s.stats.jac_evals,
             s.stats.lu_factorizations,
+            s.stats.linear_solves,
+            s.stats.krylov_iterations,
+            s.stats.krylov_fallbacks,
             s.outlet()[net.key]
         ),
         Err(e) => println!("failed: {e}"),

@@ -344,39 +344,12 @@ pub fn check_tolerance(name: &str, v: Option<f64>, upper: f64) -> Result<(), Str
     }
 }
 
-/// `rxnet run FILE`: exit 0 on success, 1 when the solve fails, 2 for invalid input.
-fn run(a: &RunArgs) -> i32 {
-    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0)
-        .and_then(|_| check_tolerance("atol", a.atol, f64::INFINITY))
-    {
-        eprintln!("error: {m}");
-        return EXIT_INVALID;
-    }
-    if let Some(n) = a.points
-        && !(2..=1_000_000).contains(&n)
-    {
-        eprintln!("error: --points must be between 2 and 1000000, got {n}");
-        return EXIT_INVALID;
-    }
-    let net = match load(&a.file, &a.set) {
-        Ok(n) => n,
-        Err(code) => return code,
-    };
-    let analysis = analysis::check(&net);
-    if analysis.has_errors() {
-        eprintln!(
-            "error: {}: the network has error findings; run `rxnet check` on it:",
-            a.file.display()
-        );
-        for f in analysis
-            .findings
-            .iter()
-            .filter(|f| f.severity == analysis::Severity::Error)
-        {
-            eprintln!("  {}", f.message);
-        }
-        return EXIT_FINDINGS;
-    }
+/// The solve of `rxnet run`: whether a profile is wanted, the balance and the simulation, or
+/// the exit code and the message to print.
+fn solve_run(
+    net: &rxnet::model::Network,
+    a: &RunArgs,
+) -> Result<(bool, reactor::Balance, solve::Simulation), (i32, String)> {
     let want_profile = a.profile.is_some()
         || a.plot.is_some()
         || a.format == RunFormat::Csv
@@ -395,18 +368,65 @@ fn run(a: &RunArgs) -> i32 {
         points,
         ..Default::default()
     };
-    let balance = match reactor::Balance::new(&net) {
+    let balance = match reactor::Balance::new(net) {
         Ok(b) => b,
-        Err(m) => {
-            eprintln!("error: {}: {m}", a.file.display());
-            return EXIT_INVALID;
-        }
+        Err(m) => return Err((EXIT_INVALID, format!("error: {}: {m}", a.file.display()))),
     };
-    let sim = match solve::simulate_with(&net, &balance, &opts) {
+    let sim = match solve::simulate_with(net, &balance, &opts) {
         Ok(s) => s,
-        Err(e) => {
-            eprintln!("error: {}: {e}", a.file.display());
-            return EXIT_FINDINGS;
+        Err(e) => return Err((EXIT_FINDINGS, format!("error: {}: {e}", a.file.display()))),
+    };
+    Ok((want_profile, balance, sim))
+}
+
+/// `rxnet run FILE`: exit 0 on success, 1 when the solve fails, 2 for invalid input.
+fn run(a: &RunArgs) -> i32 {
+    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0)
+        .and_then(|_| check_tolerance("atol", a.atol, f64::INFINITY))
+    {
+        eprintln!("error: {m}");
+        return EXIT_INVALID;
+    }
+    if let Some(n) = a.points
+        && !(2..=1_000_000).contains(&n)
+    {
+        eprintln!("error: --points must be between 2 and 1000000, got {n}");
+        return EXIT_INVALID;
+    }
+    let net = match load(&a.file, &a.set) {
+        Ok(n) => n,
+        Err(code) => return code,
+    };
+    // The consistency check and the solve do not depend on each other, so the check runs on a
+    // second thread while the reactor is solved; its error findings still decide the outcome
+    // (a network with error findings gets no result, whatever the solve did).
+    let (analysis, solved) = std::thread::scope(|scope| {
+        let checking = scope.spawn(|| analysis::check(&net));
+        let solved = solve_run(&net, a);
+        let analysis = checking
+            .join()
+            .unwrap_or_else(|p| std::panic::resume_unwind(p));
+        (analysis, solved)
+    });
+    if analysis.has_errors() {
+        eprintln!(
+            "error: {}: the network has error findings; run `rxnet check` on it:",
+            a.file.display()
+        );
+        for f in analysis
+            .findings
+            .iter()
+            .filter(|f| f.severity == analysis::Severity::Error)
+        {
+            eprintln!("  {}", f.message);
+        }
+        return EXIT_FINDINGS;
+    }
+    let (want_profile, balance, sim) = match solved {
+        Ok(s) => s,
+        Err((code, message)) => {
+            eprintln!("{message}");
+            return code;
         }
     };
     let m = metrics::compute(&net, sim.outlet());

@@ -166,4 +166,5 @@ pub struct RawSolver {
     pub rtol: Option<f64>,
     pub atol: Option<RawQty>,
     pub max_steps: Option<usize>,
+    pub linear_algebra: Option<String>,
 }

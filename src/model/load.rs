@@ -1532,10 +1532,25 @@ fn build_solver(
         Some(0) => return Err(cx.err("solver.max_steps", "max_steps must be at least 1", None)),
         m => m,
     };
+    use crate::solve::ode::LinearAlgebra;
+    let linear_algebra = match s.linear_algebra.as_deref().map(str::trim) {
+        None | Some("auto") => None,
+        Some("dense") => Some(LinearAlgebra::Dense),
+        Some("sparse") => Some(LinearAlgebra::Sparse),
+        Some("krylov") => Some(LinearAlgebra::Krylov),
+        Some(other) => {
+            return Err(cx.err(
+                "solver.linear_algebra",
+                &format!("unknown linear algebra `{other}`"),
+                Some("one of auto, dense, sparse, krylov".into()),
+            ));
+        }
+    };
     Ok(SolverSettings {
         rtol,
         atol,
         max_steps,
+        linear_algebra,
     })
 }
 

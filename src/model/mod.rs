@@ -228,6 +228,8 @@ pub struct SolverSettings {
     /// Absolute tolerance in the state's units (mol/s or mol).
     pub atol: Option<f64>,
     pub max_steps: Option<usize>,
+    /// How the Newton systems of the integration are solved; `None` chooses by size.
+    pub linear_algebra: Option<crate::solve::ode::LinearAlgebra>,
 }
 
 /// A loaded, validated study.

@@ -265,6 +265,16 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
             s.atol,
             r.state_unit
         );
+        if s.linear_solves > 0 {
+            let _ = writeln!(
+                o,
+                "  {} GMRES iterations in {} linear solves ({:.1} each), {} fell back to the complete LU",
+                s.krylov_iterations,
+                s.linear_solves,
+                s.krylov_iterations as f64 / s.linear_solves as f64,
+                s.krylov_fallbacks
+            );
+        }
     }
     o
 }

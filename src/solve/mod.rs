@@ -2,6 +2,7 @@
 //! steady-state Newton solve (CSTR). A failed solve is an error that says where and why, never
 //! a result.
 
+pub mod krylov;
 pub mod newton;
 pub mod ode;
 
@@ -60,6 +61,11 @@ pub struct SolveStats {
     pub rhs_evals: usize,
     pub jac_evals: usize,
     pub lu_factorizations: usize,
+    /// Krylov linear algebra only (large networks): linear solves, GMRES iterations over all
+    /// of them, and solves that fell back to the complete LU.
+    pub linear_solves: usize,
+    pub krylov_iterations: usize,
+    pub krylov_fallbacks: usize,
     pub newton_iterations: usize,
     pub continuation_stages: usize,
     /// CSTR: ‖F_0 − F + V f(F)‖∞ at the solution (mol/s).
@@ -204,9 +210,13 @@ pub fn simulate_with(
             stats,
         }
     } else {
-        stats.method = "BDF (diffsol, analytic Jacobian)";
         let y0 = balance.initial_state(net);
         let ode_opts = ode_options(net, balance, opts);
+        stats.method = match ode_opts.linear_algebra.resolve(balance.dim()) {
+            LinearAlgebra::Dense => "BDF (diffsol, analytic Jacobian, dense LU)",
+            LinearAlgebra::Sparse => "BDF (diffsol, analytic Jacobian, sparse LU)",
+            _ => "BDF (diffsol, analytic Jacobian, GMRES with dropped-entry LU preconditioner)",
+        };
         let out = match opts.points {
             Points::End => Output::End,
             Points::Even(k) => Output::evenly_spaced(k, size),
@@ -254,6 +264,9 @@ pub fn simulate_with(
         stats.rhs_evals = sol.stats.rhs_evals;
         stats.jac_evals = sol.stats.jac_evals;
         stats.lu_factorizations = sol.stats.lu_factorizations;
+        stats.linear_solves = sol.stats.linear_solves;
+        stats.krylov_iterations = sol.stats.krylov_iterations;
+        stats.krylov_fallbacks = sol.stats.krylov_fallbacks;
         let pressure = balance.has_pressure().then(|| {
             sol.y
                 .iter()
@@ -336,7 +349,11 @@ pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> Ode
         atol: atols,
         max_steps: opts.max_steps.or(net.solver.max_steps).unwrap_or(200_000),
         first_step: None,
-        linear_algebra: opts.linear_algebra,
+        // The caller's explicit choice, else the study file's, else by size.
+        linear_algebra: match opts.linear_algebra {
+            LinearAlgebra::Auto => net.solver.linear_algebra.unwrap_or(LinearAlgebra::Auto),
+            chosen => chosen,
+        },
     }
 }
 

@@ -16,10 +16,14 @@
 
 use std::cell::{Cell, RefCell};
 use std::collections::HashSet;
+use std::rc::Rc;
 
+use super::krylov::{KrylovSolver, KrylovStats, WeightSource};
 use diffsol::{
-    DiffsolError, FaerSparseLU, FaerSparseMat, NalgebraLU, NalgebraMat, OdeBuilder, OdeEquations,
-    OdeSolverMethod, OdeSolverState, OdeSolverStopReason, Vector, error::OdeSolverError,
+    Bdf, BdfState, DefaultDenseMatrix, DiffsolError, FaerSparseLU, FaerSparseMat, NalgebraLU,
+    NalgebraMat, NoAug, OdeBuilder, OdeEquations, OdeEquationsImplicit, OdeSolverMethod,
+    OdeSolverProblem, OdeSolverState, OdeSolverStopReason, Vector, VectorRef,
+    error::OdeSolverError, matrix::MatrixRef,
 };
 
 /// The right-hand side and its Jacobian, supplied by the reactor model (one description, so
@@ -47,15 +51,31 @@ pub enum LinearAlgebra {
     /// Sparse faer CSC matrix with sparse LU (`FaerSparseMat` + `FaerSparseLU`); the pattern is
     /// taken from the Jacobian triplets at y0.
     Sparse,
-    /// Dense up to [`AUTO_SPARSE_ABOVE`] states, sparse above.
+    /// Sparse faer CSC matrix, solved by GMRES preconditioned with the LU of the matrix with
+    /// its small entries dropped ([`super::krylov`]); falls back to the complete sparse LU when
+    /// GMRES does not converge.
+    Krylov,
+    /// Dense up to [`AUTO_KRYLOV_ABOVE`] states, Krylov above.
     #[default]
     Auto,
 }
 
-/// [`LinearAlgebra::Auto`] switches to the sparse solver for more states than this: measured on
-/// generated networks (docs/performance.md), dense LU was about 2x faster at 100-150 states and
-/// sparse 5x faster at 1,000, where faer's sparse LU fills in heavily below that.
-pub const AUTO_SPARSE_ABOVE: usize = 400;
+impl LinearAlgebra {
+    /// The choice in force for `n` states: [`LinearAlgebra::Auto`] resolved by size.
+    pub fn resolve(self, n: usize) -> LinearAlgebra {
+        match self {
+            LinearAlgebra::Auto if n > AUTO_KRYLOV_ABOVE => LinearAlgebra::Krylov,
+            LinearAlgebra::Auto => LinearAlgebra::Dense,
+            chosen => chosen,
+        }
+    }
+}
+
+/// [`LinearAlgebra::Auto`] switches from dense LU to the Krylov solver for more states than
+/// this. Measured on generated networks (docs/performance.md): dense was faster at 50 and 100
+/// states (16 against 44 ms, 22 against 35 ms), Krylov at 200 (65 against 121 ms), 300 (0.19
+/// against 0.41 s) and 500 states (0.41 against 2.7 s).
+pub const AUTO_KRYLOV_ABOVE: usize = 150;
 
 /// Smallest step allowed, as a fraction of the integration length.
 pub const MIN_STEP_FRACTION: f64 = 1e-22;
@@ -135,8 +155,14 @@ pub struct OdeStats {
     pub rhs_evals: usize,
     /// Calls of [`OdeSystem::jacobian`].
     pub jac_evals: usize,
-    /// Newton-matrix LU factorizations (diffsol `number_of_linear_solver_setups`).
+    /// Newton-matrix LU factorizations (diffsol `number_of_linear_solver_setups`); with
+    /// [`LinearAlgebra::Krylov`], factorizations of the preconditioner.
     pub lu_factorizations: usize,
+    /// [`LinearAlgebra::Krylov`] only: linear solves, GMRES iterations over all of them, and
+    /// solves that fell back to the complete LU.
+    pub linear_solves: usize,
+    pub krylov_iterations: usize,
+    pub krylov_fallbacks: usize,
 }
 
 /// Why an integration failed. Each variant carries the x where it happened and says what the
@@ -290,6 +316,10 @@ struct Shared<'s> {
     cache: RefCell<(f64, Vec<f64>, Triplets, Csr)>,
     /// Sparse solver only: the pattern fixed at the first evaluation.
     pattern: PatternCell,
+    /// Krylov solver only: the latest state the right-hand side saw, for its error weights,
+    /// and the solver's counters.
+    latest: Option<Rc<WeightSource>>,
+    krylov: Option<Rc<Cell<KrylovStats>>>,
 }
 
 impl<'s> Shared<'s> {
@@ -302,6 +332,8 @@ impl<'s> Shared<'s> {
             fault: RefCell::new(None),
             cache: RefCell::new((f64::NAN, Vec::new(), Vec::new(), Csr::default())),
             pattern: sparse.then(|| RefCell::new(None)),
+            latest: None,
+            krylov: None,
         }
     }
 
@@ -314,6 +346,11 @@ impl<'s> Shared<'s> {
 
     fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
         self.rhs_evals.set(self.rhs_evals.get() + 1);
+        if let Some(w) = &self.latest {
+            let mut latest = w.y.borrow_mut();
+            latest.clear();
+            latest.extend_from_slice(y);
+        }
         self.sys.rhs(x, y, dydx);
         if let Some(index) = dydx.iter().position(|v| !v.is_finite()) {
             self.record(Fault::Rhs { x, index });
@@ -539,16 +576,21 @@ fn run(
     g: Option<RootFn>,
 ) -> Result<RootResult, OdeError> {
     let n = sys.dim();
-    let sparse = match opts.linear_algebra {
-        LinearAlgebra::Dense => false,
-        LinearAlgebra::Sparse => true,
-        LinearAlgebra::Auto => n > AUTO_SPARSE_ABOVE,
-    };
-    let sh = Shared::new(sys, sparse);
-    // One body for both matrix types: the closure types are unnameable, so a macro rather than
+    let la = opts.linear_algebra.resolve(n);
+    let mut sh = Shared::new(sys, la != LinearAlgebra::Dense);
+    if la == LinearAlgebra::Krylov {
+        sh.latest = Some(Rc::new(WeightSource {
+            rtol: opts.rtol,
+            atol: opts.atol.clone(),
+            y: RefCell::new(y0.to_vec()),
+        }));
+        sh.krylov = Some(Rc::new(Cell::new(KrylovStats::default())));
+    }
+    let sh = sh;
+    // One body for all matrix types: the closure types are unnameable, so a macro rather than
     // a generic function carries the builder.
     macro_rules! solve_with {
-        ($mat:ty, $lu:ty) => {{
+        ($mat:ty, $lu:ty, $make:expr) => {{
             let fail = |e: DiffsolError| {
                 sh.take_fault()
                     .unwrap_or_else(|| map_err(e, 0.0, opts.max_steps))
@@ -583,14 +625,60 @@ fn run(
             if let Some(e) = sh.take_fault() {
                 return Err(e);
             }
-            let mut solver = problem.bdf_solver::<$lu>(state).map_err(fail)?;
+            let mut solver = problem.bdf_with(state, $make).map_err(fail)?;
             drive(&mut solver, &sh, x_end, out, opts, g)
         }};
     }
-    if sparse {
-        solve_with!(FaerSparseMat<f64>, FaerSparseLU<f64>)
-    } else {
-        solve_with!(NalgebraMat<f64>, NalgebraLU<f64>)
+    match la {
+        LinearAlgebra::Sparse => {
+            solve_with!(
+                FaerSparseMat<f64>,
+                FaerSparseLU<f64>,
+                FaerSparseLU::default()
+            )
+        }
+        LinearAlgebra::Krylov => {
+            let (Some(w), Some(k)) = (sh.latest.clone(), sh.krylov.clone()) else {
+                unreachable!("set above for the Krylov solver")
+            };
+            let ls: KrylovSolver = KrylovSolver::new(w, k);
+            solve_with!(FaerSparseMat<f64>, KrylovSolver, ls)
+        }
+        _ => solve_with!(NalgebraMat<f64>, NalgebraLU<f64>, NalgebraLU::default()),
+    }
+}
+
+/// The BDF solver of a problem with a given linear solver: diffsol's own `bdf_solver` builds
+/// it with `LS::default()`, which cannot carry the Krylov solver's error weights.
+trait BdfWith<Eqn>
+where
+    Eqn: OdeEquationsImplicit,
+    Eqn::V: DefaultDenseMatrix<T = Eqn::T, C = Eqn::C>,
+{
+    fn bdf_with<LS: diffsol::LinearSolver<Eqn::M>>(
+        &self,
+        state: BdfState<Eqn::V>,
+        linear_solver: LS,
+    ) -> Result<Bdf<'_, Eqn, LS>, DiffsolError>;
+}
+
+impl<Eqn> BdfWith<Eqn> for OdeSolverProblem<Eqn>
+where
+    Eqn: OdeEquationsImplicit,
+    Eqn::V: DefaultDenseMatrix<T = Eqn::T, C = Eqn::C>,
+    for<'b> &'b Eqn::V: VectorRef<Eqn::V>,
+    for<'b> &'b Eqn::M: MatrixRef<Eqn::M>,
+{
+    fn bdf_with<LS: diffsol::LinearSolver<Eqn::M>>(
+        &self,
+        state: BdfState<Eqn::V>,
+        linear_solver: LS,
+    ) -> Result<Bdf<'_, Eqn, LS>, DiffsolError> {
+        Bdf::<'_, Eqn, LS, <Eqn::V as DefaultDenseMatrix>::M, NoAug<Eqn>>::new(
+            self,
+            state,
+            linear_solver,
+        )
     }
 }
 
@@ -625,11 +713,15 @@ where
 {
     let stats = |solver: &S| {
         let s = solver.get_statistics();
+        let k = sh.krylov.as_ref().map(|k| k.get()).unwrap_or_default();
         OdeStats {
             steps: s.number_of_steps,
             rhs_evals: sh.rhs_evals.get(),
             jac_evals: sh.jac_evals.get(),
             lu_factorizations: s.number_of_linear_solver_setups,
+            linear_solves: k.solves,
+            krylov_iterations: k.iterations,
+            krylov_fallbacks: k.fallbacks,
         }
     };
     let interp = |solver: &S, x: f64| -> Result<Vec<f64>, OdeError> {
@@ -944,18 +1036,27 @@ mod tests {
             atol: vec![1e-14, 1e-18, 1e-14],
             ..OdeOptions::default()
         };
-        let start = std::time::Instant::now();
-        let sol = integrate(&Robertson, &[1.0, 0.0, 0.0], 40.0, &Output::End, &opts).unwrap();
-        let elapsed = start.elapsed();
-        let y = &sol.y[0];
-        // y1(40) = 0.7158270687 (published reference table, Hairer & Wanner II; from memory)
-        assert!(rel(y[0], 0.7158270687) <= 1e-6, "y1 = {}", y[0]);
-        // y2(40) = 9.185534764e-6, y3(40) = 0.2841637457 (same table, from memory)
-        assert!(rel(y[1], 9.185534764e-6) <= 1e-5, "y2 = {}", y[1]);
-        assert!(rel(y[2], 0.2841637457) <= 1e-5, "y3 = {}", y[2]);
-        // mass conservation: the three rates sum to zero (Hairer & Wanner II)
-        assert!((y[0] + y[1] + y[2] - 1.0).abs() <= 1e-9);
-        eprintln!("Robertson to x=40: {elapsed:?}, y = {y:?}, {:?}", sol.stats);
+        for la in [LinearAlgebra::Dense, LinearAlgebra::Krylov] {
+            let opts = OdeOptions {
+                linear_algebra: la,
+                ..opts.clone()
+            };
+            let start = std::time::Instant::now();
+            let sol = integrate(&Robertson, &[1.0, 0.0, 0.0], 40.0, &Output::End, &opts).unwrap();
+            let elapsed = start.elapsed();
+            let y = &sol.y[0];
+            // y1(40) = 0.7158270687 (published reference table, Hairer & Wanner II; from memory)
+            assert!(rel(y[0], 0.7158270687) <= 1e-6, "{la:?} y1 = {}", y[0]);
+            // y2(40) = 9.185534764e-6, y3(40) = 0.2841637457 (same table, from memory)
+            assert!(rel(y[1], 9.185534764e-6) <= 1e-5, "{la:?} y2 = {}", y[1]);
+            assert!(rel(y[2], 0.2841637457) <= 1e-5, "{la:?} y3 = {}", y[2]);
+            // mass conservation: the three rates sum to zero (Hairer & Wanner II)
+            assert!((y[0] + y[1] + y[2] - 1.0).abs() <= 1e-9);
+            eprintln!(
+                "Robertson to x=40, {la:?}: {elapsed:?}, y = {y:?}, {:?}",
+                sol.stats
+            );
+        }
     }
 
     #[test]
@@ -985,18 +1086,25 @@ mod tests {
             ..OdeOptions::default()
         };
         let xs = vec![1e-7, 1e-6, 1.0, 100.0, 1000.0];
-        let sol = integrate(&sys, &[1.0, 0.0, 0.0], 1000.0, &Output::Points(xs), &opts).unwrap();
-        for (x, y) in sol.x.iter().zip(&sol.y) {
-            let exact = bateman(1e7, 1e-3, *x);
-            assert!(
-                (y[1] - exact[1]).abs() <= 1e-7,
-                "x={x} {} vs {}",
-                y[1],
-                exact[1]
-            );
-            assert!((y[0] - exact[0]).abs() <= 1e-7, "x={x}");
+        for la in [LinearAlgebra::Dense, LinearAlgebra::Krylov] {
+            let opts = OdeOptions {
+                linear_algebra: la,
+                ..opts.clone()
+            };
+            let out = Output::Points(xs.clone());
+            let sol = integrate(&sys, &[1.0, 0.0, 0.0], 1000.0, &out, &opts).unwrap();
+            for (x, y) in sol.x.iter().zip(&sol.y) {
+                let exact = bateman(1e7, 1e-3, *x);
+                assert!(
+                    (y[1] - exact[1]).abs() <= 1e-7,
+                    "{la:?} x={x} {} vs {}",
+                    y[1],
+                    exact[1]
+                );
+                assert!((y[0] - exact[0]).abs() <= 1e-7, "{la:?} x={x}");
+            }
+            assert!(sol.stats.steps < 2000, "{:?}", sol.stats);
         }
-        assert!(sol.stats.steps < 2000, "{:?}", sol.stats);
     }
 
     #[test]
@@ -1341,6 +1449,7 @@ mod tests {
         for la in [
             LinearAlgebra::Dense,
             LinearAlgebra::Sparse,
+            LinearAlgebra::Krylov,
             LinearAlgebra::Auto,
         ] {
             let opts = OdeOptions {

@@ -1,0 +1,794 @@
+//! Preconditioned GMRES for the Newton systems of large networks.
+//!
+//! Every BDF step solves (I − hγJ)Δ = r. For a large mechanism the complete LU of that matrix
+//! fills in: the generated 1,000-species networks of docs/performance.md have 12,400
+//! non-zeros in J and about 510,000 in L + U, so the "sparse" LU does near-dense work and
+//! most of a solve goes into it. But the rate constants of such a network span ten decades,
+//! so at any step size most entries of A = I − hγJ are tiny next to the diagonal terms they
+//! couple. Dropping them leaves a matrix whose LU barely fills in (a few thousand to a few ten
+//! thousand entries), and that LU is an excellent preconditioner for A itself.
+//!
+//! The solve is then GMRES(m) (Saad & Schultz, SIAM J. Sci. Stat. Comput. 7 (1986) 856) on the
+//! left-preconditioned system P⁻¹A Δ = P⁻¹r, with P the LU of the dropped matrix. The
+//! iteration runs on the state scaled by the integrator's error weights
+//! w_i = 1/(atol_i + rtol·|y_i|), the norm in which the Newton iteration and the local error
+//! test of the BDF method judge Δ, so a trace species is solved as carefully as a major one.
+//! It stops once ‖W P⁻¹(r − AΔ)‖_rms, which for P ≈ A is the weighted error of Δ, is far below
+//! the Newton tolerance (the inexact-Newton practice of Brown & Hindmarsh, Appl. Math. Comput.
+//! 31 (1989) 40, as used by CVODE's SPGMR, from memory).
+//!
+//! Dropping rule (the relative test of ILUT-like preconditioners, common practice): keep
+//! a_ij when i = j or |a_ij| > δ·√(|a_ii|·|a_jj|). δ adapts to how hard the last systems
+//! were: many iterations tighten δ (more of A kept), very few loosen it. Should GMRES still
+//! not converge, or the dropped matrix be singular, the solver factorises the complete A, so
+//! the worst case is the direct sparse LU, never a wrong Δ.
+
+// The GMRES loops index several arrays of one length at once.
+#![allow(clippy::needless_range_loop)]
+
+use std::cell::{Cell, RefCell};
+use std::rc::Rc;
+
+use diffsol::{
+    FaerContext, FaerSparseMat, FaerVec, LaError, LaLinearOp, Matrix, MatrixCommon, Vector,
+};
+use diffsol_la::LinearSolver;
+use faer::dyn_stack::{MemBuffer, MemStack};
+use faer::sparse::linalg::lu::{LuRef, NumericLu, SymbolicLu, factorize_symbolic_lu};
+use faer::sparse::{SparseColMat, SparseColMatRef, SymbolicSparseColMat};
+use faer::{Conj, MatMut, Par};
+
+/// Krylov subspace size before a restart.
+const RESTART: usize = 30;
+/// Most GMRES iterations for one solve before the complete LU is used instead.
+const MAX_ITERATIONS: usize = 60;
+/// Stop when the weighted RMS of the preconditioned residual is below this. The Newton
+/// iteration of the BDF method accepts Δ when its weighted RMS norm (times the convergence
+/// factor) is below 0.2 (diffsol's default), and the local error test works at 1, so an error
+/// of 1e-5 in that norm changes neither decision.
+const WEIGHTED_TOLERANCE: f64 = 1e-5;
+/// Also stop when the preconditioned residual has fallen by this factor.
+const RELATIVE_TOLERANCE: f64 = 1e-12;
+/// First drop tolerance δ, and its bounds. δ = 0 keeps every entry (the complete LU).
+const FIRST_DROP: f64 = 1e-3;
+const LOOSEST_DROP: f64 = 1e-1;
+const TIGHTEST_DROP: f64 = 1e-7;
+/// Tighten δ when a solve since the last factorisation needed more iterations than this;
+/// loosen it when none needed more than `EASY`.
+const HARD: usize = 12;
+const EASY: usize = 3;
+
+/// What the linear solver needs to know of the integration: the error weights.
+///
+/// `y` is the latest state at which the right-hand side was evaluated (the current Newton
+/// iterate), written by the ODE driver.
+#[derive(Debug)]
+pub struct WeightSource {
+    pub rtol: f64,
+    /// One value per state, or a single value for all.
+    pub atol: Vec<f64>,
+    pub y: RefCell<Vec<f64>>,
+}
+
+impl WeightSource {
+    fn weights(&self, n: usize, out: &mut Vec<f64>) {
+        out.clear();
+        let y = self.y.borrow();
+        for i in 0..n {
+            let atol = if self.atol.len() == n {
+                self.atol[i]
+            } else {
+                self.atol.first().copied().unwrap_or(1.0)
+            };
+            let yi = y.get(i).copied().unwrap_or(0.0);
+            out.push(1.0 / (atol + self.rtol * yi.abs()));
+        }
+    }
+}
+
+/// Counters of the Krylov solver, for the report and the benchmarks.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct KrylovStats {
+    /// Preconditioner factorisations (one per Newton matrix).
+    pub factorizations: usize,
+    /// Linear solves.
+    pub solves: usize,
+    /// GMRES iterations over all solves.
+    pub iterations: usize,
+    /// Solves that fell back to the complete LU.
+    pub fallbacks: usize,
+    /// Entries kept in the last preconditioner and in the last complete matrix.
+    pub kept: usize,
+    pub total: usize,
+}
+
+/// An LU factorisation of a sparse matrix with faer.
+struct Lu {
+    symbolic: SymbolicLu<usize>,
+    numeric: NumericLu<usize, f64>,
+    /// Pattern the symbolic factorisation was made for.
+    col_ptr: Vec<usize>,
+    row_idx: Vec<usize>,
+    scratch: RefCell<MemBuffer>,
+}
+
+impl Lu {
+    /// Factorise `m`, reusing `old`'s symbolic analysis when the pattern is the same.
+    fn factor(m: SparseColMatRef<'_, usize, f64>, old: Option<Lu>) -> Option<Lu> {
+        let sym = m.symbolic();
+        let reuse = old.filter(|o| o.col_ptr == sym.col_ptr() && o.row_idx == sym.row_idx());
+        let (symbolic, mut numeric, col_ptr, row_idx) = match reuse {
+            Some(o) => (o.symbolic, o.numeric, o.col_ptr, o.row_idx),
+            None => (
+                factorize_symbolic_lu(sym, Default::default()).ok()?,
+                NumericLu::new(),
+                sym.col_ptr().to_vec(),
+                sym.row_idx().to_vec(),
+            ),
+        };
+        let mut scratch = MemBuffer::new(
+            symbolic.factorize_numeric_lu_scratch::<f64>(Par::Seq, Default::default()),
+        );
+        symbolic
+            .factorize_numeric_lu(
+                &mut numeric,
+                m,
+                Par::Seq,
+                MemStack::new(&mut scratch),
+                Default::default(),
+            )
+            .ok()?;
+        let scratch = RefCell::new(MemBuffer::new(
+            symbolic.solve_in_place_scratch::<f64>(1, Par::Seq),
+        ));
+        Some(Lu {
+            symbolic,
+            numeric,
+            col_ptr,
+            row_idx,
+            scratch,
+        })
+    }
+
+    /// x ← M⁻¹x (or M⁻ᵀx); false if the result is not finite (a singular factor).
+    fn solve(&self, x: &mut [f64], transpose: bool) -> bool {
+        let n = x.len();
+        let mut scratch = self.scratch.borrow_mut();
+        let lu = LuRef::new_unchecked(&self.symbolic, &self.numeric);
+        let rhs = MatMut::from_column_major_slice_mut(x, n, 1);
+        let stack = MemStack::new(&mut scratch);
+        if transpose {
+            lu.solve_transpose_in_place_with_conj(Conj::No, rhs, Par::Seq, stack);
+        } else {
+            lu.solve_in_place_with_conj(Conj::No, rhs, Par::Seq, stack);
+        }
+        x.iter().all(|v| v.is_finite())
+    }
+}
+
+/// A square matrix in compressed-row form.
+#[derive(Default)]
+struct RowMatrix {
+    row_ptr: Vec<usize>,
+    col_idx: Vec<usize>,
+    val: Vec<f64>,
+}
+
+impl RowMatrix {
+    /// Transpose the compressed columns of `a` into rows.
+    fn load(&mut self, a: SparseColMatRef<'_, usize, f64>) {
+        let n = a.nrows();
+        let sym = a.symbolic();
+        let (cp, ri, val) = (sym.col_ptr(), sym.row_idx(), a.val());
+        let nnz = val.len();
+        self.row_ptr.clear();
+        self.row_ptr.resize(n + 1, 0);
+        for &i in ri {
+            self.row_ptr[i + 1] += 1;
+        }
+        for i in 0..n {
+            self.row_ptr[i + 1] += self.row_ptr[i];
+        }
+        self.col_idx.resize(nnz, 0);
+        self.val.resize(nnz, 0.0);
+        let mut next = self.row_ptr[..n].to_vec();
+        for j in 0..a.ncols() {
+            for k in cp[j]..cp[j + 1] {
+                let slot = &mut next[ri[k]];
+                self.col_idx[*slot] = j;
+                self.val[*slot] = val[k];
+                *slot += 1;
+            }
+        }
+    }
+
+    /// out = A·x.
+    fn mul(&self, x: &[f64], out: &mut [f64]) {
+        for (i, o) in out.iter_mut().enumerate() {
+            let (a, b) = (self.row_ptr[i], self.row_ptr[i + 1]);
+            *o = self.col_idx[a..b]
+                .iter()
+                .zip(&self.val[a..b])
+                .map(|(&j, &v)| v * x[j])
+                .sum();
+        }
+    }
+}
+
+/// Work arrays of one GMRES solve, kept between solves.
+#[derive(Default)]
+struct Work {
+    weights: Vec<f64>,
+    /// Krylov basis, (RESTART + 1) vectors of length n, one after the other.
+    basis: Vec<f64>,
+    /// Hessenberg matrix, column-major (RESTART + 1) × RESTART.
+    hess: Vec<f64>,
+    cs: Vec<f64>,
+    sn: Vec<f64>,
+    g: Vec<f64>,
+    tmp: Vec<f64>,
+    x: Vec<f64>,
+    residual: Vec<f64>,
+    y: Vec<f64>,
+}
+
+/// GMRES preconditioned by the LU of A with its small entries dropped; a
+/// [`diffsol::LinearSolver`] for [`FaerSparseMat`].
+pub struct KrylovSolver {
+    weights: Option<Rc<WeightSource>>,
+    stats: Option<Rc<Cell<KrylovStats>>>,
+    a: Option<FaerSparseMat<f64>>,
+    /// A in compressed rows, for the products A·v of the iteration (a gather per row is
+    /// faster than scattering the columns of the CSC matrix).
+    rows: RowMatrix,
+    pre: Option<Lu>,
+    /// The complete LU of A, made on demand when GMRES fails, for this linearisation.
+    full: RefCell<Option<Lu>>,
+    drop_tol: f64,
+    /// Most iterations any solve needed since the last factorisation.
+    hardest: Cell<usize>,
+    /// A solve since the last factorisation fell back to the complete LU.
+    failed: Cell<bool>,
+    work: RefCell<Work>,
+    /// [`MAX_ITERATIONS`], lowered by the tests to exercise the fallback.
+    max_iterations: usize,
+}
+
+impl Default for KrylovSolver {
+    fn default() -> Self {
+        Self {
+            weights: None,
+            stats: None,
+            a: None,
+            rows: RowMatrix::default(),
+            pre: None,
+            full: RefCell::new(None),
+            drop_tol: FIRST_DROP,
+            hardest: Cell::new(0),
+            failed: Cell::new(false),
+            work: RefCell::new(Work::default()),
+            max_iterations: MAX_ITERATIONS,
+        }
+    }
+}
+
+impl KrylovSolver {
+    /// A solver that weighs the error as the integrator does, and counts into `stats`.
+    pub fn new(weights: Rc<WeightSource>, stats: Rc<Cell<KrylovStats>>) -> Self {
+        Self {
+            weights: Some(weights),
+            stats: Some(stats),
+            ..Self::default()
+        }
+    }
+
+    fn count(&self, f: impl FnOnce(&mut KrylovStats)) {
+        if let Some(s) = &self.stats {
+            let mut v = s.get();
+            f(&mut v);
+            s.set(v);
+        }
+    }
+
+    fn matrix(&self) -> Option<SparseColMatRef<'_, usize, f64>> {
+        self.a.as_ref().map(|a| a.inner()[0].as_ref())
+    }
+
+    /// Next δ from how the solves of the last matrix went.
+    fn adapt(&mut self) {
+        let hardest = self.hardest.replace(0);
+        if self.failed.replace(false) {
+            self.drop_tol = (self.drop_tol * 1e-2).max(TIGHTEST_DROP);
+        } else if hardest > HARD {
+            self.drop_tol = (self.drop_tol * 0.1).max(TIGHTEST_DROP);
+        } else if hardest <= EASY {
+            self.drop_tol = (self.drop_tol * 3.0).min(LOOSEST_DROP);
+        }
+    }
+
+    /// The LU of A with the entries |a_ij| ≤ δ·√(|a_ii||a_jj|), i ≠ j, left out; `None` when it
+    /// is singular.
+    fn precondition(&self, a: SparseColMatRef<'_, usize, f64>, old: Option<Lu>) -> Option<Lu> {
+        let n = a.ncols();
+        let sym = a.symbolic();
+        let (cp, ri, val) = (sym.col_ptr(), sym.row_idx(), a.val());
+        let mut diag = vec![0.0; n];
+        for j in 0..n {
+            for k in cp[j]..cp[j + 1] {
+                if ri[k] == j {
+                    diag[j] = val[k].abs();
+                }
+            }
+        }
+        let mut col_ptr = Vec::with_capacity(n + 1);
+        let mut row_idx = Vec::new();
+        let mut vals = Vec::new();
+        col_ptr.push(0);
+        for j in 0..n {
+            for k in cp[j]..cp[j + 1] {
+                let i = ri[k];
+                if i == j || val[k].abs() > self.drop_tol * (diag[i] * diag[j]).sqrt() {
+                    row_idx.push(i);
+                    vals.push(val[k]);
+                }
+            }
+            col_ptr.push(row_idx.len());
+        }
+        self.count(|s| {
+            s.kept = row_idx.len();
+            s.total = val.len();
+        });
+        let sym = SymbolicSparseColMat::new_checked(n, n, col_ptr, None, row_idx);
+        let p = SparseColMat::new(sym, vals);
+        let lu = Lu::factor(p.as_ref(), old)?;
+        // A singular or badly pivoted factor shows up as a non-finite solve of a unit vector.
+        let mut probe = vec![1.0; n];
+        lu.solve(&mut probe, false).then_some(lu)
+    }
+
+    /// Solve with the complete LU of A, factorised on first use for this linearisation.
+    fn solve_exact(&self, x: &mut [f64], transpose: bool) -> Result<(), LaError> {
+        let a = self
+            .matrix()
+            .ok_or_else(|| LaError::Other("the Krylov solver has no matrix".into()))?;
+        let mut full = self.full.borrow_mut();
+        if full.is_none() {
+            *full = Lu::factor(a, None);
+        }
+        let lu = full
+            .as_ref()
+            .ok_or_else(|| LaError::Other("the Newton matrix is singular".into()))?;
+        if lu.solve(x, transpose) {
+            Ok(())
+        } else {
+            Err(LaError::Other("the Newton matrix is singular".into()))
+        }
+    }
+
+    /// Left-preconditioned, restarted GMRES on the weighted system; returns the iterations
+    /// used, or `None` when it did not converge within [`MAX_ITERATIONS`].
+    fn gmres(&self, b: &mut [f64]) -> Option<usize> {
+        let pre = self.pre.as_ref()?;
+        let n = b.len();
+        let mut work = self.work.borrow_mut();
+        let w = &mut *work;
+        match &self.weights {
+            Some(src) => src.weights(n, &mut w.weights),
+            None => {
+                w.weights.clear();
+                w.weights.resize(n, 1.0);
+            }
+        }
+        let m = RESTART;
+        w.basis.resize((m + 1) * n, 0.0);
+        w.hess.resize((m + 1) * m, 0.0);
+        w.cs.resize(m, 0.0);
+        w.sn.resize(m, 0.0);
+        w.g.resize(m + 1, 0.0);
+        w.tmp.resize(n, 0.0);
+        w.x.clear();
+        w.x.resize(n, 0.0);
+        let rms = |v: &[f64]| (v.iter().map(|x| x * x).sum::<f64>() / n as f64).sqrt();
+
+        // r0 = W P⁻¹ b (x0 = 0); the iterate x is kept in the weighted space.
+        w.tmp.copy_from_slice(b);
+        if !pre.solve(&mut w.tmp, false) {
+            return None;
+        }
+        for i in 0..n {
+            w.tmp[i] *= w.weights[i];
+        }
+        let r0 = rms(&w.tmp);
+        if !r0.is_finite() {
+            return None;
+        }
+        if r0 <= WEIGHTED_TOLERANCE {
+            // Δ within the tolerance of zero: the preconditioned solve is as good as any.
+            b.copy_from_slice(&w.tmp);
+            for i in 0..n {
+                b[i] /= w.weights[i];
+            }
+            return Some(0);
+        }
+        let target = WEIGHTED_TOLERANCE.max(RELATIVE_TOLERANCE * r0);
+        let mut iterations = 0;
+        w.residual.clear();
+        w.residual.extend_from_slice(&w.tmp);
+        loop {
+            // Start a cycle from the current residual (in the weighted, preconditioned space).
+            let beta = rms(&w.residual) * (n as f64).sqrt();
+            for i in 0..n {
+                w.basis[i] = w.residual[i] / beta;
+            }
+            w.g.iter_mut().for_each(|v| *v = 0.0);
+            w.g[0] = beta;
+            let mut k_used = 0;
+            let mut converged = false;
+            for k in 0..m {
+                iterations += 1;
+                k_used = k + 1;
+                // v_{k+1} = W P⁻¹ A W⁻¹ v_k
+                let (head, tail) = w.basis.split_at_mut((k + 1) * n);
+                let vk = &head[k * n..];
+                let next = &mut tail[..n];
+                for i in 0..n {
+                    w.tmp[i] = vk[i] / w.weights[i];
+                }
+                self.rows.mul(&w.tmp, next);
+                if !pre.solve(next, false) {
+                    return None;
+                }
+                for i in 0..n {
+                    next[i] *= w.weights[i];
+                }
+                // Modified Gram–Schmidt against v_0..v_k.
+                let col = &mut w.hess[k * (m + 1)..(k + 1) * (m + 1)];
+                for (j, hj) in col.iter_mut().enumerate().take(k + 1) {
+                    let vj = &head[j * n..(j + 1) * n];
+                    let h: f64 = vj.iter().zip(next.iter()).map(|(a, b)| a * b).sum();
+                    for i in 0..n {
+                        next[i] -= h * vj[i];
+                    }
+                    *hj = h;
+                }
+                let norm = next.iter().map(|x| x * x).sum::<f64>().sqrt();
+                col[k + 1] = norm;
+                if norm > 0.0 {
+                    next.iter_mut().for_each(|v| *v /= norm);
+                }
+                // Apply the earlier Givens rotations, then a new one to zero h_{k+1,k}.
+                for j in 0..k {
+                    let (c, s) = (w.cs[j], w.sn[j]);
+                    let (h0, h1) = (col[j], col[j + 1]);
+                    col[j] = c * h0 + s * h1;
+                    col[j + 1] = -s * h0 + c * h1;
+                }
+                let (h0, h1) = (col[k], col[k + 1]);
+                let r = h0.hypot(h1);
+                if r == 0.0 || !r.is_finite() {
+                    return None;
+                }
+                let (c, s) = (h0 / r, h1 / r);
+                w.cs[k] = c;
+                w.sn[k] = s;
+                col[k] = r;
+                col[k + 1] = 0.0;
+                let gk = w.g[k];
+                w.g[k] = c * gk;
+                w.g[k + 1] = -s * gk;
+                let res = w.g[k + 1].abs() / (n as f64).sqrt();
+                if res <= target {
+                    converged = true;
+                    break;
+                }
+                if norm == 0.0 {
+                    // Lucky breakdown: the Krylov space holds the exact solution.
+                    converged = true;
+                    break;
+                }
+                if iterations >= self.max_iterations {
+                    break;
+                }
+            }
+            // Back-substitute H y = g and add Σ y_j v_j to x.
+            let k = k_used;
+            w.y.clear();
+            w.y.resize(k, 0.0);
+            let yv = &mut w.y;
+            for i in (0..k).rev() {
+                let mut s = w.g[i];
+                for j in i + 1..k {
+                    s -= w.hess[j * (m + 1) + i] * yv[j];
+                }
+                yv[i] = s / w.hess[i * (m + 1) + i];
+            }
+            for (j, yj) in yv.iter().enumerate() {
+                let vj = &w.basis[j * n..(j + 1) * n];
+                for i in 0..n {
+                    w.x[i] += yj * vj[i];
+                }
+            }
+            if converged {
+                break;
+            }
+            if iterations >= self.max_iterations {
+                return None;
+            }
+            // New residual W P⁻¹ (b − A W⁻¹ x) for the restart.
+            for i in 0..n {
+                w.tmp[i] = w.x[i] / w.weights[i];
+            }
+            self.rows.mul(&w.tmp, &mut w.residual);
+            for (r, bi) in w.residual.iter_mut().zip(b.iter()) {
+                *r = bi - *r;
+            }
+            if !pre.solve(&mut w.residual, false) {
+                return None;
+            }
+            for i in 0..n {
+                w.residual[i] *= w.weights[i];
+            }
+        }
+        for i in 0..n {
+            b[i] = w.x[i] / w.weights[i];
+        }
+        b.iter().all(|v| v.is_finite()).then_some(iterations)
+    }
+}
+
+impl LinearSolver<FaerSparseMat<f64>> for KrylovSolver {
+    fn set_sparsity<
+        C: LaLinearOp<T = f64, V = FaerVec<f64>, M = FaerSparseMat<f64>, C = FaerContext>,
+    >(
+        &mut self,
+        op: &C,
+    ) {
+        let a =
+            FaerSparseMat::new_from_sparsity(op.nrows(), op.ncols(), op.sparsity(), *op.context());
+        self.a = Some(a);
+        self.pre = None;
+        *self.full.get_mut() = None;
+    }
+
+    fn set_linearisation<
+        C: LaLinearOp<T = f64, V = FaerVec<f64>, M = FaerSparseMat<f64>, C = FaerContext>,
+    >(
+        &mut self,
+        op: &C,
+    ) {
+        let Some(a) = self.a.as_mut() else {
+            return;
+        };
+        op.matrix_inplace(a);
+        self.adapt();
+        *self.full.get_mut() = None;
+        let old = self.pre.take();
+        let a = self
+            .a
+            .as_ref()
+            .map(|a| a.inner()[0].as_ref())
+            .expect("matrix set above");
+        self.rows.load(a);
+        let mut pre = self.precondition(a, old);
+        // A singular dropped matrix: keep more of A until it is not (δ = 0 is A itself).
+        while pre.is_none() && self.drop_tol > TIGHTEST_DROP {
+            self.drop_tol = (self.drop_tol * 1e-2).max(TIGHTEST_DROP);
+            pre = self.precondition(a, None);
+        }
+        self.pre = pre;
+        self.count(|s| s.factorizations += 1);
+    }
+
+    fn solve_in_place(&self, x: &mut FaerVec<f64>) -> Result<(), LaError> {
+        let b = x.inner_mut().col_as_slice_mut(0);
+        self.count(|s| s.solves += 1);
+        let original = b.to_vec();
+        if let Some(its) = self.gmres(b) {
+            self.count(|s| s.iterations += its);
+            self.hardest.set(self.hardest.get().max(its));
+            return Ok(());
+        }
+        self.count(|s| {
+            s.iterations += self.max_iterations;
+            s.fallbacks += 1;
+        });
+        self.failed.set(true);
+        b.copy_from_slice(&original);
+        self.solve_exact(b, false)
+    }
+
+    fn solve_transpose_in_place(&self, x: &mut FaerVec<f64>) -> Result<(), LaError> {
+        let b = x.inner_mut().col_as_slice_mut(0);
+        self.solve_exact(b, true)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A given matrix as the linear operator diffsol would hand over.
+    struct Given(FaerSparseMat<f64>);
+
+    impl LaLinearOp for Given {
+        type T = f64;
+        type V = FaerVec<f64>;
+        type M = FaerSparseMat<f64>;
+        type C = FaerContext;
+        fn nrows(&self) -> usize {
+            self.0.nrows()
+        }
+        fn ncols(&self) -> usize {
+            self.0.ncols()
+        }
+        fn context(&self) -> &FaerContext {
+            self.0.context()
+        }
+        fn matrix_inplace(&self, y: &mut FaerSparseMat<f64>) {
+            y.copy_from(&self.0);
+        }
+        fn sparsity(&self) -> Option<SymbolicSparseColMat<usize>> {
+            self.0
+                .sparsity()
+                .map(|s| s.to_owned().expect("small test matrix"))
+        }
+    }
+
+    fn given(n: usize, entries: &[(usize, usize, f64)]) -> Given {
+        let idx = entries.iter().map(|&(i, j, _)| (i, j)).collect();
+        let val = entries.iter().map(|&(_, _, v)| v).collect();
+        Given(FaerSparseMat::try_from_triplets(n, n, idx, val, FaerContext::default()).unwrap())
+    }
+
+    /// Dense Gaussian elimination with partial pivoting, as the reference (nalgebra).
+    fn reference(n: usize, entries: &[(usize, usize, f64)], b: &[f64]) -> Vec<f64> {
+        let mut a = nalgebra::DMatrix::<f64>::zeros(n, n);
+        for &(i, j, v) in entries {
+            a[(i, j)] += v;
+        }
+        let x = a
+            .lu()
+            .solve(&nalgebra::DVector::from_column_slice(b))
+            .unwrap();
+        x.iter().copied().collect()
+    }
+
+    /// A = I − h·J for a stiff random mass-action-like J: rate constants over ten decades,
+    /// each "reaction" a → b giving J_aa −= k, J_ba += k, plus a weak link a → c.
+    fn stiff_newton_matrix(n: usize, h: f64, seed: u64) -> Vec<(usize, usize, f64)> {
+        let mut state = seed;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let mut e: Vec<(usize, usize, f64)> = (0..n).map(|i| (i, i, 1.0)).collect();
+        for _ in 0..3 * n {
+            let a = (next() * n as f64) as usize % n;
+            let b = (next() * n as f64) as usize % n;
+            if a == b {
+                continue;
+            }
+            let k = 10f64.powf(-3.0 + 10.0 * next());
+            e.push((a, a, h * k));
+            e.push((b, a, -h * k));
+        }
+        e
+    }
+
+    fn solve_with(ls: &mut KrylovSolver, op: &Given, b: &[f64]) -> Vec<f64> {
+        ls.set_sparsity(op);
+        ls.set_linearisation(op);
+        let mut x = FaerVec::from_slice(b, FaerContext::default());
+        ls.solve_in_place(&mut x).unwrap();
+        x.clone_as_vec()
+    }
+
+    fn weights(n: usize) -> Rc<WeightSource> {
+        Rc::new(WeightSource {
+            rtol: 1e-8,
+            atol: vec![1e-12],
+            y: RefCell::new(vec![1.0; n]),
+        })
+    }
+
+    /// |x − x_ref|_i within 1e-6·(atol/rtol + |x_ref|): the accuracy the weighted stopping test
+    /// promises, WEIGHTED_TOLERANCE = 1e-5 of a weight unit, with margin.
+    fn assert_close(x: &[f64], r: &[f64]) {
+        for (i, (a, b)) in x.iter().zip(r).enumerate() {
+            let scale = 1e-12 + 1e-8 * 1.0;
+            assert!(
+                (a - b).abs() <= 1e-4 * scale + 1e-9 * b.abs(),
+                "component {i}: {a} against {b}"
+            );
+        }
+    }
+
+    #[test]
+    fn solves_stiff_newton_systems_like_a_direct_lu() {
+        let n = 300;
+        for (h, seed) in [(1e-9, 1), (1e-6, 2), (1e-3, 3), (1.0, 4)] {
+            let e = stiff_newton_matrix(n, h, seed);
+            let op = given(n, &e);
+            let b: Vec<f64> = (0..n).map(|i| ((i * 37) % 11) as f64 - 5.0).collect();
+            let stats = Rc::new(Cell::new(KrylovStats::default()));
+            let mut ls = KrylovSolver::new(weights(n), stats.clone());
+            let x = solve_with(&mut ls, &op, &b);
+            let r = reference(n, &e, &b);
+            assert_close(&x, &r);
+            let s = stats.get();
+            assert_eq!(s.fallbacks, 0, "h = {h}: {s:?}");
+            assert!(s.kept <= s.total, "{s:?}");
+        }
+    }
+
+    #[test]
+    fn drops_most_entries_of_a_stiff_matrix() {
+        // At a small step most couplings are far below the unit diagonal.
+        let n = 300;
+        let e = stiff_newton_matrix(n, 1e-6, 7);
+        let op = given(n, &e);
+        let stats = Rc::new(Cell::new(KrylovStats::default()));
+        let mut ls = KrylovSolver::new(weights(n), stats.clone());
+        let b = vec![1.0; n];
+        let x = solve_with(&mut ls, &op, &b);
+        assert_close(&x, &reference(n, &e, &b));
+        let s = stats.get();
+        assert!(s.kept * 2 < s.total, "kept {} of {}", s.kept, s.total);
+    }
+
+    #[test]
+    fn falls_back_to_the_complete_lu_when_gmres_stalls() {
+        let n = 200;
+        let e = stiff_newton_matrix(n, 1.0, 11);
+        let op = given(n, &e);
+        let stats = Rc::new(Cell::new(KrylovStats::default()));
+        let mut ls = KrylovSolver::new(weights(n), stats.clone());
+        ls.max_iterations = 1;
+        ls.drop_tol = LOOSEST_DROP;
+        let b: Vec<f64> = (0..n).map(|i| (i as f64).sin()).collect();
+        let x = solve_with(&mut ls, &op, &b);
+        assert_close(&x, &reference(n, &e, &b));
+        assert_eq!(stats.get().fallbacks, 1);
+        // and the next matrix is preconditioned with more of A kept
+        ls.set_linearisation(&op);
+        assert!(ls.drop_tol < LOOSEST_DROP);
+    }
+
+    #[test]
+    fn transpose_solve_uses_the_complete_lu() {
+        let n = 50;
+        let e = stiff_newton_matrix(n, 1e-2, 5);
+        let op = given(n, &e);
+        let mut ls = KrylovSolver::default();
+        ls.set_sparsity(&op);
+        ls.set_linearisation(&op);
+        let b: Vec<f64> = (0..n).map(|i| 1.0 + i as f64).collect();
+        let mut x = FaerVec::from_slice(&b, FaerContext::default());
+        ls.solve_transpose_in_place(&mut x).unwrap();
+        let et: Vec<_> = e.iter().map(|&(i, j, v)| (j, i, v)).collect();
+        let r = reference(n, &et, &b);
+        for (a, b) in x.clone_as_vec().iter().zip(&r) {
+            assert!((a - b).abs() <= 1e-10 * (1.0 + b.abs()), "{a} against {b}");
+        }
+    }
+
+    #[test]
+    fn singular_matrix_is_an_error_not_a_result() {
+        // Rows 0 and 1 equal: no preconditioner and no complete LU exist.
+        let e = vec![
+            (0, 0, 1.0),
+            (0, 1, 2.0),
+            (1, 0, 1.0),
+            (1, 1, 2.0),
+            (2, 2, 1.0),
+        ];
+        let op = given(3, &e);
+        let mut ls = KrylovSolver::default();
+        ls.set_sparsity(&op);
+        ls.set_linearisation(&op);
+        let mut x = FaerVec::from_slice(&[1.0, 0.0, 1.0], FaerContext::default());
+        assert!(ls.solve_in_place(&mut x).is_err());
+    }
+}
