@@ -100,11 +100,12 @@ fn bench_linear_algebra(c: &mut Criterion) {
         .measurement_time(Duration::from_secs(3));
     // 1000/3000 dense takes ~18 s per solve here: measured once with
     // `cargo run --release --example solve_once -- gen:1000:3000 dense` instead.
-    for (n, r) in [(100, 300)] {
+    for (n, r) in [(100, 300), (300, 900)] {
         let net = generated(n, r);
         for (label, la) in [
             ("dense", LinearAlgebra::Dense),
             ("sparse", LinearAlgebra::Sparse),
+            ("krylov", LinearAlgebra::Krylov),
         ] {
             let opts = SolveOptions {
                 linear_algebra: la,

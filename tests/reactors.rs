@@ -1209,3 +1209,69 @@ reactor: {type: pfr, volume: 1 L}
         assert_eq!(csv_fields(l).len(), header.len(), "row `{l}`");
     }
 }
+
+/// Carbon and hydrogen in a state vector of species amounts or flows.
+fn carbon_hydrogen(net: &Network, y: &[f64]) -> (f64, f64) {
+    let (mut c, mut h) = (0.0, 0.0);
+    for (s, v) in net.species.iter().zip(y) {
+        let atoms = s
+            .formula
+            .as_ref()
+            .expect("generated species have formulas")
+            .atoms();
+        c += atoms.get("C").copied().unwrap_or(0.0) * v;
+        h += atoms.get("H").copied().unwrap_or(0.0) * v;
+    }
+    (c, h)
+}
+
+#[test]
+fn krylov_solve_of_a_large_network_matches_dense_lu_and_conserves_atoms() {
+    // 300 species, 900 steps, rate constants over ten decades (rxnet::generate, demo values).
+    let spec = rxnet::generate::GeneratorSpec {
+        species: 300,
+        reactions: 900,
+        seed: 5,
+        ..Default::default()
+    };
+    let text = rxnet::generate::generate_study(&spec).unwrap();
+    let net = load(&text);
+    let auto = simulate(&net, &SolveOptions::default()).unwrap();
+    assert!(auto.stats.method.contains("GMRES"), "{}", auto.stats.method);
+    assert!(auto.stats.linear_solves > 0 && auto.stats.krylov_iterations > 0);
+    let dense = simulate(
+        &net,
+        &SolveOptions {
+            linear_algebra: rxnet::solve::ode::LinearAlgebra::Dense,
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    assert!(dense.stats.method.contains("dense LU"));
+    let feed = balance_feed(&net);
+    let total: f64 = feed.iter().sum();
+    // Both solve to rtol 1e-8, atol 1e-12 F_T0: agreement well inside 1e-5 of each value,
+    // on the scale 1e-6 F_T0 for trace species (the comparison of docs/bench_scipy.py).
+    for (j, (a, d)) in auto.outlet().iter().zip(dense.outlet()).enumerate() {
+        let scale = d.abs().max(1e-6 * total);
+        assert!(
+            (a - d).abs() <= 1e-5 * scale,
+            "{}: {a} against {d}",
+            net.species[j].name
+        );
+    }
+    // Every step conserves C and H (the generator balances atoms; conservation of elements,
+    // common practice): the outlet holds the feed's atoms to the integration tolerance.
+    let (c0, h0) = carbon_hydrogen(&net, &feed);
+    let (c1, h1) = carbon_hydrogen(&net, auto.outlet());
+    assert!(((c1 - c0) / c0).abs() <= 1e-7, "C {c0} -> {c1}");
+    assert!(((h1 - h0) / h0).abs() <= 1e-7, "H {h0} -> {h1}");
+}
+
+/// Feed flows per species, in the order of `net.species`.
+fn balance_feed(net: &Network) -> Vec<f64> {
+    rxnet::reactor::Balance::new(net)
+        .unwrap()
+        .initial_state(net)[..net.species.len()]
+        .to_vec()
+}
