@@ -120,29 +120,8 @@ fn every_bundled_study_checks_and_tabulates_in_text_and_json() {
 // Steam reforming: rank, dependent reaction, conservation laws
 
 /// Rank of a small real matrix by Gaussian elimination with partial pivoting.
-fn rank(mut m: Vec<Vec<f64>>) -> usize {
-    let cols = m.first().map_or(0, |r| r.len());
-    let mut r = 0;
-    for c in 0..cols {
-        let Some(p) = (r..m.len()).max_by(|&a, &b| m[a][c].abs().total_cmp(&m[b][c].abs())) else {
-            break;
-        };
-        if m[p][c].abs() < 1e-12 {
-            continue;
-        }
-        m.swap(r, p);
-        let pivot = m[r].clone();
-        for (i, row) in m.iter_mut().enumerate() {
-            if i != r {
-                let f = row[c] / pivot[c];
-                for (x, p) in row.iter_mut().zip(&pivot) {
-                    *x -= f * p;
-                }
-            }
-        }
-        r += 1;
-    }
-    r
+fn rank(m: Vec<Vec<f64>>) -> usize {
+    common::float_rank(m, 1e-12)
 }
 
 #[test]

@@ -18,6 +18,8 @@
 //! 4. at a CSTR solution, F0 − F + V Σ_i ν_ij r_i(F) (recomputed with `Balance::rhs`) is
 //!    below the Newton tolerance.
 
+mod common;
+
 use proptest::prelude::*;
 use proptest::test_runner::Config;
 use rxnet::analysis;
@@ -223,18 +225,7 @@ fn config(cases: u32) -> Config {
 
 /// Carbon and hydrogen held by state y (species in file order), from the formulas.
 fn elements(net: &rxnet::Network, y: &[f64]) -> (f64, f64) {
-    let mut c = 0.0;
-    let mut h = 0.0;
-    for (s, v) in net.species.iter().zip(y) {
-        let atoms = s
-            .formula
-            .as_ref()
-            .expect("every species has a formula")
-            .atoms();
-        c += atoms.get("C").copied().unwrap_or(0.0) * v;
-        h += atoms.get("H").copied().unwrap_or(0.0) * v;
-    }
-    (c, h)
+    common::carbon_hydrogen(net, y)
 }
 
 fn load(spec: &Spec, extra: &str) -> rxnet::Network {
@@ -245,33 +236,8 @@ fn load(spec: &Spec, extra: &str) -> rxnet::Network {
 
 /// Rank of an integer matrix by Gaussian elimination with partial pivoting (entries are
 /// small integers, so f64 with a relative threshold is exact enough).
-fn rank(mut m: Vec<Vec<f64>>) -> usize {
-    let rows = m.len();
-    let cols = m.first().map_or(0, |r| r.len());
-    let mut r = 0;
-    for c in 0..cols {
-        let Some(p) = (r..rows)
-            .filter(|&i| m[i][c].abs() > 1e-9)
-            .max_by(|&a, &b| m[a][c].abs().total_cmp(&m[b][c].abs()))
-        else {
-            continue;
-        };
-        m.swap(r, p);
-        let pivot = m[r].clone();
-        for (i, row) in m.iter_mut().enumerate() {
-            if i != r {
-                let f = row[c] / pivot[c];
-                for (x, q) in row.iter_mut().zip(&pivot) {
-                    *x -= f * q;
-                }
-            }
-        }
-        r += 1;
-        if r == rows {
-            break;
-        }
-    }
-    r
+fn rank(m: Vec<Vec<f64>>) -> usize {
+    common::float_rank(m, 1e-9)
 }
 
 proptest! {

@@ -1210,21 +1210,6 @@ reactor: {type: pfr, volume: 1 L}
     }
 }
 
-/// Carbon and hydrogen in a state vector of species amounts or flows.
-fn carbon_hydrogen(net: &Network, y: &[f64]) -> (f64, f64) {
-    let (mut c, mut h) = (0.0, 0.0);
-    for (s, v) in net.species.iter().zip(y) {
-        let atoms = s
-            .formula
-            .as_ref()
-            .expect("generated species have formulas")
-            .atoms();
-        c += atoms.get("C").copied().unwrap_or(0.0) * v;
-        h += atoms.get("H").copied().unwrap_or(0.0) * v;
-    }
-    (c, h)
-}
-
 #[test]
 fn krylov_solve_of_a_large_network_matches_dense_lu_and_conserves_atoms() {
     // 300 species, 900 steps, rate constants over ten decades (rxnet::generate, demo values).
@@ -1262,8 +1247,8 @@ fn krylov_solve_of_a_large_network_matches_dense_lu_and_conserves_atoms() {
     }
     // Every step conserves C and H (the generator balances atoms; conservation of elements,
     // common practice): the outlet holds the feed's atoms to the integration tolerance.
-    let (c0, h0) = carbon_hydrogen(&net, &feed);
-    let (c1, h1) = carbon_hydrogen(&net, auto.outlet());
+    let (c0, h0) = common::carbon_hydrogen(&net, &feed);
+    let (c1, h1) = common::carbon_hydrogen(&net, auto.outlet());
     assert!(((c1 - c0) / c0).abs() <= 1e-7, "C {c0} -> {c1}");
     assert!(((h1 - h0) / h0).abs() <= 1e-7, "H {h0} -> {h1}");
 }

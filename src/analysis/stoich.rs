@@ -54,13 +54,8 @@ fn exact_matrix(net: &Network, rows: &[usize]) -> SparseQMatrix {
 /// catalysts that cancel) is its own conservation law, N_j = constant. This keeps the work and
 /// memory to the reacting part of a network with many inert species.
 pub fn analyse(net: &Network) -> Stoichiometry {
-    let mut reacting: Vec<usize> = net
-        .reactions
-        .iter()
-        .flat_map(|r| r.net_exact.iter().map(|(j, _)| *j))
-        .collect();
-    reacting.sort_unstable();
-    reacting.dedup();
+    // `net` and `net_exact` hold the same species (the first is converted from the second).
+    let reacting = net.reacting_species();
     let m = exact_matrix(net, &reacting);
     let dep = m.column_dependence();
     let dependent = dep

@@ -253,6 +253,18 @@ pub struct Network {
 }
 
 impl Network {
+    /// Indices of the species that some reaction changes (a non-zero net coefficient), sorted.
+    pub fn reacting_species(&self) -> Vec<usize> {
+        let mut reacting: Vec<usize> = self
+            .reactions
+            .iter()
+            .flat_map(|r| r.net.iter().map(|(j, _)| *j))
+            .collect();
+        reacting.sort_unstable();
+        reacting.dedup();
+        reacting
+    }
+
     /// Index of a species by name.
     pub fn species_index(&self, name: &str) -> Option<usize> {
         self.species.iter().position(|s| s.name == name)

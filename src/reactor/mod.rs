@@ -129,15 +129,8 @@ impl Balance {
                 None,
             ),
         };
-        let mut reactive: Vec<usize> = net
-            .reactions
-            .iter()
-            .flat_map(|r| r.net.iter().map(|(j, _)| *j))
-            .collect();
-        reactive.sort_unstable();
-        reactive.dedup();
         Ok(Balance {
-            reactive,
+            reactive: net.reacting_species(),
             rates: RateSet::new(net),
             nu: net.reactions.iter().map(|r| r.net.clone()).collect(),
             n_species: net.species.len(),

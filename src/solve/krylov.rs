@@ -204,14 +204,26 @@ impl RowMatrix {
 
     /// out = A·x.
     fn mul(&self, x: &[f64], out: &mut [f64]) {
-        for (i, o) in out.iter_mut().enumerate() {
-            let (a, b) = (self.row_ptr[i], self.row_ptr[i + 1]);
-            *o = self.col_idx[a..b]
-                .iter()
-                .zip(&self.val[a..b])
-                .map(|(&j, &v)| v * x[j])
-                .sum();
-        }
+        mul_rows(&self.row_ptr, &self.col_idx, &self.val, x, out);
+    }
+}
+
+/// out = A·x for A in compressed rows (`row_ptr` of length n + 1, then column and value of
+/// each entry); also the Jacobian products of [`super::ode`].
+pub(crate) fn mul_rows(
+    row_ptr: &[usize],
+    cols: &[usize],
+    vals: &[f64],
+    x: &[f64],
+    out: &mut [f64],
+) {
+    for (i, o) in out.iter_mut().enumerate() {
+        let (a, b) = (row_ptr[i], row_ptr[i + 1]);
+        *o = cols[a..b]
+            .iter()
+            .zip(&vals[a..b])
+            .map(|(&j, &v)| v * x[j])
+            .sum();
     }
 }
 

@@ -283,14 +283,7 @@ impl Csr {
 
     /// out = J v.
     fn mul(&self, v: &[f64], out: &mut [f64]) {
-        for (r, o) in out.iter_mut().enumerate() {
-            let (a, b) = (self.row_start[r], self.row_start[r + 1]);
-            *o = self.cols[a..b]
-                .iter()
-                .zip(&self.values[a..b])
-                .map(|(&c, &x)| x * v[c])
-                .sum();
-        }
+        super::krylov::mul_rows(&self.row_start, &self.cols, &self.values, v, out);
     }
 }
 

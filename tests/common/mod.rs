@@ -194,3 +194,50 @@ pub fn temp_out(tag: &str, ext: &str) -> TempFile {
         )),
     }
 }
+
+/// Carbon and hydrogen atoms in a vector of species amounts or flows (from the formulas).
+pub fn carbon_hydrogen(net: &rxnet::Network, y: &[f64]) -> (f64, f64) {
+    let (mut c, mut h) = (0.0, 0.0);
+    for (s, v) in net.species.iter().zip(y) {
+        let atoms = s
+            .formula
+            .as_ref()
+            .expect("every species has a formula")
+            .atoms();
+        c += atoms.get("C").copied().unwrap_or(0.0) * v;
+        h += atoms.get("H").copied().unwrap_or(0.0) * v;
+    }
+    (c, h)
+}
+
+/// Rank of a float matrix by Gauss–Jordan elimination with partial pivoting, counting pivots
+/// larger than `tol` in magnitude: the plain floating-point reference the exact analysis is
+/// compared with (textbook elimination, common practice).
+pub fn float_rank(mut m: Vec<Vec<f64>>, tol: f64) -> usize {
+    let rows = m.len();
+    let cols = m.first().map_or(0, |r| r.len());
+    let mut r = 0;
+    for c in 0..cols {
+        if r == rows {
+            break;
+        }
+        let Some(p) = (r..rows)
+            .filter(|&i| m[i][c].abs() > tol)
+            .max_by(|&a, &b| m[a][c].abs().total_cmp(&m[b][c].abs()))
+        else {
+            continue;
+        };
+        m.swap(r, p);
+        let pivot = m[r].clone();
+        for (i, row) in m.iter_mut().enumerate() {
+            if i != r {
+                let f = row[c] / pivot[c];
+                for (x, q) in row.iter_mut().zip(&pivot) {
+                    *x -= f * q;
+                }
+            }
+        }
+        r += 1;
+    }
+    r
+}
