@@ -665,3 +665,40 @@ fn errors_name_file_line_and_column() {
         run.stderr
     );
 }
+
+#[test]
+fn unknown_linear_algebra_is_refused_with_the_choices() {
+    let y = format!("{BASE}solver:\n  linear_algebra: lapack\n");
+    let run = refused(
+        "linear_algebra",
+        &y,
+        &[
+            "solver.linear_algebra",
+            "unknown linear algebra `lapack`",
+            "auto, dense, sparse, krylov",
+        ],
+    );
+    assert!(
+        run.stderr
+            .contains(&at_line(line_of(&y, "linear_algebra:"))),
+        "{}",
+        run.stderr
+    );
+    // Each named choice loads and gives the same outlet as the default to the tolerance.
+    let base = rxnet(&[
+        "run",
+        common::write_temp("la_auto", BASE).to_str().unwrap(),
+        "--format",
+        "json",
+    ]);
+    assert_eq!(base.code, 0, "{}", base.stderr);
+    let a0 = base.json()["outlet"]["C"].as_f64().unwrap();
+    for la in ["auto", "dense", "sparse", "krylov"] {
+        let y = format!("{BASE}solver:\n  linear_algebra: {la}\n");
+        let path = common::write_temp(&format!("la_{la}"), &y);
+        let run = rxnet(&["run", path.to_str().unwrap(), "--format", "json"]);
+        assert_eq!(run.code, 0, "{la}: {}", run.stderr);
+        let c = run.json()["outlet"]["C"].as_f64().unwrap();
+        assert!((c - a0).abs() <= 1e-7 * a0, "{la}: {c} against {a0}");
+    }
+}
