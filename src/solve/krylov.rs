@@ -377,8 +377,9 @@ impl KrylovSolver {
         }
     }
 
-    /// Left-preconditioned, restarted GMRES on the weighted system; returns the iterations
-    /// used, or `None` when it did not converge within [`MAX_ITERATIONS`].
+    /// Left-preconditioned, restarted GMRES on the weighted system: `b` becomes Δ and the
+    /// iterations used are returned, or `None` (with `b` unchanged) when it did not converge
+    /// within [`MAX_ITERATIONS`].
     fn gmres(&self, b: &mut [f64]) -> Option<usize> {
         let pre = self.pre.as_ref()?;
         let n = b.len();
@@ -404,11 +405,8 @@ impl KrylovSolver {
 
         // r0 = W P⁻¹ b (x0 = 0); the iterate x is kept in the weighted space.
         w.tmp.copy_from_slice(b);
-        if !pre.solve(&mut w.tmp, false) {
+        if !weighted_preconditioned(pre, &w.weights, &mut w.tmp) {
             return None;
-        }
-        for i in 0..n {
-            w.tmp[i] *= w.weights[i];
         }
         let r0 = rms(&w.tmp);
         if !r0.is_finite() {
@@ -447,11 +445,8 @@ impl KrylovSolver {
                     w.tmp[i] = vk[i] / w.weights[i];
                 }
                 self.rows.mul(&w.tmp, next);
-                if !pre.solve(next, false) {
+                if !weighted_preconditioned(pre, &w.weights, next) {
                     return None;
-                }
-                for i in 0..n {
-                    next[i] *= w.weights[i];
                 }
                 // Modified Gram–Schmidt against v_0..v_k.
                 let col = &mut w.hess[k * (m + 1)..(k + 1) * (m + 1)];
@@ -534,18 +529,32 @@ impl KrylovSolver {
             for (r, bi) in w.residual.iter_mut().zip(b.iter()) {
                 *r = bi - *r;
             }
-            if !pre.solve(&mut w.residual, false) {
+            if !weighted_preconditioned(pre, &w.weights, &mut w.residual) {
                 return None;
             }
-            for i in 0..n {
-                w.residual[i] *= w.weights[i];
-            }
         }
+        // Back to the unweighted Δ; `b` is written only for a finite result, so a failed
+        // solve leaves it for the fallback.
         for i in 0..n {
-            b[i] = w.x[i] / w.weights[i];
+            w.x[i] /= w.weights[i];
         }
-        b.iter().all(|v| v.is_finite()).then_some(iterations)
+        if !w.x.iter().all(|v| v.is_finite()) {
+            return None;
+        }
+        b.copy_from_slice(&w.x);
+        Some(iterations)
     }
+}
+
+/// v ← W P⁻¹ v; false if the result is not finite.
+fn weighted_preconditioned(pre: &Lu, weights: &[f64], v: &mut [f64]) -> bool {
+    if !pre.solve(v, false) {
+        return false;
+    }
+    for (x, w) in v.iter_mut().zip(weights) {
+        *x *= w;
+    }
+    true
 }
 
 impl LinearSolver<FaerSparseMat<f64>> for KrylovSolver {
@@ -594,7 +603,7 @@ impl LinearSolver<FaerSparseMat<f64>> for KrylovSolver {
     fn solve_in_place(&self, x: &mut FaerVec<f64>) -> Result<(), LaError> {
         let b = x.inner_mut().col_as_slice_mut(0);
         self.count(|s| s.solves += 1);
-        let original = b.to_vec();
+        // `gmres` leaves `b` as it was when it fails.
         if let Some(its) = self.gmres(b) {
             self.count(|s| s.iterations += its);
             self.hardest.set(self.hardest.get().max(its));
@@ -605,7 +614,6 @@ impl LinearSolver<FaerSparseMat<f64>> for KrylovSolver {
             s.fallbacks += 1;
         });
         self.failed.set(true);
-        b.copy_from_slice(&original);
         self.solve_exact(b, false)
     }
 
