@@ -2,6 +2,7 @@
 //! steady-state Newton solve (CSTR). A failed solve is an error that says where and why, never
 //! a result.
 
+pub mod equations;
 pub mod krylov;
 pub mod newton;
 pub mod ode;

@@ -6,18 +6,18 @@
 //! integrator is the variable-order BDF method of the `diffsol` crate, driven by the analytic
 //! Jacobian ∂f/∂y that the reactor model supplies as (row, col, value) triplets.
 //!
-//! The BDF iteration solves, at every step, the Newton system (I − hγJ)Δy = r; `diffsol`
-//! assembles J column by column from Jacobian–vector products J·v, which this module computes
-//! from the triplets (evaluated once per (x, y), then cached), so the right-hand side and its
-//! Jacobian come from one description in the reactor model and cannot drift apart.
+//! The BDF iteration solves, at every step, the Newton system (I − hγJ)Δy = r. The triplets
+//! are summed once per (x, y) and written straight into diffsol's matrix
+//! ([`super::equations`]), so the right-hand side and its Jacobian come from one description
+//! in the reactor model and cannot drift apart.
 //!
 //! Every value this module hands back is checked to be finite: a non-finite right-hand side,
 //! Jacobian entry, root function or state becomes an [`OdeError`], never a silently wrong number.
 
 use std::cell::{Cell, RefCell};
-use std::collections::HashSet;
 use std::rc::Rc;
 
+use super::equations::{Equations, Shared};
 use super::krylov::{KrylovSolver, KrylovStats, WeightSource};
 use diffsol::{
     Bdf, BdfState, DefaultDenseMatrix, DiffsolError, FaerSparseLU, FaerSparseMat, NalgebraLU,
@@ -215,203 +215,8 @@ pub enum OdeError {
     Solver { x: f64, reason: String },
 }
 
-/// Jacobian entries (row, col, value).
-type Triplets = Vec<(usize, usize, f64)>;
 /// Root function g(x, y).
 type RootFn<'g> = &'g dyn Fn(f64, &[f64]) -> f64;
-/// Sparse-pattern record: `None` for the dense solver, then `None` until the first evaluation.
-type PatternCell = Option<RefCell<Option<HashSet<(usize, usize)>>>>;
-
-/// The Jacobian in compressed-row form, built from the system's triplets with duplicates summed.
-///
-/// A system emits its triplets in the same order at every evaluation (the structure is fixed by
-/// the network), so the place of each triplet in `values` is worked out once and reused while
-/// the (row, column) sequence stays the same; the many J·v products that diffsol's coloured
-/// Jacobian assembly asks for then walk each non-zero once instead of every raw triplet.
-#[derive(Default)]
-struct Csr {
-    /// (row, col) of each triplet of the last structure, in emission order.
-    keys: Vec<(usize, usize)>,
-    /// Index into `values` of each triplet.
-    slot: Vec<usize>,
-    row_start: Vec<usize>,
-    cols: Vec<usize>,
-    values: Vec<f64>,
-}
-
-impl Csr {
-    /// Sum `trips` into the values; returns true when the structure had to be rebuilt.
-    fn load(&mut self, n: usize, trips: &[(usize, usize, f64)]) -> bool {
-        let same = self.row_start.len() == n + 1
-            && self.keys.len() == trips.len()
-            && self
-                .keys
-                .iter()
-                .zip(trips)
-                .all(|(k, t)| k.0 == t.0 && k.1 == t.1);
-        if !same {
-            self.keys.clear();
-            self.keys.extend(trips.iter().map(|&(r, c, _)| (r, c)));
-            let mut order: Vec<usize> = (0..trips.len()).collect();
-            order.sort_unstable_by_key(|&t| self.keys[t]);
-            self.slot.clear();
-            self.slot.resize(trips.len(), 0);
-            self.cols.clear();
-            self.row_start.clear();
-            self.row_start.resize(n + 1, 0);
-            let mut last = None;
-            for &t in &order {
-                let key = self.keys[t];
-                if last != Some(key) {
-                    self.cols.push(key.1);
-                    self.row_start[key.0 + 1] += 1;
-                    last = Some(key);
-                }
-                self.slot[t] = self.cols.len() - 1;
-            }
-            for r in 0..n {
-                self.row_start[r + 1] += self.row_start[r];
-            }
-        }
-        self.values.clear();
-        self.values.resize(self.cols.len(), 0.0);
-        for (t, &(_, _, v)) in trips.iter().enumerate() {
-            self.values[self.slot[t]] += v;
-        }
-        !same
-    }
-
-    /// out = J v.
-    fn mul(&self, v: &[f64], out: &mut [f64]) {
-        super::krylov::mul_rows(&self.row_start, &self.cols, &self.values, v, out);
-    }
-}
-
-/// A fault seen inside a callback, which cannot return an error itself; it is reported after
-/// the solver call that triggered it.
-#[derive(Debug, Clone)]
-enum Fault {
-    Rhs { x: f64, index: usize },
-    Jac { x: f64, row: usize, col: usize },
-    Index { row: usize, col: usize },
-    Pattern { x: f64, row: usize, col: usize },
-}
-
-/// The system with counters, a Jacobian cache and the first fault, shared by the closures
-/// handed to diffsol.
-struct Shared<'s> {
-    sys: &'s dyn OdeSystem,
-    dim: usize,
-    rhs_evals: Cell<usize>,
-    jac_evals: Cell<usize>,
-    fault: RefCell<Option<Fault>>,
-    /// (x, y, triplets, compressed rows) of the last Jacobian evaluation.
-    cache: RefCell<(f64, Vec<f64>, Triplets, Csr)>,
-    /// Sparse solver only: the pattern fixed at the first evaluation.
-    pattern: PatternCell,
-    /// Krylov solver only: the latest state the right-hand side saw, for its error weights,
-    /// and the solver's counters.
-    latest: Option<Rc<WeightSource>>,
-    krylov: Option<Rc<Cell<KrylovStats>>>,
-}
-
-impl<'s> Shared<'s> {
-    fn new(sys: &'s dyn OdeSystem, sparse: bool) -> Self {
-        Self {
-            sys,
-            dim: sys.dim(),
-            rhs_evals: Cell::new(0),
-            jac_evals: Cell::new(0),
-            fault: RefCell::new(None),
-            cache: RefCell::new((f64::NAN, Vec::new(), Vec::new(), Csr::default())),
-            pattern: sparse.then(|| RefCell::new(None)),
-            latest: None,
-            krylov: None,
-        }
-    }
-
-    fn record(&self, fault: Fault) {
-        let mut slot = self.fault.borrow_mut();
-        if slot.is_none() {
-            *slot = Some(fault);
-        }
-    }
-
-    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
-        self.rhs_evals.set(self.rhs_evals.get() + 1);
-        if let Some(w) = &self.latest {
-            let mut latest = w.y.borrow_mut();
-            latest.clear();
-            latest.extend_from_slice(y);
-        }
-        self.sys.rhs(x, y, dydx);
-        if let Some(index) = dydx.iter().position(|v| !v.is_finite()) {
-            self.record(Fault::Rhs { x, index });
-        }
-    }
-
-    /// out = J(x, y)·v, re-evaluating the triplets only when (x, y) changed.
-    fn jac_mul(&self, x: f64, y: &[f64], v: &[f64], out: &mut [f64]) {
-        let mut cache = self.cache.borrow_mut();
-        let (cx, cy, trips, csr) = &mut *cache;
-        if *cx != x || cy.as_slice() != y {
-            trips.clear();
-            self.sys.jacobian(x, y, trips);
-            self.jac_evals.set(self.jac_evals.get() + 1);
-            *cx = x;
-            cy.clear();
-            cy.extend_from_slice(y);
-            let n = self.dim;
-            // Drop out-of-range entries (reported), so the product below cannot index out of
-            // bounds.
-            trips.retain(|&(row, col, _)| {
-                let ok = row < n && col < n;
-                if !ok {
-                    self.record(Fault::Index { row, col });
-                }
-                ok
-            });
-            for &(row, col, val) in trips.iter() {
-                if !val.is_finite() {
-                    self.record(Fault::Jac { x, row, col });
-                    break;
-                }
-            }
-            let rebuilt = csr.load(n, trips);
-            // The pattern can only have changed when the structure was rebuilt.
-            if let Some(pattern) = &self.pattern
-                && rebuilt
-            {
-                let mut pattern = pattern.borrow_mut();
-                match pattern.as_ref() {
-                    None => *pattern = Some(trips.iter().map(|&(r, c, _)| (r, c)).collect()),
-                    Some(p) => {
-                        if let Some(&(row, col, _)) =
-                            trips.iter().find(|&&(r, c, _)| !p.contains(&(r, c)))
-                        {
-                            self.record(Fault::Pattern { x, row, col });
-                        }
-                    }
-                }
-            }
-        }
-        csr.mul(v, out);
-    }
-
-    fn take_fault(&self) -> Option<OdeError> {
-        let fault = self.fault.borrow_mut().take()?;
-        Some(match fault {
-            Fault::Rhs { x, index } => OdeError::NonFiniteRhs { x, index },
-            Fault::Jac { x, row, col } => OdeError::NonFiniteJacobian { x, row, col },
-            Fault::Index { row, col } => OdeError::JacobianIndexOutOfRange {
-                row,
-                col,
-                dim: self.dim,
-            },
-            Fault::Pattern { x, row, col } => OdeError::SparsityChanged { x, row, col },
-        })
-    }
-}
 
 /// Integrate dy/dx = f(x, y) from x = 0, y = y0 to `x_end` with BDF and the analytic Jacobian,
 /// returning the solution where `out` asks for it.
@@ -570,7 +375,7 @@ fn run(
 ) -> Result<RootResult, OdeError> {
     let n = sys.dim();
     let la = opts.linear_algebra.resolve(n);
-    let mut sh = Shared::new(sys, la != LinearAlgebra::Dense);
+    let mut sh = Shared::new(sys);
     if la == LinearAlgebra::Krylov {
         sh.latest = Some(Rc::new(WeightSource {
             rtol: opts.rtol,
@@ -588,20 +393,14 @@ fn run(
                 sh.take_fault()
                     .unwrap_or_else(|| map_err(e, 0.0, opts.max_steps))
             };
+            let eqn = Equations::<$mat>::new(&sh, y0);
+            if let Some(e) = sh.take_fault() {
+                return Err(e);
+            }
             let mut problem = OdeBuilder::<$mat>::new()
                 .rtol(opts.rtol)
                 .atol(opts.atol.iter().copied())
-                .rhs_implicit(
-                    |y: &[f64], _p: &[f64], x: f64, dydx: &mut [f64]| sh.rhs(x, y, dydx),
-                    |y: &[f64], _p: &[f64], x: f64, v: &[f64], jv: &mut [f64]| {
-                        sh.jac_mul(x, y, v, jv)
-                    },
-                )
-                .init(
-                    |_p: &[f64], _x: f64, y: &mut [f64]| y.copy_from_slice(y0),
-                    n,
-                )
-                .build()
+                .build_from_eqn(eqn.map_err(fail)?)
                 .map_err(fail)?;
             if let Some(e) = sh.take_fault() {
                 return Err(e);
@@ -1201,35 +1000,6 @@ mod tests {
         fn jacobian(&self, _x: f64, _y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
             out.push((0, 1, -1.0));
         }
-    }
-
-    /// The compressed rows sum duplicate triplets and give the same J·v as the raw triplets
-    /// (plain matrix–vector product, from memory), also after a change of structure.
-    #[test]
-    fn compressed_rows_sum_duplicates() {
-        let mut csr = Csr::default();
-        let v = [1.0, -2.0, 0.5];
-        let naive = |trips: &[(usize, usize, f64)]| {
-            let mut out = [0.0; 3];
-            for &(r, c, x) in trips {
-                out[r] += x * v[c];
-            }
-            out
-        };
-        let a = [
-            (2, 0, 1.5),
-            (0, 1, 2.0),
-            (2, 0, -0.25),
-            (1, 2, 4.0),
-            (0, 1, 1.0),
-        ];
-        for trips in [&a[..], &a[..], &a[1..], &[][..]] {
-            csr.load(3, trips);
-            let mut out = [f64::NAN; 3];
-            csr.mul(&v, &mut out);
-            assert_eq!(out, naive(trips));
-        }
-        assert_eq!(csr.values.len(), 0);
     }
 
     #[test]
