@@ -34,7 +34,10 @@ use diffsol::{
 };
 use diffsol_la::LinearSolver;
 use faer::dyn_stack::{MemBuffer, MemStack};
-use faer::sparse::linalg::lu::{LuRef, NumericLu, SymbolicLu, factorize_symbolic_lu};
+use faer::sparse::linalg::SupernodalThreshold;
+use faer::sparse::linalg::lu::{
+    LuRef, LuSymbolicParams, NumericLu, SymbolicLu, factorize_symbolic_lu,
+};
 use faer::sparse::{SparseColMat, SparseColMatRef, SymbolicSparseColMat};
 use faer::{Conj, MatMut, Par};
 
@@ -57,6 +60,12 @@ const TIGHTEST_DROP: f64 = 1e-7;
 /// loosen it when none needed more than `EASY`.
 const HARD: usize = 12;
 const EASY: usize = 3;
+/// The dropped matrix is factorised with faer's simplicial LU. Its factors stay sparse, and
+/// the supernodal variant, which faer's size heuristic picks for the larger networks, spent
+/// the solve time in dense kernels on blocks that are mostly zero: on the generated
+/// 3000/10000 network the whole run took 5.5–6.2 s with it and 2.6–2.7 s with the simplicial
+/// LU (docs/performance.md). The complete LU of the fallback keeps faer's choice.
+const PRECONDITIONER_LU: SupernodalThreshold = SupernodalThreshold::FORCE_SIMPLICIAL;
 
 /// What the linear solver needs to know of the integration: the error weights.
 ///
@@ -114,13 +123,27 @@ struct Lu {
 
 impl Lu {
     /// Factorise `m`, reusing `old`'s symbolic analysis when the pattern is the same.
-    fn factor(m: SparseColMatRef<'_, usize, f64>, old: Option<Lu>) -> Option<Lu> {
+    ///
+    /// `kind` picks faer's simplicial (column by column, sparse loops) or supernodal (dense
+    /// blocks of columns) factorisation; see [`PRECONDITIONER_LU`].
+    fn factor(
+        m: SparseColMatRef<'_, usize, f64>,
+        old: Option<Lu>,
+        kind: SupernodalThreshold,
+    ) -> Option<Lu> {
         let sym = m.symbolic();
         let reuse = old.filter(|o| o.col_ptr == sym.col_ptr() && o.row_idx == sym.row_idx());
         let (symbolic, mut numeric, col_ptr, row_idx) = match reuse {
             Some(o) => (o.symbolic, o.numeric, o.col_ptr, o.row_idx),
             None => (
-                factorize_symbolic_lu(sym, Default::default()).ok()?,
+                factorize_symbolic_lu(
+                    sym,
+                    LuSymbolicParams {
+                        supernodal_flop_ratio_threshold: kind,
+                        ..Default::default()
+                    },
+                )
+                .ok()?,
                 NumericLu::new(),
                 sym.col_ptr().to_vec(),
                 sym.row_idx().to_vec(),
@@ -352,7 +375,7 @@ impl KrylovSolver {
         });
         let sym = SymbolicSparseColMat::new_checked(n, n, col_ptr, None, row_idx);
         let p = SparseColMat::new(sym, vals);
-        let lu = Lu::factor(p.as_ref(), old)?;
+        let lu = Lu::factor(p.as_ref(), old, PRECONDITIONER_LU)?;
         // A singular or badly pivoted factor shows up as a non-finite solve of a unit vector.
         let mut probe = vec![1.0; n];
         lu.solve(&mut probe, false).then_some(lu)
@@ -365,7 +388,7 @@ impl KrylovSolver {
             .ok_or_else(|| LaError::Other("the Krylov solver has no matrix".into()))?;
         let mut full = self.full.borrow_mut();
         if full.is_none() {
-            *full = Lu::factor(a, None);
+            *full = Lu::factor(a, None, SupernodalThreshold::AUTO);
         }
         let lu = full
             .as_ref()
