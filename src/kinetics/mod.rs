@@ -84,6 +84,14 @@ pub struct RateSet {
     /// The temperature `cached` was computed at.
     temperature: f64,
     cached: Vec<AtTemperature>,
+    /// The forward and reverse factors of every law in one array: law i's forward factors
+    /// are `packed[starts[2i]..starts[2i + 1]]`, its reverse ones
+    /// `packed[starts[2i + 1]..starts[2i + 2]]`. Each law's own vectors are separate heap
+    /// blocks that the allocator may scatter; on the generated 3000/10000 network the
+    /// rate-only evaluation took about 2.7× longer with glibc's allocator than with mimalloc
+    /// for that reason, and one array walked in order does not depend on the allocator.
+    packed: Vec<Factor>,
+    starts: Vec<usize>,
 }
 
 /// Value and derivative of C^e (see the module notes on powers).
@@ -253,11 +261,34 @@ impl RateSet {
             .collect();
         let temperature = net.feed.temperature;
         let cached = laws.iter().map(|l| l.at(temperature)).collect();
+        let mut packed = Vec::new();
+        let mut starts = vec![0];
+        for law in &laws {
+            packed.extend_from_slice(&law.forward);
+            starts.push(packed.len());
+            if let Some((_, _, fs)) = &law.reverse {
+                packed.extend_from_slice(fs);
+            }
+            starts.push(packed.len());
+        }
         RateSet {
             laws,
             temperature,
             cached,
+            packed,
+            starts,
         }
+    }
+
+    /// Forward and reverse factors of law i, from the packed array.
+    #[inline]
+    fn factors(&self, i: usize) -> (&[Factor], &[Factor]) {
+        let (a, b, c) = (
+            self.starts[2 * i],
+            self.starts[2 * i + 1],
+            self.starts[2 * i + 2],
+        );
+        (&self.packed[a..b], &self.packed[b..c])
     }
 
     pub fn len(&self) -> usize {
@@ -288,11 +319,13 @@ impl RateSet {
             &fresh
         };
         let k = at.k;
+        let (forward, reverse) = self.factors(i);
+        let reversible = law.reverse.is_some();
         let Some(g) = grad else {
             // Rate only: no gradient bookkeeping.
-            let mut num = product_value(&law.forward, c);
-            if let Some((_, _, factors)) = &law.reverse {
-                num -= product_value(factors, c) * at.inv_k_eq;
+            let mut num = product_value(forward, c);
+            if reversible {
+                num -= product_value(reverse, c) * at.inv_k_eq;
             }
             return match &law.denominator {
                 None => k * num,
@@ -308,9 +341,9 @@ impl RateSet {
         g.clear();
         g.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
         // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
-        let mut num = product(&law.forward, c, g, 1.0);
-        if let Some((_, _, factors)) = &law.reverse {
-            num -= product(factors, c, g, -at.inv_k_eq) * at.inv_k_eq;
+        let mut num = product(forward, c, g, 1.0);
+        if reversible {
+            num -= product(reverse, c, g, -at.inv_k_eq) * at.inv_k_eq;
         }
         match &law.denominator {
             None => {

@@ -43,8 +43,11 @@ enum Mixture {
 #[derive(Debug, Clone)]
 pub struct Balance {
     pub rates: RateSet,
-    /// Net coefficients per reaction: (species, ν).
-    nu: Vec<Vec<(usize, f64)>>,
+    /// Net coefficients (species, ν) of all reactions in one array, reaction i's at
+    /// `nu[nu_starts[i]..nu_starts[i + 1]]` (one block walked in order, whatever the allocator;
+    /// see `RateSet`'s packed factors).
+    nu: Vec<(usize, f64)>,
+    nu_starts: Vec<usize>,
     n_species: usize,
     mixture: Mixture,
     temperature: f64,
@@ -132,7 +135,17 @@ impl Balance {
         Ok(Balance {
             reactive: net.reacting_species(),
             rates: RateSet::new(net),
-            nu: net.reactions.iter().map(|r| r.net.clone()).collect(),
+            nu: net
+                .reactions
+                .iter()
+                .flat_map(|r| r.net.iter().copied())
+                .collect(),
+            nu_starts: std::iter::once(0)
+                .chain(net.reactions.iter().scan(0, |end, r| {
+                    *end += r.net.len();
+                    Some(*end)
+                }))
+                .collect(),
             n_species: net.species.len(),
             mixture,
             temperature: feed.temperature,
@@ -218,7 +231,12 @@ impl Balance {
             *cj = kappa * yj;
         }
         dydx.iter_mut().for_each(|v| *v = 0.0);
-        for (i, nu) in self.nu.iter().enumerate() {
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
             let r = sigma * self.rates.eval(i, self.temperature, c, None);
             for &(j, v) in nu {
                 dydx[j] += v * r;
@@ -244,7 +262,12 @@ impl Balance {
         let mut dense = vec![0.0; if dkappa != 0.0 || dsigma != 0.0 { n } else { 0 }];
         let mut grad = Vec::new();
         let mut dp_col = vec![0.0; if self.alpha.is_some() { n } else { 0 }];
-        for (i, nu) in self.nu.iter().enumerate() {
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
             let r = self.rates.eval(i, self.temperature, &c, Some(&mut grad));
             // a_i = Σ_m g_im y_m: the part of ∂r_i that comes through κ.
             let a: f64 = grad.iter().map(|&(m, g)| g * y[m]).sum();
