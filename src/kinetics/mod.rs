@@ -84,14 +84,65 @@ pub struct RateSet {
     /// The temperature `cached` was computed at.
     temperature: f64,
     cached: Vec<AtTemperature>,
-    /// The forward and reverse factors of every law in one array: law i's forward factors
-    /// are `packed[starts[2i]..starts[2i + 1]]`, its reverse ones
-    /// `packed[starts[2i + 1]..starts[2i + 2]]`. Each law's own vectors are separate heap
-    /// blocks that the allocator may scatter; on the generated 3000/10000 network the
-    /// rate-only evaluation took about 2.7× longer with glibc's allocator than with mimalloc
-    /// for that reason, and one array walked in order does not depend on the allocator.
-    packed: Vec<Factor>,
-    starts: Vec<usize>,
+    /// What the rate-only evaluation at the network's temperature reads, packed: the rhs of a
+    /// large network evaluates every law thousands of times, and each law's own vectors are
+    /// separate heap blocks that the allocator may scatter. On the generated 3000/10000 network
+    /// the rate-only evaluation took about 2.7× longer with glibc's allocator than with
+    /// mimalloc for that reason; two arrays walked in order do not depend on the allocator and
+    /// stay small enough for the cache.
+    hot: Vec<HotLaw>,
+    /// The forward and reverse factors of every law: law i's forward factors are
+    /// `packed[hot[i].forward_start..hot[i].reverse_start]`, its reverse ones up to
+    /// `hot[i + 1].forward_start` (or the end).
+    packed: Vec<HotFactor>,
+}
+
+/// A rate law at the network's temperature: k and 1/K_eq (0 for an irreversible step), where
+/// its factors start in [`RateSet`]'s packed array, and whether it is hyperbolic (which takes
+/// the general path).
+#[derive(Debug, Clone, Copy)]
+struct HotLaw {
+    k: f64,
+    inv_k_eq: f64,
+    forward_start: u32,
+    reverse_start: u32,
+    hyperbolic: bool,
+}
+
+/// C^e in 16 bytes: the integer exponent, or [`HotFactor::REAL`] with the real one in `real`.
+#[derive(Debug, Clone, Copy)]
+struct HotFactor {
+    real: f64,
+    species: u32,
+    int: i32,
+}
+
+impl HotFactor {
+    const REAL: i32 = i32::MIN;
+
+    fn new(f: &Factor) -> HotFactor {
+        let (real, int) = match f.exponent {
+            Exponent::Int(n) => (n as f64, n),
+            Exponent::Real(e) => (e, HotFactor::REAL),
+        };
+        HotFactor {
+            real,
+            species: f.species as u32,
+            int,
+        }
+    }
+
+    /// C^e, as [`power`] computes it.
+    #[inline]
+    fn value(&self, c: &[f64]) -> f64 {
+        let x = c[self.species as usize];
+        match self.int {
+            1 => x,
+            2 => x * x,
+            HotFactor::REAL => power(x, Exponent::Real(self.real)).0,
+            n => power(x, Exponent::Int(n)).0,
+        }
+    }
 }
 
 /// Value and derivative of C^e (see the module notes on powers).
@@ -261,34 +312,38 @@ impl RateSet {
             .collect();
         let temperature = net.feed.temperature;
         let cached = laws.iter().map(|l| l.at(temperature)).collect();
+        // u32 indices: a network with 4e9 factors could not be loaded in memory anyway.
         let mut packed = Vec::new();
-        let mut starts = vec![0];
-        for law in &laws {
-            packed.extend_from_slice(&law.forward);
-            starts.push(packed.len());
-            if let Some((_, _, fs)) = &law.reverse {
-                packed.extend_from_slice(fs);
-            }
-            starts.push(packed.len());
-        }
+        let hot = laws
+            .iter()
+            .zip(&cached)
+            .map(|(law, at): (&Compiled, &AtTemperature)| {
+                let forward_start = packed.len() as u32;
+                packed.extend(law.forward.iter().map(HotFactor::new));
+                let reverse_start = packed.len() as u32;
+                if let Some((_, _, fs)) = &law.reverse {
+                    packed.extend(fs.iter().map(HotFactor::new));
+                }
+                HotLaw {
+                    k: at.k,
+                    inv_k_eq: if law.reverse.is_some() {
+                        at.inv_k_eq
+                    } else {
+                        0.0
+                    },
+                    forward_start,
+                    reverse_start,
+                    hyperbolic: law.denominator.is_some(),
+                }
+            })
+            .collect();
         RateSet {
             laws,
             temperature,
             cached,
+            hot,
             packed,
-            starts,
         }
-    }
-
-    /// Forward and reverse factors of law i, from the packed array.
-    #[inline]
-    fn factors(&self, i: usize) -> (&[Factor], &[Factor]) {
-        let (a, b, c) = (
-            self.starts[2 * i],
-            self.starts[2 * i + 1],
-            self.starts[2 * i + 2],
-        );
-        (&self.packed[a..b], &self.packed[b..c])
     }
 
     pub fn len(&self) -> usize {
@@ -297,6 +352,29 @@ impl RateSet {
 
     pub fn is_empty(&self) -> bool {
         self.laws.is_empty()
+    }
+
+    /// Rate of power-law reaction i at the network's temperature from the packed arrays: the
+    /// same products, in the same order, as the general path of [`RateSet::eval`].
+    #[inline]
+    fn power_law_rate(&self, h: &HotLaw, i: usize, c: &[f64]) -> f64 {
+        let end = self
+            .hot
+            .get(i + 1)
+            .map_or(self.packed.len(), |n| n.forward_start as usize);
+        let (a, b) = (h.forward_start as usize, h.reverse_start as usize);
+        let mut num = 1.0;
+        for f in &self.packed[a..b] {
+            num *= f.value(c);
+        }
+        if h.inv_k_eq != 0.0 || b < end {
+            let mut rev = 1.0;
+            for f in &self.packed[b..end] {
+                rev *= f.value(c);
+            }
+            num -= rev * h.inv_k_eq;
+        }
+        h.k * num
     }
 
     /// Species that rate i depends on.
@@ -310,6 +388,12 @@ impl RateSet {
     /// At the network's own temperature the constants k(T), K_eq(T) and K_m(T) come from the
     /// values computed once in [`RateSet::new`]; at any other T they are evaluated afresh.
     pub fn eval(&self, i: usize, t: f64, c: &[f64], grad: Option<&mut Vec<(usize, f64)>>) -> f64 {
+        if grad.is_none() && t == self.temperature {
+            let h = &self.hot[i];
+            if !h.hyperbolic {
+                return self.power_law_rate(h, i, c);
+            }
+        }
         let law = &self.laws[i];
         let fresh;
         let at = if t == self.temperature {
@@ -319,13 +403,11 @@ impl RateSet {
             &fresh
         };
         let k = at.k;
-        let (forward, reverse) = self.factors(i);
-        let reversible = law.reverse.is_some();
         let Some(g) = grad else {
             // Rate only: no gradient bookkeeping.
-            let mut num = product_value(forward, c);
-            if reversible {
-                num -= product_value(reverse, c) * at.inv_k_eq;
+            let mut num = product_value(&law.forward, c);
+            if let Some((_, _, factors)) = &law.reverse {
+                num -= product_value(factors, c) * at.inv_k_eq;
             }
             return match &law.denominator {
                 None => k * num,
@@ -341,9 +423,9 @@ impl RateSet {
         g.clear();
         g.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
         // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
-        let mut num = product(forward, c, g, 1.0);
-        if reversible {
-            num -= product(reverse, c, g, -at.inv_k_eq) * at.inv_k_eq;
+        let mut num = product(&law.forward, c, g, 1.0);
+        if let Some((_, _, factors)) = &law.reverse {
+            num -= product(factors, c, g, -at.inv_k_eq) * at.inv_k_eq;
         }
         match &law.denominator {
             None => {
@@ -416,6 +498,36 @@ mod tests {
         );
         check_gradient(&net, 330.0, &[800.0, 450.0, 120.0, 0.0]);
         check_gradient(&net, 300.0, &[5.0, 1e-3, 3.0, 0.0]);
+    }
+
+    /// The packed rate-only path at the feed temperature gives exactly the rate of the general
+    /// path (the one that also returns the gradient), for irreversible, reversible, fractional,
+    /// integer-power, hyperbolic and self-catalysed laws, also with a species at zero and one
+    /// slightly negative.
+    #[test]
+    fn packed_rates_equal_the_general_path() {
+        let net = study(
+            "  - {id: r1, stoich: A + B -> C, rate: {k: 2e-3 m3/(mol*s), Ea: 30 kJ/mol, T_ref: 320 K}}\n\
+             \x20 - {id: r2, stoich: 2 A <=> C, rate: {k: 1e-3 m3/(mol*s), K_eq: 0.5 m3/mol, dH: -20 kJ/mol}}\n\
+             \x20 - {id: r3, stoich: A -> B, rate: {k: 0.3 (mol/m3)^(-0.5)/s, orders: {A: 1.5}}}\n\
+             \x20 - {id: r4, stoich: A + B -> C, rate: {law: hyperbolic, k: 1e-2 m3/(mol*s), adsorption: {A: {K: 0.01 m3/mol}}, inhibition_power: 2}}\n\
+             \x20 - {id: r5, stoich: 2 B -> B + C, rate: {k: 1e-3 m3/(mol*s)}}\n\
+             \x20 - {id: r6, stoich: A + 2 B <=> I, rate: {k: 1e-6 (mol/m3)^(-3)/s, orders: {A: 1, B: 3}, K_eq: 2 (m3/mol)^2}}",
+        );
+        let rs = RateSet::new(&net);
+        let t = net.feed.temperature;
+        let mut g = Vec::new();
+        for c in [
+            [800.0, 450.0, 120.0, 3.0],
+            [5.0, 0.0, 3.0, 0.0],
+            [-1e-9, 2.0, 0.0, 7.0],
+        ] {
+            for i in 0..rs.len() {
+                let general = rs.eval(i, t, &c, Some(&mut g));
+                let packed = rs.eval(i, t, &c, None);
+                assert_eq!(packed.to_bits(), general.to_bits(), "reaction {i} at {c:?}");
+            }
+        }
     }
 
     #[test]
