@@ -8,9 +8,10 @@
 //! Groups:
 //! - `bundled/NAME`: whole `simulate()` of each networks/*.yaml without error findings;
 //! - `generated/NxR`: whole `simulate()` of generated liquid PFR studies (rxnet::generate,
-//!   seed 1), default options (Auto linear algebra: sparse above 60 states);
-//! - `linear_algebra/NxR/{dense,sparse}`: the same solve with the linear algebra forced
-//!   (100/300 only; 1000/3000 dense is measured once with examples/solve_once.rs);
+//!   seed 1) at 100/300, 1000/3000 and 3000/10000, default options (Auto linear algebra:
+//!   dense LU up to 150 states, Krylov above);
+//! - `linear_algebra/NxR/{dense,sparse,krylov}`: the same solve with the linear algebra forced
+//!   (100/300 and 300/900; 1000/3000 dense is measured once with examples/solve_once.rs);
 //! - `rhs/NxR/...`: one evaluation of `Balance::rhs` against a plain loop over flat arrays
 //!   doing the same mass-action rates and the same multiply-adds over the ν non-zeros, the
 //!   scatter alone with the rates given, and one `Balance::jacobian`;
@@ -79,7 +80,7 @@ fn bench_generated(c: &mut Criterion) {
     g.sample_size(10)
         .warm_up_time(Duration::from_millis(500))
         .measurement_time(Duration::from_secs(3));
-    for (n, r) in [(100, 300), (1000, 3000)] {
+    for (n, r) in [(100, 300), (1000, 3000), (3000, 10000)] {
         let net = generated(n, r);
         let opts = SolveOptions::default();
         if let Err(e) = simulate(&net, &opts) {
@@ -229,7 +230,7 @@ fn bench_rhs(c: &mut Criterion) {
     g.sample_size(20)
         .warm_up_time(Duration::from_millis(200))
         .measurement_time(Duration::from_secs(1));
-    for (n, r) in [(100, 300), (1000, 3000)] {
+    for (n, r) in [(100, 300), (1000, 3000), (3000, 10000)] {
         let net = generated(n, r);
         let bal = Balance::new(&net).expect("balance");
         let flat = Flat::new(&net);

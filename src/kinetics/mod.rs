@@ -18,6 +18,8 @@
 //! a small negative overshoot of the integrator does not break the Jacobian); a fractional one
 //! to max(C, 0), with derivative 0 at C ≤ 0.
 
+use std::ops::Range;
+
 use crate::model::{Network, RateForm};
 use crate::units::GAS_CONSTANT;
 
@@ -88,13 +90,18 @@ pub struct RateSet {
     /// large network evaluates every law thousands of times, and each law's own vectors are
     /// separate heap blocks that the allocator may scatter. On the generated 3000/10000 network
     /// the rate-only evaluation took about 2.7× longer with glibc's allocator than with
-    /// mimalloc for that reason; two arrays walked in order do not depend on the allocator and
-    /// stay small enough for the cache.
+    /// mimalloc for that reason, and the Jacobian's evaluation (the gradient path, reading
+    /// `full` and `deps` below) 5× longer than the same arrays packed. Arrays walked in order
+    /// do not depend on the allocator and stay small enough for the cache.
     hot: Vec<HotLaw>,
     /// The forward and reverse factors of every law: law i's forward factors are
     /// `packed[hot[i].forward_start..hot[i].reverse_start]`, its reverse ones up to
     /// `hot[i + 1].forward_start` (or the end).
     packed: Vec<HotFactor>,
+    /// The same factors with their gradient slots, at the same positions, for the gradient
+    /// path, and every law's `depends_on` list end to end (law i's from `hot[i].deps_start`).
+    full: Vec<Factor>,
+    deps: Vec<usize>,
 }
 
 /// A rate law at the network's temperature: k and 1/K_eq (0 for an irreversible step), where
@@ -106,6 +113,7 @@ struct HotLaw {
     inv_k_eq: f64,
     forward_start: u32,
     reverse_start: u32,
+    deps_start: u32,
     hyperbolic: bool,
 }
 
@@ -314,16 +322,22 @@ impl RateSet {
         let cached = laws.iter().map(|l| l.at(temperature)).collect();
         // u32 indices: a network with 4e9 factors could not be loaded in memory anyway.
         let mut packed = Vec::new();
+        let mut full = Vec::new();
+        let mut deps = Vec::new();
         let hot = laws
             .iter()
             .zip(&cached)
             .map(|(law, at): (&Compiled, &AtTemperature)| {
                 let forward_start = packed.len() as u32;
                 packed.extend(law.forward.iter().map(HotFactor::new));
+                full.extend_from_slice(&law.forward);
                 let reverse_start = packed.len() as u32;
                 if let Some((_, _, fs)) = &law.reverse {
                     packed.extend(fs.iter().map(HotFactor::new));
+                    full.extend_from_slice(fs);
                 }
+                let deps_start = deps.len() as u32;
+                deps.extend_from_slice(&law.depends_on);
                 HotLaw {
                     k: at.k,
                     inv_k_eq: if law.reverse.is_some() {
@@ -333,6 +347,7 @@ impl RateSet {
                     },
                     forward_start,
                     reverse_start,
+                    deps_start,
                     hyperbolic: law.denominator.is_some(),
                 }
             })
@@ -343,7 +358,23 @@ impl RateSet {
             cached,
             hot,
             packed,
+            full,
+            deps,
         }
+    }
+
+    /// Law i's factor ranges in the packed arrays: forward, reverse, and its `depends_on`.
+    #[inline]
+    fn ranges(&self, i: usize) -> (Range<usize>, Range<usize>, Range<usize>) {
+        let h = &self.hot[i];
+        let (end, deps_end) = self
+            .hot
+            .get(i + 1)
+            .map_or((self.packed.len(), self.deps.len()), |n| {
+                (n.forward_start as usize, n.deps_start as usize)
+            });
+        let (a, b) = (h.forward_start as usize, h.reverse_start as usize);
+        (a..b, b..end, h.deps_start as usize..deps_end)
     }
 
     pub fn len(&self) -> usize {
@@ -358,18 +389,14 @@ impl RateSet {
     /// same products, in the same order, as the general path of [`RateSet::eval`].
     #[inline]
     fn power_law_rate(&self, h: &HotLaw, i: usize, c: &[f64]) -> f64 {
-        let end = self
-            .hot
-            .get(i + 1)
-            .map_or(self.packed.len(), |n| n.forward_start as usize);
-        let (a, b) = (h.forward_start as usize, h.reverse_start as usize);
+        let (forward, reverse, _) = self.ranges(i);
         let mut num = 1.0;
-        for f in &self.packed[a..b] {
+        for f in &self.packed[forward] {
             num *= f.value(c);
         }
-        if h.inv_k_eq != 0.0 || b < end {
+        if h.inv_k_eq != 0.0 || !reverse.is_empty() {
             let mut rev = 1.0;
-            for f in &self.packed[b..end] {
+            for f in &self.packed[reverse] {
                 rev *= f.value(c);
             }
             num -= rev * h.inv_k_eq;
@@ -379,7 +406,7 @@ impl RateSet {
 
     /// Species that rate i depends on.
     pub fn depends_on(&self, i: usize) -> &[usize] {
-        &self.laws[i].depends_on
+        &self.deps[self.ranges(i).2]
     }
 
     /// Rate of reaction i at T and C; with `grad`, also ∂r_i/∂C_j for j in `depends_on(i)`,
@@ -420,12 +447,13 @@ impl RateSet {
                 }
             };
         };
+        let (forward, reverse, deps) = self.ranges(i);
         g.clear();
-        g.extend(law.depends_on.iter().map(|&j| (j, 0.0)));
+        g.extend(self.deps[deps].iter().map(|&j| (j, 0.0)));
         // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
-        let mut num = product(&law.forward, c, g, 1.0);
-        if let Some((_, _, factors)) = &law.reverse {
-            num -= product(factors, c, g, -at.inv_k_eq) * at.inv_k_eq;
+        let mut num = product(&self.full[forward], c, g, 1.0);
+        if law.reverse.is_some() {
+            num -= product(&self.full[reverse], c, g, -at.inv_k_eq) * at.inv_k_eq;
         }
         match &law.denominator {
             None => {
@@ -437,7 +465,7 @@ impl RateSet {
             Some((terms, n)) => {
                 // r = k N / D^n; ∂r = k (∂N / D^n − n N D^(−n−1) ∂D).
                 let mut d = 1.0;
-                let mut dgrad = vec![0.0; law.depends_on.len()];
+                let mut dgrad = vec![0.0; g.len()];
                 for ((_, _, f), k_ads) in terms.iter().zip(&at.k_ads) {
                     let (v, dv) = power(c[f.species], f.exponent);
                     d += k_ads * v;
