@@ -515,34 +515,31 @@ mod tests {
         }
     }
 
+    /// Irreversible with Arrhenius, reversible with van't Hoff, fractional order, hyperbolic
+    /// with two adsorption terms, self-catalysed.
+    const MIXED_LAWS: &str = "  - {id: r1, stoich: A + B -> C, rate: {k: 2e-3 m3/(mol*s), Ea: 30 kJ/mol, T_ref: 320 K}}\n\
+         \x20 - {id: r2, stoich: 2 A <=> C, rate: {k: 1e-3 m3/(mol*s), K_eq: 0.5 m3/mol, dH: -20 kJ/mol}}\n\
+         \x20 - {id: r3, stoich: A -> B, rate: {k: 0.3 (mol/m3)^(-0.5)/s, orders: {A: 1.5}}}\n\
+         \x20 - {id: r4, stoich: A + B -> C, rate: {law: hyperbolic, k: 1e-2 m3/(mol*s), adsorption: {A: {K: 0.01 m3/mol}, C: {K: 0.002 (m3/mol)^2, order: 2, dH: -15 kJ/mol}}, inhibition_power: 2}}\n\
+         \x20 - {id: r5, stoich: 2 B -> B + C, rate: {k: 1e-3 m3/(mol*s)}}";
+
     #[test]
     fn power_reversible_hyperbolic_gradients_match_finite_differences() {
-        let net = study(
-            "  - {id: r1, stoich: A + B -> C, rate: {k: 2e-3 m3/(mol*s), Ea: 30 kJ/mol, T_ref: 320 K}}\n\
-             \x20 - {id: r2, stoich: 2 A <=> C, rate: {k: 1e-3 m3/(mol*s), K_eq: 0.5 m3/mol, dH: -20 kJ/mol}}\n\
-             \x20 - {id: r3, stoich: A -> B, rate: {k: 0.3 (mol/m3)^(-0.5)/s, orders: {A: 1.5}}}\n\
-             \x20 - {id: r4, stoich: A + B -> C, rate: {law: hyperbolic, k: 1e-2 m3/(mol*s), adsorption: {A: {K: 0.01 m3/mol}, C: {K: 0.002 (m3/mol)^2, order: 2, dH: -15 kJ/mol}}, inhibition_power: 2}}\n\
-             \x20 - {id: r5, stoich: 2 B -> B + C, rate: {k: 1e-3 m3/(mol*s)}}",
-        );
+        let net = study(MIXED_LAWS);
         check_gradient(&net, 330.0, &[800.0, 450.0, 120.0, 0.0]);
         check_gradient(&net, 300.0, &[5.0, 1e-3, 3.0, 0.0]);
     }
 
     /// The packed rate-only path at the feed temperature gives exactly the rate of the general
-    /// path (the one that also returns the gradient), for irreversible, reversible, fractional,
-    /// integer-power, hyperbolic and self-catalysed laws, also with a species at zero and one
-    /// slightly negative.
+    /// path (the one that also returns the gradient) for every law of [`MIXED_LAWS`] and a
+    /// reversible third-order step, also with a species at zero and one slightly negative.
     #[test]
     fn packed_rates_equal_the_general_path() {
-        let net = study(
-            "  - {id: r1, stoich: A + B -> C, rate: {k: 2e-3 m3/(mol*s), Ea: 30 kJ/mol, T_ref: 320 K}}\n\
-             \x20 - {id: r2, stoich: 2 A <=> C, rate: {k: 1e-3 m3/(mol*s), K_eq: 0.5 m3/mol, dH: -20 kJ/mol}}\n\
-             \x20 - {id: r3, stoich: A -> B, rate: {k: 0.3 (mol/m3)^(-0.5)/s, orders: {A: 1.5}}}\n\
-             \x20 - {id: r4, stoich: A + B -> C, rate: {law: hyperbolic, k: 1e-2 m3/(mol*s), adsorption: {A: {K: 0.01 m3/mol}}, inhibition_power: 2}}\n\
-             \x20 - {id: r5, stoich: 2 B -> B + C, rate: {k: 1e-3 m3/(mol*s)}}\n\
-             \x20 - {id: r6, stoich: A + 2 B <=> I, rate: {k: 1e-6 (mol/m3)^(-3)/s, orders: {A: 1, B: 3}, K_eq: 2 (m3/mol)^2}}",
-        );
+        let net = study(&format!(
+            "{MIXED_LAWS}\n  - {{id: r6, stoich: A + 2 B <=> I, rate: {{k: 1e-6 (mol/m3)^(-3)/s, orders: {{A: 1, B: 3}}, K_eq: 2 (m3/mol)^2}}}}"
+        ));
         let rs = RateSet::new(&net);
+        assert_eq!(rs.len(), 6);
         let t = net.feed.temperature;
         let mut g = Vec::new();
         for c in [
