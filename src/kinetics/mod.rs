@@ -340,11 +340,7 @@ impl RateSet {
                 deps.extend_from_slice(&law.depends_on);
                 HotLaw {
                     k: at.k,
-                    inv_k_eq: if law.reverse.is_some() {
-                        at.inv_k_eq
-                    } else {
-                        0.0
-                    },
+                    inv_k_eq: at.inv_k_eq,
                     forward_start,
                     reverse_start,
                     deps_start,
@@ -394,14 +390,12 @@ impl RateSet {
         for f in &self.packed[forward] {
             num *= f.value(c);
         }
-        if h.inv_k_eq != 0.0 || !reverse.is_empty() {
-            let mut rev = 1.0;
-            for f in &self.packed[reverse] {
-                rev *= f.value(c);
-            }
-            num -= rev * h.inv_k_eq;
+        // An irreversible law has no reverse factors and 1/K = 0: the term is exactly 0.
+        let mut rev = 1.0;
+        for f in &self.packed[reverse] {
+            rev *= f.value(c);
         }
-        h.k * num
+        h.k * (num - rev * h.inv_k_eq)
     }
 
     /// Species that rate i depends on.
@@ -430,11 +424,12 @@ impl RateSet {
             &fresh
         };
         let k = at.k;
+        let (forward, reverse, deps) = self.ranges(i);
         let Some(g) = grad else {
             // Rate only: no gradient bookkeeping.
-            let mut num = product_value(&law.forward, c);
-            if let Some((_, _, factors)) = &law.reverse {
-                num -= product_value(factors, c) * at.inv_k_eq;
+            let mut num = product_value(&self.full[forward], c);
+            if law.reverse.is_some() {
+                num -= product_value(&self.full[reverse], c) * at.inv_k_eq;
             }
             return match &law.denominator {
                 None => k * num,
@@ -447,7 +442,6 @@ impl RateSet {
                 }
             };
         };
-        let (forward, reverse, deps) = self.ranges(i);
         g.clear();
         g.extend(self.deps[deps].iter().map(|&j| (j, 0.0)));
         // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
