@@ -3,7 +3,6 @@
 //! 0 success, 1 the analysis found errors (or a run failed), 2 the input cannot be used.
 
 mod cli;
-mod studies_cli;
 
 /// mimalloc instead of the system allocator: a sweep loads and solves thousands of small
 /// studies on every core, and glibc's malloc/free took about 14 % of that time (perf), much of

@@ -7,7 +7,8 @@
 //! With `--at-conversion X` every entry is resized to reach that conversion, so yields and
 //! selectivities are compared at equal conversion.
 
-use super::optimize::{StudyError, bisect_ln, optimize_size};
+use super::optimize::{bisect_ln, optimize_size};
+use super::study::StudyError;
 use super::target::Target;
 use crate::metrics;
 use crate::model::{BatchMode, Network, Phase, Reactor};

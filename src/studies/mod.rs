@@ -3,5 +3,6 @@
 
 pub mod compare;
 pub mod optimize;
+pub mod study;
 pub mod sweep;
 pub mod target;

@@ -5,7 +5,7 @@
 //! array together cover the grid once; their CSVs concatenate (only shard 1 writes the header)
 //! and, sorted by the `point` column, equal the unsharded sweep.
 
-use super::optimize::{Study, Variable};
+use super::study::{Study, Variable};
 use crate::metrics;
 use crate::model::Network;
 use crate::solve::{self, SolveOptions};

@@ -1,0 +1,59 @@
+//! What every command reads: the study file (with `--set` overrides) and the command-line
+//! values shared by several commands (tolerances). Errors are printed here, and the exit code
+//! returned, so each command reads as its own steps.
+
+use super::output::{EXIT_FINDINGS, EXIT_INVALID};
+use rxnet::load_file;
+use rxnet::model::{Network, Override, read_text};
+use rxnet::solve::SolveOptions;
+use rxnet::studies::study::Study;
+use std::path::Path;
+
+/// Load a study file for a single evaluation (check, table, run).
+pub fn load(file: &Path, set: &[Override]) -> Result<rxnet::Network, i32> {
+    load_file(file, set).map_err(|e| {
+        eprintln!("error: {e}");
+        EXIT_INVALID
+    })
+}
+
+pub fn check_tolerance(name: &str, v: Option<f64>, upper: f64) -> Result<(), String> {
+    match v {
+        Some(x) if !(x > 0.0 && x < upper) => Err(format!(
+            "--{name} must be a positive number below {upper}, got {x}"
+        )),
+        _ => Ok(()),
+    }
+}
+
+/// Read a study for a design command; errors are printed, the exit code returned.
+pub fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network), i32> {
+    let text = read_text(file).map_err(|e| {
+        eprintln!("error: {e}");
+        EXIT_INVALID
+    })?;
+    let study = Study::new(text, file.display().to_string(), set.to_vec()).map_err(|e| {
+        eprintln!("error: {e}");
+        EXIT_INVALID
+    })?;
+    let net = study.load(&[]).map_err(|e| {
+        eprintln!("error: {e}");
+        EXIT_INVALID
+    })?;
+    let c = rxnet::analysis::check(&net);
+    if c.has_errors() {
+        eprintln!(
+            "error: {}: the network has error findings; run `rxnet check` on it",
+            file.display()
+        );
+        return Err(EXIT_FINDINGS);
+    }
+    Ok((study, net))
+}
+
+pub fn solve_opts(rtol: Option<f64>) -> SolveOptions {
+    SolveOptions {
+        rtol,
+        ..Default::default()
+    }
+}

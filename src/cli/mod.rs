@@ -1,0 +1,227 @@
+//! Command-line interface: the clap definitions and the dispatch, one file per command
+//! (each a documented function that returns the exit code), `input` for what every command
+//! reads, `output` for what every command writes and the exit codes.
+//!
+//! Exit codes: 0 success, 1 the analysis found errors (or a computation failed), 2 the input
+//! cannot be used (also clap's usage errors).
+
+mod check;
+mod compare;
+mod generate;
+mod input;
+mod optimize;
+pub mod output;
+mod run;
+mod sweep;
+mod table;
+
+use clap::{Parser, Subcommand, ValueEnum};
+use output::EXIT_INVALID;
+use rxnet::Override;
+use std::path::PathBuf;
+
+#[derive(Parser)]
+#[command(
+    name = "rxnet",
+    version,
+    about = "Check, simulate, size and screen reactors for multiple-reaction networks"
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
+pub enum Format {
+    Text,
+    Json,
+}
+
+#[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
+enum SweepFormat {
+    Csv,
+    Json,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Simulate the study's reactor: outlet, conversion, yields, selectivities.
+    Run(run::RunArgs),
+    /// Write a generated, atom-consistent mass-action network (for benchmarks) to standard output.
+    Generate {
+        #[arg(long, default_value_t = 100)]
+        species: usize,
+        #[arg(long, default_value_t = 300)]
+        reactions: usize,
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Reactor of the generated study.
+        #[arg(long, value_enum, default_value_t = generate::GenReactor::Pfr)]
+        reactor: generate::GenReactor,
+    },
+    /// Find the reactor size (default) or other inputs that maximise a target.
+    Optimize {
+        file: PathBuf,
+        /// B (outlet amount), yield:B, selectivity:B/C or conversion.
+        #[arg(long, value_name = "TARGET")]
+        maximize: String,
+        /// Input to vary: `size` (default) or a --set path such as feed.T; may repeat, each with --bounds.
+        #[arg(long, value_name = "VAR")]
+        over: Vec<String>,
+        /// Bounds of the matching --over, e.g. --bounds "300 K" "400 K"; for the size, in SI
+        /// (m3, kg or s) or with a unit. Default for the size: 0 to the study's size.
+        #[arg(long, num_args = 2, value_names = ["LO", "HI"], allow_hyphen_values = true)]
+        bounds: Vec<String>,
+        /// Only accept points where the key conversion is at least this.
+        #[arg(long)]
+        min_conversion: Option<f64>,
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
+        #[arg(long)]
+        rtol: Option<f64>,
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
+    },
+    /// Run a full grid over one or more inputs (in parallel).
+    Sweep {
+        file: PathBuf,
+        /// PATH=LO:HI:N (or PATH=LO:HI:N:log), e.g. "feed.T=300 K:400 K:11"; may repeat.
+        #[arg(long, value_name = "PATH=LO:HI:N", required = true)]
+        vary: Vec<String>,
+        /// Write the CSV here (atomically) instead of standard output.
+        #[arg(long, value_name = "FILE.csv")]
+        out: Option<PathBuf>,
+        #[arg(long, value_enum, default_value_t = SweepFormat::Csv)]
+        format: SweepFormat,
+        /// Run only shard K of N (every N-th point from point K−1), for cluster job arrays.
+        #[arg(long, value_name = "K/N")]
+        shard: Option<String>,
+        /// Draw the result to this SVG file: a line for one input, a heat map for two.
+        #[arg(long, value_name = "FILE.svg")]
+        plot: Option<PathBuf>,
+        /// Quantity to plot (default: yield of the desired product, else conversion).
+        #[arg(long, value_name = "TARGET")]
+        plot_target: Option<String>,
+        #[arg(long)]
+        rtol: Option<f64>,
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
+    },
+    /// Screen studies and reactor types side by side, ranked by a target.
+    Compare {
+        #[arg(required = true)]
+        files: Vec<PathBuf>,
+        /// Reactor types to screen each study in, e.g. pfr,cstr,batch (default: as in each file).
+        #[arg(long, value_delimiter = ',')]
+        reactors: Vec<String>,
+        /// Rank by this target (default: yield of the desired product).
+        #[arg(long, value_name = "TARGET")]
+        rank_by: Option<String>,
+        /// Resize every entry to reach this key conversion first (compare at equal conversion).
+        #[arg(long)]
+        at_conversion: Option<f64>,
+        /// Also find the size (up to the study's) that maximises this target.
+        #[arg(long, value_name = "TARGET")]
+        optimum: Option<String>,
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
+        #[arg(long)]
+        rtol: Option<f64>,
+    },
+    /// Check a network: atom balances, independent reactions, equilibrium consistency, graph.
+    Check {
+        file: PathBuf,
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
+        /// Change a value of the study, PATH=VALUE (e.g. feed.T="350 K"); may repeat.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
+    },
+    /// The stoichiometric table of the feed in extents of reaction.
+    Table {
+        file: PathBuf,
+        #[arg(long, value_enum, default_value_t = Format::Text)]
+        format: Format,
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
+    },
+}
+
+pub fn main() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() { EXIT_INVALID } else { 0 };
+            let _ = e.print();
+            return code;
+        }
+    };
+    match cli.command {
+        Command::Check { file, format, set } => check::check(&file, format, &set),
+        Command::Table { file, format, set } => table::table(&file, format, &set),
+        Command::Run(args) => run::run(&args),
+        Command::Generate {
+            species,
+            reactions,
+            seed,
+            reactor,
+        } => generate::generate(species, reactions, seed, reactor),
+        Command::Optimize {
+            file,
+            maximize,
+            over,
+            bounds,
+            min_conversion,
+            format,
+            rtol,
+            set,
+        } => optimize::optimize(
+            &file,
+            &maximize,
+            &over,
+            &bounds,
+            min_conversion,
+            format == Format::Json,
+            rtol,
+            &set,
+        ),
+        Command::Sweep {
+            file,
+            vary,
+            out,
+            format,
+            shard,
+            plot,
+            plot_target,
+            rtol,
+            set,
+        } => sweep::sweep(&sweep::SweepArgs {
+            file,
+            vary,
+            out,
+            json: format == SweepFormat::Json,
+            shard,
+            plot,
+            plot_target,
+            rtol,
+            set,
+        }),
+        Command::Compare {
+            files,
+            reactors,
+            rank_by,
+            at_conversion,
+            optimum,
+            format,
+            rtol,
+        } => compare::compare(
+            &files,
+            &reactors,
+            rank_by.as_deref(),
+            at_conversion,
+            optimum.as_deref(),
+            format == Format::Json,
+            rtol,
+        ),
+    }
+}

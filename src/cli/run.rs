@@ -1,0 +1,224 @@
+//! `rxnet run`: simulate the study's reactor and report outlet, conversion, yields and
+//! selectivities (and the profile along the reactor, on request).
+
+use super::input::{check_tolerance, load};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, write_atomic};
+use clap::ValueEnum;
+use rxnet::model::Network;
+use rxnet::report::{num, plot};
+use rxnet::solve::{self, Points, Simulation, SolveOptions};
+use rxnet::{Override, analysis, metrics, reactor, report};
+use std::path::PathBuf;
+
+#[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
+pub enum RunFormat {
+    Table,
+    Csv,
+    Json,
+}
+
+/// Arguments of `rxnet run`.
+#[derive(clap::Args)]
+pub struct RunArgs {
+    file: PathBuf,
+    #[arg(long, value_enum, default_value_t = RunFormat::Table)]
+    format: RunFormat,
+    /// Write the profile along the reactor to this CSV file.
+    #[arg(long, value_name = "FILE.csv")]
+    profile: Option<PathBuf>,
+    /// Number of evenly spaced profile points, inlet and outlet included (default 51 when a profile is asked).
+    #[arg(long)]
+    points: Option<usize>,
+    /// Report every internal step of the integrator instead of even points.
+    #[arg(long, conflicts_with = "points")]
+    steps: bool,
+    /// Relative tolerance of the integration (default 1e-8).
+    #[arg(long)]
+    rtol: Option<f64>,
+    /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch); default 1e-12 of the total feed.
+    #[arg(long)]
+    atol: Option<f64>,
+    /// Also print the element balance closure.
+    #[arg(long, short)]
+    verbose: bool,
+    /// Draw the species profile along the reactor to this SVG file.
+    #[arg(long, value_name = "FILE.svg")]
+    plot: Option<PathBuf>,
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    set: Vec<Override>,
+}
+
+/// The solve of `rxnet run`: whether a profile is wanted, the balance and the simulation, or
+/// the exit code and the message to print.
+fn solve_run(
+    net: &rxnet::model::Network,
+    a: &RunArgs,
+) -> Result<(bool, reactor::Balance, solve::Simulation), (i32, String)> {
+    let want_profile = a.profile.is_some()
+        || a.plot.is_some()
+        || a.format == RunFormat::Csv
+        || a.points.is_some()
+        || a.steps;
+    let points = if a.steps {
+        Points::Steps
+    } else if want_profile {
+        Points::Even(a.points.unwrap_or(if a.plot.is_some() { 201 } else { 51 }))
+    } else {
+        Points::End
+    };
+    let opts = SolveOptions {
+        rtol: a.rtol,
+        atol: a.atol,
+        points,
+        ..Default::default()
+    };
+    let balance = match reactor::Balance::new(net) {
+        Ok(b) => b,
+        Err(m) => return Err((EXIT_INVALID, format!("error: {}: {m}", a.file.display()))),
+    };
+    let sim = match solve::simulate_with(net, &balance, &opts) {
+        Ok(s) => s,
+        Err(e) => return Err((EXIT_FINDINGS, format!("error: {}: {e}", a.file.display()))),
+    };
+    Ok((want_profile, balance, sim))
+}
+
+/// `rxnet run FILE`: exit 0 on success, 1 when the solve fails, 2 for invalid input.
+pub fn run(a: &RunArgs) -> i32 {
+    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0)
+        .and_then(|_| check_tolerance("atol", a.atol, f64::INFINITY))
+    {
+        eprintln!("error: {m}");
+        return EXIT_INVALID;
+    }
+    if let Some(n) = a.points
+        && !(2..=1_000_000).contains(&n)
+    {
+        eprintln!("error: --points must be between 2 and 1000000, got {n}");
+        return EXIT_INVALID;
+    }
+    let net = match load(&a.file, &a.set) {
+        Ok(n) => n,
+        Err(code) => return code,
+    };
+    // The consistency check and the solve do not depend on each other, so the check runs on a
+    // second thread while the reactor is solved; its error findings still decide the outcome
+    // (a network with error findings gets no result, whatever the solve did).
+    let (analysis, solved) = std::thread::scope(|scope| {
+        let checking = scope.spawn(|| analysis::check(&net));
+        let solved = solve_run(&net, a);
+        let analysis = checking
+            .join()
+            .unwrap_or_else(|p| std::panic::resume_unwind(p));
+        (analysis, solved)
+    });
+    if analysis.has_errors() {
+        eprintln!(
+            "error: {}: the network has error findings; run `rxnet check` on it:",
+            a.file.display()
+        );
+        for f in analysis
+            .findings
+            .iter()
+            .filter(|f| f.severity == analysis::Severity::Error)
+        {
+            eprintln!("  {}", f.message);
+        }
+        return EXIT_FINDINGS;
+    }
+    let (want_profile, balance, sim) = match solved {
+        Ok(s) => s,
+        Err((code, message)) => {
+            eprintln!("{message}");
+            return code;
+        }
+    };
+    let m = metrics::compute(&net, sim.outlet());
+    let rep = report::run::build(
+        &net,
+        &balance,
+        &sim,
+        &m,
+        want_profile && a.format == RunFormat::Json,
+    );
+    if let Some(path) = &a.profile
+        && let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim))
+    {
+        eprintln!("error: cannot write {}: {e}", path.display());
+        return EXIT_FINDINGS;
+    }
+    if let Some(path) = &a.plot {
+        let svg = profile_plot(&net, &sim);
+        if let Err(e) = svg.and_then(|s| write_atomic(path, &s).map_err(|e| e.to_string())) {
+            eprintln!("error: cannot write {}: {e}", path.display());
+            return EXIT_FINDINGS;
+        }
+    }
+    let text = match a.format {
+        RunFormat::Table => {
+            let mut t = report::run::text(&rep, a.verbose);
+            if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
+                t.push_str("caution: exothermic reactions; this isothermal result assumes the heat is removed. Assess runaway and relief under local codes.\n");
+            }
+            t
+        }
+        RunFormat::Csv => report::run::profile_csv(&net, &sim),
+        RunFormat::Json => json(&rep),
+    };
+    emit(&text);
+    0
+}
+
+/// The species profile of a run as SVG, with the maximum of the desired product marked when it
+/// lies inside the reactor.
+fn profile_plot(net: &Network, sim: &Simulation) -> Result<String, String> {
+    let batch = net.reactor.is_batch();
+    let unit = if batch { "mol" } else { "mol/s" };
+    let series: Vec<(String, Vec<f64>)> = net
+        .species
+        .iter()
+        .enumerate()
+        .filter(|(j, _)| sim.states.iter().any(|y| y[*j] != sim.states[0][*j]))
+        .map(|(j, s)| (s.name.clone(), sim.states.iter().map(|y| y[j]).collect()))
+        .collect();
+    let mark = net.desired.and_then(|d| {
+        let (k, v) = sim
+            .states
+            .iter()
+            .enumerate()
+            .map(|(k, y)| (k, y[d]))
+            .max_by(|a, b| a.1.total_cmp(&b.1))?;
+        (k > 0 && k + 1 < sim.states.len()).then(|| {
+            (
+                sim.x[k],
+                v,
+                format!(
+                    "max {} near {} = {} {}",
+                    net.species[d].name,
+                    sim.x_name,
+                    num(sim.x[k]),
+                    sim.x_unit
+                ),
+            )
+        })
+    });
+    plot::line_svg(&plot::LinePlot {
+        title: &net.name,
+        x_label: &format!(
+            "{} [{}]",
+            match sim.x_name {
+                "V" => "reactor volume V",
+                "W" => "catalyst mass W",
+                _ => "time t",
+            },
+            sim.x_unit
+        ),
+        y_label: &format!(
+            "{} [{unit}]",
+            if batch { "amount N" } else { "molar flow F" }
+        ),
+        x: &sim.x,
+        series,
+        mark,
+    })
+}
