@@ -695,9 +695,15 @@ fn parse_csv(text: &str) -> Vec<Vec<String>> {
     rows
 }
 
-/// A sweep's CSV as a header and the rows as maps column → text.
+/// A sweep's CSV as a header and the rows as maps column → text (comment lines, such as the
+/// count of failed points, skipped).
 fn sweep_table(text: &str) -> (Vec<String>, Vec<BTreeMap<String, String>>) {
-    let mut recs = parse_csv(text);
+    let body: String = text
+        .lines()
+        .filter(|l| !l.starts_with('#'))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    let mut recs = parse_csv(&body);
     assert!(!recs.is_empty(), "empty sweep output");
     let header = recs.remove(0);
     let rows = recs
@@ -920,6 +926,11 @@ fn failing_points_become_rows_not_crashes() {
         run.stderr.contains("2 of 9 points failed"),
         "no note: {}",
         run.stderr
+    );
+    assert!(
+        run.stdout.ends_with("# failed: 2 of 9 points\n"),
+        "no count in the CSV: {}",
+        run.stdout
     );
     let (_, rows) = sweep_table(&run.stdout);
     assert_eq!(rows.len(), 9);

@@ -9,7 +9,6 @@ use rxnet::studies::optimize::{optimize_size, optimize_vars};
 use rxnet::studies::study::{StudyError, Variable};
 use rxnet::studies::target::Target;
 use rxnet::units::parse_quantity;
-use rxnet::{metrics, reactor};
 use std::fmt::Write;
 use std::path::Path;
 
@@ -188,21 +187,18 @@ pub fn optimize(
             }
         }
     };
-    let balance = match reactor::Balance::new(&net_best) {
-        Ok(b) => b,
-        Err(m) => {
-            eprintln!("error: {m}");
-            return EXIT_INVALID;
-        }
-    };
-    let sim = match solve::simulate_with(&net_best, &balance, &opts) {
-        Ok(s) => s,
+    // The optimum through the evaluation gate: the same checks as `run`.
+    let (balance, sim, m) = match rxnet::studies::evaluate::evaluate(&net_best, &opts, false) {
+        Ok(ev) => (ev.balance, ev.sim, ev.metrics),
         Err(e) => {
             eprintln!("error: {}: at the optimum: {e}", file.display());
-            return EXIT_FINDINGS;
+            return if e.is_invalid_input() {
+                EXIT_INVALID
+            } else {
+                EXIT_FINDINGS
+            };
         }
     };
-    let m = metrics::compute(&net_best, sim.outlet());
     let run = report::run::build(&net_best, &balance, &sim, &m, false);
     let rep = OptimizeReport {
         target: target.label(&net),

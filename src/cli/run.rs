@@ -6,8 +6,9 @@ use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, write_atomic};
 use clap::ValueEnum;
 use rxnet::model::Network;
 use rxnet::report::{num, plot};
-use rxnet::solve::{self, Points, Simulation, SolveOptions};
-use rxnet::{Override, analysis, metrics, reactor, report};
+use rxnet::solve::{Points, Simulation, SolveOptions};
+use rxnet::studies::evaluate::{self, EvalError};
+use rxnet::{Override, report};
 use std::path::PathBuf;
 
 #[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
@@ -48,12 +49,8 @@ pub struct RunArgs {
     set: Vec<Override>,
 }
 
-/// The solve of `rxnet run`: whether a profile is wanted, the balance and the simulation, or
-/// the exit code and the message to print.
-fn solve_run(
-    net: &rxnet::model::Network,
-    a: &RunArgs,
-) -> Result<(bool, reactor::Balance, solve::Simulation), (i32, String)> {
+/// The solve options of `rxnet run` and whether a profile is wanted.
+fn run_options(a: &RunArgs) -> (bool, SolveOptions) {
     let want_profile = a.profile.is_some()
         || a.plot.is_some()
         || a.format == RunFormat::Csv
@@ -72,15 +69,7 @@ fn solve_run(
         points,
         ..Default::default()
     };
-    let balance = match reactor::Balance::new(net) {
-        Ok(b) => b,
-        Err(m) => return Err((EXIT_INVALID, format!("error: {}: {m}", a.file.display()))),
-    };
-    let sim = match solve::simulate_with(net, &balance, &opts) {
-        Ok(s) => s,
-        Err(e) => return Err((EXIT_FINDINGS, format!("error: {}: {e}", a.file.display()))),
-    };
-    Ok((want_profile, balance, sim))
+    (want_profile, opts)
 }
 
 /// `rxnet run FILE`: exit 0 on success, 1 when the solve fails, 2 for invalid input.
@@ -101,39 +90,35 @@ pub fn run(a: &RunArgs) -> i32 {
         Ok(n) => n,
         Err(code) => return code,
     };
-    // The consistency check and the solve do not depend on each other, so the check runs on a
-    // second thread while the reactor is solved; its error findings still decide the outcome
-    // (a network with error findings gets no result, whatever the solve did).
-    let (analysis, solved) = std::thread::scope(|scope| {
-        let checking = scope.spawn(|| analysis::check(&net));
-        let solved = solve_run(&net, a);
-        let analysis = checking
-            .join()
-            .unwrap_or_else(|p| std::panic::resume_unwind(p));
-        (analysis, solved)
-    });
-    if analysis.has_errors() {
-        eprintln!(
-            "error: {}: the network has error findings; run `rxnet check` on it:",
-            a.file.display()
-        );
-        for f in analysis
-            .findings
-            .iter()
-            .filter(|f| f.severity == analysis::Severity::Error)
-        {
-            eprintln!("  {}", f.message);
+    // Through the one gate: the consistency check (on a second thread while the reactor is
+    // solved), the solve, the result checks and the metrics.
+    let (want_profile, opts) = run_options(a);
+    let ev = match evaluate::evaluate(&net, &opts, true) {
+        Ok(ev) => ev,
+        Err(EvalError::Findings(errors)) => {
+            eprintln!(
+                "error: {}: the network has error findings; run `rxnet check` on it:",
+                a.file.display()
+            );
+            for f in errors {
+                eprintln!("  {f}");
+            }
+            return EXIT_FINDINGS;
         }
-        return EXIT_FINDINGS;
-    }
-    let (want_profile, balance, sim) = match solved {
-        Ok(s) => s,
-        Err((code, message)) => {
-            eprintln!("{message}");
-            return code;
+        Err(e) => {
+            eprintln!("error: {}: {e}", a.file.display());
+            return if e.is_invalid_input() {
+                EXIT_INVALID
+            } else {
+                EXIT_FINDINGS
+            };
         }
     };
-    let m = metrics::compute(&net, sim.outlet());
+    // The check's warnings bear on this result: repeat them where the user looks.
+    for w in &ev.warnings {
+        eprintln!("warning: {}: {w}", a.file.display());
+    }
+    let (balance, sim, m) = (ev.balance, ev.sim, ev.metrics);
     let rep = report::run::build(
         &net,
         &balance,

@@ -169,9 +169,10 @@ pub fn evaluate(
             n = n.with_size(s);
         }
         row.size = Some(n.size());
-        let sim = solve::simulate(&n, opts).map_err(|e| e.to_string())?;
-        let out = sim.outlet();
-        let m = metrics::compute(&n, out);
+        // Through the evaluation gate: the same checks as `run` for each entry.
+        let ev = super::evaluate::evaluate(&n, opts, false).map_err(|e| e.to_string())?;
+        let out = ev.sim.outlet();
+        let m = &ev.metrics;
         row.conversion = Some(m.conversion);
         if let Some(d) = n.desired {
             row.yield_desired = m

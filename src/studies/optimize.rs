@@ -19,7 +19,6 @@
 
 use super::study::{Study, StudyError, Variable};
 use super::target::Target;
-use crate::metrics;
 use crate::model::{Network, Override, Reactor};
 use crate::reactor::Balance;
 use crate::solve::{self, SolveError, SolveOptions, newton};
@@ -289,13 +288,15 @@ fn evaluate(
     let sets: Vec<Override> = vars.iter().zip(x).map(|(v, x)| v.set(*x)).collect();
     let net = study.load(&sets)?;
     let target = Target::parse(target_text, &net).map_err(StudyError::Invalid)?;
-    let sim = match solve::simulate(&net, opts) {
-        Ok(s) => s,
+    // Through the evaluation gate: a candidate `run` would refuse (error findings at this
+    // point, a failed or unphysical solve) is infeasible.
+    let ev = match super::evaluate::evaluate(&net, opts, false) {
+        Ok(ev) => ev,
         Err(_) => return Ok(None),
     };
-    let out = sim.outlet();
+    let out = ev.sim.outlet();
     if let Some(xmin) = min_conversion
-        && metrics::compute(&net, out).conversion < xmin
+        && ev.metrics.conversion < xmin
     {
         return Ok(None);
     }
