@@ -1,7 +1,7 @@
 //! `rxnet run`: simulate the study's reactor and report outlet, conversion, yields and
 //! selectivities (and the profile along the reactor, on request).
 
-use super::input::{check_tolerance, load};
+use super::input::{check_atol_for, check_tolerance, load};
 use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, write_atomic};
 use clap::ValueEnum;
 use rxnet::model::Network;
@@ -33,10 +33,10 @@ pub struct RunArgs {
     /// Report every internal step of the integrator instead of even points.
     #[arg(long, conflicts_with = "points")]
     steps: bool,
-    /// Relative tolerance of the integration (default 1e-8).
+    /// Relative tolerance of the integration, 1e-13 to 1e-2 (default 1e-8).
     #[arg(long)]
     rtol: Option<f64>,
-    /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch); default 1e-12 of the total feed.
+    /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch), at most 1e-3 of the total feed; default per species (see docs/methods.md).
     #[arg(long)]
     atol: Option<f64>,
     /// Also print the element balance closure.
@@ -90,6 +90,10 @@ pub fn run(a: &RunArgs) -> i32 {
         Ok(n) => n,
         Err(code) => return code,
     };
+    if let Err(m) = check_atol_for(&net, a.atol) {
+        eprintln!("error: {m}");
+        return EXIT_INVALID;
+    }
     // Through the one gate: the consistency check (on a second thread while the reactor is
     // solved), the solve, the result checks and the metrics.
     let (want_profile, opts) = run_options(a);

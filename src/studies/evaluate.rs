@@ -79,7 +79,10 @@ pub fn evaluate(
 ) -> Result<Evaluation, EvalError> {
     let solve = || -> Result<(Balance, Simulation), EvalError> {
         let balance = Balance::new(net).map_err(EvalError::Setup)?;
-        let sim = solve::simulate_with(net, &balance, opts).map_err(EvalError::Solve)?;
+        let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
+            SolveError::Setup(m) => EvalError::Setup(m),
+            e => EvalError::Solve(e),
+        })?;
         Ok((balance, sim))
     };
     let ((errors, warnings), solved) = if check_beside {

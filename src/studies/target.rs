@@ -39,14 +39,33 @@ impl Target {
         if s == "conversion" {
             return Ok(Target::Conversion);
         }
+        // A yield or selectivity is defined for products only (metrics module): refuse the
+        // others here rather than optimise a number without meaning.
+        let product = |j: usize, what: &str| -> Result<usize, String> {
+            let name = &net.species[j].name;
+            if j == net.key {
+                Err(format!(
+                    "`{s}`: `{name}` is the key reactant; {what} of the key on itself is not defined (maximise `conversion` instead)"
+                ))
+            } else if !net.reactions.iter().any(|r| r.nu(j) > 0.0) {
+                Err(format!(
+                    "`{s}`: `{name}` is made by no reaction, so its {what} is not defined"
+                ))
+            } else {
+                Ok(j)
+            }
+        };
         if let Some(rest) = s.strip_prefix("yield:") {
-            return Ok(Target::Yield(sp(rest)?));
+            return Ok(Target::Yield(product(sp(rest)?, "yield")?));
         }
         if let Some(rest) = s.strip_prefix("selectivity:") {
             let (d, u) = rest
                 .split_once('/')
                 .ok_or_else(|| format!("`{s}`: a selectivity target is `selectivity:D/U`"))?;
-            let (d, u) = (sp(d)?, sp(u)?);
+            let (d, u) = (
+                product(sp(d)?, "selectivity")?,
+                product(sp(u)?, "selectivity")?,
+            );
             if d == u {
                 return Err(format!(
                     "`{s}`: the two species of a selectivity must differ"
