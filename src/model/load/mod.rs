@@ -526,7 +526,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         Some(d) => Some(cx.species("desired", d, &index)?),
         None => None,
     };
-    let solver = build_solver(raw.solver.as_ref(), &reactor, cx)?;
+    let solver = build_solver(raw.solver.as_ref(), &reactor, feed.total(), cx)?;
     debug_assert_eq!(feed.amounts.len(), ns);
 
     Ok(Network {
