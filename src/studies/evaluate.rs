@@ -56,17 +56,42 @@ impl EvalError {
     }
 }
 
-/// The check's findings split into errors and warnings (messages).
+/// The consistency check's findings that decide an evaluation: errors (no result) and
+/// warnings (repeated with the result).
+#[derive(Debug, Clone, Default)]
+pub struct Findings {
+    pub errors: Vec<String>,
+    pub warnings: Vec<String>,
+}
+
+impl Findings {
+    /// Run the consistency check on a network.
+    pub fn of(net: &Network) -> Findings {
+        let c = analysis::check(net);
+        let pick = |s: Severity| -> Vec<String> {
+            c.findings
+                .iter()
+                .filter(|f| f.severity == s)
+                .map(|f| f.message.clone())
+                .collect()
+        };
+        Findings {
+            errors: pick(Severity::Error),
+            warnings: pick(Severity::Warning),
+        }
+    }
+}
+
+/// Whether a `--set` path can change the consistency check: the check reads no `reactor`
+/// field (type, size, bed), so a study varied only there keeps the check of its base network
+/// and a sweep need not repeat it at every point.
+pub fn path_affects_check(path: &str) -> bool {
+    !(path == "reactor" || path.starts_with("reactor."))
+}
+
 fn findings(net: &Network) -> (Vec<String>, Vec<String>) {
-    let c = analysis::check(net);
-    let pick = |s: Severity| -> Vec<String> {
-        c.findings
-            .iter()
-            .filter(|f| f.severity == s)
-            .map(|f| f.message.clone())
-            .collect()
-    };
-    (pick(Severity::Error), pick(Severity::Warning))
+    let f = Findings::of(net);
+    (f.errors, f.warnings)
 }
 
 /// Evaluate a loaded network through the gate. With `check_beside`, the consistency check runs
@@ -115,15 +140,47 @@ pub fn evaluate(
     })
 }
 
+/// Evaluate with the check's findings already known for this network (see
+/// [`path_affects_check`]): the same gate without repeating the check.
+pub fn evaluate_with(
+    net: &Network,
+    known: &Findings,
+    opts: &SolveOptions,
+) -> Result<Evaluation, EvalError> {
+    if !known.errors.is_empty() {
+        return Err(EvalError::Findings(known.errors.clone()));
+    }
+    let balance = Balance::new(net).map_err(EvalError::Setup)?;
+    let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
+        SolveError::Setup(m) => EvalError::Setup(m),
+        e => EvalError::Solve(e),
+    })?;
+    let metrics = metrics::compute(net, sim.outlet());
+    Ok(Evaluation {
+        balance,
+        sim,
+        metrics,
+        warnings: known.warnings.clone(),
+    })
+}
+
 /// Load the study with `sets` applied and evaluate it (a sweep point, an optimiser candidate).
+/// `base` is the check of the study without `sets`; it is reused when no path of `sets` can
+/// change the check, and the check runs afresh otherwise.
 pub fn evaluate_study(
     study: &Study,
     sets: &[Override],
     opts: &SolveOptions,
+    base: Option<&Findings>,
 ) -> Result<(Network, Evaluation), EvalError> {
     let net = study
         .load(sets)
         .map_err(|e| EvalError::Load(e.to_string()))?;
-    let e = evaluate(&net, opts, false)?;
+    let e = match base {
+        Some(f) if !sets.iter().any(|o| path_affects_check(&o.path)) => {
+            evaluate_with(&net, f, opts)?
+        }
+        _ => evaluate(&net, opts, false)?,
+    };
     Ok((net, e))
 }

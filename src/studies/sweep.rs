@@ -5,7 +5,7 @@
 //! array together cover the grid once; their CSVs concatenate (only shard 1 writes the header)
 //! and, sorted by the `point` column, equal the unsharded sweep.
 
-use super::evaluate::evaluate_study;
+use super::evaluate::{Findings, evaluate_study};
 use super::study::{Study, Variable};
 use crate::metrics;
 use crate::model::Network;
@@ -162,6 +162,7 @@ pub fn point_inputs(axes: &[Axis], p: usize) -> Vec<f64> {
 /// failed row, never an `ok` one.
 fn run_point(
     study: &Study,
+    base: Option<&Findings>,
     cols: &Columns,
     axes: &[Axis],
     inputs: &[f64],
@@ -172,7 +173,7 @@ fn run_point(
         .zip(inputs)
         .map(|(a, v)| a.var.set(*v))
         .collect();
-    let (_, ev) = evaluate_study(study, &sets, opts).map_err(|e| e.to_string())?;
+    let (_, ev) = evaluate_study(study, &sets, opts, base).map_err(|e| e.to_string())?;
     let m = &ev.metrics;
     let find_y = |name: &String| m.yields.iter().find(|y| &y.species == name);
     let find_s = |name: &String| m.selectivity.iter().find(|s| &s.over == name);
@@ -233,6 +234,8 @@ pub fn run<E>(
     sink: &mut dyn FnMut(&[SweepRow]) -> Result<(), E>,
 ) -> Result<(), SweepError<E>> {
     let total = grid_size(axes).map_err(SweepError::Grid)?;
+    // The check of the base study, reused at every point when only reactor fields vary.
+    let base = study.load(&[]).ok().map(|n| Findings::of(&n));
     let mut points = point_numbers(total, shard).peekable();
     let mut chunk = Vec::with_capacity(CHUNK);
     while points.peek().is_some() {
@@ -242,7 +245,7 @@ pub fn run<E>(
             .par_iter()
             .map(|&p| {
                 let inputs = point_inputs(axes, p);
-                let result = run_point(study, cols, axes, &inputs, opts);
+                let result = run_point(study, base.as_ref(), cols, axes, &inputs, opts);
                 progress();
                 SweepRow {
                     point: p,
