@@ -100,17 +100,25 @@ impl Target {
     pub fn value(&self, net: &Network, y: &[f64]) -> Option<f64> {
         let f0 = &net.feed.amounts;
         let a = net.key;
-        let scale = 1e-13 * net.feed.total();
         match *self {
             Target::Amount(j) => Some(y[j]),
             Target::Conversion => (f0[a] > 0.0).then(|| (f0[a] - y[a]) / f0[a]),
+            // The metrics' rules: None wherever `run` reports the figure as not defined.
             Target::Yield(j) => {
-                let c = f0[a] - y[a];
-                (c.abs() > scale).then(|| (y[j] - f0[j]) * Self::factor(net, j) / c)
+                let total = net.feed.total();
+                let made = crate::metrics::formed(y[j] - f0[j], total);
+                let consumed = crate::metrics::formed(f0[a] - y[a], total);
+                crate::metrics::yield_value(net, j, made, consumed, Self::factor(net, j)).0
             }
             Target::Selectivity(d, u) => {
-                let mu = y[u] - f0[u];
-                (mu.abs() > scale).then(|| (y[d] - f0[d]) / mu)
+                let total = net.feed.total();
+                crate::metrics::selectivity_value(
+                    &net.species[d].name,
+                    &net.species[u].name,
+                    crate::metrics::formed(y[d] - f0[d], total),
+                    crate::metrics::formed(y[u] - f0[u], total),
+                )
+                .0
             }
         }
     }
