@@ -1126,18 +1126,18 @@ fn named_dimensions() -> [(Dim, &'static str, &'static str); 29] {
         (Dim::force(), "force", "N"),
         (
             Dim::concentration(),
-            "concentration (amount per volume)",
+            "amount per volume, a concentration",
             "mol/L",
         ),
-        (amount_rate, "amount per time (molar flow)", "mol/s"),
+        (amount_rate, "amount per time, a molar flow", "mol/s"),
         (
             Dim::volume().div(Dim::TIME),
-            "volume per time (volumetric flow)",
+            "volume per time, a volumetric flow",
             "L/min",
         ),
         (
             Dim::MASS.div(Dim::TIME),
-            "mass per time (mass flow)",
+            "mass per time, a mass flow",
             "kg/h",
         ),
         (
@@ -1152,18 +1152,18 @@ fn named_dimensions() -> [(Dim, &'static str, &'static str); 29] {
         ),
         (
             Dim::MASS.div(Dim::AMOUNT),
-            "mass per amount (molar mass)",
+            "mass per amount, a molar mass",
             "g/mol",
         ),
         (
             Dim::MASS.div(Dim::volume()),
-            "mass per volume (density)",
+            "mass per volume, a density",
             "kg/m3",
         ),
         (Dim::AMOUNT.div(Dim::MASS), "amount per mass", "mol/kg"),
         (
             Dim::TIME.powf(-1.0),
-            "per time (first-order rate constant)",
+            "per time, a first-order rate constant",
             "1/s",
         ),
         (Dim::MASS.powf(-1.0), "per mass", "1/kg"),
@@ -1175,22 +1175,22 @@ fn named_dimensions() -> [(Dim, &'static str, &'static str); 29] {
         ),
         (
             Dim::concentration().div(Dim::TIME),
-            "amount per volume and time (a volumetric rate)",
+            "amount per volume and time, a volumetric rate",
             "mol/(m3*s)",
         ),
         (
             amount_rate.div(Dim::MASS),
-            "amount per mass and time (a rate per catalyst mass)",
+            "amount per mass and time, a rate per catalyst mass",
             "mol/(kg*s)",
         ),
         (
             Dim::volume().div(Dim::AMOUNT).div(Dim::TIME),
-            "volume per amount and time (second-order rate constant)",
+            "volume per amount and time, a second-order rate constant",
             "L/(mol*s)",
         ),
         (
             Dim::pressure().mul(Dim::TIME),
-            "pressure times time (viscosity)",
+            "pressure times time, a viscosity",
             "Pa*s",
         ),
     ]
@@ -1206,8 +1206,8 @@ fn base_words(name: &str, p: f64) -> String {
     }
 }
 
-/// The dimension in words, e.g. "energy per amount", "pressure", "concentration (amount per
-/// volume)"; a dimension without a common name is spelt out from the base dimensions
+/// The dimension in words, e.g. "energy per amount", "pressure", "amount per volume, a
+/// concentration"; a dimension without a common name is spelt out from the base dimensions
 /// ("volume^1.5 per amount^0.5 and time"), with pressure factored out where it occurs
 /// ("amount per volume and time per pressure^2").
 pub fn describe(d: Dim) -> String {
@@ -1218,9 +1218,9 @@ pub fn describe(d: Dim) -> String {
     for p in 1..=6 {
         let x = d.mul(Dim::pressure().powf(f64::from(p)));
         if let Some((_, words, _)) = named_dimensions().iter().find(|(n, _, _)| n.approx_eq(x)) {
-            // Prefer the short name in parentheses ("a volumetric rate") when there is one.
-            let words = match words.split_once(" (") {
-                Some((_, short)) => short.trim_end_matches(')').trim_start_matches("a "),
+            // Prefer the short name after the comma ("a volumetric rate") when there is one.
+            let words = match words.split_once(", ") {
+                Some((_, short)) => short.trim_start_matches("a "),
                 None => words,
             };
             let sep = if words.contains(" per ") { ", " } else { " " };
@@ -1591,15 +1591,15 @@ mod tests {
         assert_eq!(describe(Dim::AMOUNT), "amount");
         assert_eq!(
             describe(Dim::AMOUNT.div(Dim::TIME)),
-            "amount per time (molar flow)"
+            "amount per time, a molar flow"
         );
         assert_eq!(
             describe(Dim::concentration()),
-            "concentration (amount per volume)"
+            "amount per volume, a concentration"
         );
         assert_eq!(
             describe(unit("1/s").dim),
-            "per time (first-order rate constant)"
+            "per time, a first-order rate constant"
         );
         // Order 1.5: (mol/m3)^-0.5 / s, spelt out from the base dimensions.
         assert_eq!(

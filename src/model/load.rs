@@ -8,7 +8,9 @@ use super::file::*;
 use super::formula::Formula;
 use super::locate::{Locator, Position};
 use super::*;
-use crate::units::{Dim, GAS_CONSTANT, parse_quantity};
+use crate::units::{
+    Dim, GAS_CONSTANT, describe, dimension_mismatch, gauge_note, parse_quantity, unit_text,
+};
 use indexmap::IndexMap;
 use std::fmt;
 
@@ -398,6 +400,9 @@ struct Cx<'t> {
     file: String,
     text: &'t str,
     loc: std::cell::OnceCell<Locator>,
+    /// Conversions to tell the user about (gauge pressures, mass feeds, rate constants on a
+    /// species basis or in partial pressures); they end in [`Network::notes`].
+    notes: std::cell::RefCell<Vec<String>>,
 }
 
 impl Cx<'_> {
@@ -406,7 +411,13 @@ impl Cx<'_> {
             file: file.to_string(),
             text,
             loc: std::cell::OnceCell::new(),
+            notes: std::cell::RefCell::new(Vec::new()),
         }
+    }
+
+    /// Record a conversion for `check` to show, prefixed with its field.
+    fn note(&self, field: &str, text: &str) {
+        self.notes.borrow_mut().push(format!("{field}: {text}"));
     }
 
     fn loc(&self) -> &Locator {
@@ -424,7 +435,8 @@ impl Cx<'_> {
     }
 
     /// Convert a quantity to SI, checking its dimensions. `what` describes the expected
-    /// quantity for the message ("a molar flow", "a rate constant").
+    /// quantity for the message ("a molar flow", "a rate constant"); `example` is a value
+    /// with its unit ("2 mol/s").
     fn qty(
         &self,
         field: &str,
@@ -433,18 +445,34 @@ impl Cx<'_> {
         what: &str,
         example: &str,
     ) -> Result<f64, LoadError> {
+        let (si, dim) = self.raw_qty(field, q, want, what, example)?;
+        if !dim.approx_eq(want) {
+            return Err(self.wrong_dimensions(field, q, dim, want, what, example, ""));
+        }
+        Ok(si)
+    }
+
+    /// A quantity in SI with its dimension, not yet checked against `want` (which only
+    /// words the message for a bare number). A gauge pressure is noted.
+    fn raw_qty(
+        &self,
+        field: &str,
+        q: &RawQty,
+        want: Dim,
+        what: &str,
+        example: &str,
+    ) -> Result<(f64, Dim), LoadError> {
         let (si, dim) = match q {
             RawQty::Number(x) => {
                 if !want.approx_eq(Dim::NONE) {
+                    let unit = unit_text(example);
                     return Err(self.err(
                         field,
                         &format!(
-                            "the bare number {x} needs a unit: expected {what} in units of {want}"
+                            "the bare number {x} needs a unit: expected {what} in units such as {unit} ({})",
+                            describe(want)
                         ),
-                        Some(format!(
-                            "write it with its unit, e.g. \"{x} {}\"",
-                            example.split_once(' ').map(|(_, u)| u).unwrap_or(example)
-                        )),
+                        Some(format!("write it with its unit, e.g. \"{x} {unit}\"")),
                     ));
                 }
                 (*x, Dim::NONE)
@@ -453,20 +481,43 @@ impl Cx<'_> {
                 let q = parse_quantity(s).map_err(|e| {
                     self.err(field, &format!("`{s}` is not a valid quantity: {e}"), None)
                 })?;
+                if let Some(n) = gauge_note(s) {
+                    self.note(field, &n);
+                }
                 (q.si, q.dim)
             }
         };
-        if !dim.approx_eq(want) {
-            return Err(self.err(
-                field,
-                &format!("wrong dimensions: expected {what} ({want}), got {dim}"),
-                Some(format!("e.g. \"{example}\"")),
-            ));
-        }
         if !si.is_finite() {
             return Err(self.err(field, "the value is not a finite number", None));
         }
-        Ok(si)
+        Ok((si, dim))
+    }
+
+    /// "wrong dimensions for {what}: got kJ (energy), expected kJ/mol (energy per amount)",
+    /// in the unit the user wrote; `also` names a second accepted form, if any.
+    #[allow(clippy::too_many_arguments)]
+    fn wrong_dimensions(
+        &self,
+        field: &str,
+        q: &RawQty,
+        got: Dim,
+        want: Dim,
+        what: &str,
+        example: &str,
+        also: &str,
+    ) -> LoadError {
+        let got_unit = match q {
+            RawQty::Number(_) => "",
+            RawQty::Text(s) => unit_text(s),
+        };
+        self.err(
+            field,
+            &format!(
+                "wrong dimensions for {what}: {}{also}",
+                dimension_mismatch(got_unit, got, unit_text(example), want)
+            ),
+            Some(format!("e.g. \"{example}\"")),
+        )
     }
 
     /// A positive, finite, normal number. Subnormal values (below 2.2e-308 in SI) are refused:
@@ -585,7 +636,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     };
 
     // --- feed (temperature needed as the default T_ref)
-    let feed = build_feed(&raw.feed, phase, &reactor, &index, cx)?;
+    let feed = build_feed(&raw.feed, phase, &reactor, &index, &species, cx)?;
     if let Reactor::Pbr {
         pressure_drop: Some(PressureDrop::Ergun { .. }),
         ..
@@ -627,7 +678,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     let mut by_id: std::collections::HashMap<String, usize> =
         std::collections::HashMap::with_capacity(raw.reactions.len());
     for (i, rr) in raw.reactions.iter().enumerate() {
-        let r = build_reaction(i, rr, &index, basis, feed.temperature, cx)?;
+        let r = build_reaction(i, rr, &index, basis, phase, feed.temperature, cx)?;
         if let Some(prev) = by_id.get(&r.id).map(|&k| &reactions[k]) {
             return Err(cx.err(
                 &format!("reactions[{i}].id"),
@@ -666,6 +717,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         key_is_default,
         desired,
         solver,
+        notes: cx.notes.take(),
     })
 }
 
@@ -896,6 +948,10 @@ fn build_pressure_drop(
 }
 
 /// Read a per-species map of quantities into a vector over all species.
+/// Per-species quantities (`feed.flows`, `feed.amounts`, `feed.concentrations`) in SI.
+/// Each may also be given by mass (`kg/h`, `lb`, `g/L`: `want` times mass per amount) and is
+/// then divided by the species' molar mass, F_j = ṁ_j / M_j, with a note.
+#[allow(clippy::too_many_arguments)]
 fn species_map(
     field: &str,
     map: &IndexMap<String, RawQty>,
@@ -903,13 +959,62 @@ fn species_map(
     want: Dim,
     what: &str,
     ex: &str,
+    mass_ex: &str,
+    species: &[Species],
     cx: &Cx,
 ) -> Result<Vec<f64>, LoadError> {
+    let by_mass = want.mul(Dim::MASS.div(Dim::AMOUNT));
     let mut out = vec![0.0; index.len()];
     for (name, q) in map {
         let f = format!("{field}.{name}");
         let j = cx.species(&f, name, index)?;
-        let v = cx.qty(&f, q, want, what, ex)?;
+        let (si, dim) = cx.raw_qty(&f, q, want, what, ex)?;
+        let v = if dim.approx_eq(want) {
+            si
+        } else if dim.approx_eq(by_mass) {
+            let written = match q {
+                RawQty::Text(t) => t.trim().to_string(),
+                RawQty::Number(x) => x.to_string(),
+            };
+            let Some(m) = species[j].molar_mass else {
+                return Err(cx.err(
+                    &f,
+                    &format!(
+                        "`{written}` is a mass; converting it to moles needs the molar mass of {name}, which is not known"
+                    ),
+                    Some(format!(
+                        "give `species.{name}.molar_mass` (e.g. `molar_mass: 46.07 g/mol`) or `species.{name}.formula`, or write the value in moles"
+                    )),
+                ));
+            };
+            let v = si / m;
+            cx.note(
+                &f,
+                &format!(
+                    "`{written}` of {name} converted with its molar mass {} g/mol to {} {}",
+                    significant(m * 1e3),
+                    significant(v),
+                    if want.approx_eq(Dim::AMOUNT) {
+                        "mol"
+                    } else if want.approx_eq(conc()) {
+                        "mol/m3"
+                    } else {
+                        "mol/s"
+                    },
+                ),
+            );
+            v
+        } else {
+            return Err(cx.wrong_dimensions(
+                &f,
+                q,
+                dim,
+                want,
+                what,
+                ex,
+                &format!(", or a mass such as {mass_ex} (with the molar mass of {name})"),
+            ));
+        };
         if v < 0.0 {
             return Err(cx.err(
                 &f,
@@ -930,6 +1035,7 @@ fn build_feed(
     phase: Phase,
     reactor: &Reactor,
     index: &IndexMap<String, usize>,
+    species: &[Species],
     cx: &Cx,
 ) -> Result<Feed, LoadError> {
     let temperature = cx.qty("feed.T", &f.t, Dim::TEMPERATURE, "a temperature", "320 K")?;
@@ -984,7 +1090,7 @@ fn build_feed(
                     None,
                 ))
             }
-            (Some(a), None) => species_map("feed.amounts", a, index, Dim::AMOUNT, "an amount", "10 mol", cx)?,
+            (Some(a), None) => species_map("feed.amounts", a, index, Dim::AMOUNT, "an amount", "10 mol", "2 kg", species, cx)?,
             (None, Some(c)) => {
                 if *volume == 0.0 {
                     return Err(cx.err(
@@ -993,7 +1099,7 @@ fn build_feed(
                         None,
                     ));
                 }
-                let cs = species_map("feed.concentrations", c, index, conc(), "a concentration", "1 mol/L", cx)?;
+                let cs = species_map("feed.concentrations", c, index, conc(), "a concentration", "1 mol/L", "50 g/L", species, cx)?;
                 cs.iter().map(|c| c * volume).collect()
             }
         };
@@ -1062,6 +1168,8 @@ fn build_feed(
                     Dim::AMOUNT.div(Dim::TIME),
                     "a molar flow",
                     "2 mol/s",
+                    "1200 kg/h",
+                    species,
                     cx,
                 )?;
                 let total: f64 = amounts.iter().sum();
@@ -1136,6 +1244,8 @@ fn build_feed(
                     conc(),
                     "a concentration",
                     "1 mol/L",
+                    "50 g/L",
+                    species,
                     cx,
                 )?;
                 let amounts: Vec<f64> = cs.iter().map(|c| c * v0).collect();
@@ -1187,6 +1297,7 @@ fn build_reaction(
     rr: &RawReaction,
     index: &IndexMap<String, usize>,
     basis: RateBasis,
+    phase: Phase,
     t_feed: f64,
     cx: &Cx,
 ) -> Result<Reaction, LoadError> {
@@ -1260,34 +1371,139 @@ fn build_reaction(
         }
     };
     let n_total: f64 = orders.iter().map(|(_, a)| a).sum();
-    // Volumetric rate r [mol m^-3 s^-1] = k Π C^a  =>  [k] = (mol/m3)^(1−n) / s.
-    // Per catalyst mass r' [mol kg^-1 s^-1]      =>  [k] = mol kg^-1 s^-1 (mol/m3)^(−n).
-    let (k_dim, k_example) = match basis {
-        RateBasis::Volume => (
-            conc().powf(1.0 - n_total).div(Dim::TIME),
-            volumetric_example(n_total),
-        ),
-        RateBasis::CatalystMass => (
-            Dim::AMOUNT
+    // In partial pressures (ideal gas, p_j = C_j R T at the reactor temperature, which is the
+    // feed temperature: reactors are isothermal): r = k_p Π p_j^a = k_p (R T)^n Π C_j^a, so
+    // k_c = k_p (R T)^n; K_p = Π p_j^ν = K_c (R T)^Σν; K_m,p p^b = K_m,p (R T)^b C^b
+    // (common practice). Converted here, so the rest of the program sees concentrations only.
+    let pressures = rate.in_terms_of == Some(RawRateVariables::PartialPressures);
+    if pressures && phase != Phase::Gas {
+        return Err(cx.err(
+            &format!("{fr}.in_terms_of"),
+            "a rate law in partial pressures needs `phase: gas` (p_j = C_j R T holds for an ideal gas only)",
+            Some("write the law in concentrations (drop `in_terms_of`) or set `phase: gas`".into()),
+        ));
+    }
+    let rt = GAS_CONSTANT * t_feed;
+    let pressure_note = |field: &str, given: &RawQty, factor: &str, si: f64, dim: Dim| {
+        let written = match given {
+            RawQty::Text(t) => t.trim().to_string(),
+            RawQty::Number(x) => x.to_string(),
+        };
+        cx.note(
+            field,
+            &format!(
+                "`{written}` in partial pressures, converted with p_j = C_j R T at T = {} K to {factor} = {}",
+                significant(t_feed),
+                crate::units::format_si(si, dim)
+            ),
+        );
+    };
+    let per_bar = |n: f64| -> String {
+        if n.abs() < 1e-12 {
+            String::new()
+        } else if (n - 1.0).abs() < 1e-12 {
+            "*bar".into()
+        } else {
+            format!("*bar^{n}")
+        }
+    };
+    let (k_dim, k_example) = if pressures {
+        match basis {
+            RateBasis::Volume => (
+                conc().div(Dim::TIME).div(Dim::pressure().powf(n_total)),
+                format!("2e-3 mol/(m3*s{})", per_bar(n_total)),
+            ),
+            RateBasis::CatalystMass => (
+                Dim::AMOUNT
+                    .div(Dim::MASS)
+                    .div(Dim::TIME)
+                    .div(Dim::pressure().powf(n_total)),
+                format!("0.04 mol/(kg*s{})", per_bar(n_total)),
+            ),
+        }
+    } else {
+        // Volumetric rate r [mol m^-3 s^-1] = k Π C^a  =>  [k] = (mol/m3)^(1−n) / s.
+        // Per catalyst mass r' [mol kg^-1 s^-1]      =>  [k] = mol kg^-1 s^-1 (mol/m3)^(−n).
+        match basis {
+            RateBasis::Volume => (
+                conc().powf(1.0 - n_total).div(Dim::TIME),
+                volumetric_example(n_total),
+            ),
+            RateBasis::CatalystMass => (
+                Dim::AMOUNT
+                    .div(Dim::MASS)
+                    .div(Dim::TIME)
+                    .mul(conc().powf(-n_total)),
+                catalytic_example(n_total),
+            ),
+        }
+    };
+    let in_p = if pressures {
+        " in partial pressures"
+    } else {
+        ""
+    };
+    let what = match basis {
+        RateBasis::Volume => {
+            format!("a rate constant for total order {n_total} per unit volume{in_p}")
+        }
+        RateBasis::CatalystMass => {
+            format!("a rate constant for total order {n_total} per unit catalyst mass{in_p}")
+        }
+    };
+    let fk = format!("{fr}.k");
+    let mut k_ref = cx.qty(&fk, &rate.k, k_dim, &what, &k_example)?;
+    if k_ref < 0.0 {
+        return Err(cx.err(&fk, "a rate constant cannot be negative", None));
+    }
+    if pressures {
+        // k_c = k_p (R T)^n; at T_ref this keeps k(T) = k_p(T) (R T)^n exact at the reactor
+        // temperature T with Arrhenius applied to k_p.
+        k_ref *= rt.powf(n_total);
+        let c_dim = match basis {
+            RateBasis::Volume => conc().powf(1.0 - n_total).div(Dim::TIME),
+            RateBasis::CatalystMass => Dim::AMOUNT
                 .div(Dim::MASS)
                 .div(Dim::TIME)
                 .mul(conc().powf(-n_total)),
-            catalytic_example(n_total),
-        ),
-    };
-    let what = match basis {
-        RateBasis::Volume => format!("a rate constant for total order {n_total} per unit volume"),
-        RateBasis::CatalystMass => {
-            format!("a rate constant for total order {n_total} per unit catalyst mass")
+        };
+        pressure_note(
+            &fk,
+            &rate.k,
+            &format!("k_c = k_p (R T)^{n_total}"),
+            k_ref,
+            c_dim,
+        );
+    }
+    // A rate constant on a species basis: −r_A = k_A Π C^a is the rate of A, which changes
+    // at ν_A r, so the k of the reaction is k_A / |ν_A| (common practice).
+    if let Some(name) = &rate.basis_species {
+        let f = format!("{fr}.basis_species");
+        let j = cx.species(&f, name, index)?;
+        let nu = net.iter().find(|(s, _)| *s == j).map_or(0.0, |(_, v)| *v);
+        if nu == 0.0 {
+            return Err(cx.err(
+                &f,
+                &format!(
+                    "`{name}` has net coefficient 0 in `{}`: it is neither consumed nor formed, so a rate of {name} cannot define k",
+                    rr.stoich.trim()
+                ),
+                Some("name a species the reaction consumes or forms".into()),
+            ));
         }
-    };
-    let k_ref = cx.qty(&format!("{fr}.k"), &rate.k, k_dim, &what, &k_example)?;
-    if k_ref < 0.0 {
-        return Err(cx.err(
-            &format!("{fr}.k"),
-            "a rate constant cannot be negative",
-            None,
-        ));
+        let k_species = k_ref;
+        k_ref /= nu.abs();
+        cx.note(
+            &f,
+            &format!(
+                "k is the rate of {}{name}, and {name} changes at |ν_{name}| = {} times the rate of reaction: k of the reaction = k_{name} / |ν_{name}| = {} / {} = {} (SI)",
+                if nu < 0.0 { "disappearance of " } else { "formation of " },
+                significant(nu.abs()),
+                significant(k_species),
+                significant(nu.abs()),
+                significant(k_ref)
+            ),
+        );
     }
     let ea = match &rate.Ea {
         None => 0.0,
@@ -1334,11 +1550,29 @@ fn build_reaction(
         }
         (None, false) => None,
         (Some(q), true) => {
-            // K_c = Π C_j^ν_j at equilibrium  =>  [K_c] = (mol/m3)^Σν.
+            // K_c = Π C_j^ν_j at equilibrium  =>  [K_c] = (mol/m3)^Σν;
+            // K_p = Π p_j^ν_j = K_c (R T)^Σν  =>  [K_p] = Pa^Σν.
             let f = format!("{fr}.K_eq");
-            let want = conc().powf(sum_nu);
-            let ex = if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 (mol/L)^{sum_nu}") };
-            let k = cx.qty(&f, q, want, &format!("a concentration equilibrium constant with Σν = {sum_nu}"), &ex)?;
+            let (want, ex, what) = if pressures {
+                (
+                    Dim::pressure().powf(sum_nu),
+                    if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 bar^{sum_nu}") },
+                    format!("a partial-pressure equilibrium constant K_p with Σν = {sum_nu}"),
+                )
+            } else {
+                (
+                    conc().powf(sum_nu),
+                    if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 (mol/L)^{sum_nu}") },
+                    format!("a concentration equilibrium constant with Σν = {sum_nu}"),
+                )
+            };
+            let mut k = cx.qty(&f, q, want, &what, &ex)?;
+            if pressures {
+                k *= rt.powf(-sum_nu);
+                if sum_nu.abs() > 1e-12 {
+                    pressure_note(&f, q, &format!("K_c = K_p (R T)^{}", -sum_nu), k, conc().powf(sum_nu));
+                }
+            }
             Some(Equilibrium { k_ref: cx.positive(&f, k, "K_eq")? })
         }
     };
@@ -1373,13 +1607,38 @@ fn build_reaction(
                         None,
                     ));
                 }
-                let k = cx.qty(
-                    &format!("{fa}.K"),
-                    &a.K,
-                    conc().powf(-order),
-                    "an adsorption constant",
-                    "0.5 m3/mol",
-                )?;
+                let fk = format!("{fa}.K");
+                let k = if pressures {
+                    let ex = if (order - 1.0).abs() < 1e-12 {
+                        "0.8 1/bar".to_string()
+                    } else {
+                        format!("0.8 bar^-{order}")
+                    };
+                    let kp = cx.qty(
+                        &fk,
+                        &a.K,
+                        Dim::pressure().powf(-order),
+                        "an adsorption constant in partial pressures",
+                        &ex,
+                    )?;
+                    let kc = kp * rt.powf(order);
+                    pressure_note(
+                        &fk,
+                        &a.K,
+                        &format!("K_c = K_p (R T)^{order}"),
+                        kc,
+                        conc().powf(-order),
+                    );
+                    kc
+                } else {
+                    cx.qty(
+                        &fk,
+                        &a.K,
+                        conc().powf(-order),
+                        "an adsorption constant",
+                        "0.5 m3/mol",
+                    )?
+                };
                 if k < 0.0 {
                     return Err(cx.err(
                         &format!("{fa}.K"),

@@ -250,6 +250,11 @@ pub struct Network {
     /// Index of the desired product, if named.
     pub desired: Option<usize>,
     pub solver: SolverSettings,
+    /// Conversions made on loading that change what the user wrote beyond a unit factor (a
+    /// gauge pressure made absolute, a rate constant on a species basis or in partial
+    /// pressures put on the reaction and concentration basis), each as a sentence naming the
+    /// field; `check` lists them.
+    pub notes: Vec<String>,
 }
 
 impl Network {
