@@ -486,6 +486,34 @@ fn a_partial_pressure_rate_matches_its_concentration_form() {
     );
     let by_c = run_tight("kc-bed", &bed(&format!("k: {} m3/(kg*s)", 0.04e-5 * R * t)));
     assert!(rel_err(outlet(&by_p, "C"), outlet(&by_c, "C")) < 1e-10);
+    // A hyperbolic law r' = k_p p_A / (1 + K_A,p p_A)^2: K_A,c = K_A,p R T
+    // (p_A = C_A R T, common practice); 0.8 1/bar = 0.8e-5 1/Pa.
+    let hyper = |k: &str, ads: &str, terms: &str| {
+        bed(&format!(
+            "law: hyperbolic, k: {k}, adsorption: {{A: {{K: {ads}}}}}, inhibition_power: 2{terms}"
+        ))
+    };
+    let by_p = run_tight(
+        "kp-hyper",
+        &hyper(
+            "0.04 mol/(kg*s*bar)",
+            "0.8 1/bar",
+            ", in_terms_of: partial_pressures",
+        ),
+    );
+    let by_c = run_tight(
+        "kc-hyper",
+        &hyper(
+            &format!("{} m3/(kg*s)", 0.04e-5 * R * t),
+            &format!("{} m3/mol", 0.8e-5 * R * t),
+            "",
+        ),
+    );
+    assert!(
+        outlet(&by_p, "C") > 0.05,
+        "the test should react noticeably"
+    );
+    assert!(rel_err(outlet(&by_p, "C"), outlet(&by_c, "C")) < 1e-10);
 }
 
 #[test]
