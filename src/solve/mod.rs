@@ -6,9 +6,10 @@ pub mod equations;
 pub mod krylov;
 pub mod newton;
 pub mod ode;
+pub mod system;
 
 use crate::model::{Network, Reactor};
-use crate::reactor::Balance;
+use crate::reactor::{Balance, Model};
 use crate::units::GAS_CONSTANT;
 use ode::{LinearAlgebra, OdeError, OdeOptions, OdeSystem, Output};
 
@@ -131,11 +132,12 @@ pub enum SolveError {
     PressureCollapse { w: f64 },
 }
 
-struct Adapter<'a>(&'a Balance);
+/// Any reactor model as the integrator's system (the balances are autonomous: x unused).
+struct Adapter<'a, M: Model>(&'a M);
 
-impl OdeSystem for Adapter<'_> {
+impl<M: Model> OdeSystem for Adapter<'_, M> {
     fn dim(&self) -> usize {
-        self.0.dim()
+        self.0.layout().len()
     }
     fn rhs(&self, _x: f64, y: &[f64], dydx: &mut [f64]) {
         self.0.rhs(y, dydx)
