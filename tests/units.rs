@@ -562,3 +562,26 @@ fn partial_pressures_are_for_a_gas_only_and_in_pressure_units() {
         ],
     );
 }
+
+#[test]
+fn a_size_bound_of_the_wrong_dimension_is_worded_in_the_users_units() {
+    let y = liquid_cstr("300 K", "1 L/s", "1 mol/s", "10 L", "0.1 1/s");
+    let path = common::write_temp("bound-kg", &y);
+    let p = path.to_str().expect("temporary path is UTF-8");
+    let run = common::rxnet(&[
+        "optimize",
+        p,
+        "--maximize",
+        "yield:B",
+        "--bounds",
+        "1 kg",
+        "2 kg",
+    ]);
+    let _ = std::fs::remove_file(&path);
+    assert_eq!(run.code, 2, "{}\n{}", run.stdout, run.stderr);
+    assert!(
+        run.stderr.contains("got kg (mass), expected m3 (volume)"),
+        "{}",
+        run.stderr
+    );
+}
