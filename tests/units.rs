@@ -160,6 +160,12 @@ reactor: {{type: pfr, volume: 0.5 m3}}
             run.stdout
         );
     }
+    // A gauge reading below vacuum is refused and says why.
+    refused(
+        "barg-vacuum",
+        &gas("-2 barg"),
+        &["feed.P", "`-2 barg` is -98675 Pa absolute", "vacuum"],
+    );
     // An absolute pressure gets no such note.
     let run = run_study("check", "bar-note", &gas("3 bar"), "text");
     assert!(!run.stdout.contains("gauge reading"), "{}", run.stdout);

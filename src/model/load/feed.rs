@@ -35,6 +35,20 @@ pub(super) fn build_feed(
     let pressure = match &f.p {
         Some(p) => {
             let v = cx.qty("feed.P", p, Dim::pressure(), "a pressure", "20 bar")?;
+            if let RawQty::Text(t) = p
+                && v <= 0.0
+                && crate::units::gauge_note(t).is_some()
+            {
+                return Err(cx.err(
+                    "feed.P",
+                    &format!(
+                        "the gauge reading `{}` is {} Pa absolute (gauge + 101325 Pa, the standard atmosphere): at or below a perfect vacuum",
+                        t.trim(),
+                        significant(v)
+                    ),
+                    Some("a gauge reading below vacuum is impossible; check the sign, or give the absolute pressure (`bar`, `psia`)".into()),
+                ));
+            }
             Some(cx.positive("feed.P", v, "the pressure")?)
         }
         None => None,
