@@ -444,5 +444,22 @@ desired: B
     }
     merged.sort_by_key(|l| l.split(',').next().unwrap().parse::<usize>().unwrap());
     assert_eq!(merged.join("\n"), lines[1..].join("\n"));
+    // JSON rows streamed one by one are the bytes of the whole array pretty-printed at once
+    // (what the command wrote before it streamed).
+    let js = rxnet(&["sweep", p, vary[0], vary[1], "--format", "json"]);
+    assert_eq!(js.code, 0, "{}", js.stderr);
+    // (serde_json's default float parser may be one ulp off, so the layout is compared with
+    // the digits of numbers removed; the values are compared with the CSV in tests/studies.rs.)
+    let whole = serde_json::to_string_pretty(&js.json()).unwrap() + "\n";
+    let layout = |t: &str| -> String {
+        t.chars()
+            .filter(|c| !"0123456789.-+eE".contains(*c))
+            .collect()
+    };
+    assert!(
+        layout(&whole) == layout(&js.stdout),
+        "streamed JSON differs from the pretty-printed array"
+    );
+    assert_eq!(js.json().as_array().unwrap().len(), 2100);
     let _ = std::fs::remove_file(&path);
 }
