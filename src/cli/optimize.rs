@@ -371,7 +371,13 @@ pub fn optimize(
                     let f = one.si - zero.si;
                     (f != 0.0).then(|| format!(" = {} {u}", num((x - zero.si) / f)))
                 })
-                .unwrap_or_default();
+                .unwrap_or_else(|| {
+                    if unit == "m3" {
+                        format!(" = {} L", num(x * 1e3))
+                    } else {
+                        String::new()
+                    }
+                });
             let _ = writeln!(o, "  best {path} = {}{given}{bound}", with_unit(*x, unit));
         }
         if let Some(t) = rep.best.space_time_s {
