@@ -560,22 +560,6 @@ fn optimize_output_is_si_with_units_and_refuses_bare_bounds() {
         1e-6,
         "τ_opt in s",
     );
-    // Bounds in °C: the point in K (NIST SP 811: T/K = t/°C + 273.15).
-    let jt = ok(&optimize(
-        &f,
-        &[
-            "--maximize",
-            "B",
-            "--over",
-            "feed.T",
-            "--bounds",
-            "20 degC",
-            "30 degC",
-        ],
-    ));
-    assert_eq!(jt["best"]["units"]["feed.T"], "K", "{jt}");
-    let t = num(&jt["best"]["point"]["feed.T"], "feed.T");
-    assert!((293.15 - 1e-9..=303.15 + 1e-9).contains(&t), "{jt}");
     // A bare number for a dimensional input is refused, never taken as SI.
     for args in [
         vec!["--bounds", "1", "5"],
@@ -612,10 +596,58 @@ fn optimize_output_is_si_with_units_and_refuses_bare_bounds() {
     assert!(head[2].contains(" s"), "{head:?}");
     assert!(head[3].contains("mol/s"), "{head:?}");
 
-    // --over size combines with another input: at 300 K (k1, k2 fixed, no Ea) the best volume
-    // is τ_opt v0 whatever the temperature (Levenspiel ch. 8), checked with a library scan.
-    let j = ok(&optimize(
+    // An input the target does not depend on is refused, not put on a bound: without
+    // activation energies k1 and k2 do not depend on T.
+    let r = optimize(
         &f,
+        &[
+            "--maximize",
+            "B",
+            "--over",
+            "feed.T",
+            "--bounds",
+            "300 K",
+            "310 K",
+        ],
+    );
+    fails_with(&r, &["does not depend on feed.T"], "flat in T");
+
+    // --over size combines with another input. With Ea2 > Ea1 the best T is the lower bound
+    // (the best B, (k1/k2)^(k2/(k2−k1)), falls as k2/k1 rises) and the best volume is
+    // τ_opt v0 at that T (Levenspiel ch. 8, from memory); Arrhenius k(T) = k_ref
+    // exp(−Ea/R (1/T − 1/T_ref)) (common practice), R from CODATA 2018.
+    let r_gas = 8.314_462_618_153_24;
+    let (ea1, ea2) = (50e3, 90e3);
+    let yaml_t = study(
+        "series in T",
+        "A: null, B: null, C: null",
+        &format!(
+            "  - {{id: r1, stoich: A -> B, rate: {{k: {K1} 1/s, Ea: {ea1} J/mol, T_ref: 300 K}}}}\n  - {{id: r2, stoich: B -> C, rate: {{k: {K2} 1/s, Ea: {ea2} J/mol, T_ref: 300 K}}}}\n"
+        ),
+        FLOW_FEED,
+        PFR,
+    );
+    let ft = temp_study("d-units-t", &yaml_t);
+    // Bounds in °C: the point in K (NIST SP 811: T/K = t/°C + 273.15).
+    let jt = ok(&optimize(
+        &ft,
+        &[
+            "--maximize",
+            "B",
+            "--over",
+            "feed.T",
+            "--bounds",
+            "20 degC",
+            "30 degC",
+        ],
+    ));
+    assert_eq!(jt["best"]["units"]["feed.T"], "K", "{jt}");
+    let t = num(&jt["best"]["point"]["feed.T"], "feed.T");
+    // Ea2 > Ea1: the lower bound, 20 °C = 293.15 K.
+    assert_eq!(jt["best"]["on_bound"]["feed.T"], "lower", "{jt}");
+    ag.check(t, 293.15, 1e-12, "20 degC in K");
+    let j = ok(&optimize(
+        &ft,
         &[
             "--maximize",
             "B",
@@ -627,28 +659,44 @@ fn optimize_output_is_si_with_units_and_refuses_bare_bounds() {
             "--over",
             "feed.T",
             "--bounds",
-            "300 K",
+            "290 K",
             "310 K",
         ],
     ));
+    let k_at = |k: f64, ea: f64, t: f64| k * (-ea / r_gas * (1.0 / t - 1.0 / 300.0)).exp();
+    let (k1, k2) = (k_at(K1, ea1, 290.0), k_at(K2, ea2, 290.0));
+    let tau_290 = (k2 / k1).ln() / (k2 - k1);
+    assert_eq!(j["best"]["on_bound"]["feed.T"], "lower", "{j}");
+    assert!(j["best"]["on_bound"]["reactor.volume"].is_null(), "{j}");
     ag.check(
         num(&j["best"]["point"]["reactor.volume"], "V"),
-        tau * V0,
+        tau_290 * V0,
         1e-4,
         "V_opt with feed.T",
     );
     let value = num(&j["best"]["value"], "value");
-    let scan = (0..=200)
-        .map(|i| {
-            library_b(
-                &yaml,
-                &[(
-                    "reactor.volume",
-                    format!("{} L", 1.0 + 49.0 * i as f64 / 200.0),
-                )],
-            )
-        })
-        .fold(f64::NEG_INFINITY, f64::max);
+    ag.check(
+        value,
+        (k1 / k2).powf(k2 / (k2 - k1)),
+        1e-6,
+        "B_max at 290 K",
+    );
+    // Library scan over both inputs: nothing beats the optimum.
+    let mut scan = f64::NEG_INFINITY;
+    for i in 0..=40 {
+        for k in 0..=10 {
+            scan = scan.max(library_b(
+                &yaml_t,
+                &[
+                    (
+                        "reactor.volume",
+                        format!("{} L", 1.0 + 49.0 * i as f64 / 40.0),
+                    ),
+                    ("feed.T", format!("{} K", 290.0 + 2.0 * k as f64)),
+                ],
+            ));
+        }
+    }
     assert!(
         scan <= value * (1.0 + 1e-7),
         "library scan {scan} beats {value}"

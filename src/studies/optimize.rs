@@ -552,6 +552,26 @@ pub fn optimize_vars(
             }
         })
         .collect::<Vec<_>>();
+    // An input the target does not depend on (the same value at both of its bounds and at
+    // the best point, the other inputs at their best) would be reported on an arbitrary bound.
+    for (i, v) in vars.iter().enumerate() {
+        let mut same = true;
+        for end in [v.lo, v.hi] {
+            let mut x = best_x.clone();
+            x[i] = end;
+            let fx = f(&x)?;
+            same &= (fx - best_f).abs() <= FLAT * best_f.abs();
+        }
+        if same {
+            return Err(StudyError::Infeasible(format!(
+                "{target_text} is the same ({}) at both bounds of {} and between: it does not depend on {}, so no value of it is optimal; drop --over {}",
+                crate::report::num(best_f),
+                v.path,
+                v.path,
+                v.path
+            )));
+        }
+    }
     // An interior value must be a maximum along each input: no better value a little to
     // either side (the search may otherwise stop on a slope it could not resolve).
     for (i, v) in vars.iter().enumerate() {
