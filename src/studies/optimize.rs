@@ -311,6 +311,28 @@ pub fn optimize_size(
 
 type Candidates = (Vec<(f64, Vec<f64>)>, Option<f64>);
 
+/// The error when the conversion constraint is not met at the upper bound: how far it gets,
+/// and whether a larger reactor would meet it (the size that does) or none can (X_eq).
+fn short_of(net: &Network, xmin: f64, reached: f64, hi: f64, opts: &SolveOptions) -> StudyError {
+    let (xn, xu, _) = solve::reactor_axis(net);
+    let head = format!(
+        "the conversion reaches only {reached:.6} at the upper bound {xn} = {} {xu}, below the required {xmin}",
+        crate::report::num(hi)
+    );
+    let tail = match super::compare::reach_conversion(net, xmin, opts) {
+        Ok(super::compare::Reach::Size(s)) => format!(
+            "; it is reached at {xn} = {} {xu}: raise the upper bound",
+            crate::report::num(s)
+        ),
+        Ok(super::compare::Reach::Beyond { x_max, reason }) => format!(
+            "; {}",
+            super::compare::beyond_message(net, xmin, x_max, &reason)
+        ),
+        Err(_) => String::new(),
+    };
+    StudyError::Infeasible(format!("{head}{tail}"))
+}
+
 /// The zeros of d(target)/dx along a PFR, packed bed or batch over (0, hi] (one integration,
 /// restarted past each zero), and where the conversion constraint becomes active.
 fn flow_candidates(
@@ -358,12 +380,7 @@ fn flow_candidates(
             Some((xc, _)) => x_conv = Some(xc),
             None => {
                 if conversion(net, &end) < xmin {
-                    return Err(StudyError::Infeasible(format!(
-                        "the conversion reaches only {:.6} at the upper bound {} {}, below the required {xmin}",
-                        conversion(net, &end),
-                        crate::report::num(hi),
-                        solve::reactor_axis(net).1
-                    )));
+                    return Err(short_of(net, xmin, conversion(net, &end), hi, opts));
                 }
             }
         }
@@ -401,11 +418,7 @@ fn cstr_candidates(
     if let Some(xmin) = min_conversion {
         let conv = |v: f64| -> Result<f64, StudyError> { Ok(conversion(p.net, &p.state(v)?)) };
         if conv(hi)? < xmin {
-            return Err(StudyError::Infeasible(format!(
-                "the conversion reaches only {:.6} at the upper bound V = {} m3, below the required {xmin}",
-                conv(hi)?,
-                crate::report::num(hi)
-            )));
+            return Err(short_of(p.net, xmin, conv(hi)?, hi, p.opts));
         }
         if conv(lo)? < xmin {
             let (_, c) = bisect_ln(lo, hi, |v| Ok(conv(v)? < xmin))?;
