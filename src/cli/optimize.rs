@@ -33,8 +33,8 @@ fn size_bound(s: &str, net: &Network) -> Result<f64, String> {
         Ok(q.si)
     } else {
         Err(format!(
-            "bound `{s}` has dimensions {}, but the size is in {unit}",
-            q.dim
+            "bound `{s}` has the wrong dimensions: {}, for the size",
+            rxnet::units::dimension_mismatch(rxnet::units::unit_text(s), q.dim, unit, want)
         ))
     }
 }
