@@ -231,7 +231,7 @@ fn sweep_optimize_and_compare_apply_every_check_run_applies() {
         "360 K",
     ]);
     assert_eq!(opt.code, 0, "{}", opt.stderr);
-    assert!(opt.stdout.contains("best feed.T = 350\n"), "{}", opt.stdout);
+    assert!(opt.stdout.contains("best feed.T = 350 K"), "{}", opt.stdout);
     // compare: a study inconsistent at its own temperature is refused, not ranked.
     let hot = write_temp(
         "gate-cycle-hot",
