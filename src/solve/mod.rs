@@ -198,7 +198,7 @@ pub fn simulate_with(
         let tol = (1e-3 * rtol * total)
             .max(1e-14 * total)
             .min(atol.max(1e-14 * total));
-        let (f, ns) = newton::solve_cstr(balance, &net.feed.amounts, volume, tol)?;
+        let (f, ns) = newton::solve_cstr(net, balance, volume, tol)?;
         stats.newton_iterations = ns.iterations;
         stats.continuation_stages = ns.continuation_stages;
         stats.residual = Some(ns.residual);

@@ -93,8 +93,8 @@ pub fn size_for_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result
     if let Reactor::Cstr { .. } = net.reactor {
         let tol = 1e-14 * net.feed.total();
         let at = |v: f64| -> Result<f64, StudyError> {
-            let (f, _) = newton::solve_cstr(&b, &net.feed.amounts, v, tol)
-                .map_err(|e| StudyError::Solve(e.into()))?;
+            let (f, _) =
+                newton::solve_cstr(net, &b, v, tol).map_err(|e| StudyError::Solve(e.into()))?;
             Ok(conv(&f))
         };
         if at(cap)? < x {
