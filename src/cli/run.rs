@@ -6,7 +6,7 @@ use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, write_atomic};
 use clap::ValueEnum;
 use rxnet::model::Network;
 use rxnet::report::{num, plot};
-use rxnet::solve::{self, Points, Simulation, SolveOptions};
+use rxnet::solve::{self, Points, Simulation, SolveOptions, SteadyStateChoice};
 use rxnet::{Override, analysis, metrics, reactor, report};
 use std::path::PathBuf;
 
@@ -44,6 +44,11 @@ pub struct RunArgs {
     /// Draw the species profile along the reactor to this SVG file.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
+    /// CSTR with several steady states: which one to report, `lowest` or `highest` conversion of
+    /// the key, or a number from 1 in order of rising conversion (default: the study file's
+    /// `solver.steady_state`, else lowest). All are listed.
+    #[arg(long, value_name = "WHICH")]
+    steady_state: Option<SteadyStateChoice>,
     #[arg(long = "set", value_name = "PATH=VALUE")]
     set: Vec<Override>,
 }
@@ -70,6 +75,7 @@ fn solve_run(
         rtol: a.rtol,
         atol: a.atol,
         points,
+        steady_state: a.steady_state,
         ..Default::default()
     };
     let balance = match reactor::Balance::new(net) {

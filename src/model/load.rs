@@ -1546,11 +1546,24 @@ fn build_solver(
             ));
         }
     };
+    let steady_state = match &s.steady_state {
+        None => None,
+        Some(raw) => {
+            let text = match raw {
+                RawQty::Number(v) => v.to_string(),
+                RawQty::Text(t) => t.clone(),
+            };
+            Some(text.parse().map_err(|m: String| {
+                cx.err("solver.steady_state", &m, None)
+            })?)
+        }
+    };
     Ok(SolverSettings {
         rtol,
         atol,
         max_steps,
         linear_algebra,
+        steady_state,
     })
 }
 

@@ -6,11 +6,13 @@ pub mod equations;
 pub mod krylov;
 pub mod newton;
 pub mod ode;
+pub mod steady;
 
 use crate::model::{Network, Reactor};
 use crate::reactor::{Balance, Model};
 use crate::units::GAS_CONSTANT;
 use ode::{LinearAlgebra, OdeError, OdeOptions, OdeSystem, Output};
+pub use steady::{SteadyState, SteadyStateChoice};
 
 /// Where results are wanted along the reactor.
 #[derive(Debug, Clone, PartialEq)]
@@ -32,6 +34,8 @@ pub struct SolveOptions {
     pub max_steps: Option<usize>,
     pub points: Points,
     pub linear_algebra: LinearAlgebra,
+    /// CSTR: which steady state to report when there are several.
+    pub steady_state: Option<SteadyStateChoice>,
 }
 
 impl Default for SolveOptions {
@@ -42,6 +46,7 @@ impl Default for SolveOptions {
             max_steps: None,
             points: Points::End,
             linear_algebra: LinearAlgebra::Auto,
+            steady_state: None,
         }
     }
 }
@@ -90,6 +95,21 @@ pub struct Simulation {
     /// Pressure at each point (Pa) where it varies (packed bed with pressure drop).
     pub pressure: Option<Vec<f64>>,
     pub stats: SolveStats,
+    /// CSTR: every steady state found (rising key conversion) and which one `states` holds.
+    pub steady: Option<CstrSteadyStates>,
+}
+
+/// The steady states of a CSTR solve.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct CstrSteadyStates {
+    /// In order of rising conversion of the key.
+    pub states: Vec<SteadyState>,
+    /// Index into `states` of the one reported (0-based).
+    pub shown: usize,
+    /// The choice in force.
+    pub choice: String,
+    /// Why the search for further states was not made or not finished, if so.
+    pub note: Option<String>,
 }
 
 impl Simulation {
@@ -114,6 +134,8 @@ pub enum SolveError {
     },
     #[error("CSTR steady state: {0}")]
     Newton(#[from] newton::NewtonError),
+    #[error("CSTR steady state: {0}")]
+    SteadyStateChoice(String),
     #[error(
         "species `{species}` goes negative ({value:.3e} {unit}) at {x_name} = {x:.6e} {x_unit}: the solution is not physical; tighten --rtol/--atol, or check the rate laws (orders, units of k)"
     )]
@@ -193,15 +215,21 @@ pub fn simulate_with(
         ..Default::default()
     };
     let sim = if let Reactor::Cstr { volume } = net.reactor {
-        stats.method = "damped Newton (analytic Jacobian)";
+        stats.method = "damped Newton on the extents (analytic Jacobian)";
         // Residual tolerance: far below what the ODE tolerances ask of a flow reactor.
         let tol = (1e-3 * rtol * total)
             .max(1e-14 * total)
             .min(atol.max(1e-14 * total));
-        let (f, ns) = newton::solve_cstr(net, balance, volume, tol)?;
-        stats.newton_iterations = ns.iterations;
-        stats.continuation_stages = ns.continuation_stages;
-        stats.residual = Some(ns.residual);
+        let all = steady::find_all(net, balance, volume, tol)?;
+        let choice = opts
+            .steady_state
+            .or(net.solver.steady_state)
+            .unwrap_or_default();
+        let shown = all.pick(choice).map_err(SolveError::SteadyStateChoice)?;
+        let f = all.states[shown].flows.clone();
+        stats.newton_iterations = all.stats.iterations;
+        stats.continuation_stages = all.stats.continuation_stages;
+        stats.residual = Some(all.states[shown].residual);
         Simulation {
             x_name,
             x_unit,
@@ -210,6 +238,12 @@ pub fn simulate_with(
             states: vec![f],
             pressure: None,
             stats,
+            steady: Some(CstrSteadyStates {
+                shown,
+                choice: choice.to_string(),
+                note: all.note,
+                states: all.states,
+            }),
         }
     } else {
         let y0 = balance.initial_state(net);
@@ -295,6 +329,7 @@ pub fn simulate_with(
                 .collect(),
             pressure,
             stats,
+            steady: None,
         }
     };
     let limit = negative_limit(rtol, atol, total);
