@@ -1553,9 +1553,10 @@ fn build_solver(
                 RawQty::Number(v) => v.to_string(),
                 RawQty::Text(t) => t.clone(),
             };
-            Some(text.parse().map_err(|m: String| {
-                cx.err("solver.steady_state", &m, None)
-            })?)
+            Some(
+                text.parse()
+                    .map_err(|m: String| cx.err("solver.steady_state", &m, None))?,
+            )
         }
     };
     Ok(SolverSettings {

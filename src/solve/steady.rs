@@ -218,12 +218,13 @@ pub fn max_eigenvalue_real(net: &Network, b: &Balance, volume: f64, f: &[f64]) -
                 }
             }
             let colsum: Vec<f64> = (0..n).map(|k| jr.column(k).sum()).collect();
-            let nt = volume * net.feed.pressure
-                / (crate::units::GAS_CONSTANT * net.feed.temperature);
+            let nt =
+                volume * net.feed.pressure / (crate::units::GAS_CONSTANT * net.feed.temperature);
             let mut full = DMatrix::<f64>::zeros(n, n);
             for j in 0..n {
                 for k in 0..n {
-                    full[(j, k)] = (volume * jr[(j, k)] - x[j] * volume * colsum[k]
+                    full[(j, k)] = (volume * jr[(j, k)]
+                        - x[j] * volume * colsum[k]
                         - if j == k { f_t } else { 0.0 })
                         / nt;
                 }
