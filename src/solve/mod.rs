@@ -7,6 +7,7 @@ pub mod krylov;
 pub mod newton;
 pub mod ode;
 pub mod steady;
+pub mod system;
 
 use crate::model::{Network, Reactor};
 use crate::reactor::{Balance, Model};
