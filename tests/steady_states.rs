@@ -259,3 +259,40 @@ fn the_user_picks_the_steady_state_and_the_report_says_which() {
     assert_eq!(run.code, 2);
     assert!(run.stderr.contains("solver.steady_state"), "{}", run.stderr);
 }
+
+#[test]
+fn gas_cstr_with_three_steady_states_has_the_middle_one_unstable() {
+    // An equimolar gas reaction in an inert carrier: at constant T and P the gas CSTR is the
+    // liquid one with v0 = F_T0 R T/P, so the substrate-inhibited law again gives three states
+    // (here K C_A0 ≈ 20 and kτ ≈ 100, as in the liquid fixture) and the middle one is unstable
+    // (van Heerden 1953). The eigenvalues come from the mole-fraction dynamics on Σx = 1.
+    let study = "name: substrate-inhibited gas CSTR (demo values)
+phase: gas
+species: {A: {}, B: {}, N2: {}}
+reactions:
+  - id: r1
+    stoich: A -> B
+    rate: {law: hyperbolic, k: 1 1/s, orders: {A: 1}, adsorption: {A: {K: 2.0 m3/mol}}, inhibition_power: 2}
+feed: {T: 300 K, P: 1 bar, flows: {A: 1 mol/s, N2: 3 mol/s}}
+reactor: {type: cstr, volume: 10 m3}
+";
+    let run = run_args("gas-three", study, &["--format", "json"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let j = run.json();
+    let states = j["steady_states"]["states"].as_array().expect("states");
+    let stable: Vec<bool> = states
+        .iter()
+        .map(|s| s["stable"].as_bool().unwrap())
+        .collect();
+    assert_eq!(stable, [true, false, true], "{}", run.stdout);
+    // Every state closes the balances: F_A + F_B = F_A0, N2 passes through.
+    for s in states {
+        let o = &s["outlet"];
+        let (a, b, n2) = (
+            o["A"].as_f64().unwrap(),
+            o["B"].as_f64().unwrap(),
+            o["N2"].as_f64().unwrap(),
+        );
+        assert!(rel_err(a + b, 1.0) < 1e-10 && rel_err(n2, 3.0) < 1e-12);
+    }
+}

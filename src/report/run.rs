@@ -324,11 +324,13 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     if s.newton_iterations > 0 || s.residual.is_some() {
         let _ = writeln!(
             o,
-            "\n{}: {} iterations, {} continuation stages, residual {:.1e} {}",
+            "\n{}: {} iterations, {} continuation stages, residual {:.1e} {}, last Newton step {:.1e} {}",
             s.method,
             s.newton_iterations,
             s.continuation_stages,
             s.residual.unwrap_or(0.0),
+            r.state_unit,
+            s.newton_step.unwrap_or(0.0),
             r.state_unit
         );
     } else {

@@ -77,6 +77,9 @@ pub struct SolveStats {
     pub continuation_stages: usize,
     /// CSTR: ‖F_0 − F + V f(F)‖∞ at the solution (mol/s).
     pub residual: Option<f64>,
+    /// CSTR: the largest flow change one more Newton step would make (mol/s), the distance to
+    /// the exact steady state to first order.
+    pub newton_step: Option<f64>,
     pub rtol: f64,
     pub atol: f64,
 }
@@ -231,6 +234,7 @@ pub fn simulate_with(
         stats.newton_iterations = all.stats.iterations;
         stats.continuation_stages = all.stats.continuation_stages;
         stats.residual = Some(all.states[shown].residual);
+        stats.newton_step = Some(all.states[shown].newton_step);
         Simulation {
             x_name,
             x_unit,
@@ -352,6 +356,22 @@ pub fn simulate_with(
         }
     }
     Ok(sim)
+}
+
+/// The outlet of the network's CSTR at volume `v`: the steady state picked by `choice`, else by
+/// the study file's `solver.steady_state`, else the one of lowest conversion (design studies
+/// call this, so they follow the same choice as `run`). `tol` bounds ‖G‖∞ (mol/s).
+pub fn cstr_outlet(
+    net: &Network,
+    balance: &Balance,
+    v: f64,
+    tol: f64,
+    choice: Option<SteadyStateChoice>,
+) -> Result<Vec<f64>, SolveError> {
+    let all = steady::find_all(net, balance, v, tol)?;
+    let choice = choice.or(net.solver.steady_state).unwrap_or_default();
+    let k = all.pick(choice).map_err(SolveError::SteadyStateChoice)?;
+    Ok(all.states[k].flows.clone())
 }
 
 /// Volume of a batch charge at state N (constant-pressure gas: N_T R T / P; else fixed).

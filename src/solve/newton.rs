@@ -161,6 +161,65 @@ pub fn residual_jacobian(b: &Balance, v: f64, f: &[f64]) -> DMatrix<f64> {
     jm
 }
 
+/// The Newton step in the extents at flows F with residual G: the least-squares solution of
+/// (−I + V ∂f/∂F) N^T Δξ = −G, columns scaled to unit length, by SVD.
+fn newton_step(e: &Extents, v: f64, f: &[f64], g: &[f64]) -> Result<Vec<f64>, NewtonError> {
+    let b = e.balance;
+    let n = f.len();
+    let r = e.len();
+    let jm = residual_jacobian(b, v, &f);
+    if jm.iter().any(|x| !x.is_finite()) {
+        return Err(NewtonError::NonFinite);
+    }
+    // A = (−I + V ∂f/∂F) N^T, columns scaled to unit length.
+    let mut a = DMatrix::<f64>::zeros(n, r);
+    for (i, nu) in e.nu.iter().enumerate() {
+        for &(j, val) in nu {
+            for row in 0..n {
+                a[(row, i)] += jm[(row, j)] * val;
+            }
+        }
+    }
+    let mut colscale = vec![1.0; r];
+    for (i, scale) in colscale.iter_mut().enumerate() {
+        let norm = a.column(i).norm();
+        if norm > 0.0 && norm.is_finite() {
+            *scale = 1.0 / norm;
+            a.column_mut(i).scale_mut(*scale);
+        }
+    }
+    let rhs = DVector::from_iterator(n, g.iter().map(|x| -x));
+    let svd = a.svd(true, true);
+    let smax = svd.singular_values.max();
+    let Ok(y) = svd.solve(&rhs, 1e-12 * smax) else {
+        return Err(NewtonError::Singular { volume: v });
+    };
+    let step: Vec<f64> = (0..r).map(|i| y[i] * colscale[i]).collect();
+    if step.iter().any(|x| !x.is_finite()) {
+        return Err(NewtonError::Singular { volume: v });
+    }
+    Ok(step)
+}
+
+/// The largest flow change |ΔF_j| of one more Newton step at extents ξ (mol/s): the distance to
+/// the exact steady state, to first order.
+pub fn step_size(e: &Extents, v: f64, xi: &[f64]) -> f64 {
+    let mut f = vec![0.0; e.feed.len()];
+    e.flows(xi, &mut f);
+    let mut g = vec![0.0; f.len()];
+    if !residual(e.balance, e.feed, v, &f, &mut g) {
+        return f64::NAN;
+    }
+    match newton_step(e, v, &f, &g) {
+        Ok(d) => {
+            let mut df = vec![0.0; f.len()];
+            e.flow_change(&d, &mut df);
+            norm_inf(&df)
+        }
+        Err(_) => f64::NAN,
+    }
+}
+
 /// One Newton solve at fixed V from the extents `xi`. Returns the iterations used.
 pub fn newton(
     e: &Extents,
@@ -187,37 +246,10 @@ pub fn newton(
         if gn <= tol {
             return Ok(it - 1);
         }
-        let jm = residual_jacobian(b, v, &f);
-        if jm.iter().any(|x| !x.is_finite()) {
-            return Err((NewtonError::NonFinite, it));
-        }
-        // A = (−I + V ∂f/∂F) N^T, columns scaled to unit length.
-        let mut a = DMatrix::<f64>::zeros(n, r);
-        for (i, nu) in e.nu.iter().enumerate() {
-            for &(j, val) in nu {
-                for row in 0..n {
-                    a[(row, i)] += jm[(row, j)] * val;
-                }
-            }
-        }
-        let mut colscale = vec![1.0; r];
-        for (i, scale) in colscale.iter_mut().enumerate() {
-            let norm = a.column(i).norm();
-            if norm > 0.0 && norm.is_finite() {
-                *scale = 1.0 / norm;
-                a.column_mut(i).scale_mut(*scale);
-            }
-        }
-        let rhs = DVector::from_iterator(n, g.iter().map(|x| -x));
-        let svd = a.svd(true, true);
-        let smax = svd.singular_values.max();
-        let Ok(y) = svd.solve(&rhs, 1e-12 * smax) else {
-            return Err((NewtonError::Singular { volume: v }, it));
+        let step = match newton_step(e, v, &f, &g) {
+            Ok(d) => d,
+            Err(err) => return Err((err, it)),
         };
-        let step: Vec<f64> = (0..r).map(|i| y[i] * colscale[i]).collect();
-        if step.iter().any(|x| !x.is_finite()) {
-            return Err((NewtonError::Singular { volume: v }, it));
-        }
         e.flow_change(&step, &mut df);
         // Converged on the step: the full Newton step estimates the distance to the solution,
         // so |ΔF_j| ≤ tol + 1e-12 |F_j| for every species means F is the solution to within

@@ -78,6 +78,9 @@ pub struct SteadyState {
     pub max_eigenvalue_real: f64,
     /// ‖F_0 − F + V f(F)‖∞, mol/s.
     pub residual: f64,
+    /// The largest |ΔF_j| one more Newton step would make, mol/s: the distance to the exact
+    /// state to first order (small even where the residual cannot be, at V k ~ 1e300).
+    pub newton_step: f64,
 }
 
 /// Every steady state found, in order of rising conversion of the key.
@@ -156,6 +159,7 @@ pub fn find_all(
                 stable: growth < 0.0,
                 max_eigenvalue_real: growth,
                 residual: g.iter().fold(0.0, |m: f64, v| m.max(v.abs())),
+                newton_step: newton::step_size(&e, volume, &e.extents_of(&f)),
                 flows: f,
             }
         })

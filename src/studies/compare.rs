@@ -13,7 +13,7 @@ use super::target::Target;
 use crate::metrics;
 use crate::model::{BatchMode, Network, Phase, Reactor};
 use crate::reactor::Balance;
-use crate::solve::{self, SolveOptions, newton};
+use crate::solve::{self, SolveOptions};
 
 /// A reactor type to screen.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -93,8 +93,8 @@ pub fn size_for_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result
     if let Reactor::Cstr { .. } = net.reactor {
         let tol = 1e-14 * net.feed.total();
         let at = |v: f64| -> Result<f64, StudyError> {
-            let (f, _) =
-                newton::solve_cstr(net, &b, v, tol).map_err(|e| StudyError::Solve(e.into()))?;
+            let f = crate::solve::cstr_outlet(net, &b, v, tol, opts.steady_state)
+                .map_err(StudyError::Solve)?;
             Ok(conv(&f))
         };
         if at(cap)? < x {

@@ -195,9 +195,7 @@ fn cstr_candidates(
     let total = net.feed.total();
     let tol = 1e-14 * total;
     let solve_at = |v: f64| -> Result<Vec<f64>, StudyError> {
-        newton::solve_cstr(net, b, v, tol)
-            .map(|(f, _)| f)
-            .map_err(|e| StudyError::Solve(SolveError::Newton(e)))
+        crate::solve::cstr_outlet(net, b, v, tol, None).map_err(StudyError::Solve)
     };
     let slope_at = |v: f64| -> Result<(f64, Vec<f64>), StudyError> {
         let f = solve_at(v)?;
