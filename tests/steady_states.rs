@@ -296,3 +296,59 @@ reactor: {type: cstr, volume: 10 m3}
         assert!(rel_err(a + b, 1.0) < 1e-10 && rel_err(n2, 3.0) < 1e-12);
     }
 }
+
+#[test]
+fn design_commands_follow_the_steady_state_choice() {
+    // A -> B substrate-inhibited, B -> C slow (demo values): up to 200 L the lowest-conversion
+    // state and the highest differ, so the best volume for B depends on the branch.
+    let study = "name: substrate-inhibited CSTR, B wanted (demo values)
+phase: liquid
+species: {A: {}, B: {}, C: {}}
+reactions:
+  - id: r1
+    stoich: A -> B
+    rate: {law: hyperbolic, k: 1 1/s, orders: {A: 1}, adsorption: {A: {K: 20 L/mol}}, inhibition_power: 2}
+  - {id: r2, stoich: B -> C, rate: {k: 0.002 1/s}}
+feed: {T: 300 K, volumetric: 1 L/s, concentrations: {A: 1 mol/L}}
+reactor: {type: cstr, volume: 200 L}
+key: A
+desired: B
+";
+    let path = common::write_temp("opt-branch", study);
+    let p = path.to_str().unwrap();
+    let opt = |extra: &[&str]| {
+        let mut args = vec!["optimize", p, "--maximize", "B", "--format", "json"];
+        args.extend_from_slice(extra);
+        let r = common::rxnet(&args);
+        assert_eq!(r.code, 0, "{extra:?}: {}", r.stderr);
+        r.stdout
+    };
+    let low = opt(&[]);
+    let high = opt(&["--steady-state", "highest"]);
+    assert_ne!(low, high, "the branch choice changes the optimum");
+    // The optimum on the high branch is what `run` gives there with the same choice.
+    let j: serde_json::Value = serde_json::from_str(&high).expect("json");
+    let v = j["best"]["size"]
+        .as_f64()
+        .unwrap_or_else(|| panic!("no best size in {high}"));
+    let run = common::rxnet(&[
+        "run",
+        p,
+        "--format",
+        "json",
+        "--steady-state",
+        "highest",
+        "--set",
+        &format!("reactor.volume={v} m3"),
+    ]);
+    let _ = std::fs::remove_file(&path);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let b_run = run.json()["outlet"]["B"].as_f64().unwrap();
+    let b_opt = j["best"]["value"]
+        .as_f64()
+        .unwrap_or_else(|| panic!("no best value in {high}"));
+    assert!(
+        rel_err(b_opt, b_run) < 1e-6,
+        "optimize B = {b_opt}, run B = {b_run}"
+    );
+}

@@ -9,6 +9,7 @@ use std::fmt::Write;
 use std::path::PathBuf;
 
 /// `rxnet compare FILE... [--reactors pfr,cstr,batch] [--rank-by TARGET]`
+#[allow(clippy::too_many_arguments)] // one per flag of the command
 pub fn compare(
     files: &[PathBuf],
     reactors: &[String],
@@ -17,6 +18,7 @@ pub fn compare(
     optimum: Option<&str>,
     as_json: bool,
     rtol: Option<f64>,
+    steady_state: Option<rxnet::solve::SteadyStateChoice>,
 ) -> i32 {
     if let Err(m) = check_tolerance("rtol", rtol, 1.0) {
         eprintln!("error: {m}");
@@ -41,7 +43,10 @@ pub fn compare(
     if kinds.is_empty() {
         kinds.push(None);
     }
-    let opts = solve_opts(rtol);
+    let opts = rxnet::solve::SolveOptions {
+        steady_state,
+        ..solve_opts(rtol)
+    };
     let mut rows = Vec::new();
     for f in files {
         let (_, net) = match read_study(f, &[]) {

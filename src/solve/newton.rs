@@ -167,7 +167,7 @@ fn newton_step(e: &Extents, v: f64, f: &[f64], g: &[f64]) -> Result<Vec<f64>, Ne
     let b = e.balance;
     let n = f.len();
     let r = e.len();
-    let jm = residual_jacobian(b, v, &f);
+    let jm = residual_jacobian(b, v, f);
     if jm.iter().any(|x| !x.is_finite()) {
         return Err(NewtonError::NonFinite);
     }
