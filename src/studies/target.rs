@@ -1,7 +1,8 @@
 //! What a design study maximises: an outlet amount, a yield, a selectivity or the conversion.
 //!
 //! Written on the command line as `B` (outlet flow, or moles for a batch), `yield:B`,
-//! `selectivity:B/C` or `conversion`. Each target gives its value at a state and the sign of
+//! `selectivity:B/C` (B over one other product, `run`'s S_B/C), `selectivity:B/all` (B over all
+//! other products together, `compare`'s column) or `conversion`. Each target gives its value at a state and the sign of
 //! its derivative along the reactor, d(value)/dx = ∇value · dy/dx, so the optimum along a PFR,
 //! packed bed or batch can be located as a root of that derivative (quotient rule for the ratios).
 
@@ -14,8 +15,11 @@ pub enum Target {
     Amount(usize),
     /// Yield of a species on the key reactant consumed (metrics definition).
     Yield(usize),
-    /// Overall selectivity (F_D − F_D0)/(F_U − F_U0).
+    /// Overall selectivity (F_D − F_D0)/(F_U − F_U0), as `run` reports it for each U.
     Selectivity(usize, usize),
+    /// Overall selectivity over all other products: (F_D − F_D0)/Σ_U (F_U − F_U0), U every
+    /// product (metrics::products) other than D.
+    SelectivityAll(usize),
     /// Conversion of the key reactant.
     Conversion,
 }
@@ -43,9 +47,24 @@ impl Target {
             return Ok(Target::Yield(sp(rest)?));
         }
         if let Some(rest) = s.strip_prefix("selectivity:") {
-            let (d, u) = rest
-                .split_once('/')
-                .ok_or_else(|| format!("`{s}`: a selectivity target is `selectivity:D/U`"))?;
+            let (d, u) = rest.split_once('/').ok_or_else(|| {
+                format!("`{s}`: a selectivity target is `selectivity:D/U` or `selectivity:D/all`")
+            })?;
+            if u.trim() == "all" {
+                if net.species_index("all").is_some() {
+                    return Err(format!(
+                        "`{s}`: `all` means every other product here, but a species is named `all`; rename it"
+                    ));
+                }
+                let d = sp(d)?;
+                if others(net, d).is_empty() {
+                    return Err(format!(
+                        "`{s}`: {} is the only product, so there is no other product to compare it with",
+                        net.species[d].name
+                    ));
+                }
+                return Ok(Target::SelectivityAll(d));
+            }
             let (d, u) = (sp(d)?, sp(u)?);
             if d == u {
                 return Err(format!(
@@ -56,7 +75,7 @@ impl Target {
         }
         if s.contains(':') {
             return Err(format!(
-                "`{s}`: a target is a species (its outlet amount), `yield:B`, `selectivity:B/C` or `conversion`"
+                "`{s}`: a target is a species (its outlet amount), `yield:B`, `selectivity:B/C`, `selectivity:B/all` or `conversion`"
             ));
         }
         Ok(Target::Amount(sp(s)?))
@@ -69,7 +88,48 @@ impl Target {
             Target::Amount(j) => n(*j),
             Target::Yield(j) => format!("yield:{}", n(*j)),
             Target::Selectivity(d, u) => format!("selectivity:{}/{}", n(*d), n(*u)),
+            Target::SelectivityAll(d) => format!("selectivity:{}/all", n(*d)),
             Target::Conversion => "conversion".into(),
+        }
+    }
+
+    /// True for the ratios (yield, selectivity), which are 0/0 at zero size.
+    pub fn is_ratio(&self) -> bool {
+        matches!(
+            self,
+            Target::Yield(_) | Target::Selectivity(..) | Target::SelectivityAll(_)
+        )
+    }
+
+    /// The limit of the value as the reactor size goes to zero, from the state `y0` at the
+    /// inlet (or the charge) and the rates of change there, `d` = dy/dx at x = 0. For a ratio
+    /// m(x)/c(x) with m(0) = c(0) = 0 the limit is m'(0)/c'(0) (l'Hôpital's rule; common
+    /// practice); a PFR, a batch and a CSTR share it, since dF/dV = f(F_0) at V = 0 for each.
+    pub fn limit_at_zero_size(&self, net: &Network, y0: &[f64], d: &[f64]) -> Limit {
+        let a = net.key;
+        let scale = d.iter().fold(0.0f64, |m, v| m.max(v.abs())) * 1e-12;
+        let ratio = |num: f64, den: f64| -> Limit {
+            if den.abs() > scale && den != 0.0 {
+                Limit::Value(num / den)
+            } else if num > scale && den.abs() <= scale {
+                Limit::PlusInfinity
+            } else {
+                Limit::Undefined
+            }
+        };
+        match *self {
+            Target::Amount(j) => Limit::Value(y0[j]),
+            Target::Conversion => Limit::Value(0.0),
+            Target::Yield(j) => match ratio(d[j] * Self::factor(net, j), -d[a]) {
+                // A yield whose denominator is not consumed at the inlet has no limit there.
+                Limit::PlusInfinity => Limit::Undefined,
+                l => l,
+            },
+            Target::Selectivity(dd, u) => ratio(d[dd], d[u]),
+            Target::SelectivityAll(dd) => {
+                let s: f64 = others(net, dd).iter().map(|&u| d[u]).sum();
+                ratio(d[dd], s)
+            }
         }
     }
 
@@ -93,6 +153,10 @@ impl Target {
                 let mu = y[u] - f0[u];
                 (mu.abs() > scale).then(|| (y[d] - f0[d]) / mu)
             }
+            Target::SelectivityAll(d) => {
+                let mu: f64 = others(net, d).iter().map(|&u| y[u] - f0[u]).sum();
+                (mu.abs() > scale).then(|| (y[d] - f0[d]) / mu)
+            }
         }
     }
 
@@ -113,6 +177,30 @@ impl Target {
                 let (md, mu) = (y[d] - f0[d], y[u] - f0[u]);
                 dydx[d] * mu - md * dydx[u]
             }
+            Target::SelectivityAll(d) => {
+                let o = others(net, d);
+                let mu: f64 = o.iter().map(|&u| y[u] - f0[u]).sum();
+                let du: f64 = o.iter().map(|&u| dydx[u]).sum();
+                dydx[d] * mu - (y[d] - f0[d]) * du
+            }
         }
     }
+}
+
+/// The value a target approaches as the reactor size goes to zero.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Limit {
+    Value(f64),
+    /// A selectivity whose other product is not formed at the inlet grows without bound.
+    PlusInfinity,
+    /// Nothing is formed or consumed at the inlet: the limit is not defined by the rates there.
+    Undefined,
+}
+
+/// The products other than `d` (metrics::products, the species a reaction makes).
+pub fn others(net: &Network, d: usize) -> Vec<usize> {
+    crate::metrics::products(net)
+        .into_iter()
+        .filter(|&u| u != d)
+        .collect()
 }
