@@ -841,17 +841,19 @@ fn element_balances_hold_along_every_bundled_network() {
 
 #[test]
 fn bad_numerics_are_errors_that_say_where() {
-    // An absurd k (1e30) on a half-order step: A is used up within ~1e-38 m3 and the integrator
-    // cannot follow. The run must fail with exit 1 and say where (V = ...), not print numbers.
-    let frac = "name: absurd k (test values)
+    // A rate of second order in B alone while B is made: dC_B/dτ = k C_B^2 blows up at
+    // τ = 1/(k C_B0) = 1 s, V = 1e-3 m3 (closed form of the quadratic ODE, common practice), so
+    // the integration cannot pass that point. The run must fail with exit 1 and say where
+    // (V = ...), not print numbers.
+    let frac = "name: blow-up (test values)
 phase: liquid
 species: {A: null, B: null}
 reactions:
-  - {id: r1, stoich: A -> B, rate: {k: 1.0e30 (mol/m3)^0.5/s, orders: {A: 0.5}}}
-feed: {T: 300 K, volumetric: 1 L/s, flows: {A: 1 mol/s}}
+  - {id: r1, stoich: A + B -> 2 B, rate: {k: 1.0e-3 m3/(mol*s), orders: {B: 2}}}
+feed: {T: 300 K, volumetric: 1 L/s, flows: {A: 1 mol/s, B: 1 mol/s}}
 reactor: {type: pfr, volume: 1 m3}
 ";
-    let run = run_args("absurd-k", frac, &["--format", "json"]);
+    let run = run_args("blow-up", frac, &["--format", "json"]);
     assert_eq!(
         run.code, 1,
         "stdout:\n{}\nstderr:\n{}",

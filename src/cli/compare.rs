@@ -36,6 +36,7 @@ pub fn compare(
     min_conversion: Option<f64>,
     as_json: bool,
     rtol: Option<f64>,
+    steady_state: Option<rxnet::solve::SteadyStateChoice>,
 ) -> i32 {
     if let Err(m) = check_tolerance("rtol", rtol, 1.0) {
         eprintln!("error: {m}");
@@ -70,7 +71,10 @@ pub fn compare(
     if kinds.is_empty() {
         kinds.push(None);
     }
-    let opts = solve_opts(rtol);
+    let opts = rxnet::solve::SolveOptions {
+        steady_state,
+        ..solve_opts(rtol)
+    };
     let mut rows = Vec::new();
     for f in files {
         let (_, net) = match read_study(f, &[]) {

@@ -19,6 +19,7 @@ mod table;
 use clap::{Parser, Subcommand, ValueEnum};
 use output::EXIT_INVALID;
 use rxnet::Override;
+use rxnet::solve::SteadyStateChoice;
 use std::path::PathBuf;
 
 #[derive(Parser)]
@@ -86,6 +87,10 @@ enum Command {
         format: Format,
         #[arg(long)]
         rtol: Option<f64>,
+        /// CSTR with several steady states: which one to use, `lowest` (default) or `highest`
+        /// conversion of the key, or a number from 1 (as --set solver.steady_state=WHICH).
+        #[arg(long, value_name = "WHICH")]
+        steady_state: Option<SteadyStateChoice>,
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
     },
@@ -111,6 +116,10 @@ enum Command {
         plot_target: Option<String>,
         #[arg(long)]
         rtol: Option<f64>,
+        /// CSTR with several steady states: which one to use, `lowest` (default) or `highest`
+        /// conversion of the key, or a number from 1 (as --set solver.steady_state=WHICH).
+        #[arg(long, value_name = "WHICH")]
+        steady_state: Option<SteadyStateChoice>,
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
     },
@@ -137,6 +146,10 @@ enum Command {
         format: Format,
         #[arg(long)]
         rtol: Option<f64>,
+        /// CSTR with several steady states: which one to use, `lowest` (default) or `highest`
+        /// conversion of the key, or a number from 1 (as --set solver.steady_state=WHICH).
+        #[arg(long, value_name = "WHICH")]
+        steady_state: Option<SteadyStateChoice>,
     },
     /// Check a network: atom balances, independent reactions, equilibrium consistency, graph.
     Check {
@@ -185,6 +198,7 @@ pub fn main() -> i32 {
             min_conversion,
             format,
             rtol,
+            steady_state,
             set,
         } => optimize::optimize(
             &file,
@@ -194,7 +208,7 @@ pub fn main() -> i32 {
             min_conversion,
             format == Format::Json,
             rtol,
-            &set,
+            &with_steady_state(set, steady_state),
         ),
         Command::Sweep {
             file,
@@ -205,6 +219,7 @@ pub fn main() -> i32 {
             plot,
             plot_target,
             rtol,
+            steady_state,
             set,
         } => sweep::sweep(&sweep::SweepArgs {
             file,
@@ -215,7 +230,7 @@ pub fn main() -> i32 {
             plot,
             plot_target,
             rtol,
-            set,
+            set: with_steady_state(set, steady_state),
         }),
         Command::Compare {
             files,
@@ -226,6 +241,7 @@ pub fn main() -> i32 {
             min_conversion,
             format,
             rtol,
+            steady_state,
         } => compare::compare(
             &files,
             &reactors,
@@ -235,6 +251,19 @@ pub fn main() -> i32 {
             min_conversion,
             format == Format::Json,
             rtol,
+            steady_state,
         ),
     }
+}
+
+/// `--steady-state WHICH` as the override `solver.steady_state=WHICH`, so that the study's own
+/// check of the key applies and every solve of the study follows it.
+fn with_steady_state(mut set: Vec<Override>, choice: Option<SteadyStateChoice>) -> Vec<Override> {
+    if let Some(c) = choice {
+        set.push(Override {
+            path: "solver.steady_state".into(),
+            value: c.to_string(),
+        });
+    }
+    set
 }

@@ -6,7 +6,7 @@ use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, write_atomic};
 use clap::ValueEnum;
 use rxnet::model::Network;
 use rxnet::report::{num, plot};
-use rxnet::solve::{Points, Simulation, SolveOptions};
+use rxnet::solve::{Points, Simulation, SolveOptions, SteadyStateChoice};
 use rxnet::studies::evaluate::{self, EvalError};
 use rxnet::{Override, report};
 use std::path::PathBuf;
@@ -45,6 +45,11 @@ pub struct RunArgs {
     /// Draw the species profile along the reactor to this SVG file.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
+    /// CSTR with several steady states: which one to report, `lowest` or `highest` conversion of
+    /// the key, or a number from 1 in order of rising conversion (default: the study file's
+    /// `solver.steady_state`, else lowest). All are listed.
+    #[arg(long, value_name = "WHICH")]
+    steady_state: Option<SteadyStateChoice>,
     #[arg(long = "set", value_name = "PATH=VALUE")]
     set: Vec<Override>,
 }
@@ -67,6 +72,7 @@ fn run_options(a: &RunArgs) -> (bool, SolveOptions) {
         rtol: a.rtol,
         atol: a.atol,
         points,
+        steady_state: a.steady_state,
         ..Default::default()
     };
     (want_profile, opts)

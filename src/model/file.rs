@@ -181,4 +181,6 @@ pub struct RawSolver {
     pub atol: Option<RawQty>,
     pub max_steps: Option<usize>,
     pub linear_algebra: Option<String>,
+    /// CSTR: `lowest`, `highest` or a number (in order of rising conversion).
+    pub steady_state: Option<RawQty>,
 }

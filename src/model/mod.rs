@@ -234,6 +234,8 @@ pub struct SolverSettings {
     pub max_steps: Option<usize>,
     /// How the Newton systems of the integration are solved; `None` chooses by size.
     pub linear_algebra: Option<crate::solve::ode::LinearAlgebra>,
+    /// CSTR: which steady state to report when there are several (`solver.steady_state`).
+    pub steady_state: Option<crate::solve::SteadyStateChoice>,
 }
 
 /// A loaded, validated study.

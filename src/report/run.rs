@@ -53,8 +53,37 @@ pub struct RunReport {
     pub selectivity_not_defined: IndexMap<String, String>,
     pub element_closure: IndexMap<String, f64>,
     pub solver: SolveStats,
+    /// CSTR: every steady state found (rising conversion), which one this report shows, and
+    /// their stability.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub steady_states: Option<SteadyStatesReport>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub profile: Option<Vec<ProfilePoint>>,
+}
+
+/// One CSTR steady state in the report (SI: mol/s, 1/s).
+#[derive(Debug, Clone, Serialize)]
+pub struct SteadyStateEntry {
+    /// 1-based, in order of rising conversion of the key.
+    pub number: usize,
+    pub conversion: f64,
+    pub stable: bool,
+    /// Largest real part of the eigenvalues of the transient CSTR's Jacobian, 1/s.
+    pub max_eigenvalue_real_per_s: f64,
+    pub outlet: IndexMap<String, f64>,
+}
+
+/// The steady states of a CSTR run.
+#[derive(Debug, Clone, Serialize)]
+pub struct SteadyStatesReport {
+    pub count: usize,
+    /// The number (1-based) of the state this report's outlet shows.
+    pub shown: usize,
+    /// The choice in force: `lowest`, `highest` or a number.
+    pub choice: String,
+    pub states: Vec<SteadyStateEntry>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
 }
 
 fn pressure_ratio(net: &Network, sim: &Simulation, k: usize) -> f64 {
@@ -166,6 +195,24 @@ pub fn build(
             .map(|c| (c.element.clone(), c.relative))
             .collect(),
         solver: sim.stats.clone(),
+        steady_states: sim.steady.as_ref().map(|st| SteadyStatesReport {
+            count: st.states.len(),
+            shown: st.shown + 1,
+            choice: st.choice.clone(),
+            states: st
+                .states
+                .iter()
+                .enumerate()
+                .map(|(k, s)| SteadyStateEntry {
+                    number: k + 1,
+                    conversion: s.conversion,
+                    stable: s.stable,
+                    max_eigenvalue_real_per_s: s.max_eigenvalue_real,
+                    outlet: names(&s.flows),
+                })
+                .collect(),
+            note: st.note.clone(),
+        }),
         profile,
     }
 }
@@ -223,6 +270,38 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
             num(r.concentrations[s] / 1e3)
         );
     }
+    if let Some(st) = &r.steady_states
+        && st.count > 1
+    {
+        let _ = writeln!(
+            o,
+            "\n  {} steady states (conversion of {}; stable when every eigenvalue of the transient has a negative real part):",
+            st.count, r.key
+        );
+        for e in &st.states {
+            let _ = writeln!(
+                o,
+                "    {}. X = {}  {} (largest eigenvalue real part {:.3e} 1/s){}",
+                e.number,
+                num(e.conversion),
+                if e.stable { "stable  " } else { "unstable" },
+                e.max_eigenvalue_real_per_s,
+                if e.number == st.shown {
+                    "  <- shown"
+                } else {
+                    ""
+                }
+            );
+        }
+        let _ = writeln!(
+            o,
+            "  this report shows steady state {} (choice `{}`; pick another with --steady-state lowest|highest|N or solver.steady_state)",
+            st.shown, st.choice
+        );
+    }
+    if let Some(note) = r.steady_states.as_ref().and_then(|s| s.note.as_ref()) {
+        let _ = writeln!(o, "\n  note: {note}");
+    }
     let _ = writeln!(o, "\n  conversion of {}: {}", r.key, num(r.conversion));
     let not_defined = |why: Option<&String>| match why {
         Some(w) => format!("not defined ({w})"),
@@ -273,11 +352,13 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     if s.newton_iterations > 0 || s.residual.is_some() {
         let _ = writeln!(
             o,
-            "\n{}: {} iterations, {} continuation stages, residual {:.1e} {}",
+            "\n{}: {} iterations, {} continuation stages, residual {:.1e} {}, last Newton step {:.1e} {}",
             s.method,
             s.newton_iterations,
             s.continuation_stages,
             s.residual.unwrap_or(0.0),
+            r.state_unit,
+            s.newton_step.unwrap_or(0.0),
             r.state_unit
         );
     } else {

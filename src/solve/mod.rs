@@ -6,12 +6,14 @@ pub mod equations;
 pub mod krylov;
 pub mod newton;
 pub mod ode;
+pub mod steady;
 pub mod system;
 
 use crate::model::{Network, Reactor};
 use crate::reactor::{Balance, Model};
 use crate::units::GAS_CONSTANT;
 use ode::{LinearAlgebra, OdeError, OdeOptions, OdeSystem, Output};
+pub use steady::{SteadyState, SteadyStateChoice};
 
 /// Where results are wanted along the reactor.
 #[derive(Debug, Clone, PartialEq)]
@@ -33,6 +35,8 @@ pub struct SolveOptions {
     pub max_steps: Option<usize>,
     pub points: Points,
     pub linear_algebra: LinearAlgebra,
+    /// CSTR: which steady state to report when there are several.
+    pub steady_state: Option<SteadyStateChoice>,
 }
 
 impl Default for SolveOptions {
@@ -43,6 +47,7 @@ impl Default for SolveOptions {
             max_steps: None,
             points: Points::End,
             linear_algebra: LinearAlgebra::Auto,
+            steady_state: None,
         }
     }
 }
@@ -119,6 +124,9 @@ pub struct SolveStats {
     pub continuation_stages: usize,
     /// CSTR: ‖F_0 − F + V f(F)‖∞ at the solution (mol/s).
     pub residual: Option<f64>,
+    /// CSTR: the largest flow change one more Newton step would make (mol/s), the distance to
+    /// the exact steady state to first order.
+    pub newton_step: Option<f64>,
     pub rtol: f64,
     pub atol: f64,
 }
@@ -138,6 +146,21 @@ pub struct Simulation {
     /// Pressure at each point (Pa) where it varies (packed bed with pressure drop).
     pub pressure: Option<Vec<f64>>,
     pub stats: SolveStats,
+    /// CSTR: every steady state found (rising key conversion) and which one `states` holds.
+    pub steady: Option<CstrSteadyStates>,
+}
+
+/// The steady states of a CSTR solve.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct CstrSteadyStates {
+    /// In order of rising conversion of the key.
+    pub states: Vec<SteadyState>,
+    /// Index into `states` of the one reported (0-based).
+    pub shown: usize,
+    /// The choice in force.
+    pub choice: String,
+    /// Why the search for further states was not made or not finished, if so.
+    pub note: Option<String>,
 }
 
 impl Simulation {
@@ -162,6 +185,8 @@ pub enum SolveError {
     },
     #[error("CSTR steady state: {0}")]
     Newton(#[from] newton::NewtonError),
+    #[error("CSTR steady state: {0}")]
+    SteadyStateChoice(String),
     #[error(
         "species `{species}` goes negative ({value:.3e} {unit}, beyond the 1e-7 of the total feed allowed for round-off) at {x_name} = {x:.6e} {x_unit}: the solution is not physical; tighten --rtol/--atol, or check the rate laws (orders, units of k)"
     )]
@@ -309,15 +334,22 @@ pub fn simulate_with(
         ..Default::default()
     };
     let sim = if let Reactor::Cstr { volume } = net.reactor {
-        stats.method = "damped Newton (analytic Jacobian)";
+        stats.method = "damped Newton on the extents (analytic Jacobian)";
         // Residual tolerance: far below what the ODE tolerances ask of a flow reactor.
         let tol = (1e-3 * rtol * total)
             .max(1e-14 * total)
             .min(atol.max(1e-14 * total));
-        let (f, ns) = newton::solve_cstr(balance, &net.feed.amounts, volume, tol)?;
-        stats.newton_iterations = ns.iterations;
-        stats.continuation_stages = ns.continuation_stages;
-        stats.residual = Some(ns.residual);
+        let all = steady::find_all(net, balance, volume, tol)?;
+        let choice = opts
+            .steady_state
+            .or(net.solver.steady_state)
+            .unwrap_or_default();
+        let shown = all.pick(choice).map_err(SolveError::SteadyStateChoice)?;
+        let f = all.states[shown].flows.clone();
+        stats.newton_iterations = all.stats.iterations;
+        stats.continuation_stages = all.stats.continuation_stages;
+        stats.residual = Some(all.states[shown].residual);
+        stats.newton_step = Some(all.states[shown].newton_step);
         Simulation {
             x_name,
             x_unit,
@@ -326,6 +358,12 @@ pub fn simulate_with(
             states: vec![f],
             pressure: None,
             stats,
+            steady: Some(CstrSteadyStates {
+                shown,
+                choice: choice.to_string(),
+                note: all.note,
+                states: all.states,
+            }),
         }
     } else {
         let y0 = balance.initial_state(net);
@@ -411,6 +449,7 @@ pub fn simulate_with(
                 .collect(),
             pressure,
             stats,
+            steady: None,
         }
     };
     let limit = negative_limit(total);
@@ -428,6 +467,22 @@ pub fn simulate_with(
         }
     }
     Ok(sim)
+}
+
+/// The outlet of the network's CSTR at volume `v`: the steady state picked by `choice`, else by
+/// the study file's `solver.steady_state`, else the one of lowest conversion (design studies
+/// call this, so they follow the same choice as `run`). `tol` bounds ‖G‖∞ (mol/s).
+pub fn cstr_outlet(
+    net: &Network,
+    balance: &Balance,
+    v: f64,
+    tol: f64,
+    choice: Option<SteadyStateChoice>,
+) -> Result<Vec<f64>, SolveError> {
+    let all = steady::find_all(net, balance, v, tol)?;
+    let choice = choice.or(net.solver.steady_state).unwrap_or_default();
+    let k = all.pick(choice).map_err(SolveError::SteadyStateChoice)?;
+    Ok(all.states[k].flows.clone())
 }
 
 /// Volume of a batch charge at state N (constant-pressure gas: N_T R T / P; else fixed).

@@ -61,7 +61,8 @@ impl LinearAlgebra {
 /// against 0.41 s) and 500 states (0.41 against 2.7 s).
 pub const AUTO_KRYLOV_ABOVE: usize = 150;
 
-/// Smallest step allowed, as a fraction of the integration length.
+/// Smallest step allowed, as a fraction of the integration length or of the system's own
+/// scale at the start, whichever is shorter.
 pub const MIN_STEP_FRACTION: f64 = 1e-22;
 
 /// Tolerances and limits of the integration.
@@ -320,6 +321,7 @@ fn run(
         sh.krylov = Some(Rc::new(Cell::new(KrylovStats::default())));
     }
     let sh = sh;
+    let own_scale = own_scale(sys, y0, opts).min(x_end);
     // One body for all matrix types: the closure types are unnameable, so a macro rather than
     // a generic function carries the builder.
     macro_rules! solve_with {
@@ -344,10 +346,18 @@ fn run(
             // diffsol's default step floor is an absolute f64::EPSILON, which is wrong for a
             // reactor measured in m3 (a 0.1 m3 PFR with fast steps needs steps far below it);
             // make the floor relative to the length of the integration instead.
-            problem.ode_options.min_timestep = MIN_STEP_FRACTION * x_end;
+            problem.ode_options.min_timestep = MIN_STEP_FRACTION * x_end.min(own_scale);
             let mut state = problem.bdf_state::<$lu>().map_err(fail)?;
-            if let Some(h) = opts.first_step {
-                *state.as_mut().h = h;
+            match opts.first_step {
+                Some(h) => *state.as_mut().h = h,
+                // diffsol's estimate (Hairer, Nørsett & Wanner, from memory), kept within the
+                // system's own scale and the horizon.
+                None => {
+                    let h = state.as_mut().h;
+                    if !(h.is_finite() && *h > 0.0) || *h > own_scale {
+                        *h = 1e-3 * own_scale;
+                    }
+                }
             }
             // A reactor shorter than the first step estimated from the rates (a batch of
             // 1e-300 s) is integrated in steps no longer than itself; otherwise the solver sees
@@ -378,6 +388,33 @@ fn run(
             solve_with!(FaerSparseMat<f64>, KrylovSolver, ls)
         }
         _ => solve_with!(NalgebraMat<f64>, NalgebraLU<f64>, NalgebraLU::default()),
+    }
+}
+
+/// The system's own scale of x at the start: the weighted-RMS ratio ‖y0‖/‖f(0, y0)‖ with
+/// weights atol_i + rtol·|y0_i| (the quantity behind the usual first-step estimate; Hairer,
+/// Nørsett & Wanner, Solving ODEs I, §II.4, from memory). Infinite when nothing changes at the
+/// start. The step floor and the first step are taken relative to this scale rather than to
+/// the horizon, so that a horizon of 1e20 s or 1e300 m3 (a system that just reaches
+/// equilibrium) is covered by steps that start on the chemistry's scale and grow.
+fn own_scale(sys: &dyn OdeSystem, y0: &[f64], opts: &OdeOptions) -> f64 {
+    let n = sys.dim();
+    let mut f = vec![0.0; n];
+    sys.rhs(0.0, y0, &mut f);
+    let atol = |i: usize| opts.atol[if opts.atol.len() == 1 { 0 } else { i }];
+    let (mut dy, mut df) = (0.0, 0.0);
+    for i in 0..n {
+        let w = atol(i) + opts.rtol * y0[i].abs();
+        dy += (y0[i] / w).powi(2);
+        df += (f[i] / w).powi(2);
+    }
+    // A state of zeros still has the scale of its tolerance.
+    let dy = dy.sqrt().max(1.0);
+    let df = df.sqrt();
+    if df.is_finite() && df > 0.0 {
+        dy / df
+    } else {
+        f64::INFINITY
     }
 }
 

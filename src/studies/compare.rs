@@ -12,7 +12,7 @@ use super::study::StudyError;
 use super::target::Target;
 use crate::model::{BatchMode, Network, Phase, Reactor};
 use crate::reactor::Balance;
-use crate::solve::{self, SolveOptions, newton};
+use crate::solve::{self, SolveOptions};
 
 /// A reactor type to screen.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -145,8 +145,8 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
     if let Reactor::Cstr { .. } = net.reactor {
         let at = |v: f64| -> Result<(f64, Vec<f64>), StudyError> {
             let tol = super::optimize::cstr_tolerance(net, &b, v);
-            let (f, _) = newton::solve_cstr(&b, &net.feed.amounts, v, tol)
-                .map_err(|e| StudyError::Solve(e.into()))?;
+            let f = solve::cstr_outlet(net, &b, v, tol, opts.steady_state)
+                .map_err(StudyError::Solve)?;
             Ok((conv(&f), f))
         };
         let mut lo = 1e-9 * size;

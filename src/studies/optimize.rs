@@ -97,9 +97,8 @@ impl Probe<'_> {
     fn state(&self, x: f64) -> Result<Vec<f64>, StudyError> {
         if self.cstr {
             let tol = cstr_tolerance(self.net, self.b, x);
-            newton::solve_cstr(self.b, &self.net.feed.amounts, x, tol)
-                .map(|(f, _)| f)
-                .map_err(|e| StudyError::Solve(SolveError::Newton(e)))
+            solve::cstr_outlet(self.net, self.b, x, tol, self.opts.steady_state)
+                .map_err(StudyError::Solve)
         } else {
             let y0 = self.b.initial_state(self.net);
             Ok(solve::advance(self.net, self.b, &y0, x, self.opts)?)

@@ -1,8 +1,9 @@
-//! The `solver` section: tolerances, step limit and the choice of linear algebra.
+//! The `solver` section: tolerances, step limit, the choice of linear algebra and which CSTR
+//! steady state to report.
 
 use super::messages::significant;
 use super::{Cx, LoadError};
-use crate::model::file::RawSolver;
+use crate::model::file::{RawQty, RawSolver};
 use crate::model::{Reactor, SolverSettings};
 use crate::units::Dim;
 
@@ -92,10 +93,24 @@ pub(super) fn build_solver(
             ));
         }
     };
+    let steady_state = match &s.steady_state {
+        None => None,
+        Some(raw) => {
+            let text = match raw {
+                RawQty::Number(v) => v.to_string(),
+                RawQty::Text(t) => t.clone(),
+            };
+            Some(
+                text.parse()
+                    .map_err(|m: String| cx.err("solver.steady_state", &m, None))?,
+            )
+        }
+    };
     Ok(SolverSettings {
         rtol,
         atol,
         max_steps,
         linear_algebra,
+        steady_state,
     })
 }
