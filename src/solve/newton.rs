@@ -487,17 +487,7 @@ fn continuation(
 /// (−I + V ∂f/∂F) dF/dV = −f(F) (implicit function theorem). None if the matrix is singular.
 pub fn volume_sensitivity(b: &Balance, volume: f64, f: &[f64]) -> Option<Vec<f64>> {
     let n = f.len();
-    let mut trip = Vec::new();
-    b.jacobian(f, &mut trip);
-    let mut jm = DMatrix::<f64>::zeros(n, n);
-    for &(r, c, val) in &trip {
-        if r < n && c < n {
-            jm[(r, c)] += volume * val;
-        }
-    }
-    for j in 0..n {
-        jm[(j, j)] -= 1.0;
-    }
+    let jm = residual_jacobian(b, volume, f);
     let mut rhs = vec![0.0; n];
     b.rhs(f, &mut rhs);
     let rhs = DVector::from_iterator(n, rhs.iter().map(|x| -x));

@@ -108,14 +108,7 @@ pub(super) fn build_feed(
             ));
         }
         let v0 = if gas {
-            let p = pressure.ok_or_else(|| {
-                cx.err(
-                    "feed",
-                    "a gas-phase study needs the feed pressure `P`",
-                    Some("e.g. `P: 2 bar`".into()),
-                )
-            })?;
-            let v_ideal = total * GAS_CONSTANT * temperature / p;
+            let v_ideal = ideal_gas_volume(cx, pressure, total, temperature)?;
             if *mode == BatchMode::ConstantPressure && *volume == 0.0 {
                 v_ideal
             } else {
@@ -190,14 +183,7 @@ pub(super) fn build_feed(
                     None => None,
                 };
                 let v0 = if gas {
-                    let p = pressure.ok_or_else(|| {
-                        cx.err(
-                            "feed",
-                            "a gas-phase study needs the feed pressure `P`",
-                            Some("e.g. `P: 2 bar`".into()),
-                        )
-                    })?;
-                    let v_ideal = total * GAS_CONSTANT * temperature / p;
+                    let v_ideal = ideal_gas_volume(cx, pressure, total, temperature)?;
                     if let Some(v) = given
                         && (v - v_ideal).abs() / v_ideal > IDEAL_GAS_CONSISTENCY
                     {
@@ -286,4 +272,22 @@ pub(super) fn build_feed(
         amounts,
         volumetric,
     })
+}
+
+/// The ideal-gas volume (or volumetric flow) of `total` mol (or mol/s) at the feed's T and P,
+/// V = N R T / P (common practice); a gas study must give P.
+fn ideal_gas_volume(
+    cx: &Cx,
+    pressure: Option<f64>,
+    total: f64,
+    temperature: f64,
+) -> Result<f64, LoadError> {
+    let p = pressure.ok_or_else(|| {
+        cx.err(
+            "feed",
+            "a gas-phase study needs the feed pressure `P`",
+            Some("e.g. `P: 2 bar`".into()),
+        )
+    })?;
+    Ok(total * GAS_CONSTANT * temperature / p)
 }
