@@ -127,10 +127,12 @@ pub fn compare(
         }
         o
     };
-    emit(&text);
-    if rows.iter().all(|r| r.error.is_some()) {
-        EXIT_FINDINGS
-    } else {
-        0
-    }
+    emit(
+        &text,
+        if rows.iter().all(|r| r.error.is_some()) {
+            EXIT_FINDINGS
+        } else {
+            0
+        },
+    )
 }

@@ -74,6 +74,14 @@ pub fn sweep(a: &SweepArgs) -> i32 {
         eprintln!("error: --plot draws one or two varied inputs of an unsharded sweep");
         return EXIT_INVALID;
     }
+    // The output paths are checked before the work (a directory, a path the user may not
+    // write); the files themselves are written at the end.
+    for path in a.out.iter().chain(&a.plot) {
+        if let Err(e) = super::output::prepare(path) {
+            eprintln!("error: cannot write {}: {e}", path.display());
+            return EXIT_INVALID;
+        }
+    }
     let (study, net) = match read_study(&a.file, &a.set) {
         Ok(s) => s,
         Err(c) => return c,
@@ -163,7 +171,10 @@ pub fn sweep(a: &SweepArgs) -> i32 {
             }
         }
         None => {
-            emit(&text);
+            let code = emit(&text, 0);
+            if code != 0 {
+                return code;
+            }
         }
     }
     if failed > 0 {
