@@ -17,7 +17,7 @@ use std::cell::{Cell, RefCell};
 use std::rc::Rc;
 
 use super::krylov::{KrylovStats, WeightSource};
-use super::ode::{OdeError, OdeSystem};
+use super::system::{OdeError, OdeSystem};
 use diffsol::{
     ConstantOp, DiffsolError, FaerSparseMat, Matrix, NalgebraMat, NonLinearOp, NonLinearOpJacobian,
     OdeEquations, OdeEquationsRef, Op, ParameterisedOp, UnitCallable, Vector, VectorCommon,

@@ -6,6 +6,7 @@ pub mod equations;
 pub mod krylov;
 pub mod newton;
 pub mod ode;
+pub mod system;
 
 use crate::model::{Network, Reactor};
 use crate::reactor::{Balance, Model};

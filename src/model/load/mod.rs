@@ -1,0 +1,567 @@
+//! Loading a study file into a known-good [`Network`]: parse once, convert to SI, validate once.
+//!
+//! Every error names the file, the line and column where known, and the field path
+//! (`reactions[1].rate.k`), says what was expected, and suggests a fix where one is obvious.
+//!
+//! This module reads and parses the text, applies the command-line overrides and builds the
+//! network section by section: [`species`], [`reactor`] (first: it fixes the rate basis),
+//! [`feed`], [`reactions`] and [`solver`]. [`messages`] holds the wording of errors and the
+//! "did you mean" suggestions.
+
+mod feed;
+mod messages;
+mod reactions;
+mod reactor;
+mod solver;
+mod species;
+
+pub(crate) use messages::closest;
+
+use super::file::*;
+use super::locate::{Locator, Position};
+use super::*;
+use crate::units::{Dim, parse_quantity};
+use feed::build_feed;
+use indexmap::IndexMap;
+use messages::{serde_path, significant, strip_location, unknown_field_hint, yaml_wording};
+use reactions::{build_reaction, default_key};
+use reactor::build_reactor;
+use solver::build_solver;
+use species::build_species;
+use std::fmt;
+
+/// Largest study file accepted, in bytes (a study is a few kilobytes; a generated network of
+/// 10,000 reactions is a few megabytes).
+pub const MAX_FILE_BYTES: usize = 64 * 1024 * 1024;
+
+/// A study file that cannot be read or is not a valid study.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LoadError {
+    pub file: String,
+    pub position: Option<Position>,
+    /// Field path such as `reactions[1].rate.k`; empty for the whole file.
+    pub field: String,
+    pub message: String,
+    pub hint: Option<String>,
+}
+
+impl fmt::Display for LoadError {
+    fn fmt(&self, f: &mut fmt::Formatter) -> fmt::Result {
+        write!(f, "{}", self.file)?;
+        if let Some(p) = self.position {
+            write!(f, ":{}:{}", p.line, p.column)?;
+        }
+        if !self.field.is_empty() {
+            write!(
+                f,
+                ": field `{}`",
+                shorten(&self.field, MAX_MESSAGE_CHARS / 4)
+            )?;
+        }
+        write!(f, ": {}", shorten(&self.message, MAX_MESSAGE_CHARS))?;
+        if let Some(h) = &self.hint {
+            write!(f, " ({})", shorten(h, MAX_MESSAGE_CHARS / 2))?;
+        }
+        Ok(())
+    }
+}
+
+impl std::error::Error for LoadError {}
+
+/// Longest message (in characters) printed for a load error. Messages quote the offending
+/// text, and a hostile file can make that text megabytes long (a unit of a million nested
+/// parentheses); the start says what is wrong, the rest is cut with a count.
+pub const MAX_MESSAGE_CHARS: usize = 600;
+
+/// `text` cut to at most `max` characters, with the number of characters left out.
+fn shorten(text: &str, max: usize) -> std::borrow::Cow<'_, str> {
+    match text.char_indices().nth(max) {
+        None => std::borrow::Cow::Borrowed(text),
+        Some((cut, _)) => {
+            let left = text[cut..].chars().count();
+            std::borrow::Cow::Owned(format!("{} … [{left} more characters]", &text[..cut]))
+        }
+    }
+}
+
+/// A command-line change to one scalar of the study, `path=value`, applied before validation
+/// so it meets the same checks as the file. In a path, a list item may be named by its index
+/// or, for reactions, by its id: `reactions.to_full.rate.k`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Override {
+    pub path: String,
+    pub value: String,
+}
+
+impl std::str::FromStr for Override {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, String> {
+        let (p, v) = s
+            .split_once('=')
+            .ok_or_else(|| format!("`{s}`: an override is PATH=VALUE, e.g. feed.T=\"350 K\""))?;
+        let p = p.trim();
+        if p.is_empty() || p.split('.').any(|seg| seg.is_empty()) {
+            return Err(format!("`{s}`: empty path segment in `{p}`"));
+        }
+        Ok(Override {
+            path: p.to_string(),
+            value: v.trim().to_string(),
+        })
+    }
+}
+
+/// Read and load a study file.
+pub fn load_file(path: &std::path::Path, overrides: &[Override]) -> Result<Network, LoadError> {
+    let text = read_text(path)?;
+    load_str(&text, &path.display().to_string(), overrides)
+}
+
+/// Read a study file's text: refuses files over [`MAX_FILE_BYTES`] and text that is not UTF-8.
+pub fn read_text(path: &std::path::Path) -> Result<String, LoadError> {
+    let name = path.display().to_string();
+    let whole = |message: String| LoadError {
+        file: name.clone(),
+        position: None,
+        field: String::new(),
+        message,
+        hint: None,
+    };
+    let meta = std::fs::metadata(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
+    if meta.len() > MAX_FILE_BYTES as u64 {
+        return Err(whole(format!(
+            "the file is {} bytes; a study file may have at most {MAX_FILE_BYTES} bytes",
+            meta.len()
+        )));
+    }
+    let bytes = std::fs::read(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
+    String::from_utf8(bytes).map_err(|e| {
+        whole(format!(
+            "the file is not UTF-8 text (invalid byte at offset {})",
+            e.utf8_error().valid_up_to()
+        ))
+    })
+}
+
+/// Load a study from its text; `file` names it in messages.
+pub fn load_str(text: &str, file: &str, overrides: &[Override]) -> Result<Network, LoadError> {
+    load_parsed(parse_text(text, file)?, text, file, overrides)
+}
+
+/// A study text parsed into its YAML tree, for loading it many times with different overrides
+/// (every point of a sweep, every evaluation of an optimiser) without parsing the text again.
+/// Each load still applies its overrides to the tree and validates the whole study.
+#[derive(Debug, Clone)]
+pub struct ParsedStudy {
+    pub text: String,
+    pub file: String,
+    tree: serde_yaml::Value,
+}
+
+impl ParsedStudy {
+    /// Parse `text` (errors name `file`).
+    pub fn new(text: String, file: String) -> Result<ParsedStudy, LoadError> {
+        let tree = parse_text(&text, &file)?;
+        Ok(ParsedStudy { text, file, tree })
+    }
+
+    /// The network with `overrides` applied, validated as [`load_str`] would.
+    pub fn load(&self, overrides: &[Override]) -> Result<Network, LoadError> {
+        load_parsed(self.tree.clone(), &self.text, &self.file, overrides)
+    }
+}
+
+/// The YAML tree of a study text.
+fn parse_text(text: &str, file: &str) -> Result<serde_yaml::Value, LoadError> {
+    let cx = Cx::new(file, text);
+    if text.len() > MAX_FILE_BYTES {
+        return Err(cx.err("", "the study text is too large", None));
+    }
+    let value: serde_yaml::Value = serde_yaml::from_str(text).map_err(|e| {
+        let message = strip_location(&e.to_string());
+        if message.starts_with("duplicate entry")
+            && let Some((key, at)) = cx.loc().duplicate_key()
+        {
+            return LoadError {
+                file: file.to_string(),
+                position: Some(at),
+                field: key.to_string(),
+                message: "this key is given twice in the same mapping".into(),
+                hint: Some("keep one of the two".into()),
+            };
+        }
+        let position = e.location().map(|l| Position {
+            line: l.line(),
+            column: l.column(),
+        });
+        LoadError {
+            file: file.to_string(),
+            position,
+            field: String::new(),
+            message: format!("not valid YAML: {}", yaml_wording(&message)),
+            hint: None,
+        }
+    })?;
+    if value.is_null() {
+        return Err(cx.err(
+            "",
+            "the file is empty; a study needs species, reactions, feed and reactor",
+            None,
+        ));
+    }
+    Ok(value)
+}
+
+/// Apply `overrides` to a parsed tree and build the network; `text` gives the positions for
+/// messages (its position map is built only if there is an error to place).
+fn load_parsed(
+    mut value: serde_yaml::Value,
+    text: &str,
+    file: &str,
+    overrides: &[Override],
+) -> Result<Network, LoadError> {
+    let cx = Cx::new(file, text);
+    for o in overrides {
+        apply_override(&mut value, o).map_err(|m| LoadError {
+            file: file.to_string(),
+            position: None,
+            field: o.path.clone(),
+            message: format!("cannot apply --set {}={}: {m}", o.path, o.value),
+            hint: None,
+        })?;
+    }
+    let raw: RawStudy = serde_path_to_error::deserialize(value).map_err(|e| {
+        let path = serde_path(e.path());
+        let inner = e
+            .into_inner()
+            .to_string()
+            .replace(
+                "expected struct RawStudy",
+                "expected a mapping with the keys species, reactions, feed and reactor",
+            )
+            .replace("struct Raw", "mapping ");
+        let inner = yaml_wording(&inner);
+        let hint = unknown_field_hint(&inner);
+        cx.err(&path, &strip_location(&inner), hint)
+    })?;
+    build(raw, &cx)
+}
+
+fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), String> {
+    use serde_yaml::Value;
+    let new: Value = serde_yaml::from_str(&o.value).map_err(|e| {
+        format!(
+            "the value is not a YAML scalar: {}",
+            yaml_wording(&e.to_string())
+        )
+    })?;
+    if new.is_mapping() || new.is_sequence() {
+        return Err(
+            "only a scalar can be set (a number, a word or a quantity such as \"2 mol/s\")".into(),
+        );
+    }
+    let segs: Vec<&str> = o.path.split('.').collect();
+    let mut cur = root;
+    for (n, seg) in segs.iter().enumerate() {
+        let last = n + 1 == segs.len();
+        cur = match cur {
+            Value::Mapping(m) => {
+                let key = Value::String(seg.to_string());
+                if !m.contains_key(&key) {
+                    if last
+                        || matches!(
+                            *seg,
+                            "rate"
+                                | "feed"
+                                | "reactor"
+                                | "solver"
+                                | "pressure_drop"
+                                | "orders"
+                                | "flows"
+                                | "concentrations"
+                                | "amounts"
+                        )
+                    {
+                        let fresh = if last {
+                            Value::Null
+                        } else {
+                            Value::Mapping(Default::default())
+                        };
+                        m.insert(key.clone(), fresh);
+                    } else {
+                        return Err(format!("no field `{seg}` here"));
+                    }
+                }
+                m.get_mut(&key).expect("inserted above")
+            }
+            Value::Sequence(items) => {
+                let idx = match seg.parse::<usize>() {
+                    Ok(i) if i < items.len() => i,
+                    Ok(i) => {
+                        return Err(format!("index {i} is past the end ({} items)", items.len()));
+                    }
+                    Err(_) => items
+                        .iter()
+                        .position(|it| it.get("id").and_then(|v| v.as_str()) == Some(seg))
+                        .ok_or_else(|| format!("no item with id `{seg}`"))?,
+                };
+                &mut items[idx]
+            }
+            _ => return Err(format!("`{seg}` is below a scalar")),
+        };
+    }
+    *cur = new;
+    Ok(())
+}
+
+/// Loading context: the file's name, its text and the position map, built from the text on
+/// the first error (a valid study never needs it, and building it costs about as much as
+/// parsing the YAML).
+struct Cx<'t> {
+    file: String,
+    text: &'t str,
+    loc: std::cell::OnceCell<Locator>,
+}
+
+impl Cx<'_> {
+    fn new<'t>(file: &str, text: &'t str) -> Cx<'t> {
+        Cx {
+            file: file.to_string(),
+            text,
+            loc: std::cell::OnceCell::new(),
+        }
+    }
+
+    fn loc(&self) -> &Locator {
+        self.loc.get_or_init(|| Locator::new(self.text))
+    }
+
+    fn err(&self, field: &str, message: &str, hint: Option<String>) -> LoadError {
+        LoadError {
+            file: self.file.clone(),
+            position: self.loc().find(field),
+            field: field.to_string(),
+            message: message.to_string(),
+            hint,
+        }
+    }
+
+    /// Convert a quantity to SI, checking its dimensions. `what` describes the expected
+    /// quantity for the message ("a molar flow", "a rate constant").
+    fn qty(
+        &self,
+        field: &str,
+        q: &RawQty,
+        want: Dim,
+        what: &str,
+        example: &str,
+    ) -> Result<f64, LoadError> {
+        let (si, dim) = match q {
+            RawQty::Number(x) => {
+                if !want.approx_eq(Dim::NONE) {
+                    return Err(self.err(
+                        field,
+                        &format!(
+                            "the bare number {x} needs a unit: expected {what} in units of {want}"
+                        ),
+                        Some(format!(
+                            "write it with its unit, e.g. \"{x} {}\"",
+                            example.split_once(' ').map(|(_, u)| u).unwrap_or(example)
+                        )),
+                    ));
+                }
+                (*x, Dim::NONE)
+            }
+            RawQty::Text(s) => {
+                let q = parse_quantity(s).map_err(|e| {
+                    self.err(field, &format!("`{s}` is not a valid quantity: {e}"), None)
+                })?;
+                (q.si, q.dim)
+            }
+        };
+        if !dim.approx_eq(want) {
+            return Err(self.err(
+                field,
+                &format!("wrong dimensions: expected {what} ({want}), got {dim}"),
+                Some(format!("e.g. \"{example}\"")),
+            ));
+        }
+        if !si.is_finite() {
+            return Err(self.err(field, "the value is not a finite number", None));
+        }
+        Ok(si)
+    }
+
+    /// A positive, finite, normal number. Subnormal values (below 2.2e-308 in SI) are refused:
+    /// no physical size is that small, and arithmetic on them loses precision silently
+    /// (IEEE 754), so a typo such as `1e-320 m3` would otherwise end as a solver failure.
+    fn positive(&self, field: &str, v: f64, what: &str) -> Result<f64, LoadError> {
+        if v > 0.0 && v.is_finite() && v.is_normal() {
+            Ok(v)
+        } else if v > 0.0 && v.is_finite() {
+            Err(self.err(
+                field,
+                &format!("{what} is too small to compute with, got {v:e} (SI)"),
+                Some("check the exponent and the unit".into()),
+            ))
+        } else {
+            Err(self.err(
+                field,
+                &format!("{what} must be positive, got {} (SI)", significant(v)),
+                None,
+            ))
+        }
+    }
+
+    fn species(
+        &self,
+        field: &str,
+        name: &str,
+        index: &IndexMap<String, usize>,
+    ) -> Result<usize, LoadError> {
+        index.get(name).copied().ok_or_else(|| {
+            let hint = closest(name, index.keys().map(|s| s.as_str()))
+                .map(|c| format!("did you mean `{c}`?"))
+                .or_else(|| Some("declare it under `species:`".to_string()));
+            self.err(field, &format!("unknown species `{name}`"), hint)
+        })
+    }
+}
+
+fn conc() -> Dim {
+    Dim::concentration()
+}
+fn molar_energy() -> Dim {
+    Dim::energy().div(Dim::AMOUNT)
+}
+
+fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
+    // --- species
+    let (species, index) = build_species(&raw.species, cx)?;
+    let ns = species.len();
+
+    let phase = match raw.phase {
+        Some(RawPhase::Liquid) => Phase::Liquid,
+        Some(RawPhase::Gas) => Phase::Gas,
+        None => {
+            return Err(cx.err(
+                "phase",
+                "missing field `phase`",
+                Some("write `phase: liquid` or `phase: gas`".into()),
+            ));
+        }
+    };
+
+    // --- reactor (needed first: it fixes the rate basis)
+    let reactor = build_reactor(&raw.reactor, phase, cx)?;
+    let basis = if matches!(reactor, Reactor::Pbr { .. }) {
+        RateBasis::CatalystMass
+    } else {
+        RateBasis::Volume
+    };
+
+    // --- feed (temperature needed as the default T_ref)
+    let feed = build_feed(&raw.feed, phase, &reactor, &index, cx)?;
+    if let Reactor::Pbr {
+        pressure_drop: Some(PressureDrop::Ergun { .. }),
+        ..
+    } = &reactor
+    {
+        // The Ergun equation needs the mass flux G = Σ F_j0 M_j / A_c of the feed.
+        let missing: Vec<&str> = feed
+            .amounts
+            .iter()
+            .enumerate()
+            .filter(|(j, f)| **f > 0.0 && species[*j].molar_mass.is_none())
+            .map(|(j, _)| species[j].name.as_str())
+            .collect();
+        if let Some(first) = missing.first() {
+            return Err(cx.err(
+                "reactor.pressure_drop",
+                &format!(
+                    "the Ergun equation needs the molar mass of every fed species (for the mass \
+                     flux); none is known for {}",
+                    missing
+                        .iter()
+                        .map(|n| format!("`{n}`"))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+                Some(format!(
+                    "give `species.{first}.molar_mass` (e.g. `molar_mass: 28 g/mol`) or a \
+                     `formula` of common elements, or use the lumped constant `alpha`"
+                )),
+            ));
+        }
+    }
+
+    // --- reactions
+    if raw.reactions.is_empty() {
+        return Err(cx.err("reactions", "no reactions given", None));
+    }
+    let mut reactions: Vec<Reaction> = Vec::with_capacity(raw.reactions.len());
+    let mut by_id: std::collections::HashMap<String, usize> =
+        std::collections::HashMap::with_capacity(raw.reactions.len());
+    for (i, rr) in raw.reactions.iter().enumerate() {
+        let r = build_reaction(i, rr, &index, basis, feed.temperature, cx)?;
+        if let Some(prev) = by_id.get(&r.id).map(|&k| &reactions[k]) {
+            return Err(cx.err(
+                &format!("reactions[{i}].id"),
+                &format!(
+                    "duplicate reaction id `{}` (already used by `{}`)",
+                    r.id, prev.equation
+                ),
+                Some("give each reaction its own id".into()),
+            ));
+        }
+        by_id.insert(r.id.clone(), reactions.len());
+        reactions.push(r);
+    }
+
+    // --- key and desired
+    let (key, key_is_default) = match &raw.key {
+        Some(k) => (cx.species("key", k, &index)?, false),
+        None => (default_key(&reactions, &feed, cx)?, true),
+    };
+    let desired = match &raw.desired {
+        Some(d) => Some(cx.species("desired", d, &index)?),
+        None => None,
+    };
+    let solver = build_solver(raw.solver.as_ref(), &reactor, cx)?;
+    debug_assert_eq!(feed.amounts.len(), ns);
+
+    Ok(Network {
+        name: raw.name.unwrap_or_else(|| "unnamed study".to_string()),
+        source: cx.file.clone(),
+        phase,
+        species,
+        reactions,
+        feed,
+        reactor,
+        key,
+        key_is_default,
+        desired,
+        solver,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn suggestions_find_close_names() {
+        let names = ["H2", "CH4", "CO2"];
+        assert_eq!(closest("CH5", names.iter().copied()), Some("CH4"));
+        assert_eq!(closest("co2", names.iter().copied()), Some("CO2"));
+        assert_eq!(closest("N2O5", names.iter().copied()), None);
+    }
+
+    #[test]
+    fn override_parses() {
+        let o: Override = "feed.T=350 K".parse().unwrap();
+        assert_eq!(o.path, "feed.T");
+        assert_eq!(o.value, "350 K");
+        assert!("feedT".parse::<Override>().is_err());
+        assert!("feed..T=3".parse::<Override>().is_err());
+    }
+}

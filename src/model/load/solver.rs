@@ -1,0 +1,82 @@
+//! The `solver` section: tolerances, step limit and the choice of linear algebra.
+
+use super::messages::significant;
+use super::{Cx, LoadError};
+use crate::model::file::RawSolver;
+use crate::model::{Reactor, SolverSettings};
+use crate::units::Dim;
+
+/// The tightest relative tolerance accepted: about 50 × the f64 machine epsilon (2.2e-16,
+/// IEEE 754). A tighter error test cannot be met in double precision and would only end in a
+/// step-size failure (common practice).
+pub const MIN_RTOL: f64 = 1e-14;
+
+pub(super) fn build_solver(
+    s: Option<&RawSolver>,
+    reactor: &Reactor,
+    cx: &Cx,
+) -> Result<SolverSettings, LoadError> {
+    let Some(s) = s else {
+        return Ok(SolverSettings::default());
+    };
+    let rtol = match s.rtol {
+        None => None,
+        Some(r) if (MIN_RTOL..1.0).contains(&r) => Some(r),
+        Some(r) => {
+            return Err(cx.err(
+                "solver.rtol",
+                &format!("rtol must lie in [{MIN_RTOL:e}, 1), got {}", significant(r)),
+                Some(if r > 0.0 && r < MIN_RTOL {
+                    format!(
+                        "below {MIN_RTOL:e} the error test asks for more than double precision \
+                         resolves (machine epsilon 2.2e-16); 1e-8 is the default"
+                    )
+                } else {
+                    "1e-8 is the default".to_string()
+                }),
+            ));
+        }
+    };
+    let atol = match &s.atol {
+        None => None,
+        Some(q) => {
+            let (want, ex) = if reactor.is_batch() {
+                (Dim::AMOUNT, "1e-10 mol")
+            } else {
+                (Dim::AMOUNT.div(Dim::TIME), "1e-10 mol/s")
+            };
+            let v = cx.qty(
+                "solver.atol",
+                q,
+                want,
+                "an absolute tolerance on the state",
+                ex,
+            )?;
+            Some(cx.positive("solver.atol", v, "atol")?)
+        }
+    };
+    let max_steps = match s.max_steps {
+        Some(0) => return Err(cx.err("solver.max_steps", "max_steps must be at least 1", None)),
+        m => m,
+    };
+    use crate::solve::ode::LinearAlgebra;
+    let linear_algebra = match s.linear_algebra.as_deref().map(str::trim) {
+        None | Some("auto") => None,
+        Some("dense") => Some(LinearAlgebra::Dense),
+        Some("sparse") => Some(LinearAlgebra::Sparse),
+        Some("krylov") => Some(LinearAlgebra::Krylov),
+        Some(other) => {
+            return Err(cx.err(
+                "solver.linear_algebra",
+                &format!("unknown linear algebra `{other}`"),
+                Some("one of auto, dense, sparse, krylov".into()),
+            ));
+        }
+    };
+    Ok(SolverSettings {
+        rtol,
+        atol,
+        max_steps,
+        linear_algebra,
+    })
+}
