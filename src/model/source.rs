@@ -93,7 +93,7 @@ fn too_big(size: Option<u64>) -> String {
             "the file is {n} bytes; a study may have at most {MAX_STUDY_BYTES} bytes ({mib} MiB)"
         ),
         None => format!(
-            "more than {MAX_STUDY_BYTES} bytes ({mib} MiB) were read; a study may have at most that"
+            "a study may have at most {MAX_STUDY_BYTES} bytes ({mib} MiB), and more were read"
         ),
     }
 }
