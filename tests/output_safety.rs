@@ -83,6 +83,22 @@ fn a_full_disk_on_standard_output_fails_every_command() {
 }
 
 #[test]
+fn a_full_disk_on_standard_error_is_exit_1_not_a_panic() {
+    // The error message cannot be written: exit 1 (the messages had nowhere to go), never
+    // the 101 of a panic.
+    let full = std::fs::OpenOptions::new()
+        .write(true)
+        .open("/dev/full")
+        .expect("/dev/full (Linux)");
+    let out = bin()
+        .args(["check", "/no/such/study.yaml"])
+        .stderr(full)
+        .output()
+        .expect("run rxnet");
+    assert_eq!(out.status.code(), Some(1));
+}
+
+#[test]
 fn a_reader_that_quits_ends_the_command_quietly() {
     // `rxnet generate ... | head -c 100`: megabytes of output, the reader takes 100 bytes and
     // closes the pipe. The write fails with a broken pipe: exit 0, nothing on stderr.

@@ -44,6 +44,24 @@ pub fn emit(text: &str, code: i32) -> i32 {
     }
 }
 
+/// Run the command `f` and return its exit code; when standard error cannot be written (a
+/// full disk: `2>/dev/full`), `eprintln!` panics, and that panic becomes exit code 1 (the
+/// messages had nowhere to go) instead of the panic's 101. Any other panic goes on.
+pub fn exit_code_of(f: impl FnOnce() -> i32 + std::panic::UnwindSafe) -> i32 {
+    std::panic::catch_unwind(f).unwrap_or_else(|payload| {
+        let text = payload
+            .downcast_ref::<String>()
+            .map(String::as_str)
+            .or_else(|| payload.downcast_ref::<&str>().copied())
+            .unwrap_or("");
+        if text.starts_with("failed printing to stderr") {
+            EXIT_FINDINGS
+        } else {
+            std::panic::resume_unwind(payload)
+        }
+    })
+}
+
 pub fn json<T: serde::Serialize>(v: &T) -> String {
     let mut s = serde_json::to_string_pretty(v).expect("report types serialize");
     s.push('\n');
