@@ -190,6 +190,33 @@ fn devices_are_written_in_place_never_replaced() {
     ]);
     assert_eq!(r.code, 0, "{}", r.stderr);
     assert!(r.stdout.starts_with("V [m3],A [mol/s]"), "{}", r.stdout);
+    // /dev/stdout when standard output is a file opened by the shell (`> out.txt`): the
+    // profile first, then the report, neither overwriting the other.
+    let dir = scratch("stdoutfile");
+    let out_path = dir.join("out.txt");
+    let out_file = std::fs::File::create(&out_path).expect("create");
+    let status = bin()
+        .args([
+            "run",
+            s(&study),
+            "--profile",
+            "/dev/stdout",
+            "--points",
+            "3",
+        ])
+        .stdout(out_file)
+        .status()
+        .expect("run rxnet");
+    assert_eq!(status.code(), Some(0));
+    let text = std::fs::read_to_string(&out_path).expect("read");
+    assert!(text.starts_with("V [m3],A [mol/s]"), "{text}");
+    assert_eq!(
+        text.lines().nth(3).map(|l| l.split(',').count()),
+        Some(6),
+        "{text}"
+    );
+    assert!(text.contains("conversion of A"), "{text}");
+    let _ = std::fs::remove_dir_all(&dir);
     let _ = std::fs::remove_file(&study);
 }
 

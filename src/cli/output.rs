@@ -81,6 +81,11 @@ pub enum Target {
     /// such as `/dev/stdout` redirected to a file), written in place; `append` for the
     /// regular file, so that what the shell put there is not overwritten.
     InPlace { path: PathBuf, append: bool },
+    /// `/dev/stdout` (or `/dev/fd/1`, `/proc/self/fd/1`): written through the process's own
+    /// standard output, so the file then keeps its order with what the command prints after
+    /// it, whatever standard output is (a pipe, a terminal, a file opened by `>`); a reader
+    /// that quit ends the write quietly, as for [`emit`].
+    Stdout,
 }
 
 /// Decide where `path` is written, and check that it can be: refuses a directory, a block
@@ -90,6 +95,12 @@ pub fn prepare(path: &Path) -> Result<Target, String> {
     use std::os::unix::fs::FileTypeExt;
     if path.as_os_str().is_empty() {
         return Err("the file name is empty".into());
+    }
+    if ["/dev/stdout", "/dev/fd/1", "/proc/self/fd/1"]
+        .iter()
+        .any(|p| path == Path::new(p))
+    {
+        return Ok(Target::Stdout);
     }
     let (real, special) = resolve_links(path)?;
     match std::fs::metadata(path) {
@@ -157,10 +168,31 @@ pub fn write_atomic(path: &Path, text: &str) -> std::io::Result<()> {
 /// [`OutputFile::commit`]. Dropped without a commit, the temporary file is removed and the
 /// destination is left as it was.
 pub struct OutputFile {
-    file: File,
+    file: Sink,
     temp: Option<TempFile>,
     dest: PathBuf,
     permissions: Option<Permissions>,
+}
+
+/// Where the bytes of an [`OutputFile`] go.
+enum Sink {
+    File(File),
+    Stdout(std::io::Stdout),
+}
+
+impl Write for Sink {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        match self {
+            Sink::File(f) => f.write(buf),
+            Sink::Stdout(o) => o.write(buf),
+        }
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        match self {
+            Sink::File(f) => f.flush(),
+            Sink::Stdout(o) => o.flush(),
+        }
+    }
 }
 
 impl OutputFile {
@@ -169,7 +201,7 @@ impl OutputFile {
             Target::Replace { path, permissions } => {
                 let (temp, file) = TempFile::create(&directory_of(path))?;
                 Ok(OutputFile {
-                    file,
+                    file: Sink::File(file),
                     temp: Some(temp),
                     dest: path.clone(),
                     permissions: permissions.clone(),
@@ -182,30 +214,48 @@ impl OutputFile {
                     .open(path)
                     .map_err(|e| reason(&e))?;
                 Ok(OutputFile {
-                    file,
+                    file: Sink::File(file),
                     temp: None,
                     dest: path.clone(),
                     permissions: None,
                 })
             }
+            Target::Stdout => Ok(OutputFile {
+                file: Sink::Stdout(std::io::stdout()),
+                temp: None,
+                dest: PathBuf::from("/dev/stdout"),
+                permissions: None,
+            }),
         }
     }
 
     /// Write `text` and [`commit`](OutputFile::commit).
     pub fn finish(mut self, text: &str) -> Result<(), String> {
-        self.file
-            .write_all(text.as_bytes())
-            .map_err(|e| reason(&e))?;
-        self.commit()
+        match self.file.write_all(text.as_bytes()) {
+            Ok(()) => self.commit(),
+            Err(e) if self.reader_quit(&e) => Ok(()),
+            Err(e) => Err(reason(&e)),
+        }
+    }
+
+    /// A broken pipe on standard output: the reader quit, which ends the write quietly.
+    fn reader_quit(&self, e: &std::io::Error) -> bool {
+        matches!(self.file, Sink::Stdout(_)) && e.kind() == std::io::ErrorKind::BrokenPipe
     }
 
     /// Finish the file: flush it, and for a regular file move it into place.
     pub fn commit(mut self) -> Result<(), String> {
-        self.file.flush().map_err(|e| reason(&e))?;
+        match self.file.flush() {
+            Ok(()) => {}
+            Err(e) if self.reader_quit(&e) => return Ok(()),
+            Err(e) => return Err(reason(&e)),
+        }
         if let Some(temp) = self.temp.take() {
             // A full disk may only show at the sync (delayed allocation): check it before the
             // rename, so a short file never replaces a good one.
-            self.file.sync_all().map_err(|e| reason(&e))?;
+            if let Sink::File(f) = &self.file {
+                f.sync_all().map_err(|e| reason(&e))?;
+            }
             if let Some(p) = &self.permissions {
                 std::fs::set_permissions(&temp.path, p.clone()).map_err(|e| reason(&e))?;
             }
