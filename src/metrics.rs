@@ -10,28 +10,42 @@
 //! - overall selectivity of the desired D over another product U: S_D/U = (F_D − F_D0)/(F_U − F_U0);
 //! - instantaneous selectivity along the reactor: R_D/R_U, the net rates of formation.
 //! - element balance closure: |Σ_j a_ej F_j − Σ_j a_ej F_j0| / Σ_j a_ej F_j0 for each element e.
+//!
+//! A yield or selectivity that has no meaning is "not defined" with the reason, never a number:
+//! the key reactant net produced (autocatalysis) or not consumed (the denominator of Y is ~0), a
+//! "product" that was fed and is net consumed, a selectivity whose two products were not both
+//! formed. An amount formed or consumed within `ROUND_OFF` of the total feed is round-off and
+//! counts as zero (an explicit rule, not a clip: the printed state still shows the number).
 
 use crate::model::Network;
 use serde::Serialize;
+
+/// An amount formed or consumed smaller than this fraction of the total feed is round-off of
+/// the integration and counts as zero in the ratios below.
+pub const ROUND_OFF: f64 = 1e-13;
 
 /// The yield of one product.
 #[derive(Debug, Clone, Serialize)]
 pub struct Yield {
     pub species: String,
-    /// On the key reactant consumed (None when none was consumed).
+    /// On the key reactant consumed (None when not defined; `not_defined` says why).
     pub on_key: Option<f64>,
     /// "stoichiometric (reaction ID)" or "molar".
     pub basis: String,
-    /// On the key reactant fed.
-    pub on_feed: f64,
+    /// On the key reactant fed (None when the product is net consumed).
+    pub on_feed: Option<f64>,
+    /// Why `on_key` (and `on_feed`, when it too is None) has no value.
+    pub not_defined: Option<String>,
 }
 
 /// One selectivity of the desired product over another.
 #[derive(Debug, Clone, Serialize)]
 pub struct Selectivity {
     pub over: String,
-    /// None when the other product is not formed (infinite selectivity).
+    /// None when not defined; `not_defined` says why (e.g. the other product is not formed,
+    /// so the ratio is unbounded).
     pub value: Option<f64>,
+    pub not_defined: Option<String>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -74,9 +88,66 @@ pub fn yield_ratio(net: &Network, j: usize) -> Option<(usize, f64)> {
     }
 }
 
-/// Selectivity ratio, None when the denominator is not formed beyond round-off of the total.
-fn ratio(num: f64, den: f64, scale: f64) -> Option<f64> {
-    (den.abs() > 1e-13 * scale).then(|| num / den)
+/// An amount formed (or consumed), zero within round-off of the total feed.
+pub fn formed(delta: f64, total: f64) -> f64 {
+    if delta.abs() <= ROUND_OFF * total {
+        0.0
+    } else {
+        delta
+    }
+}
+
+/// The yield of product j on the key reactant: (value on the key consumed, on the key fed,
+/// why not defined). `made` = F_j − F_j0, `consumed` = F_A0 − F_A, both already through [`formed`].
+pub fn yield_value(
+    net: &Network,
+    j: usize,
+    made: f64,
+    consumed: f64,
+    factor: f64,
+) -> (Option<f64>, Option<f64>, Option<String>) {
+    let key = &net.species[net.key].name;
+    let name = &net.species[j].name;
+    let fed = net.feed.amounts[net.key];
+    if made < 0.0 {
+        let why = format!("`{name}` is fed and net consumed");
+        return (None, None, Some(why));
+    }
+    let on_feed = (fed > 0.0).then(|| made / fed);
+    if consumed < 0.0 {
+        return (
+            None,
+            on_feed,
+            Some(format!("the key reactant `{key}` is net produced")),
+        );
+    }
+    if consumed == 0.0 {
+        return (None, on_feed, Some(format!("no `{key}` consumed")));
+    }
+    (Some(made * factor / consumed), on_feed, None)
+}
+
+/// The overall selectivity of D over U from their amounts formed (already through [`formed`]).
+pub fn selectivity_value(
+    d_name: &str,
+    u_name: &str,
+    made_d: f64,
+    made_u: f64,
+) -> (Option<f64>, Option<String>) {
+    if made_d < 0.0 {
+        (None, Some(format!("`{d_name}` is fed and net consumed")))
+    } else if made_u < 0.0 {
+        (None, Some(format!("`{u_name}` is fed and net consumed")))
+    } else if made_u == 0.0 && made_d == 0.0 {
+        (
+            None,
+            Some(format!("neither `{d_name}` nor `{u_name}` formed")),
+        )
+    } else if made_u == 0.0 {
+        (None, Some(format!("`{u_name}` not formed: unbounded")))
+    } else {
+        (Some(made_d / made_u), None)
+    }
 }
 
 /// Metrics of an outlet state against the feed.
@@ -90,19 +161,22 @@ pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
     } else {
         f64::NAN
     };
+    let consumed_net = formed(consumed, total);
     let yields = products(net)
         .into_iter()
         .map(|j| {
-            let made = outlet[j] - f0[j];
+            let made = formed(outlet[j] - f0[j], total);
             let (basis, factor) = match yield_ratio(net, j) {
                 Some((i, k)) => (format!("stoichiometric ({})", net.reactions[i].id), k),
                 None => ("molar".to_string(), 1.0),
             };
+            let (on_key, on_feed, not_defined) = yield_value(net, j, made, consumed_net, factor);
             Yield {
                 species: net.species[j].name.clone(),
-                on_key: ratio(made * factor, consumed, total),
+                on_key,
                 basis,
-                on_feed: if f0[a] > 0.0 { made / f0[a] } else { f64::NAN },
+                on_feed,
+                not_defined,
             }
         })
         .collect();
@@ -113,9 +187,18 @@ pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
             products(net)
                 .into_iter()
                 .filter(|&u| u != d)
-                .map(|u| Selectivity {
-                    over: net.species[u].name.clone(),
-                    value: ratio(outlet[d] - f0[d], outlet[u] - f0[u], total),
+                .map(|u| {
+                    let (value, not_defined) = selectivity_value(
+                        &net.species[d].name,
+                        &net.species[u].name,
+                        formed(outlet[d] - f0[d], total),
+                        formed(outlet[u] - f0[u], total),
+                    );
+                    Selectivity {
+                        over: net.species[u].name.clone(),
+                        value,
+                        not_defined,
+                    }
                 })
                 .collect(),
         ),
@@ -199,6 +282,8 @@ pub fn instantaneous_selectivity(
             Selectivity {
                 over: net.species[u].name.clone(),
                 value: (ru.abs() > 1e-300).then(|| rd / ru),
+                not_defined: (ru.abs() <= 1e-300)
+                    .then(|| format!("`{}` not being formed", net.species[u].name)),
             }
         })
         .collect()

@@ -7,8 +7,15 @@
 //! value_SI = value * factor + offset
 //! ```
 //!
-//! The offset is non-zero only for the affine temperature unit `degC`
-//! (T/K = t/°C + 273.15, NIST SP 811 §4.2.1.1), which is therefore only accepted alone.
+//! The offset is non-zero only for the affine units: the temperatures `degC`
+//! (T/K = t/°C + 273.15, NIST SP 811 §4.2.1.1) and `degF` (T/K = (t/°F + 459.67)/1.8,
+//! NIST SP 811 App. B.9), and the gauge pressures `barg` and `psig` (absolute = gauge + one
+//! standard atmosphere, 101 325 Pa). An affine unit is only accepted alone, as the unit of a
+//! plain quantity (`25 degC`, `2 barg`): inside a compound unit (`degF/s`, `mol/(m3*s*barg)`)
+//! the offset has no meaning, and the parser refuses it with the unit to use instead.
+//!
+//! Dimension errors are worded for people with [`describe`] and [`dimension_mismatch`]:
+//! "got kJ (energy), expected kJ/mol (energy per amount)", never SI base exponents alone.
 //!
 //! # Unit grammar
 //!
@@ -297,9 +304,15 @@ pub enum UnitError {
         input: String,
     },
     #[error(
-        "`degC` in `{input}`: degC has an offset (T/K = t/°C + 273.15) and is only accepted alone, e.g. `25 degC`; use K for temperature differences and rates such as `K/min`"
+        "`{name}` in `{input}`: {name} has an offset ({relation}) and is only accepted alone, e.g. `{example}`; {advice}"
     )]
-    AffineCombined { input: String },
+    AffineCombined {
+        name: String,
+        input: String,
+        relation: &'static str,
+        example: &'static str,
+        advice: &'static str,
+    },
     #[error("unit `{input}` overflows: its SI factor or dimension exponents are not finite")]
     Overflow { input: String },
     #[error("unit `{input}` nests parentheses deeper than {MAX_DEPTH} levels")]
@@ -309,7 +322,11 @@ pub enum UnitError {
 }
 
 fn suggestion_text(s: &Option<String>) -> String {
-    match s {
+    match s.as_deref() {
+        Some(s @ ("degC" | "degF")) => format!(
+            "; did you mean `{s}`? (temperatures on the {} scale are written `{s}`, e.g. `37 {s}`)",
+            if s == "degC" { "Celsius" } else { "Fahrenheit" }
+        ),
         Some(s) => format!("; did you mean `{s}`?"),
         None => String::new(),
     }
@@ -330,6 +347,23 @@ const fn def(name: &'static str, factor: f64, dim: Dim) -> UnitDef {
 const PSI: f64 = 0.453_592_37 * 9.806_65 / (0.0254 * 0.0254);
 /// Thermochemical calorie, exactly 4.184 J (NIST SP 811 App. B.8).
 const CAL_TH: f64 = 4.184;
+/// Pound (avoirdupois), exactly 0.453 592 37 kg (NIST SP 811 App. B.8).
+const LB: f64 = 0.453_592_37;
+/// Foot, exactly 0.3048 m (NIST SP 811 App. B.8).
+const FT: f64 = 0.3048;
+/// US liquid gallon, exactly 231 in³ = 3.785 411 784e-3 m³ (NIST SP 811 App. B.8 lists
+/// 3.785 412 E-03).
+const GAL_US: f64 = 3.785_411_784e-3;
+/// Standard atmosphere, exactly 101 325 Pa (NIST SP 811 App. B.8): the atmosphere added to a
+/// gauge reading (`barg`, `psig`) to give the absolute pressure.
+pub const STANDARD_ATMOSPHERE: f64 = 101_325.0;
+/// Torr, exactly 101 325/760 Pa (NIST SP 811 App. B.8 lists 1.333 224 E+02).
+const TORR: f64 = STANDARD_ATMOSPHERE / 760.0;
+/// Conventional millimetre of mercury, 13.5951 g/cm³ × 9.806 65 m/s² × 1 mm
+/// = 133.322 387 415 Pa (NIST SP 811 App. B.8 lists 1.333 224 E+02).
+const MMHG: f64 = 13_595.1 * 9.806_65 * 1e-3;
+/// Kelvin per degree Rankine or Fahrenheit: T/K = (T/°R)/1.8 (NIST SP 811 App. B.9).
+const PER_RANKINE: f64 = 1.0 / 1.8;
 
 /// Known units. Factors are exact by definition; see NIST SP 811 App. B.8 and the SI
 /// prefixes (SP 811 Table 5). `degC` is handled separately because of its offset.
@@ -340,25 +374,39 @@ const UNITS: &[UnitDef] = &[
     def("s", 1.0, Dim::TIME),
     def("min", 60.0, Dim::TIME),
     def("h", 3600.0, Dim::TIME),
+    def("hr", 3600.0, Dim::TIME),
     def("m", 1.0, Dim::LENGTH),
     def("km", 1e3, Dim::LENGTH),
     def("dm", 1e-1, Dim::LENGTH),
     def("cm", 1e-2, Dim::LENGTH),
     def("mm", 1e-3, Dim::LENGTH),
+    def("ft", FT, Dim::LENGTH),
     def("L", 1e-3, Dim::volume()),
     def("l", 1e-3, Dim::volume()),
     def("mL", 1e-6, Dim::volume()),
     def("ml", 1e-6, Dim::volume()),
+    def("gal", GAL_US, Dim::volume()),
     def("kg", 1.0, Dim::MASS),
     def("g", 1e-3, Dim::MASS),
+    def("lb", LB, Dim::MASS),
+    // Pound-mole: the amount whose mass in pounds equals the molar mass in g/mol, i.e.
+    // 453.592 37 mol (common practice; lb from NIST SP 811 App. B.8).
+    def("lbmol", LB * 1e3, Dim::AMOUNT),
     def("K", 1.0, Dim::TEMPERATURE),
+    def("degR", PER_RANKINE, Dim::TEMPERATURE),
+    def("°R", PER_RANKINE, Dim::TEMPERATURE),
     def("Pa", 1.0, Dim::pressure()),
     def("kPa", 1e3, Dim::pressure()),
     def("MPa", 1e6, Dim::pressure()),
     def("bar", 1e5, Dim::pressure()),
+    def("bara", 1e5, Dim::pressure()),
     def("mbar", 1e2, Dim::pressure()),
     def("atm", 101_325.0, Dim::pressure()),
     def("psi", PSI, Dim::pressure()),
+    def("psia", PSI, Dim::pressure()),
+    def("torr", TORR, Dim::pressure()),
+    def("Torr", TORR, Dim::pressure()),
+    def("mmHg", MMHG, Dim::pressure()),
     def("J", 1.0, Dim::energy()),
     def("kJ", 1e3, Dim::energy()),
     def("MJ", 1e6, Dim::energy()),
@@ -369,15 +417,147 @@ const UNITS: &[UnitDef] = &[
     def("N", 1.0, Dim::force()),
 ];
 
-const DEG_C_NAMES: [&str; 2] = ["degC", "°C"];
-/// Offset of the Celsius scale: T/K = t/°C + 273.15 (NIST SP 811 §4.2.1.1).
-const DEG_C_OFFSET: f64 = 273.15;
+/// A unit with an offset: `si = value * factor + offset`. Accepted only alone.
+struct AffineDef {
+    name: &'static str,
+    factor: f64,
+    offset: f64,
+    dim: Dim,
+    /// The conversion in words, for messages.
+    relation: &'static str,
+    example: &'static str,
+    /// What to write instead inside a compound unit.
+    advice: &'static str,
+}
+
+const CELSIUS_RELATION: &str = "T/K = t/°C + 273.15";
+const CELSIUS_ADVICE: &str = "use K for temperature differences and rates such as `K/min`";
+const FAHRENHEIT_RELATION: &str = "T/K = (t/°F + 459.67)/1.8";
+const FAHRENHEIT_ADVICE: &str =
+    "use degR (or K) for temperature differences and rates such as `degR/min`";
+const GAUGE_RELATION: &str = "absolute = gauge + 101325 Pa, the standard atmosphere";
+
+/// Affine units. Celsius: T/K = t/°C + 273.15 (NIST SP 811 §4.2.1.1); Fahrenheit:
+/// T/K = (t/°F + 459.67)/1.8 (NIST SP 811 App. B.9); gauge pressure: absolute = gauge + one
+/// standard atmosphere (101 325 Pa, NIST SP 811 App. B.8), the usual reference of a gauge.
+const AFFINE: &[AffineDef] = &[
+    AffineDef {
+        name: "degC",
+        factor: 1.0,
+        offset: 273.15,
+        dim: Dim::TEMPERATURE,
+        relation: CELSIUS_RELATION,
+        example: "25 degC",
+        advice: CELSIUS_ADVICE,
+    },
+    AffineDef {
+        name: "°C",
+        factor: 1.0,
+        offset: 273.15,
+        dim: Dim::TEMPERATURE,
+        relation: CELSIUS_RELATION,
+        example: "25 °C",
+        advice: CELSIUS_ADVICE,
+    },
+    AffineDef {
+        name: "degF",
+        factor: PER_RANKINE,
+        offset: 459.67 * PER_RANKINE,
+        dim: Dim::TEMPERATURE,
+        relation: FAHRENHEIT_RELATION,
+        example: "100 degF",
+        advice: FAHRENHEIT_ADVICE,
+    },
+    AffineDef {
+        name: "°F",
+        factor: PER_RANKINE,
+        offset: 459.67 * PER_RANKINE,
+        dim: Dim::TEMPERATURE,
+        relation: FAHRENHEIT_RELATION,
+        example: "100 °F",
+        advice: FAHRENHEIT_ADVICE,
+    },
+    AffineDef {
+        name: "barg",
+        factor: 1e5,
+        offset: STANDARD_ATMOSPHERE,
+        dim: Dim::pressure(),
+        relation: GAUGE_RELATION,
+        example: "2 barg",
+        advice: "inside a compound unit write the absolute `bar`, e.g. `mol/(m3*s*bar)`",
+    },
+    AffineDef {
+        name: "psig",
+        factor: PSI,
+        offset: STANDARD_ATMOSPHERE,
+        dim: Dim::pressure(),
+        relation: GAUGE_RELATION,
+        example: "30 psig",
+        advice: "inside a compound unit write the absolute `psi`",
+    },
+];
+
+fn affine(name: &str) -> Option<&'static AffineDef> {
+    AFFINE.iter().find(|a| a.name == name)
+}
+
+/// Whether `unit` is a gauge-pressure unit (`barg`, `psig`): its reading is converted to an
+/// absolute pressure by adding one standard atmosphere, [`STANDARD_ATMOSPHERE`].
+pub fn is_gauge(unit: &str) -> bool {
+    matches!(unit.trim(), "barg" | "psig")
+}
+
+/// For a quantity given in a gauge unit, the sentence saying how it was converted, e.g.
+/// "`2 barg` is a gauge reading: absolute pressure = 2e5 Pa + 101325 Pa (standard atmosphere)
+/// = 301325 Pa"; `None` for any other quantity (including text that does not parse).
+pub fn gauge_note(text: &str) -> Option<String> {
+    let t = text.trim();
+    let n = number_prefix_len(t);
+    if n == 0 || !is_gauge(&t[n..]) {
+        return None;
+    }
+    let q = parse_quantity(t).ok()?;
+    let gauge = q.si - STANDARD_ATMOSPHERE;
+    Some(format!(
+        "`{t}` is a gauge reading: absolute pressure = {} Pa + {} Pa (standard atmosphere) = {} Pa",
+        format_number(gauge),
+        format_number(STANDARD_ATMOSPHERE),
+        format_number(q.si)
+    ))
+}
 
 fn known_units() -> String {
-    let mut names: Vec<&str> = UNITS.iter().map(|u| u.name).collect();
-    names.push("degC (alone)");
+    let mut names: Vec<String> = UNITS.iter().map(|u| u.name.to_string()).collect();
+    names.extend(
+        AFFINE
+            .iter()
+            .filter(|a| a.name.is_ascii())
+            .map(|a| format!("{} (alone)", a.name)),
+    );
     names.join(", ")
 }
+
+/// Names people write for a unit this parser spells differently: (written, meant).
+/// `C` and `F` alone would be the coulomb and the farad, which no study uses; a temperature
+/// is meant.
+const MISSPELLINGS: &[(&str, &str)] = &[
+    ("C", "degC"),
+    ("oC", "degC"),
+    ("Celsius", "degC"),
+    ("F", "degF"),
+    ("oF", "degF"),
+    ("Fahrenheit", "degF"),
+    ("R", "degR"),
+    ("Rankine", "degR"),
+    ("degK", "K"),
+    ("°K", "K"),
+    ("lbm", "lb"),
+    ("lbs", "lb"),
+    ("kgmol", "kmol"),
+    ("gallon", "gal"),
+    ("feet", "ft"),
+    ("hrs", "hr"),
+];
 
 /// Levenshtein distance over chars (inputs are short unit names).
 fn edit_distance(a: &str, b: &str) -> usize {
@@ -398,10 +578,13 @@ fn edit_distance(a: &str, b: &str) -> usize {
 /// A close known unit name: same letters ignoring case first, else the nearest name within
 /// two edits (and fewer edits than the name has characters).
 fn suggest_unit(name: &str) -> Option<String> {
+    if let Some((_, meant)) = MISSPELLINGS.iter().find(|(w, _)| *w == name) {
+        return Some(meant.to_string());
+    }
     let all = UNITS
         .iter()
         .map(|u| u.name)
-        .chain(DEG_C_NAMES.iter().copied());
+        .chain(AFFINE.iter().map(|a| a.name));
     if let Some(hit) = all
         .clone()
         .find(|k| k.to_lowercase() == name.to_lowercase())
@@ -737,9 +920,13 @@ impl Parser<'_> {
     }
 
     fn lookup(&self, name: &str) -> Result<Fd, UnitError> {
-        if DEG_C_NAMES.contains(&name) {
+        if let Some(a) = affine(name) {
             return Err(UnitError::AffineCombined {
+                name: a.name.to_string(),
                 input: self.input.to_string(),
+                relation: a.relation,
+                example: a.example,
+                advice: a.advice,
             });
         }
         match UNITS.iter().find(|u| u.name == name) {
@@ -791,11 +978,11 @@ fn parse_unit_uncached(s: &str) -> Result<Unit, UnitError> {
     if trimmed.is_empty() {
         return Err(UnitError::Empty);
     }
-    if DEG_C_NAMES.contains(&trimmed) {
+    if let Some(a) = affine(trimmed) {
         return Ok(Unit {
-            factor: 1.0,
-            dim: Dim::TEMPERATURE,
-            offset: DEG_C_OFFSET,
+            factor: a.factor,
+            dim: a.dim,
+            offset: a.offset,
         });
     }
     let toks = tokenize(trimmed)?;
@@ -921,6 +1108,197 @@ pub fn format_si(value: f64, dim: Dim) -> String {
     }
 }
 
+/// Named dimensions: (dimension, words, example unit). The first match wins.
+fn named_dimensions() -> [(Dim, &'static str, &'static str); 29] {
+    let amount_rate = Dim::AMOUNT.div(Dim::TIME);
+    [
+        (Dim::NONE, "dimensionless", "1"),
+        (Dim::MASS, "mass", "kg"),
+        (Dim::LENGTH, "length", "m"),
+        (Dim::LENGTH.powf(2.0), "area", "m2"),
+        (Dim::volume(), "volume", "m3"),
+        (Dim::TIME, "time", "s"),
+        (Dim::AMOUNT, "amount", "mol"),
+        (Dim::TEMPERATURE, "temperature", "K"),
+        (Dim::pressure(), "pressure", "bar"),
+        (Dim::energy(), "energy", "kJ"),
+        (Dim::power(), "power", "kW"),
+        (Dim::force(), "force", "N"),
+        (
+            Dim::concentration(),
+            "amount per volume, a concentration",
+            "mol/L",
+        ),
+        (amount_rate, "amount per time, a molar flow", "mol/s"),
+        (
+            Dim::volume().div(Dim::TIME),
+            "volume per time, a volumetric flow",
+            "L/min",
+        ),
+        (
+            Dim::MASS.div(Dim::TIME),
+            "mass per time, a mass flow",
+            "kg/h",
+        ),
+        (
+            Dim::energy().div(Dim::AMOUNT),
+            "energy per amount",
+            "kJ/mol",
+        ),
+        (
+            Dim::energy().div(Dim::AMOUNT).div(Dim::TEMPERATURE),
+            "energy per amount and temperature",
+            "J/(mol*K)",
+        ),
+        (
+            Dim::MASS.div(Dim::AMOUNT),
+            "mass per amount, a molar mass",
+            "g/mol",
+        ),
+        (
+            Dim::MASS.div(Dim::volume()),
+            "mass per volume, a density",
+            "kg/m3",
+        ),
+        (Dim::AMOUNT.div(Dim::MASS), "amount per mass", "mol/kg"),
+        (
+            Dim::TIME.powf(-1.0),
+            "per time, a first-order rate constant",
+            "1/s",
+        ),
+        (Dim::MASS.powf(-1.0), "per mass", "1/kg"),
+        (Dim::pressure().powf(-1.0), "per pressure", "1/bar"),
+        (
+            Dim::concentration().powf(-1.0),
+            "volume per amount",
+            "L/mol",
+        ),
+        (
+            Dim::concentration().div(Dim::TIME),
+            "amount per volume and time, a volumetric rate",
+            "mol/(m3*s)",
+        ),
+        (
+            amount_rate.div(Dim::MASS),
+            "amount per mass and time, a rate per catalyst mass",
+            "mol/(kg*s)",
+        ),
+        (
+            Dim::volume().div(Dim::AMOUNT).div(Dim::TIME),
+            "volume per amount and time, a second-order rate constant",
+            "L/(mol*s)",
+        ),
+        (
+            Dim::pressure().mul(Dim::TIME),
+            "pressure times time, a viscosity",
+            "Pa*s",
+        ),
+    ]
+}
+
+/// Words for one base dimension raised to `p`.
+fn base_words(name: &str, p: f64) -> String {
+    match (name, fmt_exponent(p.abs()).as_str()) {
+        ("length", "2") => "area".into(),
+        ("length", "3") => "volume".into(),
+        (n, "1") => n.into(),
+        (n, e) => format!("{n}^{e}"),
+    }
+}
+
+/// The dimension in words, e.g. "energy per amount", "pressure", "amount per volume, a
+/// concentration"; a dimension without a common name is spelt out from the base dimensions
+/// ("volume^1.5 per amount^0.5 and time"), with pressure factored out where it occurs
+/// ("amount per volume and time per pressure^2").
+pub fn describe(d: Dim) -> String {
+    if let Some((_, words, _)) = named_dimensions().iter().find(|(n, _, _)| n.approx_eq(d)) {
+        return (*words).to_string();
+    }
+    // A rate or constant in partial pressures: d = X / pressure^p with X named.
+    for p in 1..=6 {
+        let x = d.mul(Dim::pressure().powf(f64::from(p)));
+        if let Some((_, words, _)) = named_dimensions().iter().find(|(n, _, _)| n.approx_eq(x)) {
+            // Prefer the short name after the comma ("a volumetric rate") when there is one.
+            let words = match words.split_once(", ") {
+                Some((_, short)) => short.trim_start_matches("a "),
+                None => words,
+            };
+            let sep = if words.contains(" per ") { ", " } else { " " };
+            return if p == 1 {
+                format!("{words}{sep}per pressure")
+            } else {
+                format!("{words}{sep}per pressure^{p}")
+            };
+        }
+    }
+    let c = [
+        ("mass", d.mass),
+        ("length", d.length),
+        ("amount", d.amount),
+        ("temperature", d.temperature),
+        ("time", d.time),
+    ];
+    let up: Vec<String> = c
+        .iter()
+        .filter(|(_, p)| *p > DIM_TOL)
+        .map(|(n, p)| base_words(n, *p))
+        .collect();
+    let down: Vec<String> = c
+        .iter()
+        .filter(|(_, p)| *p < -DIM_TOL)
+        .map(|(n, p)| base_words(n, *p))
+        .collect();
+    let join = |v: &[String]| match v.len() {
+        0 => String::new(),
+        1 => v[0].clone(),
+        n => format!("{} and {}", v[..n - 1].join(", "), v[n - 1]),
+    };
+    match (up.is_empty(), down.is_empty()) {
+        (false, true) => join(&up),
+        (true, false) => format!("per {}", join(&down)),
+        _ => format!("{} per {}", join(&up), join(&down)),
+    }
+}
+
+/// A unit of dimension `d` a person would write: the example unit of a named dimension
+/// (`kJ/mol`), else the SI form of [`Dim`]'s `Display` (`m^1.5 mol^-0.5 s^-1`).
+pub fn example_unit(d: Dim) -> String {
+    match named_dimensions().iter().find(|(n, _, _)| n.approx_eq(d)) {
+        Some((_, _, u)) => (*u).to_string(),
+        None => d.to_string(),
+    }
+}
+
+/// The message for a quantity of the wrong dimension, in the user's units:
+/// "got kJ (energy), expected kJ/mol (energy per amount)".
+///
+/// `got_unit` is the unit as the user wrote it (empty for a bare number); `want_unit` an
+/// example unit of the expected dimension as the user would write it (empty: one is chosen
+/// with [`example_unit`]).
+pub fn dimension_mismatch(got_unit: &str, got: Dim, want_unit: &str, want: Dim) -> String {
+    let got_text = if got_unit.trim().is_empty() {
+        "a bare number".to_string()
+    } else {
+        got_unit.trim().to_string()
+    };
+    let want_text = if want_unit.trim().is_empty() {
+        example_unit(want)
+    } else {
+        want_unit.trim().to_string()
+    };
+    format!(
+        "got {got_text} ({}), expected {want_text} ({})",
+        describe(got),
+        describe(want)
+    )
+}
+
+/// The unit part of a quantity as written: `"4 kJ/mol"` → `"kJ/mol"`, `"12"` → `""`.
+pub fn unit_text(quantity: &str) -> &str {
+    let t = quantity.trim();
+    t[number_prefix_len(t)..].trim()
+}
+
 fn trim_fraction(s: &str) -> &str {
     if s.contains('.') {
         s.trim_end_matches('0').trim_end_matches('.')
@@ -1030,6 +1408,220 @@ mod tests {
         // Same value from its exact definitions (lb = 0.453 592 37 kg, g_n = 9.806 65 m/s2,
         // in = 0.0254 m; NIST SP 811 App. B.8/B.9): 6894.757 293 168 Pa.
         assert!(close(psi.factor, 6_894.757_293_168, 1e-12));
+    }
+
+    #[test]
+    fn engineering_units_nist_sp811() {
+        // Each factor as NIST SP 811 (2008) App. B.8 prints it (7 significant digits), and
+        // from the exact definition where there is one.
+        // hour = 3.6 E+03 s (exact).
+        assert_unit("hr", 3600.0, Dim::TIME);
+        // foot = 3.048 E-01 m (exact).
+        assert_unit("ft", 0.3048, Dim::LENGTH);
+        // cubic foot = 2.831 685 E-02 m3; exactly 0.3048^3 = 0.028 316 846 592.
+        let ft3 = unit("ft3");
+        assert!(
+            close(ft3.factor, 2.831_685e-2, 5e-7),
+            "ft3 = {}",
+            ft3.factor
+        );
+        assert_unit("ft3", 0.028_316_846_592, Dim::volume());
+        // gallon (U.S.) = 3.785 412 E-03 m3; exactly 231 in3 = 3.785 411 784e-3 m3.
+        let gal = unit("gal");
+        assert!(
+            close(gal.factor, 3.785_412e-3, 5e-7),
+            "gal = {}",
+            gal.factor
+        );
+        assert_unit("gal", 231.0 * 0.0254_f64.powi(3), Dim::volume());
+        // pound (avoirdupois) = 4.535 924 E-01 kg; exactly 0.453 592 37 kg.
+        let lb = unit("lb");
+        assert!(close(lb.factor, 4.535_924e-1, 5e-7));
+        assert_unit("lb", 0.453_592_37, Dim::MASS);
+        // pound-mole = 453.592 37 mol (common practice: lb in g over 1 g/mol).
+        assert_unit("lbmol", 453.592_37, Dim::AMOUNT);
+        // torr = 1.333 224 E+02 Pa; exactly 101 325/760 Pa.
+        let torr = unit("torr");
+        assert!(
+            close(torr.factor, 1.333_224e2, 5e-7),
+            "torr = {}",
+            torr.factor
+        );
+        assert_unit("torr", 101_325.0 / 760.0, Dim::pressure());
+        assert_unit("Torr", 101_325.0 / 760.0, Dim::pressure());
+        // millimeter of mercury, conventional = 1.333 224 E+02 Pa (133.322 387 415 Pa).
+        let mmhg = unit("mmHg");
+        assert!(
+            close(mmhg.factor, 1.333_224e2, 5e-7),
+            "mmHg = {}",
+            mmhg.factor
+        );
+        assert_unit("mmHg", 133.322_387_415, Dim::pressure());
+        // psia and bara are the absolute psi and bar.
+        assert_unit("psia", unit("psi").factor, Dim::pressure());
+        assert_unit("bara", 1e5, Dim::pressure());
+        // degree Rankine: T/K = (T/°R)/1.8 (NIST SP 811 App. B.9), no offset, so it may
+        // stand in compound units.
+        assert_unit("degR", 1.0 / 1.8, Dim::TEMPERATURE);
+        assert_unit("°R", 1.0 / 1.8, Dim::TEMPERATURE);
+        assert_unit("degR/min", 1.0 / 108.0, Dim::TEMPERATURE.div(Dim::TIME));
+        // Compounds through the parser: kmol/h = 1e3/3600 mol/s (hour, App. B.8).
+        assert_unit("kmol/h", 1e3 / 3600.0, Dim::AMOUNT.div(Dim::TIME));
+        assert_unit("kmol/hr", 1e3 / 3600.0, Dim::AMOUNT.div(Dim::TIME));
+        assert_unit("lbmol/hr", 453.592_37 / 3600.0, Dim::AMOUNT.div(Dim::TIME));
+        assert_unit("kg/h", 1.0 / 3600.0, Dim::MASS.div(Dim::TIME));
+        assert_unit("lb/hr", 0.453_592_37 / 3600.0, Dim::MASS.div(Dim::TIME));
+        assert_unit(
+            "gal/min",
+            3.785_411_784e-3 / 60.0,
+            Dim::volume().div(Dim::TIME),
+        );
+        assert_unit(
+            "ft3/min",
+            0.028_316_846_592 / 60.0,
+            Dim::volume().div(Dim::TIME),
+        );
+        assert_unit(
+            "lbmol/ft3",
+            453.592_37 / 0.028_316_846_592,
+            Dim::concentration(),
+        );
+        // cal_th/(lb degR) = 4.184/(0.453 592 37/1.8) J/(kg K) = 16.6 J/(kg K).
+        assert_unit(
+            "cal/(lb*degR)",
+            4.184 * 1.8 / 0.453_592_37,
+            Dim::energy().div(Dim::MASS).div(Dim::TEMPERATURE),
+        );
+    }
+
+    #[test]
+    fn fahrenheit_and_gauge_offsets() {
+        // NIST SP 811 App. B.9: T/K = (t/°F + 459.67)/1.8. 212 °F = 373.15 K, 32 °F =
+        // 273.15 K, -459.67 °F = 0 K.
+        for (f, k) in [
+            ("212 degF", 373.15),
+            ("32 degF", 273.15),
+            ("98.6 °F", 310.15),
+        ] {
+            let q = parse_quantity(f).unwrap();
+            assert!(close(q.si, k, 1e-13), "{f} = {} K", q.si);
+            assert!(q.dim.approx_eq(Dim::TEMPERATURE));
+        }
+        assert!(parse_quantity("-459.67 degF").unwrap().si.abs() < 1e-12);
+        // 671.67 °R = 373.15 K (T/K = (T/°R)/1.8, App. B.9).
+        assert!(close(
+            parse_quantity("671.67 degR").unwrap().si,
+            373.15,
+            1e-13
+        ));
+        // Gauge: absolute = gauge + 101 325 Pa (standard atmosphere, App. B.8).
+        let q = parse_quantity("2 barg").unwrap();
+        assert!(close(q.si, 301_325.0, 1e-15));
+        assert!(q.dim.approx_eq(Dim::pressure()));
+        assert_eq!(parse_quantity("0 barg").unwrap().si, 101_325.0);
+        // 14.695 949 psi is one standard atmosphere: 0 psig = 14.695 949 psia (App. B.8).
+        let q = parse_quantity("30 psig").unwrap();
+        assert!(close(q.si, 30.0 * 6_894.757_293_168 + 101_325.0, 1e-12));
+        assert!(close(101_325.0 / unit("psi").factor, 14.695_949, 1e-7));
+        // The note says the atmosphere and the result.
+        let note = gauge_note("2 barg").expect("a note for a gauge reading");
+        assert!(note.contains("gauge"), "{note}");
+        assert!(note.contains("101325 Pa (standard atmosphere)"), "{note}");
+        assert!(note.contains("= 301325 Pa"), "{note}");
+        assert_eq!(gauge_note("2 bar"), None);
+        assert_eq!(gauge_note("2 bara"), None);
+        assert!(gauge_note(" 30 psig ").is_some());
+    }
+
+    #[test]
+    fn affine_units_refused_inside_compounds() {
+        for (s, name, hint) in [
+            ("degF/s", "degF", "degR/min"),
+            ("K*degF", "degF", "degR"),
+            ("mol/(m3*s*barg)", "barg", "`bar`"),
+            ("psig^2", "psig", "`psi`"),
+            ("degC/min", "degC", "K/min"),
+        ] {
+            let e = err(s);
+            assert!(
+                matches!(&e, UnitError::AffineCombined { name: n, .. } if n == name),
+                "{s}: {e:?}"
+            );
+            let msg = e.to_string();
+            assert!(msg.contains("only accepted alone"), "{msg}");
+            assert!(msg.contains(hint), "{s}: {msg}");
+        }
+        assert!(err("barg/s").to_string().contains("standard atmosphere"));
+    }
+
+    #[test]
+    fn temperature_letters_suggest_the_scale() {
+        // `37 C` means Celsius: C alone would be the coulomb, which no study uses.
+        let msg = qerr("37 C").to_string();
+        assert!(msg.contains("did you mean `degC`?"), "{msg}");
+        assert!(msg.contains("Celsius"), "{msg}");
+        let msg = qerr("100 F").to_string();
+        assert!(msg.contains("did you mean `degF`?"), "{msg}");
+        let msg = qerr("300 degK").to_string();
+        assert!(msg.contains("did you mean `K`?"), "{msg}");
+        let msg = qerr("3 lbm").to_string();
+        assert!(msg.contains("did you mean `lb`?"), "{msg}");
+        let msg = err("hrs").to_string();
+        assert!(msg.contains("did you mean `hr`?"), "{msg}");
+        let msg = err("furlong").to_string();
+        assert!(
+            msg.contains("degF (alone)") && msg.contains("barg (alone)"),
+            "{msg}"
+        );
+    }
+
+    #[test]
+    fn dimensions_in_words() {
+        let e = Dim::energy();
+        let molar = e.div(Dim::AMOUNT);
+        assert_eq!(
+            dimension_mismatch("kJ", e, "kJ/mol", molar),
+            "got kJ (energy), expected kJ/mol (energy per amount)"
+        );
+        assert_eq!(describe(Dim::pressure()), "pressure");
+        assert_eq!(describe(Dim::TEMPERATURE), "temperature");
+        assert_eq!(describe(Dim::volume()), "volume");
+        assert_eq!(describe(Dim::MASS), "mass");
+        assert_eq!(describe(Dim::TIME), "time");
+        assert_eq!(describe(Dim::AMOUNT), "amount");
+        assert_eq!(
+            describe(Dim::AMOUNT.div(Dim::TIME)),
+            "amount per time, a molar flow"
+        );
+        assert_eq!(
+            describe(Dim::concentration()),
+            "amount per volume, a concentration"
+        );
+        assert_eq!(
+            describe(unit("1/s").dim),
+            "per time, a first-order rate constant"
+        );
+        // Order 1.5: (mol/m3)^-0.5 / s, spelt out from the base dimensions.
+        assert_eq!(
+            describe(unit("(mol/m3)^(-0.5)/s").dim),
+            "length^1.5 per amount^0.5 and time"
+        );
+        // A rate constant in partial pressures, order 2.
+        assert_eq!(
+            describe(unit("mol/(kg*s*bar^2)").dim),
+            "rate per catalyst mass, per pressure^2"
+        );
+        assert_eq!(
+            describe(unit("mol/(m3*s*bar)").dim),
+            "volumetric rate per pressure"
+        );
+        assert_eq!(example_unit(Dim::pressure()), "bar");
+        assert_eq!(
+            dimension_mismatch("", Dim::NONE, "", Dim::TEMPERATURE),
+            "got a bare number (dimensionless), expected K (temperature)"
+        );
+        assert_eq!(unit_text(" 4 kJ/mol "), "kJ/mol");
+        assert_eq!(unit_text("12"), "");
     }
 
     #[test]

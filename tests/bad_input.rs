@@ -221,7 +221,7 @@ fn bare_number_for_k() {
         &[
             "reactions[0].rate.k",
             "bare number 0.001 needs a unit",
-            "m3 mol^-1 s^-1",
+            "m3/(mol*s) (volume per amount and time",
         ],
     );
 }
@@ -259,7 +259,7 @@ fn first_order_units_for_a_second_order_step() {
             "reactions[0].rate.k",
             "wrong dimensions",
             "total order 2",
-            "got s^-1",
+            "got 1/s (per time, a first-order rate constant)",
         ],
     );
 }

@@ -323,7 +323,7 @@ fn size_bounds_with_units_and_the_size_path() {
             "B",
             "--bounds",
             "8 L",
-            "0.1",
+            "0.1 m3",
             "--rtol",
             "1e-11",
         ],
@@ -371,7 +371,7 @@ fn reversed_size_bounds_are_a_command_line_error() {
         2,
     );
     assert!(msg.contains("LO < HI"), "{msg}");
-    for (lo, hi) in [("5 L", "1 L"), ("-1", "0.005")] {
+    for (lo, hi) in [("5 L", "1 L"), ("-1 L", "5 L")] {
         let msg = refused(
             &["optimize", study.p(), "--maximize", "B", "--bounds", lo, hi],
             2,
@@ -418,13 +418,22 @@ fn compare_recasts_reactor_types_at_equal_space_time() {
             1e-7,
             &format!("{kind} yield of B"),
         );
-        // The batch is charged N_j0 = F_j0 τ, so its amount of B is τ times the flow's F_B.
-        let scale = if kind == "batch" { tau } else { 1.0 };
+        // An amount ranks per amount of key fed: F_B/F_A0 for the flows, N_B/N_A0 for the
+        // batch (charged N_j0 = F_j0 τ), the same number for all three.
         ag.check(
             num(&r["rank_value"], "rank_value"),
-            b * scale,
+            b,
             1e-7,
-            &format!("{kind} amount of B"),
+            &format!("{kind} amount of B per A fed"),
+        );
+        // τ = V/v0 for the flows, t for the batch (its size), s.
+        let size = num(&r["size"], "size");
+        let want_t = if kind == "batch" { size } else { size / V0 };
+        ag.check(
+            num(&r["space_time_s"], "space_time_s"),
+            want_t,
+            1e-12,
+            &format!("{kind} τ or t"),
         );
     }
     ag.report();
@@ -603,7 +612,10 @@ fn two_input_optimum_beats_dense_scans() {
         ],
     );
     let t = num(&j["best"]["point"]["feed.T"], "feed.T");
-    let v_l = num(&j["best"]["point"]["reactor.volume"], "reactor.volume");
+    // The point is in SI, its unit beside it.
+    assert_eq!(j["best"]["units"]["reactor.volume"], "m3", "{j}");
+    assert_eq!(j["best"]["units"]["feed.T"], "K", "{j}");
+    let v_l = 1e3 * num(&j["best"]["point"]["reactor.volume"], "reactor.volume");
     let value = num(&j["best"]["value"], "best.value");
     let mut ag = Agreement::new("F_B over (feed.T, V) (Levenspiel ch. 8)");
     ag.check(value, b_at(t, v_l), 1e-6, "F_B at the reported point");
@@ -695,9 +707,15 @@ fn parse_csv(text: &str) -> Vec<Vec<String>> {
     rows
 }
 
-/// A sweep's CSV as a header and the rows as maps column → text.
+/// A sweep's CSV as a header and the rows as maps column → text (comment lines, such as the
+/// count of failed points, skipped).
 fn sweep_table(text: &str) -> (Vec<String>, Vec<BTreeMap<String, String>>) {
-    let mut recs = parse_csv(text);
+    let body: String = text
+        .lines()
+        .filter(|l| !l.starts_with('#'))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    let mut recs = parse_csv(&body);
     assert!(!recs.is_empty(), "empty sweep output");
     let header = recs.remove(0);
     let rows = recs
@@ -920,6 +938,11 @@ fn failing_points_become_rows_not_crashes() {
         run.stderr.contains("2 of 9 points failed"),
         "no note: {}",
         run.stderr
+    );
+    assert!(
+        run.stdout.ends_with("# failed: 2 of 9 points\n"),
+        "no count in the CSV: {}",
+        run.stdout
     );
     let (_, rows) = sweep_table(&run.stdout);
     assert_eq!(rows.len(), 9);
@@ -1310,11 +1333,24 @@ fn bundled_studies_optimize_and_compare() {
         if let Some(d) = net.desired {
             let name = &net.species[d].name;
             let t = format!("yield:{name}");
+            // Over [0, size] a yield may be best in a vanishing reactor: then no finite
+            // optimum, said plainly, exit 1.
+            let free = rxnet(&["optimize", p, "--maximize", &t, "--format", "json"]);
+            assert!(
+                free.code == 0 || (free.code == 1 && free.stderr.contains("no finite optimum")),
+                "{p}: {}",
+                free.stderr
+            );
+            // Half the full-size conversion keeps the size away from zero, and the full
+            // size stays feasible.
+            let xmin = format!("{}", 0.5 * num(&plain["conversion"], "conversion"));
             let j = ok(&rxnet(&[
                 "optimize",
                 p,
                 "--maximize",
                 &t,
+                "--min-conversion",
+                &xmin,
                 "--format",
                 "json",
             ]));

@@ -144,6 +144,9 @@ pub fn check(net: &Network) -> Check {
     let rx = |i: usize| net.reactions[i].id.clone();
     let mut findings: Vec<Finding> = Vec::new();
     let mut add = |severity, message: String| findings.push(Finding { severity, message });
+    for note in &net.notes {
+        add(Severity::Info, note.clone());
+    }
 
     for b in &bal {
         let r = &net.reactions[b.reaction];

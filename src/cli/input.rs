@@ -17,12 +17,34 @@ pub fn load(file: &Path, set: &[Override]) -> Result<rxnet::Network, i32> {
     })
 }
 
-pub fn check_tolerance(name: &str, v: Option<f64>, upper: f64) -> Result<(), String> {
-    match v {
-        Some(x) if !(x > 0.0 && x < upper) => Err(format!(
-            "--{name} must be a positive number below {upper}, got {x}"
-        )),
+/// A tolerance given on the command line, in the ranges the loader applies to `solver.rtol`
+/// and `solver.atol` ([`rxnet::solve::check_rtol`]); the cap of atol against the feed is
+/// checked once the study is loaded ([`check_atol_for`]). `_upper` is unused (kept for the
+/// callers' signature).
+pub fn check_tolerance(name: &str, v: Option<f64>, _upper: f64) -> Result<(), String> {
+    match (name, v) {
+        (_, None) => Ok(()),
+        ("rtol", Some(x)) => rxnet::solve::check_rtol(x).map_err(|m| format!("--{m}")),
+        (_, Some(x)) if !(x > 0.0 && x.is_finite()) => {
+            Err(format!("--{name} must be a positive number, got {x}"))
+        }
         _ => Ok(()),
+    }
+}
+
+/// `--atol` against the loaded study's feed: at most [`rxnet::solve::MAX_ATOL_FRACTION`] of
+/// the total feed.
+pub fn check_atol_for(net: &Network, atol: Option<f64>) -> Result<(), String> {
+    let unit = if net.reactor.is_batch() {
+        "mol"
+    } else {
+        "mol/s"
+    };
+    match atol {
+        Some(a) => {
+            rxnet::solve::check_atol(a, net.feed.total(), unit).map_err(|m| format!("--{m}"))
+        }
+        None => Ok(()),
     }
 }
 

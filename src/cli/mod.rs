@@ -13,6 +13,7 @@ mod input;
 mod optimize;
 pub mod output;
 mod run;
+mod size;
 mod sweep;
 mod table;
 
@@ -48,6 +49,8 @@ enum SweepFormat {
 enum Command {
     /// Simulate the study's reactor: outlet, conversion, yields, selectivities.
     Run(run::RunArgs),
+    /// The reactor size (volume, catalyst mass or batch time) that reaches a key conversion.
+    Size(size::SizeArgs),
     /// Write a generated, atom-consistent mass-action network (for benchmarks) to standard output.
     Generate {
         #[arg(long, default_value_t = 100)]
@@ -63,17 +66,21 @@ enum Command {
     /// Find the reactor size (default) or other inputs that maximise a target.
     Optimize {
         file: PathBuf,
-        /// B (outlet amount), yield:B, selectivity:B/C or conversion.
+        /// B (outlet amount), yield:B, selectivity:B/C (over one product), selectivity:B/all
+        /// (over all other products) or conversion.
         #[arg(long, value_name = "TARGET")]
         maximize: String,
-        /// Input to vary: `size` (default) or a --set path such as feed.T; may repeat, each with --bounds.
+        /// Input to vary: `size` (default) or a --set path such as feed.T; may repeat, each with
+        /// --bounds (`size` may be combined with other inputs).
         #[arg(long, value_name = "VAR")]
         over: Vec<String>,
-        /// Bounds of the matching --over, e.g. --bounds "300 K" "400 K"; for the size, in SI
-        /// (m3, kg or s) or with a unit. Default for the size: 0 to the study's size.
+        /// Bounds of the matching --over, each with its unit, e.g. --bounds "300 K" "400 K" or
+        /// --bounds 0 "50 L" (a bare number is refused for a dimensional input, except 0).
+        /// Default for the size alone: 0 to the study's size.
         #[arg(long, num_args = 2, value_names = ["LO", "HI"], allow_hyphen_values = true)]
         bounds: Vec<String>,
-        /// Only accept points where the key conversion is at least this.
+        /// Only accept points where the key conversion is at least this (keeps the size away
+        /// from zero when a yield or selectivity is best in a vanishing reactor).
         #[arg(long)]
         min_conversion: Option<f64>,
         #[arg(long, value_enum, default_value_t = Format::Text)]
@@ -124,6 +131,9 @@ enum Command {
         /// Also find the size (up to the study's) that maximises this target.
         #[arg(long, value_name = "TARGET")]
         optimum: Option<String>,
+        /// With --optimum: only sizes where the key conversion is at least this.
+        #[arg(long)]
+        min_conversion: Option<f64>,
         #[arg(long, value_enum, default_value_t = Format::Text)]
         format: Format,
         #[arg(long)]
@@ -161,6 +171,7 @@ pub fn main() -> i32 {
         Command::Check { file, format, set } => check::check(&file, format, &set),
         Command::Table { file, format, set } => table::table(&file, format, &set),
         Command::Run(args) => run::run(&args),
+        Command::Size(args) => size::size(&args),
         Command::Generate {
             species,
             reactions,
@@ -213,6 +224,7 @@ pub fn main() -> i32 {
             rank_by,
             at_conversion,
             optimum,
+            min_conversion,
             format,
             rtol,
         } => compare::compare(
@@ -221,6 +233,7 @@ pub fn main() -> i32 {
             rank_by.as_deref(),
             at_conversion,
             optimum.as_deref(),
+            min_conversion,
             format == Format::Json,
             rtol,
         ),

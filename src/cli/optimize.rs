@@ -2,43 +2,114 @@
 
 use super::input::{check_tolerance, read_study, solve_opts};
 use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json};
-use rxnet::model::{Network, Override};
+use rxnet::model::{Network, Override, Reactor};
 use rxnet::report::{self, num};
 use rxnet::solve;
-use rxnet::studies::optimize::{optimize_size, optimize_vars};
+use rxnet::studies::optimize::{Bound, optimize_size, optimize_vars, value_unit};
 use rxnet::studies::study::{StudyError, Variable};
 use rxnet::studies::target::Target;
 use rxnet::units::parse_quantity;
-use rxnet::{metrics, reactor};
 use std::fmt::Write;
 use std::path::Path;
 
-/// A size bound: SI number, or a quantity with the size's unit.
+/// A size bound: a quantity with the size's unit (m3, kg or s, or any unit of that dimension).
+/// A bare number is refused (it would be taken silently as SI), except 0.
 fn size_bound(s: &str, net: &Network) -> Result<f64, String> {
     let q = parse_quantity(s).map_err(|e| format!("bound `{s}`: {e}"))?;
     let (_, unit, _) = solve::reactor_axis(net);
-    let want = match unit {
-        "m3" => rxnet::units::Dim::volume(),
-        "kg" => rxnet::units::Dim::MASS,
-        _ => rxnet::units::Dim::TIME,
-    };
-    if q.dim.approx_eq(rxnet::units::Dim::NONE) || q.dim.approx_eq(want) {
+    let want = size_dim(net);
+    if q.dim.approx_eq(rxnet::units::Dim::NONE) {
+        if q.si == 0.0 {
+            return Ok(0.0);
+        }
+        return Err(format!(
+            "bound `{s}` needs a unit: the size {} is in {unit}, e.g. \"{s} {}\"",
+            net.size_path(),
+            example_unit(net)
+        ));
+    }
+    if q.dim.approx_eq(want) {
         Ok(q.si)
     } else {
         Err(format!(
-            "bound `{s}` has dimensions {}, but the size is in {unit}",
-            q.dim
+            "bound `{s}` has the wrong dimensions: {}, for the size",
+            rxnet::units::dimension_mismatch(rxnet::units::unit_text(s), q.dim, unit, want)
         ))
+    }
+}
+
+fn size_dim(net: &Network) -> rxnet::units::Dim {
+    match solve::reactor_axis(net).1 {
+        "m3" => rxnet::units::Dim::volume(),
+        "kg" => rxnet::units::Dim::MASS,
+        _ => rxnet::units::Dim::TIME,
+    }
+}
+
+fn example_unit(net: &Network) -> &'static str {
+    match solve::reactor_axis(net).1 {
+        "m3" => "L",
+        "kg" => "kg",
+        _ => "s",
+    }
+}
+
+/// The SI unit of a dimension, by its usual name where it has one.
+fn si_unit(dim: rxnet::units::Dim) -> String {
+    use rxnet::units::Dim;
+    if dim.approx_eq(Dim::pressure()) {
+        "Pa".into()
+    } else if dim.approx_eq(Dim::energy()) {
+        "J".into()
+    } else if dim.approx_eq(Dim::energy().div(Dim::AMOUNT)) {
+        "J/mol".into()
+    } else {
+        dim.to_string()
+    }
+}
+
+/// A variable's value in SI with its SI unit (the bounds may be in °C, L, bar...).
+fn to_si(v: &Variable, x: f64) -> (f64, String) {
+    if v.unit.is_empty() {
+        return (x, "1".into());
+    }
+    match parse_quantity(&format!("{x} {}", v.unit)) {
+        Ok(q) => (q.si, si_unit(q.dim)),
+        // The bounds were loaded with this unit, so it parses; keep the number as given.
+        Err(_) => (x, v.unit.clone()),
+    }
+}
+
+/// A number with its unit for text output (dimensionless values print bare).
+fn with_unit(x: f64, unit: &str) -> String {
+    if unit == "1" || unit.is_empty() {
+        num(x)
+    } else {
+        format!("{} {unit}", num(x))
     }
 }
 
 #[derive(serde::Serialize)]
 struct Best {
+    /// The optimal size V, W or t (SI, `size_unit`) when the size alone was varied.
     #[serde(skip_serializing_if = "Option::is_none")]
     size: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    size_unit: Option<&'static str>,
+    /// τ = V/v0 of a PFR or CSTR at the optimum, s.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    space_time_s: Option<f64>,
     value: f64,
+    /// mol/s or mol for an amount, 1 for a ratio.
+    value_unit: &'static str,
+    /// Each varied input at the optimum, in SI (its unit in `units`).
     point: indexmap::IndexMap<String, f64>,
-    on_bound: indexmap::IndexMap<String, Option<rxnet::studies::optimize::Bound>>,
+    units: indexmap::IndexMap<String, String>,
+    /// null: an interior maximum (the target's slope was checked to change sign there).
+    on_bound: indexmap::IndexMap<String, Option<Bound>>,
+    /// On a bound: true when the target still improves beyond it (widen the bounds).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    improves_beyond_bound: Option<bool>,
 }
 
 #[derive(serde::Serialize)]
@@ -82,8 +153,26 @@ pub fn optimize(
         }
     };
     let opts = solve_opts(rtol);
-    let size_only =
-        over.is_empty() || (over.len() == 1 && (over[0] == "size" || over[0] == net.size_path()));
+    // `size` names the reactor's size key (reactor.volume, reactor.catalyst or reactor.time).
+    let over: Vec<String> = over
+        .iter()
+        .map(|o| {
+            if o.trim() == "size" {
+                net.size_path().to_string()
+            } else {
+                o.trim().to_string()
+            }
+        })
+        .collect();
+    for (i, o) in over.iter().enumerate() {
+        if over[..i].contains(o) {
+            eprintln!("error: --over {o} is given twice");
+            return EXIT_INVALID;
+        }
+    }
+    let size_only = over.is_empty() || (over.len() == 1 && over[0] == net.size_path());
+    let (_, xu, _) = solve::reactor_axis(&net);
+    let vu = value_unit(&net, &target);
     let (best, net_best) = if size_only {
         let (lo, hi) = match bounds {
             [] => (0.0, net.size()),
@@ -101,16 +190,19 @@ pub fn optimize(
         };
         match optimize_size(&net, &target, lo, hi, min_conversion, &opts) {
             Ok(o) => {
-                let mut point = indexmap::IndexMap::new();
-                point.insert(net.size_path().to_string(), o.size);
-                let mut on_bound = indexmap::IndexMap::new();
-                on_bound.insert(net.size_path().to_string(), o.on_bound);
+                let path = net.size_path().to_string();
+                let flow = matches!(net.reactor, Reactor::Pfr { .. } | Reactor::Cstr { .. });
                 (
                     Best {
                         size: Some(o.size),
+                        size_unit: Some(xu),
+                        space_time_s: flow.then(|| o.size / net.feed.volumetric),
                         value: o.value,
-                        point,
-                        on_bound,
+                        value_unit: vu,
+                        point: [(path.clone(), o.size)].into_iter().collect(),
+                        units: [(path.clone(), xu.to_string())].into_iter().collect(),
+                        on_bound: [(path, o.on_bound)].into_iter().collect(),
+                        improves_beyond_bound: o.on_bound.map(|_| o.improves_beyond),
                     },
                     net.with_size(o.size),
                 )
@@ -136,7 +228,17 @@ pub fn optimize(
         }
         let mut vars = Vec::new();
         for (k, path) in over.iter().enumerate() {
-            match Variable::new(path, &bounds[2 * k], &bounds[2 * k + 1]) {
+            let (lo, hi) = (&bounds[2 * k], &bounds[2 * k + 1]);
+            // The size's bounds need a unit, as when the size is varied alone.
+            if path == net.size_path() {
+                for b in [lo, hi] {
+                    if let Err(m) = size_bound(b, &net) {
+                        eprintln!("error: --bounds of {path}: {m}");
+                        return EXIT_INVALID;
+                    }
+                }
+            }
+            match Variable::new(path, lo, hi) {
                 Ok(v) => vars.push(v),
                 Err(m) => {
                     eprintln!("error: --bounds: {m}");
@@ -144,7 +246,8 @@ pub fn optimize(
                 }
             }
         }
-        // The bounds themselves must load (same validation as the file).
+        // The bounds themselves must load (same validation as the file: a bare number for a
+        // dimensional input is refused there, as in --set).
         for v in &vars {
             for x in [v.lo, v.hi] {
                 if let Err(e) = study.load(&[v.set(x)]) {
@@ -164,45 +267,60 @@ pub fn optimize(
                         return EXIT_INVALID;
                     }
                 };
+                let si: Vec<(f64, String)> = vars
+                    .iter()
+                    .zip(&o.point)
+                    .map(|(v, x)| to_si(v, *x))
+                    .collect();
                 (
                     Best {
                         size: None,
+                        size_unit: None,
+                        space_time_s: None,
                         value: o.value,
+                        value_unit: vu,
                         point: vars
                             .iter()
-                            .zip(&o.point)
-                            .map(|(v, x)| (v.path.clone(), *x))
+                            .zip(&si)
+                            .map(|(v, (x, _))| (v.path.clone(), *x))
+                            .collect(),
+                        units: vars
+                            .iter()
+                            .zip(&si)
+                            .map(|(v, (_, u))| (v.path.clone(), u.clone()))
                             .collect(),
                         on_bound: vars
                             .iter()
                             .zip(&o.on_bound)
                             .map(|(v, b)| (v.path.clone(), *b))
                             .collect(),
+                        improves_beyond_bound: None,
                     },
                     nb,
                 )
             }
             Err(e) => {
                 eprintln!("error: {}: {e}", file.display());
-                return EXIT_FINDINGS;
+                return if matches!(e, StudyError::Invalid(_)) {
+                    EXIT_INVALID
+                } else {
+                    EXIT_FINDINGS
+                };
             }
         }
     };
-    let balance = match reactor::Balance::new(&net_best) {
-        Ok(b) => b,
-        Err(m) => {
-            eprintln!("error: {m}");
-            return EXIT_INVALID;
-        }
-    };
-    let sim = match solve::simulate_with(&net_best, &balance, &opts) {
-        Ok(s) => s,
+    // The optimum through the evaluation gate: the same checks as `run`.
+    let (balance, sim, m) = match rxnet::studies::evaluate::evaluate(&net_best, &opts, false) {
+        Ok(ev) => (ev.balance, ev.sim, ev.metrics),
         Err(e) => {
             eprintln!("error: {}: at the optimum: {e}", file.display());
-            return EXIT_FINDINGS;
+            return if e.is_invalid_input() {
+                EXIT_INVALID
+            } else {
+                EXIT_FINDINGS
+            };
         }
     };
-    let m = metrics::compute(&net_best, sim.outlet());
     let run = report::run::build(&net_best, &balance, &sim, &m, false);
     let rep = OptimizeReport {
         target: target.label(&net),
@@ -215,27 +333,53 @@ pub fn optimize(
         let mut o = String::new();
         let _ = writeln!(o, "maximise {} of {}", rep.target, net.name);
         for (path, x) in &rep.best.point {
+            let unit = rep.best.units.get(path).map(String::as_str).unwrap_or("");
             let bound = match rep.best.on_bound.get(path).copied().flatten() {
-                Some(b) => format!(
-                    "  (on the {} bound)",
-                    serde_json::to_string(&b)
-                        .unwrap_or_default()
-                        .trim_matches('"')
-                ),
-                None => String::new(),
+                Some(b) => {
+                    let name = match b {
+                        Bound::Lower => "lower bound",
+                        Bound::Upper => "upper bound",
+                        Bound::MinConversion => "conversion constraint",
+                    };
+                    if rep.best.improves_beyond_bound == Some(true) {
+                        format!("  (on the {name}; {} still improves beyond it)", rep.target)
+                    } else {
+                        format!("  (on the {name})")
+                    }
+                }
+                None => "  (interior maximum: the slope changes sign there)".to_string(),
             };
-            let _ = writeln!(o, "  best {path} = {}{bound}", num(*x));
+            // The value as given in the bounds' unit, beside the SI value.
+            let given = over
+                .iter()
+                .position(|p| p == path)
+                .and_then(|k| {
+                    let u = bounds[2 * k + 1].trim();
+                    let end = u
+                        .find(|c: char| !(c.is_ascii_digit() || "+-.eE".contains(c)))
+                        .unwrap_or(u.len());
+                    let u = u[end..].trim();
+                    (!u.is_empty() && u != unit).then(|| u.to_string())
+                })
+                .and_then(|u| {
+                    let one = parse_quantity(&format!("1 {u}")).ok()?;
+                    let zero = parse_quantity(&format!("0 {u}")).ok()?;
+                    let f = one.si - zero.si;
+                    (f != 0.0).then(|| format!(" = {} {u}", num((x - zero.si) / f)))
+                })
+                .unwrap_or_else(|| {
+                    if unit == "m3" {
+                        format!(" = {} L", num(x * 1e3))
+                    } else {
+                        String::new()
+                    }
+                });
+            let _ = writeln!(o, "  best {path} = {}{given}{bound}", with_unit(*x, unit));
         }
-        if let (Some(s), false) = (rep.best.size, net.reactor.is_batch())
-            && !matches!(net.reactor, rxnet::model::Reactor::Pbr { .. })
-        {
-            let _ = writeln!(
-                o,
-                "  space time τ = V/v0 = {} s",
-                num(s / net.feed.volumetric)
-            );
+        if let Some(t) = rep.best.space_time_s {
+            let _ = writeln!(o, "  space time τ = V/v0 = {} s", num(t));
         }
-        let _ = writeln!(o, "  {} = {}\n", rep.target, num(rep.best.value));
+        let _ = writeln!(o, "  {} = {}\n", rep.target, with_unit(rep.best.value, vu));
         o.push_str(&report::run::text(&rep.run, false));
         o
     };

@@ -1,13 +1,14 @@
 //! `rxnet run`: simulate the study's reactor and report outlet, conversion, yields and
 //! selectivities (and the profile along the reactor, on request).
 
-use super::input::{check_tolerance, load};
+use super::input::{check_atol_for, check_tolerance, load};
 use super::output::{EXIT_FINDINGS, EXIT_INVALID, OutputFile, emit, json, prepare};
 use clap::ValueEnum;
 use rxnet::model::Network;
 use rxnet::report::{num, plot};
-use rxnet::solve::{self, Points, Simulation, SolveOptions};
-use rxnet::{Override, analysis, metrics, reactor, report};
+use rxnet::solve::{Points, Simulation, SolveOptions};
+use rxnet::studies::evaluate::{self, EvalError};
+use rxnet::{Override, report};
 use std::path::PathBuf;
 
 #[derive(Clone, Copy, ValueEnum, PartialEq, Eq)]
@@ -32,10 +33,10 @@ pub struct RunArgs {
     /// Report every internal step of the integrator instead of even points.
     #[arg(long, conflicts_with = "points")]
     steps: bool,
-    /// Relative tolerance of the integration (default 1e-8).
+    /// Relative tolerance of the integration, 1e-13 to 1e-2 (default 1e-8).
     #[arg(long)]
     rtol: Option<f64>,
-    /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch); default 1e-12 of the total feed.
+    /// Absolute tolerance on the species state, in mol/s (flow) or mol (batch), at most 1e-3 of the total feed; default per species (see docs/methods.md).
     #[arg(long)]
     atol: Option<f64>,
     /// Also print the element balance closure.
@@ -60,12 +61,8 @@ pub struct RunArgs {
     set: Vec<Override>,
 }
 
-/// The solve of `rxnet run`: whether a profile is wanted, the balance and the simulation, or
-/// the exit code and the message to print.
-fn solve_run(
-    net: &rxnet::model::Network,
-    a: &RunArgs,
-) -> Result<(bool, reactor::Balance, solve::Simulation), (i32, String)> {
+/// The solve options of `rxnet run` and whether a profile is wanted.
+fn run_options(a: &RunArgs) -> (bool, SolveOptions) {
     let want_profile = a.profile.is_some()
         || a.plot.is_some()
         || a.format == RunFormat::Csv
@@ -84,15 +81,7 @@ fn solve_run(
         points,
         ..Default::default()
     };
-    let balance = match reactor::Balance::new(net) {
-        Ok(b) => b,
-        Err(m) => return Err((EXIT_INVALID, format!("error: {}: {m}", a.file.display()))),
-    };
-    let sim = match solve::simulate_with(net, &balance, &opts) {
-        Ok(s) => s,
-        Err(e) => return Err((EXIT_FINDINGS, format!("error: {}: {e}", a.file.display()))),
-    };
-    Ok((want_profile, balance, sim))
+    (want_profile, opts)
 }
 
 /// `rxnet run FILE`: exit 0 on success, 1 when the solve fails, 2 for invalid input.
@@ -134,39 +123,39 @@ pub fn run(a: &RunArgs) -> i32 {
             return EXIT_INVALID;
         }
     };
-    // The consistency check and the solve do not depend on each other, so the check runs on a
-    // second thread while the reactor is solved; its error findings still decide the outcome
-    // (a network with error findings gets no result, whatever the solve did).
-    let (analysis, solved) = std::thread::scope(|scope| {
-        let checking = scope.spawn(|| analysis::check(&net));
-        let solved = solve_run(&net, a);
-        let analysis = checking
-            .join()
-            .unwrap_or_else(|p| std::panic::resume_unwind(p));
-        (analysis, solved)
-    });
-    if analysis.has_errors() {
-        eprintln!(
-            "error: {}: the network has error findings; run `rxnet check` on it:",
-            a.file.display()
-        );
-        for f in analysis
-            .findings
-            .iter()
-            .filter(|f| f.severity == analysis::Severity::Error)
-        {
-            eprintln!("  {}", f.message);
-        }
-        return EXIT_FINDINGS;
+    if let Err(m) = check_atol_for(&net, a.atol) {
+        eprintln!("error: {m}");
+        return EXIT_INVALID;
     }
-    let (want_profile, balance, sim) = match solved {
-        Ok(s) => s,
-        Err((code, message)) => {
-            eprintln!("{message}");
-            return code;
+    // Through the one gate: the consistency check (on a second thread while the reactor is
+    // solved), the solve, the result checks and the metrics.
+    let (want_profile, opts) = run_options(a);
+    let ev = match evaluate::evaluate(&net, &opts, true) {
+        Ok(ev) => ev,
+        Err(EvalError::Findings(errors)) => {
+            eprintln!(
+                "error: {}: the network has error findings; run `rxnet check` on it:",
+                a.file.display()
+            );
+            for f in errors {
+                eprintln!("  {f}");
+            }
+            return EXIT_FINDINGS;
+        }
+        Err(e) => {
+            eprintln!("error: {}: {e}", a.file.display());
+            return if e.is_invalid_input() {
+                EXIT_INVALID
+            } else {
+                EXIT_FINDINGS
+            };
         }
     };
-    let m = metrics::compute(&net, sim.outlet());
+    // The check's warnings bear on this result: repeat them where the user looks.
+    for w in &ev.warnings {
+        eprintln!("warning: {}: {w}", a.file.display());
+    }
+    let (balance, sim, m) = (ev.balance, ev.sim, ev.metrics);
     let rep = report::run::build(
         &net,
         &balance,

@@ -2,12 +2,13 @@
 //! optional plot.
 
 use super::input::{check_tolerance, read_study, solve_opts};
-use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, write_atomic};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, write_atomic};
 use rxnet::model::{Network, Override};
 use rxnet::report::plot;
 use rxnet::studies::study::Study;
 use rxnet::studies::sweep::{self, Axis, Columns};
 use rxnet::studies::target::Target;
+use std::io::Write;
 use std::path::PathBuf;
 
 pub struct SweepArgs {
@@ -40,16 +41,159 @@ fn parse_shard(s: &str) -> Result<(usize, usize), String> {
     Ok((k, n))
 }
 
-/// `rxnet sweep FILE --vary PATH=LO:HI:N ...`
+/// Where the rows go as they finish: standard output, or a temporary file beside `--out` that
+/// is renamed over it once the sweep is complete (so an interrupted sweep never leaves a
+/// half-written file that looks complete).
+enum Sink {
+    Stdout(std::io::BufWriter<std::io::Stdout>),
+    File {
+        file: std::io::BufWriter<std::fs::File>,
+        tmp: PathBuf,
+        path: PathBuf,
+    },
+}
+
+impl Sink {
+    fn open(out: Option<&PathBuf>) -> std::io::Result<Sink> {
+        Ok(match out {
+            None => Sink::Stdout(std::io::BufWriter::new(std::io::stdout())),
+            Some(path) => {
+                let dir = path
+                    .parent()
+                    .filter(|p| !p.as_os_str().is_empty())
+                    .unwrap_or(std::path::Path::new("."));
+                let name = path
+                    .file_name()
+                    .map(|n| n.to_string_lossy().to_string())
+                    .unwrap_or_default();
+                let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+                let file = std::io::BufWriter::new(std::fs::File::create(&tmp)?);
+                Sink::File {
+                    file,
+                    tmp,
+                    path: path.clone(),
+                }
+            }
+        })
+    }
+
+    fn write(&mut self, text: &str) -> std::io::Result<()> {
+        match self {
+            Sink::Stdout(w) => w.write_all(text.as_bytes()),
+            Sink::File { file, .. } => file.write_all(text.as_bytes()),
+        }
+    }
+
+    /// Flush, and move the finished file into place.
+    fn finish(self) -> std::io::Result<()> {
+        match self {
+            Sink::Stdout(mut w) => w.flush(),
+            Sink::File { file, tmp, path } => {
+                let done = file
+                    .into_inner()
+                    .map_err(|e| e.into_error())
+                    .and_then(|f| f.sync_all())
+                    .and_then(|_| std::fs::rename(&tmp, &path));
+                if done.is_err() {
+                    let _ = std::fs::remove_file(&tmp);
+                }
+                done
+            }
+        }
+    }
+
+    /// Give up: remove the temporary file.
+    fn abandon(self) {
+        if let Sink::File { file, tmp, .. } = self {
+            drop(file);
+            let _ = std::fs::remove_file(&tmp);
+        }
+    }
+}
+
+/// What the plot needs of one point (kept instead of the row, so a plotted sweep does not hold
+/// every outlet).
+struct PlotPoint {
+    point: usize,
+    input: f64,
+    value: Option<f64>,
+    conversion: Option<f64>,
+}
+
+/// One row as JSON.
+fn json_row(cols: &Columns, axes: &[Axis], r: &sweep::SweepRow) -> serde_json::Value {
+    let inputs: serde_json::Map<String, serde_json::Value> = axes
+        .iter()
+        .zip(&r.inputs)
+        .map(|(ax, v)| (ax.var.path.clone(), serde_json::json!(v)))
+        .collect();
+    let map = |keys: &[String], vals: &[Option<f64>]| {
+        keys.iter()
+            .zip(vals)
+            .map(|(k, v)| (k.clone(), serde_json::json!(v)))
+            .collect::<serde_json::Map<_, _>>()
+    };
+    match &r.result {
+        Ok(p) => {
+            let mut v = serde_json::json!({
+                "point": r.point, "inputs": inputs, "status": "ok", "conversion": p.conversion,
+                "yield": map(&cols.products, &p.yields),
+                "selectivity": map(&cols.others, &p.selectivity),
+                "outlet": cols.species.iter().zip(&p.outlet).map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
+            });
+            if !p.not_defined.is_empty() {
+                v["not_defined"] = p
+                    .not_defined
+                    .iter()
+                    .map(|(k, why)| (k.clone(), serde_json::json!(why)))
+                    .collect::<serde_json::Map<_, _>>()
+                    .into();
+            }
+            v
+        }
+        Err(e) => {
+            serde_json::json!({"point": r.point, "inputs": inputs, "status": "failed", "error": e})
+        }
+    }
+}
+
+/// A JSON value pretty-printed as an element of a pretty-printed array (indented by two
+/// spaces), so rows streamed one by one give the bytes `serde_json::to_string_pretty` gives
+/// for the whole array (a JSON string holds no raw newline, so indenting lines is exact).
+fn json_element(v: &serde_json::Value) -> String {
+    let text = serde_json::to_string_pretty(v).expect("JSON values serialize");
+    let mut o = String::new();
+    for (i, line) in text.lines().enumerate() {
+        if i > 0 {
+            o.push('\n');
+        }
+        o.push_str("  ");
+        o.push_str(line);
+    }
+    o
+}
+
+/// `rxnet sweep FILE --vary PATH=LO:HI:N ...`: exit 0 when at least one point succeeded (the
+/// failed ones are counted on stderr and in the output), 1 when every point failed (no plot
+/// is drawn), 2 for invalid input.
 pub fn sweep(a: &SweepArgs) -> i32 {
     if let Err(m) = check_tolerance("rtol", a.rtol, 1.0) {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
-    let mut axes = Vec::new();
+    let mut axes: Vec<Axis> = Vec::new();
     for v in &a.vary {
         match Axis::parse(v) {
-            Ok(ax) => axes.push(ax),
+            Ok(ax) => {
+                if let Some(first) = axes.iter().find(|b| b.var.path == ax.var.path) {
+                    eprintln!(
+                        "error: --vary {}: `{}` is already varied (by `--vary {}={}:{}:{}`); vary each input once",
+                        v, ax.var.path, first.var.path, first.var.lo, first.var.hi, first.n
+                    );
+                    return EXIT_INVALID;
+                }
+                axes.push(ax)
+            }
             Err(m) => {
                 eprintln!("error: --vary {m}");
                 return EXIT_INVALID;
@@ -124,86 +268,143 @@ pub fn sweep(a: &SweepArgs) -> i32 {
             b.inc(1);
         }
     };
-    let rows = match sweep::run(&study, &cols, &axes, shard, &solve_opts(a.rtol), &tick) {
-        Ok(r) => r,
-        Err(m) => {
-            eprintln!("error: {m}");
-            return EXIT_INVALID;
+    let out_name = |e: &std::io::Error| match &a.out {
+        Some(p) => format!("error: cannot write {}: {e}", p.display()),
+        None => format!("error: cannot write the output: {e}"),
+    };
+    let mut sink = match Sink::open(a.out.as_ref()) {
+        Ok(s) => s,
+        Err(e) => {
+            eprintln!("{}", out_name(&e));
+            return EXIT_FINDINGS;
         }
     };
+    let header = shard.is_none_or(|(k, _)| k == 1);
+    let opening = if a.json {
+        "[".to_string()
+    } else if header {
+        sweep::csv_header(&cols)
+    } else {
+        String::new()
+    };
+    let mut failed = 0usize;
+    let mut done = 0usize;
+    let mut plot_points: Vec<PlotPoint> = Vec::new();
+    let want_plot = a.plot.is_some();
+    let mut write_rows = |rows: &[sweep::SweepRow]| -> std::io::Result<()> {
+        if done == 0 {
+            sink.write(&opening)?;
+        }
+        let text = if a.json {
+            let mut t = String::new();
+            for (i, r) in rows.iter().enumerate() {
+                t.push_str(if done + i == 0 { "\n" } else { ",\n" });
+                t.push_str(&json_element(&json_row(&cols, &axes, r)));
+            }
+            t
+        } else {
+            sweep::csv_rows(&cols, rows)
+        };
+        sink.write(&text)?;
+        failed += rows.iter().filter(|r| r.result.is_err()).count();
+        done += rows.len();
+        if want_plot {
+            plot_points.extend(rows.iter().map(|r| PlotPoint {
+                point: r.point,
+                input: r.inputs[0],
+                value: plot_value(&study, &axes, r, &target),
+                conversion: r.result.as_ref().ok().map(|p| p.conversion),
+            }));
+        }
+        Ok(())
+    };
+    let ran = sweep::run(
+        &study,
+        &cols,
+        &axes,
+        shard,
+        &solve_opts(a.rtol),
+        &tick,
+        &mut write_rows,
+    );
     if let Some(b) = bar {
         b.finish_and_clear();
     }
-    let failed = rows.iter().filter(|r| r.result.is_err()).count();
-    let text = if a.json {
-        let items: Vec<serde_json::Value> = rows
-            .iter()
-            .map(|r| {
-                let inputs: serde_json::Map<String, serde_json::Value> =
-                    axes.iter().zip(&r.inputs).map(|(ax, v)| (ax.var.path.clone(), serde_json::json!(v))).collect();
-                match &r.result {
-                    Ok(p) => serde_json::json!({
-                        "point": r.point, "inputs": inputs, "status": "ok", "conversion": p.conversion,
-                        "yield": cols.products.iter().zip(&p.yields).map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
-                        "selectivity": cols.others.iter().zip(&p.selectivity).map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
-                        "outlet": cols.species.iter().zip(&p.outlet).map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
-                    }),
-                    Err(e) => serde_json::json!({"point": r.point, "inputs": inputs, "status": "failed", "error": e}),
-                }
-            })
-            .collect();
-        json(&items)
-    } else {
-        sweep::csv(&cols, &rows, shard.is_none_or(|(k, _)| k == 1))
+    let closing = match ran {
+        Ok(()) if a.json => {
+            if done == 0 {
+                "[]\n".to_string()
+            } else {
+                "\n]\n".to_string()
+            }
+        }
+        Ok(()) if failed > 0 => sweep::csv_failed_trailer(failed, done),
+        Ok(()) => String::new(),
+        Err(sweep::SweepError::Grid(m)) => {
+            sink.abandon();
+            eprintln!("error: {m}");
+            return EXIT_INVALID;
+        }
+        Err(sweep::SweepError::Sink(e)) => {
+            sink.abandon();
+            if e.kind() == std::io::ErrorKind::BrokenPipe {
+                // The reader quit (`| head`): end quietly.
+                return 0;
+            }
+            eprintln!("{}", out_name(&e));
+            return EXIT_FINDINGS;
+        }
     };
+    if let Err(e) = sink.write(&closing).and_then(|_| sink.finish()) {
+        if e.kind() == std::io::ErrorKind::BrokenPipe {
+            return 0;
+        }
+        eprintln!("{}", out_name(&e));
+        return EXIT_FINDINGS;
+    }
+    if done > 0 && failed == done {
+        eprintln!(
+            "error: {}: every point of the sweep failed ({failed} of {done}); the rows carry the errors{}",
+            a.file.display(),
+            if a.plot.is_some() {
+                "; no plot drawn"
+            } else {
+                ""
+            }
+        );
+        return EXIT_FINDINGS;
+    }
     if let Some(path) = &a.plot
-        && let Err(e) = sweep_plot(&net, &study, &axes, &rows, &target)
+        && let Err(e) = sweep_plot(&net, &axes, &plot_points, &target)
             .and_then(|s| write_atomic(path, &s).map_err(|e| e.to_string()))
     {
         eprintln!("error: cannot write {}: {e}", path.display());
         return EXIT_FINDINGS;
     }
-    match &a.out {
-        Some(path) => {
-            if let Err(e) = write_atomic(path, &text) {
-                eprintln!("error: cannot write {}: {e}", path.display());
-                return EXIT_FINDINGS;
-            }
-        }
-        None => {
-            let code = emit(&text, 0);
-            if code != 0 {
-                return code;
-            }
-        }
-    }
     if failed > 0 {
-        eprintln!(
-            "note: {failed} of {} points failed; their rows carry the error",
-            rows.len()
-        );
+        eprintln!("note: {failed} of {done} points failed; their rows carry the error");
     }
     0
 }
 
+/// The plotted target at one point, from its outlet (None where it failed or is not defined).
+fn plot_value(study: &Study, axes: &[Axis], r: &sweep::SweepRow, target: &Target) -> Option<f64> {
+    let p = r.result.as_ref().ok()?;
+    let sets: Vec<Override> = axes
+        .iter()
+        .zip(&r.inputs)
+        .map(|(a, v)| a.var.set(*v))
+        .collect();
+    let n = study.load(&sets).ok()?;
+    target.value(&n, &p.outlet)
+}
+
 fn sweep_plot(
     net: &Network,
-    study: &Study,
     axes: &[Axis],
-    rows: &[sweep::SweepRow],
+    rows: &[PlotPoint],
     target: &Target,
 ) -> Result<String, String> {
-    // The target at each point, from its outlet.
-    let value = |r: &sweep::SweepRow| -> Option<f64> {
-        let p = r.result.as_ref().ok()?;
-        let sets: Vec<Override> = axes
-            .iter()
-            .zip(&r.inputs)
-            .map(|(a, v)| a.var.set(*v))
-            .collect();
-        let n = study.load(&sets).ok()?;
-        target.value(&n, &p.outlet)
-    };
     let label = target.label(net);
     let axis_label = |a: &Axis| {
         if a.var.unit.is_empty() {
@@ -213,11 +414,11 @@ fn sweep_plot(
         }
     };
     if axes.len() == 1 {
-        let xs: Vec<f64> = rows.iter().map(|r| r.inputs[0]).collect();
-        let ys: Vec<f64> = rows.iter().map(|r| value(r).unwrap_or(f64::NAN)).collect();
+        let xs: Vec<f64> = rows.iter().map(|r| r.input).collect();
+        let ys: Vec<f64> = rows.iter().map(|r| r.value.unwrap_or(f64::NAN)).collect();
         let conv: Vec<f64> = rows
             .iter()
-            .map(|r| r.result.as_ref().map(|p| p.conversion).unwrap_or(f64::NAN))
+            .map(|r| r.conversion.unwrap_or(f64::NAN))
             .collect();
         let mut series = vec![(label.clone(), ys)];
         if label != "conversion" {
@@ -237,7 +438,7 @@ fn sweep_plot(
         let mut z = vec![vec![None; ys.len()]; xs.len()];
         for r in rows {
             let (i, j) = (r.point / axes[1].n, r.point % axes[1].n);
-            z[i][j] = value(r);
+            z[i][j] = r.value;
         }
         plot::heat_svg(&plot::HeatMap {
             title: &format!("{}: {label}", net.name),

@@ -15,8 +15,22 @@
 //! [`RateSet::eval`], so the analytic Jacobian cannot drift from the rate.
 //!
 //! Powers: an integer exponent is applied to the concentration as it is (smooth through zero, so
-//! a small negative overshoot of the integrator does not break the Jacobian); a fractional one
-//! to max(C, 0), with derivative 0 at C ≤ 0.
+//! a small negative overshoot of the integrator does not break the Jacobian). A fractional order
+//! 0 < a < 1 has an infinite slope at C = 0, so a reactant that runs out is approached with a
+//! rate that stiffens without bound and the integrator overshoots below zero; below the tiny
+//! concentration [`C_FLOOR`] it is replaced by a smooth (C¹) floor that is linear through zero:
+//!
+//! ```text
+//! C^a                                  C ≥ c_f
+//! c_f^a [ (2 − a) x + (a − 1) x² ]     0 ≤ C < c_f,  x = C/c_f   (value and slope match at c_f)
+//! c_f^a (2 − a) x                      C < 0
+//! ```
+//!
+//! so a small overshoot meets a rate of the opposite sign that returns it to zero, as an
+//! integer order does, instead of being left below zero. The law is exact above c_f; below it,
+//! the amount still to react is under c_f, so no reported amount moves by more than c_f times
+//! the volumetric flow (see docs/methods.md). Other fractional orders are applied to max(C, 0),
+//! with derivative 0 at C ≤ 0 (for a > 1 the slope is already 0 at C = 0).
 
 use std::ops::Range;
 
@@ -102,6 +116,9 @@ pub struct RateSet {
     /// path, and every law's `depends_on` list end to end (law i's from `hot[i].deps_start`).
     full: Vec<Factor>,
     deps: Vec<usize>,
+    /// Per species, the concentration (mol/m3) below which a fractional order 0 < a < 1 follows
+    /// the smooth floor of the module notes.
+    floor: Vec<f64>,
 }
 
 /// A rate law at the network's temperature: k and 1/K_eq (0 for an irreversible step), where
@@ -142,25 +159,43 @@ impl HotFactor {
 
     /// C^e, as [`power`] computes it.
     #[inline]
-    fn value(&self, c: &[f64]) -> f64 {
+    fn value(&self, c: &[f64], floor: &[f64]) -> f64 {
         let x = c[self.species as usize];
         match self.int {
             1 => x,
             2 => x * x,
-            HotFactor::REAL => power(x, Exponent::Real(self.real)).0,
-            n => power(x, Exponent::Int(n)).0,
+            HotFactor::REAL => power(x, Exponent::Real(self.real), floor[self.species as usize]).0,
+            n => power(x, Exponent::Int(n), 0.0).0,
         }
     }
 }
 
-/// Value and derivative of C^e (see the module notes on powers).
+/// The smallest concentration floor (mol/m3) of a fractional order 0 < a < 1 (module notes):
+/// 1e-30 mol/m3, a bound for a floor computed from a tolerance. The floor in use is set per
+/// species by the solver ([`RateSet::set_floor`]) at the concentration its absolute tolerance
+/// resolves.
+pub const C_FLOOR: f64 = 1e-30;
+
+/// Value and derivative of C^e (see the module notes on powers); `cf` is the species' floor.
 #[inline]
-fn power(c: f64, e: Exponent) -> (f64, f64) {
+fn power(c: f64, e: Exponent, cf: f64) -> (f64, f64) {
     match e {
         Exponent::Int(0) => (1.0, 0.0),
         Exponent::Int(1) => (c, 1.0),
         Exponent::Int(2) => (c * c, 2.0 * c),
         Exponent::Int(n) => (c.powi(n), n as f64 * c.powi(n - 1)),
+        Exponent::Real(e) if e > 0.0 && e < 1.0 && c < cf => {
+            let top = cf.powf(e);
+            let x = c / cf;
+            if x >= 0.0 {
+                (
+                    top * ((2.0 - e) * x + (e - 1.0) * x * x),
+                    top / cf * ((2.0 - e) + 2.0 * (e - 1.0) * x),
+                )
+            } else {
+                (top * (2.0 - e) * x, top / cf * (2.0 - e))
+            }
+        }
         Exponent::Real(e) => {
             if c > 0.0 {
                 let v = c.powf(e);
@@ -174,31 +209,37 @@ fn power(c: f64, e: Exponent) -> (f64, f64) {
 
 /// Π_j C_j^e_j.
 #[inline]
-fn product_value(factors: &[Factor], c: &[f64]) -> f64 {
+fn product_value(factors: &[Factor], c: &[f64], floor: &[f64]) -> f64 {
     let mut total = 1.0;
     for f in factors {
         total *= match f.exponent {
             Exponent::Int(1) => c[f.species],
             Exponent::Int(2) => c[f.species] * c[f.species],
-            e => power(c[f.species], e).0,
+            e => power(c[f.species], e, floor[f.species]).0,
         };
     }
     total
 }
 
 /// Π_j C_j^e_j, with its gradient times `scale` added into `grad` (indexed like `depends_on`).
-fn product(factors: &[Factor], c: &[f64], grad: &mut [(usize, f64)], scale: f64) -> f64 {
+fn product(
+    factors: &[Factor],
+    c: &[f64],
+    floor: &[f64],
+    grad: &mut [(usize, f64)],
+    scale: f64,
+) -> f64 {
     let mut vals = [(0.0, 0.0); 8];
     let big: Vec<(f64, f64)>;
     let pv: &[(f64, f64)] = if factors.len() <= 8 {
         for (k, f) in factors.iter().enumerate() {
-            vals[k] = power(c[f.species], f.exponent);
+            vals[k] = power(c[f.species], f.exponent, floor[f.species]);
         }
         &vals[..factors.len()]
     } else {
         big = factors
             .iter()
-            .map(|f| power(c[f.species], f.exponent))
+            .map(|f| power(c[f.species], f.exponent, floor[f.species]))
             .collect();
         &big
     };
@@ -356,7 +397,19 @@ impl RateSet {
             packed,
             full,
             deps,
+            floor: vec![C_FLOOR; net.species.len()],
         }
+    }
+
+    /// Set the concentration floor (mol/m3) of each species' fractional orders 0 < a < 1
+    /// (module notes); values below [`C_FLOOR`] are raised to it.
+    pub fn set_floor(&mut self, floor: &[f64]) {
+        self.floor = floor.iter().map(|f| f.max(C_FLOOR)).collect();
+    }
+
+    /// The concentration floor of each species (mol/m3).
+    pub fn floor(&self) -> &[f64] {
+        &self.floor
     }
 
     /// Law i's factor ranges in the packed arrays: forward, reverse, and its `depends_on`.
@@ -388,12 +441,12 @@ impl RateSet {
         let (forward, reverse, _) = self.ranges(i);
         let mut num = 1.0;
         for f in &self.packed[forward] {
-            num *= f.value(c);
+            num *= f.value(c, &self.floor);
         }
         // An irreversible law has no reverse factors and 1/K = 0: the term is exactly 0.
         let mut rev = 1.0;
         for f in &self.packed[reverse] {
-            rev *= f.value(c);
+            rev *= f.value(c, &self.floor);
         }
         h.k * (num - rev * h.inv_k_eq)
     }
@@ -427,16 +480,16 @@ impl RateSet {
         let (forward, reverse, deps) = self.ranges(i);
         let Some(g) = grad else {
             // Rate only: no gradient bookkeeping.
-            let mut num = product_value(&self.full[forward], c);
+            let mut num = product_value(&self.full[forward], c, &self.floor);
             if law.reverse.is_some() {
-                num -= product_value(&self.full[reverse], c) * at.inv_k_eq;
+                num -= product_value(&self.full[reverse], c, &self.floor) * at.inv_k_eq;
             }
             return match &law.denominator {
                 None => k * num,
                 Some((terms, n)) => {
                     let mut d = 1.0;
                     for ((_, _, f), k_ads) in terms.iter().zip(&at.k_ads) {
-                        d += k_ads * power(c[f.species], f.exponent).0;
+                        d += k_ads * power(c[f.species], f.exponent, self.floor[f.species]).0;
                     }
                     k * num / d.powf(*n)
                 }
@@ -445,9 +498,9 @@ impl RateSet {
         g.clear();
         g.extend(self.deps[deps].iter().map(|&j| (j, 0.0)));
         // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
-        let mut num = product(&self.full[forward], c, g, 1.0);
+        let mut num = product(&self.full[forward], c, &self.floor, g, 1.0);
         if law.reverse.is_some() {
-            num -= product(&self.full[reverse], c, g, -at.inv_k_eq) * at.inv_k_eq;
+            num -= product(&self.full[reverse], c, &self.floor, g, -at.inv_k_eq) * at.inv_k_eq;
         }
         match &law.denominator {
             None => {
@@ -461,7 +514,7 @@ impl RateSet {
                 let mut d = 1.0;
                 let mut dgrad = vec![0.0; g.len()];
                 for ((_, _, f), k_ads) in terms.iter().zip(&at.k_ads) {
-                    let (v, dv) = power(c[f.species], f.exponent);
+                    let (v, dv) = power(c[f.species], f.exponent, self.floor[f.species]);
                     d += k_ads * v;
                     dgrad[f.slot] += k_ads * dv;
                 }
@@ -545,6 +598,47 @@ mod tests {
                 let general = rs.eval(i, t, &c, Some(&mut g));
                 let packed = rs.eval(i, t, &c, None);
                 assert_eq!(packed.to_bits(), general.to_bits(), "reaction {i} at {c:?}");
+            }
+        }
+    }
+
+    /// The floor of a fractional order 0 < a < 1 below C_FLOOR: value and slope continuous at
+    /// C_FLOOR and at zero (C¹), exact C^a above, zero at zero, the opposite sign below zero,
+    /// and the slope the derivative of the value (central differences).
+    #[test]
+    fn fractional_order_floor_is_smooth_and_restoring() {
+        const C_FLOOR: f64 = 1e-9;
+        for a in [0.25, 0.5, 0.75] {
+            let e = Exponent::Real(a);
+            let power = |c: f64, e: Exponent| power(c, e, C_FLOOR);
+            let (v_above, d_above) = power(C_FLOOR * (1.0 + 1e-9), e);
+            let (v_below, d_below) = power(C_FLOOR * (1.0 - 1e-9), e);
+            assert!(
+                (v_above - v_below).abs() <= 1e-8 * v_above,
+                "value jumps at C_FLOOR"
+            );
+            assert!(
+                (d_above - d_below).abs() <= 1e-6 * d_above,
+                "slope jumps at C_FLOOR"
+            );
+            let c = 3.0 * C_FLOOR;
+            assert_eq!(power(c, e).0, c.powf(a), "exact above the floor");
+            assert_eq!(power(0.0, e).0, 0.0);
+            assert!(
+                power(-1e-3 * C_FLOOR, e).0 < 0.0,
+                "no restoring rate below zero"
+            );
+            let (d0m, d0p) = (power(-1e-20, e).1, power(1e-20, e).1);
+            assert!((d0m - d0p).abs() <= 1e-6 * d0p, "slope jumps at zero");
+            for x in [-0.5, 0.1, 0.5, 0.9] {
+                let c = x * C_FLOOR;
+                let h = 1e-6 * C_FLOOR;
+                let fd = (power(c + h, e).0 - power(c - h, e).0) / (2.0 * h);
+                let d = power(c, e).1;
+                assert!(
+                    (fd - d).abs() <= 1e-6 * d.abs(),
+                    "a = {a}, x = {x}: {fd} vs {d}"
+                );
             }
         }
     }

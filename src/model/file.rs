@@ -97,6 +97,20 @@ pub struct RawRate {
     pub adsorption: Option<IndexMap<String, RawAdsorption>>,
     /// Hyperbolic only: exponent n of the denominator (default 1).
     pub inhibition_power: Option<f64>,
+    /// The species whose rate `k` gives (−r_A = k Π C^a for a reactant A, r_A for a product),
+    /// instead of the rate of reaction; converted on load by k / |ν_A|.
+    pub basis_species: Option<String>,
+    /// Whether the law is written in concentrations (default) or in partial pressures
+    /// (k, K_eq and adsorption constants then in pressure units; converted on load).
+    pub in_terms_of: Option<RawRateVariables>,
+}
+
+/// What a rate law's composition terms are: C_j (mol/m3) or p_j = C_j R T (Pa).
+#[derive(Debug, Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum RawRateVariables {
+    Concentrations,
+    PartialPressures,
 }
 
 #[derive(Debug, Deserialize)]

@@ -80,7 +80,8 @@ pub enum RateForm {
 /// The equilibrium constant of a reversible reaction.
 #[derive(Debug, Clone)]
 pub struct Equilibrium {
-    /// Concentration-based K_c at T_ref, SI units (mol/m3)^Σν.
+    /// Concentration-based K_c at T_ref, SI units (mol/m3)^Σν (a K_p given in partial
+    /// pressures is already converted with (R T)^(−Σν) at the feed temperature).
     pub k_ref: f64,
 }
 
@@ -88,7 +89,10 @@ pub struct Equilibrium {
 #[derive(Debug, Clone)]
 pub struct RateLaw {
     pub form: RateForm,
-    /// Rate constant at T_ref, SI.
+    /// Rate constant at T_ref, SI, on the concentration basis and per unit of extent: a k
+    /// given on a species basis is already divided by |ν|, and one given in partial pressures
+    /// already multiplied by (R T)^n at the reactor (feed) temperature T, so that k(T) is
+    /// exact there (see docs/methods.md).
     pub k_ref: f64,
     /// Arrhenius activation energy, J/mol (0: no temperature dependence).
     pub ea: f64,
@@ -251,6 +255,11 @@ pub struct Network {
     /// Index of the desired product, if named.
     pub desired: Option<usize>,
     pub solver: SolverSettings,
+    /// Conversions made on loading that change what the user wrote beyond a unit factor (a
+    /// gauge pressure made absolute, a rate constant on a species basis or in partial
+    /// pressures put on the reaction and concentration basis), each as a sentence naming the
+    /// field; `check` lists them.
+    pub notes: Vec<String>,
 }
 
 impl Network {

@@ -75,10 +75,15 @@ pub struct RunReport {
     #[serde(rename = "yield")]
     pub yields: IndexMap<String, Option<f64>>,
     pub yield_basis: IndexMap<String, String>,
-    pub yield_on_feed: IndexMap<String, f64>,
+    /// Null when the product is fed and net consumed.
+    pub yield_on_feed: IndexMap<String, Option<f64>>,
+    /// Why a yield is null ("not defined"), per product; only the products whose yield is null.
+    pub yield_not_defined: IndexMap<String, String>,
     pub desired: Option<String>,
-    /// S_D/U for each other product U (null: U not formed).
+    /// S_D/U for each other product U (null: not defined, see `selectivity_not_defined`).
     pub selectivity: IndexMap<String, Option<f64>>,
+    /// Why a selectivity is null, per other product.
+    pub selectivity_not_defined: IndexMap<String, String>,
     pub element_closure: IndexMap<String, f64>,
     pub solver: SolveStats,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -263,11 +268,21 @@ pub fn build(
             .iter()
             .map(|y| (y.species.clone(), y.on_feed))
             .collect(),
+        yield_not_defined: m
+            .yields
+            .iter()
+            .filter_map(|y| Some((y.species.clone(), y.not_defined.clone()?)))
+            .collect(),
         desired: m.desired.clone(),
         selectivity: m
             .selectivity
             .iter()
             .map(|s| (s.over.clone(), s.value))
+            .collect(),
+        selectivity_not_defined: m
+            .selectivity
+            .iter()
+            .filter_map(|s| Some((s.over.clone(), s.not_defined.clone()?)))
             .collect(),
         element_closure: m
             .element_closure
@@ -357,15 +372,25 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         );
     }
     let _ = writeln!(o, "\n  conversion of {}: {}", r.key, num(r.conversion));
+    let not_defined = |why: Option<&String>| match why {
+        Some(w) => format!("not defined ({w})"),
+        None => "not defined".to_string(),
+    };
     for (s, y) in &r.yields {
+        let why = r.yield_not_defined.get(s);
         let _ = writeln!(
             o,
-            "  yield of {s} on {}: {} ({}); on {} fed: {}",
+            "  yield of {s} on {}: {}; on {} fed: {}",
             r.key,
-            y.map(num).unwrap_or_else(|| "— (nothing consumed)".into()),
-            r.yield_basis[s],
+            match y {
+                Some(v) => format!("{} ({})", num(*v), r.yield_basis[s]),
+                None => not_defined(why),
+            },
             r.key,
-            num(r.yield_on_feed[s])
+            match r.yield_on_feed[s] {
+                Some(v) => num(v),
+                None => not_defined(why),
+            }
         );
     }
     if let Some(d) = &r.desired {
@@ -373,7 +398,10 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
             let _ = writeln!(
                 o,
                 "  selectivity {d}/{u}: {}",
-                s.map(num).unwrap_or_else(|| format!("∞ ({u} not formed)"))
+                match s {
+                    Some(v) => num(*v),
+                    None => not_defined(r.selectivity_not_defined.get(u)),
+                }
             );
         }
     }

@@ -52,8 +52,55 @@ pub const PRESSURE_COLLAPSE: f64 = 0.05;
 
 /// Default relative tolerance of the integration.
 pub const DEFAULT_RTOL: f64 = 1e-8;
-/// Default absolute tolerance, as a fraction of the total feed (F_T0 or N_T0).
+/// The tightest relative tolerance the integrator accepts (about 450 × the f64 machine
+/// epsilon 2.2e-16, IEEE 754: a tighter error test cannot be met in double precision). The
+/// loader and the command line refuse anything tighter, so no value accepted there is refused
+/// later by the integrator.
+pub const MIN_RTOL: f64 = 1e-13;
+/// The loosest relative tolerance accepted: beyond 1 % the integration error is visible in the
+/// printed figures and the answer can no longer be trusted (common practice).
+pub const MAX_RTOL: f64 = 1e-2;
+/// The loosest absolute tolerance accepted, as a fraction of the total feed (F_T0 or N_T0):
+/// a looser one lets the error test pass with amounts wrong by a visible part of the feed.
+pub const MAX_ATOL_FRACTION: f64 = 1e-3;
+/// An amount more negative than this fraction of the total feed is refused as unphysical,
+/// whatever the tolerances (an absolute guard: 1e-7 of the feed is below the six significant
+/// figures a report prints, and above the round-off of any accepted tolerance's honest error).
+pub const NEGATIVE_FRACTION: f64 = 1e-7;
+
+/// Whether a relative tolerance lies in the accepted range; the message names the range.
+pub fn check_rtol(rtol: f64) -> Result<(), String> {
+    if (MIN_RTOL..=MAX_RTOL).contains(&rtol) {
+        Ok(())
+    } else {
+        Err(format!(
+            "rtol must lie in [{MIN_RTOL:e}, {MAX_RTOL:e}], got {rtol:e}{}",
+            if rtol > 0.0 && rtol < MIN_RTOL {
+                " (tighter than double precision resolves; 1e-8 is the default)"
+            } else {
+                " (1e-8 is the default)"
+            }
+        ))
+    }
+}
+
+/// Whether an absolute tolerance (mol/s or mol) lies in the accepted range for a feed of
+/// `total` (F_T0 or N_T0): positive and at most [`MAX_ATOL_FRACTION`] of it.
+pub fn check_atol(atol: f64, total: f64, unit: &str) -> Result<(), String> {
+    let max = MAX_ATOL_FRACTION * total;
+    if atol > 0.0 && atol.is_normal() && atol <= max {
+        Ok(())
+    } else {
+        Err(format!(
+            "atol must be positive and at most {MAX_ATOL_FRACTION:e} of the total feed ({max:.3e} {unit}), got {atol:e} {unit}"
+        ))
+    }
+}
+/// Default absolute tolerance of a species, as a fraction of its scale (see [`species_atol`]).
 pub const DEFAULT_ATOL_FRACTION: f64 = 1e-12;
+/// The smallest scale of a species for its default absolute tolerance, as a fraction of the
+/// total feed: a trace of 1e-9 of the feed is the finest resolved by default.
+pub const MIN_SCALE_FRACTION: f64 = 1e-9;
 
 /// Solver statistics for the report.
 #[derive(Debug, Clone, Default, serde::Serialize)]
@@ -116,7 +163,7 @@ pub enum SolveError {
     #[error("CSTR steady state: {0}")]
     Newton(#[from] newton::NewtonError),
     #[error(
-        "species `{species}` goes negative ({value:.3e} {unit}) at {x_name} = {x:.6e} {x_unit}: the solution is not physical; tighten --rtol/--atol, or check the rate laws (orders, units of k)"
+        "species `{species}` goes negative ({value:.3e} {unit}, beyond the 1e-7 of the total feed allowed for round-off) at {x_name} = {x:.6e} {x_unit}: the solution is not physical; tighten --rtol/--atol, or check the rate laws (orders, units of k)"
     )]
     Negative {
         species: String,
@@ -156,20 +203,77 @@ pub fn reactor_axis(net: &Network) -> (&'static str, &'static str, f64) {
     }
 }
 
-/// The tolerances in force: command line, else study file, else defaults.
+/// The tolerances in force: command line, else study file, else defaults; the absolute one is
+/// the smallest of [`species_atol`].
 pub fn tolerances(net: &Network, opts: &SolveOptions) -> (f64, f64) {
     let rtol = opts.rtol.or(net.solver.rtol).unwrap_or(DEFAULT_RTOL);
-    let atol = opts
-        .atol
-        .or(net.solver.atol)
-        .unwrap_or(DEFAULT_ATOL_FRACTION * net.feed.total());
+    let atol = species_atol(net, opts)
+        .into_iter()
+        .fold(f64::INFINITY, f64::min);
     (rtol, atol)
 }
 
-/// How negative a species may go before the solution is rejected: beyond the integration's
-/// own error (a few atol, plus rtol of the total).
-fn negative_limit(rtol: f64, atol: f64, total: f64) -> f64 {
-    100.0 * atol + 10.0 * rtol * total
+/// The absolute tolerance of each species (mol/s or mol): the one given on the command line or
+/// in the study file for all, else per species [`DEFAULT_ATOL_FRACTION`] of its scale. The
+/// scale of a fed species is its feed; of one not fed (a product), the smallest feed of a
+/// consumed species (it cannot be made from less without a larger relative change of that
+/// reactant); never below [`MIN_SCALE_FRACTION`] of the total feed. A trace reactant is thus
+/// resolved relative to its own feed, not to a solvent that dominates the total (at 99.99 %
+/// conversion of a trace the old single atol of 1e-12 F_T0 left 2e-6 relative error).
+pub fn species_atol(net: &Network, opts: &SolveOptions) -> Vec<f64> {
+    let n = net.species.len();
+    if let Some(a) = opts.atol.or(net.solver.atol) {
+        return vec![a; n];
+    }
+    let f0 = &net.feed.amounts;
+    let total = net.feed.total();
+    let smallest_reactant = (0..n)
+        .filter(|&j| f0[j] > 0.0 && net.reactions.iter().any(|r| r.nu(j) < 0.0))
+        .map(|j| f0[j])
+        .fold(f64::INFINITY, f64::min);
+    let least = MIN_SCALE_FRACTION * total;
+    (0..n)
+        .map(|j| {
+            let scale = if f0[j] > 0.0 {
+                f0[j]
+            } else if smallest_reactant.is_finite() {
+                smallest_reactant
+            } else {
+                total
+            };
+            DEFAULT_ATOL_FRACTION * scale.max(least)
+        })
+        .collect()
+}
+
+/// The balance with the concentration floor of its fractional orders set where the absolute
+/// tolerances in force resolve each species: c_f,j = atol_j / v0 (v0 the feed volumetric flow,
+/// or the batch volume). Below it the integrator controls no digit of the species, so the
+/// floor changes the rate law nowhere the answer is resolved (docs/methods.md).
+fn floored<'a>(
+    net: &Network,
+    balance: &'a Balance,
+    opts: &SolveOptions,
+) -> std::borrow::Cow<'a, Balance> {
+    let v = net.feed.volumetric;
+    let floor: Vec<f64> = species_atol(net, opts)
+        .into_iter()
+        .map(|a| if v > 0.0 { a / v } else { 0.0 })
+        .collect();
+    if balance.rates.floor() == floor.as_slice() {
+        std::borrow::Cow::Borrowed(balance)
+    } else {
+        let mut b = balance.clone();
+        b.rates.set_floor(&floor);
+        std::borrow::Cow::Owned(b)
+    }
+}
+
+/// How negative a species may go before the solution is rejected: a fixed fraction of the
+/// feed, in physical terms, never scaled by the tolerances (a loose tolerance must not make a
+/// negative amount acceptable).
+fn negative_limit(total: f64) -> f64 {
+    NEGATIVE_FRACTION * total
 }
 
 /// Solve the network's reactor.
@@ -184,10 +288,21 @@ pub fn simulate_with(
     balance: &Balance,
     opts: &SolveOptions,
 ) -> Result<Simulation, SolveError> {
+    let balance = &*floored(net, balance, opts);
     let (x_name, x_unit, size) = reactor_axis(net);
     let (rtol, atol) = tolerances(net, opts);
     let n = net.species.len();
     let total = net.feed.total();
+    let state_unit = if net.reactor.is_batch() {
+        "mol"
+    } else {
+        "mol/s"
+    };
+    // The same ranges as the loader and the command line (a library caller gets them too).
+    check_rtol(rtol).map_err(SolveError::Setup)?;
+    if let Some(a) = opts.atol.or(net.solver.atol) {
+        check_atol(a, total, state_unit).map_err(SolveError::Setup)?;
+    }
     let mut stats = SolveStats {
         rtol,
         atol,
@@ -298,12 +413,8 @@ pub fn simulate_with(
             stats,
         }
     };
-    let limit = negative_limit(rtol, atol, total);
-    let unit = if net.reactor.is_batch() {
-        "mol"
-    } else {
-        "mol/s"
-    };
+    let limit = negative_limit(total);
+    let unit = state_unit;
     for (x, y) in sim.x.iter().zip(&sim.states) {
         if let Some((j, v)) = y.iter().enumerate().find(|(_, v)| **v < -limit) {
             return Err(SolveError::Negative {
@@ -342,8 +453,9 @@ fn reactor_name(net: &Network) -> &'static str {
 
 /// The ODE options of a solve (tolerances in force, pressure state tolerance).
 pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> OdeOptions {
-    let (rtol, atol) = tolerances(net, opts);
-    let mut atols = vec![atol; balance.dim()];
+    let (rtol, _) = tolerances(net, opts);
+    let mut atols = species_atol(net, opts);
+    atols.resize(balance.dim(), 0.0);
     if balance.has_pressure() {
         atols[net.species.len()] = 1e-12;
     }
@@ -380,6 +492,7 @@ pub fn advance(
     length: f64,
     opts: &SolveOptions,
 ) -> Result<Vec<f64>, SolveError> {
+    let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
     let sol = ode::integrate(&Adapter(balance), y0, length, &Output::End, &o)
         .map_err(|e| study_error(net, length, e))?;
@@ -401,6 +514,7 @@ pub fn trace_root(
     g: &dyn Fn(&[f64]) -> f64,
     opts: &SolveOptions,
 ) -> Result<(Option<(f64, Vec<f64>)>, Vec<f64>), SolveError> {
+    let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
     let gx = |_x: f64, y: &[f64]| g(y);
     let (sol, root) = ode::integrate_until_root(&Adapter(balance), &gx, y0, length, &o)

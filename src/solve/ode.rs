@@ -215,10 +215,11 @@ fn validate(
     if !(x_end.is_finite() && x_end > 0.0) {
         return Err(invalid(format!("x_end = {x_end} must be finite and > 0")));
     }
-    if !(opts.rtol.is_finite() && (1e-13..1.0).contains(&opts.rtol)) {
+    if !(opts.rtol.is_finite() && (super::MIN_RTOL..1.0).contains(&opts.rtol)) {
         return Err(invalid(format!(
-            "rtol = {} must lie in [1e-13, 1)",
-            opts.rtol
+            "rtol = {} must lie in [{:e}, 1)",
+            opts.rtol,
+            super::MIN_RTOL
         )));
     }
     if opts.atol.len() != n && opts.atol.len() != 1 {
@@ -347,6 +348,12 @@ fn run(
             let mut state = problem.bdf_state::<$lu>().map_err(fail)?;
             if let Some(h) = opts.first_step {
                 *state.as_mut().h = h;
+            }
+            // A reactor shorter than the first step estimated from the rates (a batch of
+            // 1e-300 s) is integrated in steps no longer than itself; otherwise the solver sees
+            // its end within round-off of its first step and refuses to start.
+            if *state.as_mut().h > x_end {
+                *state.as_mut().h = x_end;
             }
             if let Some(e) = sh.take_fault() {
                 return Err(e);

@@ -18,8 +18,7 @@
 //! run, so an override meets the same validation as the file.
 
 use super::study::{Study, StudyError, Variable};
-use super::target::Target;
-use crate::metrics;
+use super::target::{Limit, Target};
 use crate::model::{Network, Override, Reactor};
 use crate::reactor::Balance;
 use crate::solve::{self, SolveError, SolveOptions, newton};
@@ -38,7 +37,12 @@ pub struct SizeOptimum {
     /// V, W or t at the optimum, SI.
     pub size: f64,
     pub value: f64,
+    /// None: an interior maximum, where d(target)/dx was checked to change sign from + to −.
     pub on_bound: Option<Bound>,
+    /// On a bound: whether the target still improves beyond it (d(target)/dx > 0 at the upper
+    /// bound, < 0 at the lower bound or the conversion constraint), so that widening the
+    /// bounds would move the optimum.
+    pub improves_beyond: bool,
     /// How many candidate points were compared.
     pub candidates: usize,
 }
@@ -49,10 +53,100 @@ fn conversion(net: &Network, y: &[f64]) -> f64 {
 }
 
 /// Smallest size used in place of a lower bound of zero, relative to the upper bound (ratios
-/// such as yields are undefined at zero size; their limit there is the inlet's instantaneous value).
+/// such as yields are undefined at zero size; their limit there comes from the inlet's rates).
 const ZERO_SIZE: f64 = 1e-9;
 
-/// Optimise the reactor size within [lo, hi] (SI).
+/// Relative offset on each side of a stationary point at which the slope's sign is checked.
+const SIDE: f64 = 1e-4;
+
+/// Relative spread below which a target counts as the same at every size.
+const FLAT: f64 = 1e-6;
+
+/// The unit of a target's value: mol/s or mol for an amount, 1 for the ratios.
+pub fn value_unit(net: &Network, target: &Target) -> &'static str {
+    match target {
+        Target::Amount(_) if net.reactor.is_batch() => "mol",
+        Target::Amount(_) => "mol/s",
+        _ => "1",
+    }
+}
+
+/// The state and the target's slope at any size: a fresh integration from the inlet (flow,
+/// batch) or a steady-state solve (CSTR).
+struct Probe<'a> {
+    net: &'a Network,
+    b: &'a Balance,
+    target: &'a Target,
+    opts: &'a SolveOptions,
+    cstr: bool,
+}
+
+/// The residual tolerance of a CSTR steady state at volume V, mol/s: 1e-14 of the feed plus
+/// 1e-14 of V times the rates of change at the feed. The second term is the round-off of
+/// V f(F) in a large reactor, where forward and reverse rates are each far above the flows;
+/// the error in F is the residual over V ∂f/∂F, so it stays small.
+pub(crate) fn cstr_tolerance(net: &Network, b: &Balance, volume: f64) -> f64 {
+    let f0 = &net.feed.amounts;
+    let mut d = vec![0.0; f0.len()];
+    b.rhs(f0, &mut d);
+    let gross: f64 = d.iter().map(|v| v.abs()).sum();
+    1e-14 * (net.feed.total() + volume * gross)
+}
+
+impl Probe<'_> {
+    fn state(&self, x: f64) -> Result<Vec<f64>, StudyError> {
+        if self.cstr {
+            let tol = cstr_tolerance(self.net, self.b, x);
+            newton::solve_cstr(self.b, &self.net.feed.amounts, x, tol)
+                .map(|(f, _)| f)
+                .map_err(|e| StudyError::Solve(SolveError::Newton(e)))
+        } else {
+            let y0 = self.b.initial_state(self.net);
+            Ok(solve::advance(self.net, self.b, &y0, x, self.opts)?)
+        }
+    }
+
+    /// A number with the sign of d(target)/dx at size x, and the state there.
+    fn slope(&self, x: f64) -> Result<(f64, Vec<f64>), StudyError> {
+        let y = self.state(x)?;
+        let d = if self.cstr {
+            newton::volume_sensitivity(self.b, x, &y).ok_or(StudyError::Solve(
+                SolveError::Newton(newton::NewtonError::Singular { volume: x }),
+            ))?
+        } else {
+            let mut d = vec![0.0; y.len()];
+            self.b.rhs(&y, &mut d);
+            d
+        };
+        Ok((self.target.slope_sign(self.net, &y, &d), y))
+    }
+
+    /// True when the target rises before x and falls after it (checked at x(1 ∓ SIDE)).
+    fn is_maximum(&self, x: f64, lo: f64, hi: f64) -> Result<bool, StudyError> {
+        let (a, c) = (x * (1.0 - SIDE), x * (1.0 + SIDE));
+        if a < lo || c > hi {
+            return Ok(false);
+        }
+        Ok(self.slope(a)?.0 > 0.0 && self.slope(c)?.0 < 0.0)
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum PointKind {
+    /// The lower bound the user gave (a size > 0).
+    Lower,
+    /// The smallest size tried when the lower bound is zero (not a bound: the limit x → 0).
+    Smallest,
+    Upper,
+    Constraint,
+    /// A zero of d(target)/dx, not yet classified.
+    Stationary,
+}
+
+/// Optimise the reactor size within [lo, hi] (SI). A lower bound of 0 is the limit of a
+/// vanishing reactor: when the target's supremum is approached there (a yield or selectivity
+/// that is best at the inlet), no finite size is optimal and the answer is an
+/// `Infeasible` error that says so, unless `min_conversion` keeps the size away from zero.
 pub fn optimize_size(
     net: &Network,
     target: &Target,
@@ -69,62 +163,181 @@ pub fn optimize_size(
     if net.feed.amounts[net.key] <= 0.0 {
         return Err(StudyError::Invalid("the key reactant is not fed".into()));
     }
-    let lo_eff = lo.max(ZERO_SIZE * hi);
+    let min_conversion = min_conversion.filter(|x| *x > 0.0);
+    let lo_open = lo == 0.0;
+    let lo_eff = if lo_open { ZERO_SIZE * hi } else { lo };
     let balance = Balance::new(net).map_err(StudyError::Invalid)?;
-    // (x, state) candidates; the constraint's active point, if any.
-    let (cands, x_conv) = if let Reactor::Cstr { .. } = net.reactor {
-        cstr_candidates(net, &balance, target, lo_eff, hi, min_conversion)?
-    } else {
-        flow_candidates(net, &balance, target, lo_eff, hi, min_conversion, opts)?
+    let cstr = matches!(net.reactor, Reactor::Cstr { .. });
+    let probe = Probe {
+        net,
+        b: &balance,
+        target,
+        opts,
+        cstr,
     };
-    let n_cands = cands.len();
-    let mut best: Option<(f64, f64)> = None;
-    for (x, y) in &cands {
-        if *x < lo_eff * (1.0 - 1e-12) || *x > hi * (1.0 + 1e-12) {
-            continue;
-        }
-        if let Some(xc) = x_conv
-            && *x < xc * (1.0 - 1e-12)
-        {
-            continue;
-        }
-        if let Some(v) = target.value(net, y)
-            && best.is_none_or(|(_, bv)| v > bv)
-        {
-            best = Some((*x, v));
+    let (stationary, mut x_conv) = if cstr {
+        cstr_candidates(&probe, lo_eff, hi, min_conversion)?
+    } else {
+        flow_candidates(net, &balance, target, hi, min_conversion, opts)?
+    };
+    // A constraint already met at the lower end does not restrict the interval.
+    if x_conv.is_some_and(|xc| xc <= lo_eff) {
+        x_conv = None;
+    }
+    let start = x_conv.unwrap_or(lo_eff);
+    let mut points: Vec<(f64, Vec<f64>, PointKind)> = vec![
+        (
+            lo_eff,
+            probe.state(lo_eff)?,
+            if lo_open {
+                PointKind::Smallest
+            } else {
+                PointKind::Lower
+            },
+        ),
+        (hi, probe.state(hi)?, PointKind::Upper),
+    ];
+    if let Some(xc) = x_conv {
+        points.push((xc, probe.state(xc)?, PointKind::Constraint));
+    }
+    for (x, y) in stationary {
+        if x > start * (1.0 + 1e-12) && x < hi * (1.0 - 1e-12) {
+            points.push((x, y, PointKind::Stationary));
         }
     }
-    let (size, value) = best.ok_or_else(|| {
-        StudyError::Infeasible(format!(
-            "no size in [{lo_eff:.6e}, {hi:.6e}] gives a defined value of {}",
-            target.label(net)
-        ))
-    })?;
-    let near = |a: f64, b: f64| (a - b).abs() <= 1e-9 * hi;
-    let on_bound = if x_conv.is_some_and(|xc| near(size, xc)) {
-        Some(Bound::MinConversion)
-    } else if near(size, hi) {
-        Some(Bound::Upper)
-    } else if near(size, lo_eff) {
-        Some(Bound::Lower)
+    let n_cands = points.len();
+    // Values at the feasible points, best first.
+    let mut valued: Vec<(f64, f64, PointKind)> = points
+        .iter()
+        .filter(|(x, _, _)| *x >= start * (1.0 - 1e-12))
+        .filter_map(|(x, y, k)| target.value(net, y).map(|v| (*x, v, *k)))
+        .collect();
+    valued.sort_by(|a, b| b.1.total_cmp(&a.1));
+    let label = target.label(net);
+    let (xn, xu, _) = solve::reactor_axis(net);
+    let vu = value_unit(net, target);
+    let with_unit = |v: f64| {
+        if vu == "1" {
+            crate::report::num(v)
+        } else {
+            format!("{} {vu}", crate::report::num(v))
+        }
+    };
+    if valued.is_empty() {
+        return Err(StudyError::Infeasible(format!(
+            "no size in [{} {xu}, {} {xu}] gives a defined value of {label}",
+            crate::report::num(start),
+            crate::report::num(hi)
+        )));
+    }
+    // The limit at zero size counts when nothing keeps the size away from zero.
+    let at_zero = lo_open && x_conv.is_none();
+    let limit = if at_zero {
+        let y0 = balance.initial_state(net);
+        let mut d = vec![0.0; y0.len()];
+        balance.rhs(&y0, &mut d);
+        Some(target.limit_at_zero_size(net, &y0, &d))
     } else {
         None
+    };
+    // The same value everywhere (e.g. the yield of parallel reactions of equal order).
+    let (vmax, vmin) = (valued[0].1, valued[valued.len() - 1].1);
+    let (mut top, mut bottom) = (vmax, vmin);
+    if let Some(Limit::Value(l)) = limit {
+        top = top.max(l);
+        bottom = bottom.min(l);
+    }
+    if !matches!(limit, Some(Limit::PlusInfinity))
+        && top - bottom <= FLAT * top.abs().max(bottom.abs())
+    {
+        return Err(StudyError::Infeasible(format!(
+            "{label} is {} at every {xn} in [{} {xu}, {} {xu}] (to {FLAT:e} relative): it does not depend on the size, so no size is optimal",
+            with_unit(vmax),
+            crate::report::num(if at_zero { 0.0 } else { start }),
+            crate::report::num(hi)
+        )));
+    }
+    // The best point that is a bound, the constraint, or a verified maximum.
+    let mut best = None;
+    for &(x, v, k) in &valued {
+        if k != PointKind::Stationary || probe.is_maximum(x, start, hi)? {
+            best = Some((x, v, k));
+            break;
+        }
+    }
+    let (size, value, kind) = best.expect("the bounds are among the points");
+    let remedy =
+        "add --min-conversion X (or a positive lower bound) to make the problem well posed";
+    if let Some(l) = limit {
+        let tol = FLAT * value.abs();
+        let sup = match l {
+            Limit::PlusInfinity => Some(format!(
+                "{label} grows without bound as {xn} -> 0 (the other product is not formed at the inlet): no finite optimum; {remedy}"
+            )),
+            Limit::Value(l) if l >= value - tol || kind == PointKind::Smallest => Some(format!(
+                "{label} approaches {} as {xn} -> 0 and is smaller at every positive {xn}: no finite optimum; {remedy}",
+                with_unit(l)
+            )),
+            _ if kind == PointKind::Smallest => Some(format!(
+                "{label} is largest at the smallest {xn} tried ({} {xu}) and rises further as {xn} -> 0: no finite optimum; {remedy}",
+                crate::report::num(size)
+            )),
+            _ => None,
+        };
+        if let Some(m) = sup {
+            return Err(StudyError::Infeasible(m));
+        }
+    }
+    let on_bound = match kind {
+        PointKind::Lower | PointKind::Smallest => Some(Bound::Lower),
+        PointKind::Upper => Some(Bound::Upper),
+        PointKind::Constraint => Some(Bound::MinConversion),
+        PointKind::Stationary => None,
+    };
+    let improves_beyond = match on_bound {
+        None => false,
+        Some(Bound::Upper) => probe.slope(size)?.0 > 0.0,
+        Some(_) => probe.slope(size)?.0 < 0.0,
     };
     Ok(SizeOptimum {
         size,
         value,
         on_bound,
+        improves_beyond,
         candidates: n_cands,
     })
 }
 
 type Candidates = (Vec<(f64, Vec<f64>)>, Option<f64>);
 
+/// The error when the conversion constraint is not met at the upper bound: how far it gets,
+/// and whether a larger reactor would meet it (the size that does) or none can (X_eq).
+fn short_of(net: &Network, xmin: f64, reached: f64, hi: f64, opts: &SolveOptions) -> StudyError {
+    let (xn, xu, _) = solve::reactor_axis(net);
+    let head = format!(
+        "the conversion reaches only {reached:.6} at the upper bound {xn} = {} {xu}, below the required {xmin}",
+        crate::report::num(hi)
+    );
+    let tail = match super::compare::reach_conversion(net, xmin, opts) {
+        Ok(super::compare::Reach::Size(s)) => format!(
+            "; it is reached at {xn} = {} {xu}: raise the upper bound",
+            crate::report::num(s)
+        ),
+        Ok(super::compare::Reach::Beyond { x_max, reason }) => format!(
+            "; {}",
+            super::compare::beyond_message(net, xmin, x_max, &reason)
+        ),
+        Err(_) => String::new(),
+    };
+    StudyError::Infeasible(format!("{head}{tail}"))
+}
+
+/// The zeros of d(target)/dx along a PFR, packed bed or batch over (0, hi] (one integration,
+/// restarted past each zero), and where the conversion constraint becomes active.
 fn flow_candidates(
     net: &Network,
     b: &Balance,
     target: &Target,
-    lo: f64,
     hi: f64,
     min_conversion: Option<f64>,
     opts: &SolveOptions,
@@ -142,7 +355,7 @@ fn flow_candidates(
         if len <= 1e-12 * hi {
             break;
         }
-        let (root, end) = solve::trace_root(net, b, &y, len, &slope, opts)?;
+        let (root, _) = solve::trace_root(net, b, &y, len, &slope, opts)?;
         match root {
             Some((dx, yr)) => {
                 x += dx;
@@ -155,28 +368,18 @@ fn flow_candidates(
                     x += nudge;
                 }
             }
-            None => {
-                cands.push((hi, end));
-                break;
-            }
+            None => break,
         }
     }
-    cands.push((lo, solve::advance(net, b, &y0, lo, opts)?));
     let mut x_conv = None;
     if let Some(xmin) = min_conversion {
         let g = |y: &[f64]| conversion(net, y) - xmin;
         let (root, end) = solve::trace_root(net, b, &y0, hi, &g, opts)?;
         match root {
-            Some((xc, yc)) => {
-                cands.push((xc, yc));
-                x_conv = Some(xc);
-            }
+            Some((xc, _)) => x_conv = Some(xc),
             None => {
                 if conversion(net, &end) < xmin {
-                    return Err(StudyError::Infeasible(format!(
-                        "the conversion reaches only {:.6} at the upper bound {hi:.6e}, below the required {xmin}",
-                        conversion(net, &end)
-                    )));
+                    return Err(short_of(net, xmin, conversion(net, &end), hi, opts));
                 }
             }
         }
@@ -184,62 +387,41 @@ fn flow_candidates(
     Ok((cands, x_conv))
 }
 
+/// The maxima of the target over a CSTR's volume (a log-spaced scan of d(target)/dV, each
+/// change of sign from + to − narrowed by bisection), and where the conversion constraint
+/// becomes active.
 fn cstr_candidates(
-    net: &Network,
-    b: &Balance,
-    target: &Target,
+    p: &Probe,
     lo: f64,
     hi: f64,
     min_conversion: Option<f64>,
 ) -> Result<Candidates, StudyError> {
-    let total = net.feed.total();
-    let tol = 1e-14 * total;
-    let solve_at = |v: f64| -> Result<Vec<f64>, StudyError> {
-        newton::solve_cstr(b, &net.feed.amounts, v, tol)
-            .map(|(f, _)| f)
-            .map_err(|e| StudyError::Solve(SolveError::Newton(e)))
-    };
-    let slope_at = |v: f64| -> Result<(f64, Vec<f64>), StudyError> {
-        let f = solve_at(v)?;
-        let d = newton::volume_sensitivity(b, v, &f).ok_or({
-            StudyError::Solve(SolveError::Newton(newton::NewtonError::Singular {
-                volume: v,
-            }))
-        })?;
-        Ok((target.slope_sign(net, &f, &d), f))
-    };
     const SCAN: usize = 41;
     let (ul, uh) = (lo.ln(), hi.ln());
     let mut grid = Vec::with_capacity(SCAN);
     for k in 0..SCAN {
         let v = (ul + (uh - ul) * k as f64 / (SCAN - 1) as f64).exp();
-        grid.push((v, slope_at(v)?));
+        grid.push((v, p.slope(v)?.0));
     }
-    let mut cands: Vec<(f64, Vec<f64>)> =
-        vec![(lo, grid[0].1.1.clone()), (hi, grid[SCAN - 1].1.1.clone())];
+    let mut cands: Vec<(f64, Vec<f64>)> = Vec::new();
     for w in grid.windows(2) {
-        let ((va, (sa, _)), (vb, (sb, _))) = (&w[0], &w[1]);
-        if *sa > 0.0 && *sb <= 0.0 {
+        let ((va, sa), (vb, sb)) = (w[0], w[1]);
+        if sa > 0.0 && sb <= 0.0 {
             // Bisection on ln V keeps the bracket [a, b] with slope(a) > 0 ≥ slope(b).
-            let (a, c) = bisect_ln(*va, *vb, |v| Ok(slope_at(v)?.0 > 0.0))?;
+            let (a, c) = bisect_ln(va, vb, |v| Ok(p.slope(v)?.0 > 0.0))?;
             let v = (0.5 * (a + c)).exp();
-            cands.push((v, solve_at(v)?));
+            cands.push((v, p.state(v)?));
         }
     }
     let mut x_conv = None;
     if let Some(xmin) = min_conversion {
-        let conv = |v: f64| -> Result<f64, StudyError> { Ok(conversion(net, &solve_at(v)?)) };
+        let conv = |v: f64| -> Result<f64, StudyError> { Ok(conversion(p.net, &p.state(v)?)) };
         if conv(hi)? < xmin {
-            return Err(StudyError::Infeasible(format!(
-                "the conversion reaches only {:.6} at the upper bound V = {hi:.6e} m3, below the required {xmin}",
-                conv(hi)?
-            )));
+            return Err(short_of(p.net, xmin, conv(hi)?, hi, p.opts));
         }
         if conv(lo)? < xmin {
             let (_, c) = bisect_ln(lo, hi, |v| Ok(conv(v)? < xmin))?;
-            let v = c.exp();
-            cands.push((v, solve_at(v)?));
-            x_conv = Some(v);
+            x_conv = Some(c.exp());
         }
     }
     Ok((cands, x_conv))
@@ -289,13 +471,15 @@ fn evaluate(
     let sets: Vec<Override> = vars.iter().zip(x).map(|(v, x)| v.set(*x)).collect();
     let net = study.load(&sets)?;
     let target = Target::parse(target_text, &net).map_err(StudyError::Invalid)?;
-    let sim = match solve::simulate(&net, opts) {
-        Ok(s) => s,
+    // Through the evaluation gate: a candidate `run` would refuse (error findings at this
+    // point, a failed or unphysical solve) is infeasible.
+    let ev = match super::evaluate::evaluate(&net, opts, false) {
+        Ok(ev) => ev,
         Err(_) => return Ok(None),
     };
-    let out = sim.outlet();
+    let out = ev.sim.outlet();
     if let Some(xmin) = min_conversion
-        && metrics::compute(&net, out).conversion < xmin
+        && ev.metrics.conversion < xmin
     {
         return Ok(None);
     }
@@ -381,7 +565,46 @@ pub fn optimize_vars(
                 None
             }
         })
-        .collect();
+        .collect::<Vec<_>>();
+    // An input the target does not depend on (the same value at both of its bounds and at
+    // the best point, the other inputs at their best) would be reported on an arbitrary bound.
+    for (i, v) in vars.iter().enumerate() {
+        let mut same = true;
+        for end in [v.lo, v.hi] {
+            let mut x = best_x.clone();
+            x[i] = end;
+            let fx = f(&x)?;
+            same &= (fx - best_f).abs() <= FLAT * best_f.abs();
+        }
+        if same {
+            return Err(StudyError::Infeasible(format!(
+                "{target_text} is the same ({}) at both bounds of {} and between: it does not depend on {}, so no value of it is optimal; drop --over {}",
+                crate::report::num(best_f),
+                v.path,
+                v.path,
+                v.path
+            )));
+        }
+    }
+    // An interior value must be a maximum along each input: no better value a little to
+    // either side (the search may otherwise stop on a slope it could not resolve).
+    for (i, v) in vars.iter().enumerate() {
+        if on_bound[i].is_some() {
+            continue;
+        }
+        let h = 1e-4 * (v.hi - v.lo);
+        for side in [-h, h] {
+            let mut x = best_x.clone();
+            x[i] = (x[i] + side).clamp(v.lo, v.hi);
+            let fx = f(&x)?;
+            if fx > best_f + 1e-9 * best_f.abs() {
+                return Err(StudyError::Infeasible(format!(
+                    "the search ended at {} = {} {} where {target_text} still rises toward {} = {} {}: no verified maximum",
+                    v.path, best_x[i], v.unit, v.path, x[i], v.unit
+                )));
+            }
+        }
+    }
     Ok(VarOptimum {
         point: best_x,
         value: best_f,

@@ -5,10 +5,11 @@
 //! array together cover the grid once; their CSVs concatenate (only shard 1 writes the header)
 //! and, sorted by the `point` column, equal the unsharded sweep.
 
+use super::evaluate::{Findings, evaluate_study};
 use super::study::{Study, Variable};
 use crate::metrics;
 use crate::model::Network;
-use crate::solve::{self, SolveOptions};
+use crate::solve::SolveOptions;
 use rayon::prelude::*;
 
 /// Most points one sweep may have (a bound on time and memory; split larger grids into shards).
@@ -73,6 +74,8 @@ pub struct PointResult {
     /// Per product (column order of [`Columns`]).
     pub yields: Vec<Option<f64>>,
     pub selectivity: Vec<Option<f64>>,
+    /// (column, reason) of each yield or selectivity that is not defined at this point.
+    pub not_defined: Vec<(String, String)>,
     pub outlet: Vec<f64>,
 }
 
@@ -153,8 +156,13 @@ pub fn point_inputs(axes: &[Axis], p: usize) -> Vec<f64> {
     axes.iter().zip(idx).map(|(a, i)| a.value(i)).collect()
 }
 
+/// One point through the evaluation gate ([`super::evaluate`]): the same load, consistency
+/// check, solve, result checks and metrics as `rxnet run`, so a point `run` would refuse
+/// (e.g. K_eq breaking Wegscheider's condition at this temperature, the key not fed) is a
+/// failed row, never an `ok` one.
 fn run_point(
     study: &Study,
+    base: Option<&Findings>,
     cols: &Columns,
     axes: &[Axis],
     inputs: &[f64],
@@ -165,56 +173,97 @@ fn run_point(
         .zip(inputs)
         .map(|(a, v)| a.var.set(*v))
         .collect();
-    let net = study.load(&sets).map_err(|e| e.to_string())?;
-    let sim = solve::simulate(&net, opts).map_err(|e| e.to_string())?;
-    let m = metrics::compute(&net, sim.outlet());
-    let find_y = |name: &String| {
-        m.yields
-            .iter()
-            .find(|y| &y.species == name)
-            .and_then(|y| y.on_key)
-    };
-    let find_s = |name: &String| {
-        m.selectivity
-            .iter()
-            .find(|s| &s.over == name)
-            .and_then(|s| s.value)
-    };
+    let (_, ev) = evaluate_study(study, &sets, opts, base).map_err(|e| e.to_string())?;
+    let m = &ev.metrics;
+    let find_y = |name: &String| m.yields.iter().find(|y| &y.species == name);
+    let find_s = |name: &String| m.selectivity.iter().find(|s| &s.over == name);
+    let mut not_defined = Vec::new();
+    for p in &cols.products {
+        if let Some(why) = find_y(p).and_then(|y| y.not_defined.clone()) {
+            not_defined.push((format!("yield:{p}"), why));
+        }
+    }
+    if let Some(d) = &cols.desired {
+        for u in &cols.others {
+            if let Some(why) = find_s(u).and_then(|s| s.not_defined.clone()) {
+                not_defined.push((format!("selectivity:{d}/{u}"), why));
+            }
+        }
+    }
     Ok(PointResult {
         conversion: m.conversion,
-        yields: cols.products.iter().map(find_y).collect(),
-        selectivity: cols.others.iter().map(find_s).collect(),
-        outlet: sim.outlet().to_vec(),
+        yields: cols
+            .products
+            .iter()
+            .map(|p| find_y(p).and_then(|y| y.on_key))
+            .collect(),
+        selectivity: cols
+            .others
+            .iter()
+            .map(|u| find_s(u).and_then(|s| s.value))
+            .collect(),
+        not_defined,
+        outlet: ev.sim.outlet().to_vec(),
     })
 }
 
-/// Run the grid (or one shard of it) in parallel. `progress` is called once per finished point.
-pub fn run(
+/// Points evaluated together before their rows are handed on: enough to keep every core busy,
+/// few enough that a sweep's memory does not grow with its size.
+pub const CHUNK: usize = 1024;
+
+/// The point numbers of the grid or of one shard of it, in order.
+pub fn point_numbers(total: usize, shard: Option<(usize, usize)>) -> impl Iterator<Item = usize> {
+    let (first, step) = match shard {
+        None => (0, 1),
+        Some((k, n)) => (k - 1, n),
+    };
+    (first..total).step_by(step)
+}
+
+/// Run the grid (or one shard of it) in parallel, a chunk of [`CHUNK`] points at a time, and
+/// hand each chunk's rows, in point order, to `sink` as soon as the chunk is done; memory is
+/// bounded by one chunk whatever the number of points. `progress` is called once per finished
+/// point. Stops at the first error of `sink`.
+pub fn run<E>(
     study: &Study,
     cols: &Columns,
     axes: &[Axis],
     shard: Option<(usize, usize)>,
     opts: &SolveOptions,
     progress: &(dyn Fn() + Sync),
-) -> Result<Vec<SweepRow>, String> {
-    let total = grid_size(axes)?;
-    let points: Vec<usize> = match shard {
-        None => (0..total).collect(),
-        Some((k, n)) => (0..total).filter(|p| p % n == k - 1).collect(),
-    };
-    Ok(points
-        .into_par_iter()
-        .map(|p| {
-            let inputs = point_inputs(axes, p);
-            let result = run_point(study, cols, axes, &inputs, opts);
-            progress();
-            SweepRow {
-                point: p,
-                inputs,
-                result,
-            }
-        })
-        .collect())
+    sink: &mut dyn FnMut(&[SweepRow]) -> Result<(), E>,
+) -> Result<(), SweepError<E>> {
+    let total = grid_size(axes).map_err(SweepError::Grid)?;
+    // The check of the base study, reused at every point when only reactor fields vary.
+    let base = study.load(&[]).ok().map(|n| Findings::of(&n));
+    let mut points = point_numbers(total, shard).peekable();
+    let mut chunk = Vec::with_capacity(CHUNK);
+    while points.peek().is_some() {
+        chunk.clear();
+        chunk.extend(points.by_ref().take(CHUNK));
+        let rows: Vec<SweepRow> = chunk
+            .par_iter()
+            .map(|&p| {
+                let inputs = point_inputs(axes, p);
+                let result = run_point(study, base.as_ref(), cols, axes, &inputs, opts);
+                progress();
+                SweepRow {
+                    point: p,
+                    inputs,
+                    result,
+                }
+            })
+            .collect();
+        sink(&rows).map_err(SweepError::Sink)?;
+    }
+    Ok(())
+}
+
+/// Why a sweep stopped: the grid is too large, or the consumer of the rows failed (a write).
+#[derive(Debug)]
+pub enum SweepError<E> {
+    Grid(String),
+    Sink(E),
 }
 
 /// A number in its shortest round-trip form, in scientific notation when very small or large.
@@ -231,28 +280,34 @@ fn opt(v: Option<f64>) -> String {
     v.map(fmt_num).unwrap_or_default()
 }
 
-/// The rows as CSV; numbers in SI (inputs in the unit of their bounds), shortest round-trip form.
-pub fn csv(cols: &Columns, rows: &[SweepRow], header: bool) -> String {
+/// The CSV header line (with its newline).
+pub fn csv_header(cols: &Columns) -> String {
+    use crate::report::run::csv_field;
+    let mut h: Vec<String> = vec!["point".into()];
+    h.extend(cols.inputs.iter().cloned());
+    h.push("status".into());
+    h.push("conversion".into());
+    h.extend(cols.products.iter().map(|p| format!("yield:{p}")));
+    if let Some(d) = &cols.desired {
+        h.extend(cols.others.iter().map(|u| format!("selectivity:{d}/{u}")));
+    }
+    h.extend(
+        cols.species
+            .iter()
+            .map(|s| format!("{s} [{}]", cols.state_unit)),
+    );
+    h.push("error".into());
+    let mut o = h.iter().map(|s| csv_field(s)).collect::<Vec<_>>().join(",");
+    o.push('\n');
+    o
+}
+
+/// The rows as CSV lines; numbers in SI (inputs in the unit of their bounds), shortest
+/// round-trip form. A failed point has status `failed`, empty numbers and the error in the
+/// last column; a yield or selectivity that is not defined is an empty field.
+pub fn csv_rows(cols: &Columns, rows: &[SweepRow]) -> String {
     use crate::report::run::csv_field;
     let mut o = String::new();
-    if header {
-        let mut h: Vec<String> = vec!["point".into()];
-        h.extend(cols.inputs.iter().cloned());
-        h.push("status".into());
-        h.push("conversion".into());
-        h.extend(cols.products.iter().map(|p| format!("yield:{p}")));
-        if let Some(d) = &cols.desired {
-            h.extend(cols.others.iter().map(|u| format!("selectivity:{d}/{u}")));
-        }
-        h.extend(
-            cols.species
-                .iter()
-                .map(|s| format!("{s} [{}]", cols.state_unit)),
-        );
-        h.push("error".into());
-        o.push_str(&h.iter().map(|s| csv_field(s)).collect::<Vec<_>>().join(","));
-        o.push('\n');
-    }
     for r in rows {
         let mut f: Vec<String> = vec![r.point.to_string()];
         f.extend(r.inputs.iter().map(|v| fmt_num(*v)));
@@ -285,4 +340,11 @@ pub fn csv(cols: &Columns, rows: &[SweepRow], header: bool) -> String {
         o.push('\n');
     }
     o
+}
+
+/// The last line of a CSV in which some points failed, a comment that CSV readers skip with a
+/// comment character of `#` (e.g. pandas `comment="#"`); the `status` column carries the same
+/// per row. Absent when no point failed, so a clean sweep is plain CSV.
+pub fn csv_failed_trailer(failed: usize, points: usize) -> String {
+    format!("# failed: {failed} of {points} points\n")
 }

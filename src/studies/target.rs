@@ -1,7 +1,8 @@
 //! What a design study maximises: an outlet amount, a yield, a selectivity or the conversion.
 //!
 //! Written on the command line as `B` (outlet flow, or moles for a batch), `yield:B`,
-//! `selectivity:B/C` or `conversion`. Each target gives its value at a state and the sign of
+//! `selectivity:B/C` (B over one other product, `run`'s S_B/C), `selectivity:B/all` (B over all
+//! other products together, `compare`'s column) or `conversion`. Each target gives its value at a state and the sign of
 //! its derivative along the reactor, d(value)/dx = ∇value · dy/dx, so the optimum along a PFR,
 //! packed bed or batch can be located as a root of that derivative (quotient rule for the ratios).
 
@@ -14,8 +15,11 @@ pub enum Target {
     Amount(usize),
     /// Yield of a species on the key reactant consumed (metrics definition).
     Yield(usize),
-    /// Overall selectivity (F_D − F_D0)/(F_U − F_U0).
+    /// Overall selectivity (F_D − F_D0)/(F_U − F_U0), as `run` reports it for each U.
     Selectivity(usize, usize),
+    /// Overall selectivity over all other products: (F_D − F_D0)/Σ_U (F_U − F_U0), U every
+    /// product (metrics::products) other than D.
+    SelectivityAll(usize),
     /// Conversion of the key reactant.
     Conversion,
 }
@@ -39,14 +43,48 @@ impl Target {
         if s == "conversion" {
             return Ok(Target::Conversion);
         }
+        // A yield or selectivity is defined for products only (metrics module): refuse the
+        // others here rather than optimise a number without meaning.
+        let product = |j: usize, what: &str| -> Result<usize, String> {
+            let name = &net.species[j].name;
+            if j == net.key {
+                Err(format!(
+                    "`{s}`: `{name}` is the key reactant; {what} of the key on itself is not defined (maximise `conversion` instead)"
+                ))
+            } else if !net.reactions.iter().any(|r| r.nu(j) > 0.0) {
+                Err(format!(
+                    "`{s}`: `{name}` is made by no reaction, so its {what} is not defined"
+                ))
+            } else {
+                Ok(j)
+            }
+        };
         if let Some(rest) = s.strip_prefix("yield:") {
-            return Ok(Target::Yield(sp(rest)?));
+            return Ok(Target::Yield(product(sp(rest)?, "yield")?));
         }
         if let Some(rest) = s.strip_prefix("selectivity:") {
-            let (d, u) = rest
-                .split_once('/')
-                .ok_or_else(|| format!("`{s}`: a selectivity target is `selectivity:D/U`"))?;
-            let (d, u) = (sp(d)?, sp(u)?);
+            let (d, u) = rest.split_once('/').ok_or_else(|| {
+                format!("`{s}`: a selectivity target is `selectivity:D/U` or `selectivity:D/all`")
+            })?;
+            if u.trim() == "all" {
+                if net.species_index("all").is_some() {
+                    return Err(format!(
+                        "`{s}`: `all` means every other product here, but a species is named `all`; rename it"
+                    ));
+                }
+                let d = product(sp(d)?, "selectivity")?;
+                if others(net, d).is_empty() {
+                    return Err(format!(
+                        "`{s}`: {} is the only product, so there is no other product to compare it with",
+                        net.species[d].name
+                    ));
+                }
+                return Ok(Target::SelectivityAll(d));
+            }
+            let (d, u) = (
+                product(sp(d)?, "selectivity")?,
+                product(sp(u)?, "selectivity")?,
+            );
             if d == u {
                 return Err(format!(
                     "`{s}`: the two species of a selectivity must differ"
@@ -56,7 +94,7 @@ impl Target {
         }
         if s.contains(':') {
             return Err(format!(
-                "`{s}`: a target is a species (its outlet amount), `yield:B`, `selectivity:B/C` or `conversion`"
+                "`{s}`: a target is a species (its outlet amount), `yield:B`, `selectivity:B/C`, `selectivity:B/all` or `conversion`"
             ));
         }
         Ok(Target::Amount(sp(s)?))
@@ -69,7 +107,48 @@ impl Target {
             Target::Amount(j) => n(*j),
             Target::Yield(j) => format!("yield:{}", n(*j)),
             Target::Selectivity(d, u) => format!("selectivity:{}/{}", n(*d), n(*u)),
+            Target::SelectivityAll(d) => format!("selectivity:{}/all", n(*d)),
             Target::Conversion => "conversion".into(),
+        }
+    }
+
+    /// True for the ratios (yield, selectivity), which are 0/0 at zero size.
+    pub fn is_ratio(&self) -> bool {
+        matches!(
+            self,
+            Target::Yield(_) | Target::Selectivity(..) | Target::SelectivityAll(_)
+        )
+    }
+
+    /// The limit of the value as the reactor size goes to zero, from the state `y0` at the
+    /// inlet (or the charge) and the rates of change there, `d` = dy/dx at x = 0. For a ratio
+    /// m(x)/c(x) with m(0) = c(0) = 0 the limit is m'(0)/c'(0) (l'Hôpital's rule; common
+    /// practice); a PFR, a batch and a CSTR share it, since dF/dV = f(F_0) at V = 0 for each.
+    pub fn limit_at_zero_size(&self, net: &Network, y0: &[f64], d: &[f64]) -> Limit {
+        let a = net.key;
+        let scale = d.iter().fold(0.0f64, |m, v| m.max(v.abs())) * 1e-12;
+        let ratio = |num: f64, den: f64| -> Limit {
+            if den.abs() > scale && den != 0.0 {
+                Limit::Value(num / den)
+            } else if num > scale && den.abs() <= scale {
+                Limit::PlusInfinity
+            } else {
+                Limit::Undefined
+            }
+        };
+        match *self {
+            Target::Amount(j) => Limit::Value(y0[j]),
+            Target::Conversion => Limit::Value(0.0),
+            Target::Yield(j) => match ratio(d[j] * Self::factor(net, j), -d[a]) {
+                // A yield whose denominator is not consumed at the inlet has no limit there.
+                Limit::PlusInfinity => Limit::Undefined,
+                l => l,
+            },
+            Target::Selectivity(dd, u) => ratio(d[dd], d[u]),
+            Target::SelectivityAll(dd) => {
+                let s: f64 = others(net, dd).iter().map(|&u| d[u]).sum();
+                ratio(d[dd], s)
+            }
         }
     }
 
@@ -81,17 +160,36 @@ impl Target {
     pub fn value(&self, net: &Network, y: &[f64]) -> Option<f64> {
         let f0 = &net.feed.amounts;
         let a = net.key;
-        let scale = 1e-13 * net.feed.total();
         match *self {
             Target::Amount(j) => Some(y[j]),
             Target::Conversion => (f0[a] > 0.0).then(|| (f0[a] - y[a]) / f0[a]),
+            // The metrics' rules: None wherever `run` reports the figure as not defined.
             Target::Yield(j) => {
-                let c = f0[a] - y[a];
-                (c.abs() > scale).then(|| (y[j] - f0[j]) * Self::factor(net, j) / c)
+                let total = net.feed.total();
+                let made = crate::metrics::formed(y[j] - f0[j], total);
+                let consumed = crate::metrics::formed(f0[a] - y[a], total);
+                crate::metrics::yield_value(net, j, made, consumed, Self::factor(net, j)).0
             }
             Target::Selectivity(d, u) => {
-                let mu = y[u] - f0[u];
-                (mu.abs() > scale).then(|| (y[d] - f0[d]) / mu)
+                let total = net.feed.total();
+                crate::metrics::selectivity_value(
+                    &net.species[d].name,
+                    &net.species[u].name,
+                    crate::metrics::formed(y[d] - f0[d], total),
+                    crate::metrics::formed(y[u] - f0[u], total),
+                )
+                .0
+            }
+            Target::SelectivityAll(d) => {
+                let total = net.feed.total();
+                let mu: f64 = others(net, d).iter().map(|&u| y[u] - f0[u]).sum();
+                crate::metrics::selectivity_value(
+                    &net.species[d].name,
+                    "the other products",
+                    crate::metrics::formed(y[d] - f0[d], total),
+                    crate::metrics::formed(mu, total),
+                )
+                .0
             }
         }
     }
@@ -113,6 +211,30 @@ impl Target {
                 let (md, mu) = (y[d] - f0[d], y[u] - f0[u]);
                 dydx[d] * mu - md * dydx[u]
             }
+            Target::SelectivityAll(d) => {
+                let o = others(net, d);
+                let mu: f64 = o.iter().map(|&u| y[u] - f0[u]).sum();
+                let du: f64 = o.iter().map(|&u| dydx[u]).sum();
+                dydx[d] * mu - (y[d] - f0[d]) * du
+            }
         }
     }
+}
+
+/// The value a target approaches as the reactor size goes to zero.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Limit {
+    Value(f64),
+    /// A selectivity whose other product is not formed at the inlet grows without bound.
+    PlusInfinity,
+    /// Nothing is formed or consumed at the inlet: the limit is not defined by the rates there.
+    Undefined,
+}
+
+/// The products other than `d` (metrics::products, the species a reaction makes).
+pub fn others(net: &Network, d: usize) -> Vec<usize> {
+    crate::metrics::products(net)
+        .into_iter()
+        .filter(|&u| u != d)
+        .collect()
 }

@@ -17,6 +17,7 @@ pub(super) fn build_feed(
     phase: Phase,
     reactor: &Reactor,
     index: &IndexMap<String, usize>,
+    species: &[Species],
     cx: &Cx,
 ) -> Result<Feed, LoadError> {
     let temperature = cx.qty("feed.T", &f.t, Dim::TEMPERATURE, "a temperature", "320 K")?;
@@ -34,6 +35,20 @@ pub(super) fn build_feed(
     let pressure = match &f.p {
         Some(p) => {
             let v = cx.qty("feed.P", p, Dim::pressure(), "a pressure", "20 bar")?;
+            if let RawQty::Text(t) = p
+                && v <= 0.0
+                && crate::units::gauge_note(t).is_some()
+            {
+                return Err(cx.err(
+                    "feed.P",
+                    &format!(
+                        "the gauge reading `{}` is {} Pa absolute (gauge + 101325 Pa, the standard atmosphere): at or below a perfect vacuum",
+                        t.trim(),
+                        significant(v)
+                    ),
+                    Some("a gauge reading below vacuum is impossible; check the sign, or give the absolute pressure (`bar`, `psia`)".into()),
+                ));
+            }
             Some(cx.positive("feed.P", v, "the pressure")?)
         }
         None => None,
@@ -71,7 +86,7 @@ pub(super) fn build_feed(
                     None,
                 ))
             }
-            (Some(a), None) => species_map("feed.amounts", a, index, Dim::AMOUNT, "an amount", "10 mol", cx)?,
+            (Some(a), None) => species_map("feed.amounts", a, index, Dim::AMOUNT, "an amount", "10 mol", "2 kg", species, cx)?,
             (None, Some(c)) => {
                 if *volume == 0.0 {
                     return Err(cx.err(
@@ -80,7 +95,7 @@ pub(super) fn build_feed(
                         None,
                     ));
                 }
-                let cs = species_map("feed.concentrations", c, index, conc(), "a concentration", "1 mol/L", cx)?;
+                let cs = species_map("feed.concentrations", c, index, conc(), "a concentration", "1 mol/L", "50 g/L", species, cx)?;
                 cs.iter().map(|c| c * volume).collect()
             }
         };
@@ -149,6 +164,8 @@ pub(super) fn build_feed(
                     Dim::AMOUNT.div(Dim::TIME),
                     "a molar flow",
                     "2 mol/s",
+                    "1200 kg/h",
+                    species,
                     cx,
                 )?;
                 let total: f64 = amounts.iter().sum();
@@ -223,6 +240,8 @@ pub(super) fn build_feed(
                     conc(),
                     "a concentration",
                     "1 mol/L",
+                    "50 g/L",
+                    species,
                     cx,
                 )?;
                 let amounts: Vec<f64> = cs.iter().map(|c| c * v0).collect();

@@ -20,7 +20,7 @@ pub(crate) use messages::closest;
 use super::file::*;
 use super::locate::{Locator, Position};
 use super::*;
-use crate::units::{Dim, parse_quantity};
+use crate::units::{Dim, describe, dimension_mismatch, gauge_note, parse_quantity, unit_text};
 use feed::build_feed;
 use indexmap::IndexMap;
 use messages::{serde_path, significant, strip_location, unknown_field_hint, yaml_wording};
@@ -300,6 +300,9 @@ struct Cx<'t> {
     file: String,
     text: &'t str,
     loc: std::cell::OnceCell<Locator>,
+    /// Conversions to tell the user about (gauge pressures, mass feeds, rate constants on a
+    /// species basis or in partial pressures); they end in [`Network::notes`].
+    notes: std::cell::RefCell<Vec<String>>,
 }
 
 impl Cx<'_> {
@@ -308,7 +311,13 @@ impl Cx<'_> {
             file: file.to_string(),
             text,
             loc: std::cell::OnceCell::new(),
+            notes: std::cell::RefCell::new(Vec::new()),
         }
+    }
+
+    /// Record a conversion for `check` to show, prefixed with its field.
+    fn note(&self, field: &str, text: &str) {
+        self.notes.borrow_mut().push(format!("{field}: {text}"));
     }
 
     fn loc(&self) -> &Locator {
@@ -326,7 +335,8 @@ impl Cx<'_> {
     }
 
     /// Convert a quantity to SI, checking its dimensions. `what` describes the expected
-    /// quantity for the message ("a molar flow", "a rate constant").
+    /// quantity for the message ("a molar flow", "a rate constant"); `example` is a value
+    /// with its unit ("2 mol/s").
     fn qty(
         &self,
         field: &str,
@@ -335,18 +345,34 @@ impl Cx<'_> {
         what: &str,
         example: &str,
     ) -> Result<f64, LoadError> {
+        let (si, dim) = self.raw_qty(field, q, want, what, example)?;
+        if !dim.approx_eq(want) {
+            return Err(self.wrong_dimensions(field, q, dim, want, what, example, ""));
+        }
+        Ok(si)
+    }
+
+    /// A quantity in SI with its dimension, not yet checked against `want` (which only
+    /// words the message for a bare number). A gauge pressure is noted.
+    fn raw_qty(
+        &self,
+        field: &str,
+        q: &RawQty,
+        want: Dim,
+        what: &str,
+        example: &str,
+    ) -> Result<(f64, Dim), LoadError> {
         let (si, dim) = match q {
             RawQty::Number(x) => {
                 if !want.approx_eq(Dim::NONE) {
+                    let unit = unit_text(example);
                     return Err(self.err(
                         field,
                         &format!(
-                            "the bare number {x} needs a unit: expected {what} in units of {want}"
+                            "the bare number {x} needs a unit: expected {what} in units such as {unit} ({})",
+                            describe(want)
                         ),
-                        Some(format!(
-                            "write it with its unit, e.g. \"{x} {}\"",
-                            example.split_once(' ').map(|(_, u)| u).unwrap_or(example)
-                        )),
+                        Some(format!("write it with its unit, e.g. \"{x} {unit}\"")),
                     ));
                 }
                 (*x, Dim::NONE)
@@ -355,20 +381,43 @@ impl Cx<'_> {
                 let q = parse_quantity(s).map_err(|e| {
                     self.err(field, &format!("`{s}` is not a valid quantity: {e}"), None)
                 })?;
+                if let Some(n) = gauge_note(s) {
+                    self.note(field, &n);
+                }
                 (q.si, q.dim)
             }
         };
-        if !dim.approx_eq(want) {
-            return Err(self.err(
-                field,
-                &format!("wrong dimensions: expected {what} ({want}), got {dim}"),
-                Some(format!("e.g. \"{example}\"")),
-            ));
-        }
         if !si.is_finite() {
             return Err(self.err(field, "the value is not a finite number", None));
         }
-        Ok(si)
+        Ok((si, dim))
+    }
+
+    /// "wrong dimensions for {what}: got kJ (energy), expected kJ/mol (energy per amount)",
+    /// in the unit the user wrote; `also` names a second accepted form, if any.
+    #[allow(clippy::too_many_arguments)]
+    fn wrong_dimensions(
+        &self,
+        field: &str,
+        q: &RawQty,
+        got: Dim,
+        want: Dim,
+        what: &str,
+        example: &str,
+        also: &str,
+    ) -> LoadError {
+        let got_unit = match q {
+            RawQty::Number(_) => "",
+            RawQty::Text(s) => unit_text(s),
+        };
+        self.err(
+            field,
+            &format!(
+                "wrong dimensions for {what}: {}{also}",
+                dimension_mismatch(got_unit, got, unit_text(example), want)
+            ),
+            Some(format!("e.g. \"{example}\"")),
+        )
     }
 
     /// A positive, finite, normal number. Subnormal values (below 2.2e-308 in SI) are refused:
@@ -440,7 +489,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     };
 
     // --- feed (temperature needed as the default T_ref)
-    let feed = build_feed(&raw.feed, phase, &reactor, &index, cx)?;
+    let feed = build_feed(&raw.feed, phase, &reactor, &index, &species, cx)?;
     if let Reactor::Pbr {
         pressure_drop: Some(PressureDrop::Ergun { .. }),
         ..
@@ -482,7 +531,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     let mut by_id: std::collections::HashMap<String, usize> =
         std::collections::HashMap::with_capacity(raw.reactions.len());
     for (i, rr) in raw.reactions.iter().enumerate() {
-        let r = build_reaction(i, rr, &index, basis, feed.temperature, cx)?;
+        let r = build_reaction(i, rr, &index, basis, phase, feed.temperature, cx)?;
         if let Some(prev) = by_id.get(&r.id).map(|&k| &reactions[k]) {
             return Err(cx.err(
                 &format!("reactions[{i}].id"),
@@ -506,7 +555,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         Some(d) => Some(cx.species("desired", d, &index)?),
         None => None,
     };
-    let solver = build_solver(raw.solver.as_ref(), &reactor, cx)?;
+    let solver = build_solver(raw.solver.as_ref(), &reactor, feed.total(), cx)?;
     debug_assert_eq!(feed.amounts.len(), ns);
 
     Ok(Network {
@@ -521,6 +570,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         key_is_default,
         desired,
         solver,
+        notes: cx.notes.take(),
     })
 }
 

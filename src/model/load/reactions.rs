@@ -1,11 +1,12 @@
 //! The `reactions` section: equations, rate laws and their constants (with the rate-law
 //! examples that error messages suggest), and the default key reactant.
 
+use super::messages::significant;
 use super::{Cx, LoadError, conc, molar_energy};
 use crate::model::equation::{bad_name_message, parse_equation, valid_name};
 use crate::model::file::*;
 use crate::model::*;
-use crate::units::Dim;
+use crate::units::{Dim, GAS_CONSTANT};
 use indexmap::IndexMap;
 
 pub(super) fn build_reaction(
@@ -13,6 +14,7 @@ pub(super) fn build_reaction(
     rr: &RawReaction,
     index: &IndexMap<String, usize>,
     basis: RateBasis,
+    phase: Phase,
     t_feed: f64,
     cx: &Cx,
 ) -> Result<Reaction, LoadError> {
@@ -82,34 +84,139 @@ pub(super) fn build_reaction(
         }
     };
     let n_total: f64 = orders.iter().map(|(_, a)| a).sum();
-    // Volumetric rate r [mol m^-3 s^-1] = k Π C^a  =>  [k] = (mol/m3)^(1−n) / s.
-    // Per catalyst mass r' [mol kg^-1 s^-1]      =>  [k] = mol kg^-1 s^-1 (mol/m3)^(−n).
-    let (k_dim, k_example) = match basis {
-        RateBasis::Volume => (
-            conc().powf(1.0 - n_total).div(Dim::TIME),
-            volumetric_example(n_total),
-        ),
-        RateBasis::CatalystMass => (
-            Dim::AMOUNT
+    // In partial pressures (ideal gas, p_j = C_j R T at the reactor temperature, which is the
+    // feed temperature: reactors are isothermal): r = k_p Π p_j^a = k_p (R T)^n Π C_j^a, so
+    // k_c = k_p (R T)^n; K_p = Π p_j^ν = K_c (R T)^Σν; K_m,p p^b = K_m,p (R T)^b C^b
+    // (common practice). Converted here, so the rest of the program sees concentrations only.
+    let pressures = rate.in_terms_of == Some(RawRateVariables::PartialPressures);
+    if pressures && phase != Phase::Gas {
+        return Err(cx.err(
+            &format!("{fr}.in_terms_of"),
+            "a rate law in partial pressures needs `phase: gas` (p_j = C_j R T holds for an ideal gas only)",
+            Some("write the law in concentrations (drop `in_terms_of`) or set `phase: gas`".into()),
+        ));
+    }
+    let rt = GAS_CONSTANT * t_feed;
+    let pressure_note = |field: &str, given: &RawQty, factor: &str, si: f64, dim: Dim| {
+        let written = match given {
+            RawQty::Text(t) => t.trim().to_string(),
+            RawQty::Number(x) => x.to_string(),
+        };
+        cx.note(
+            field,
+            &format!(
+                "`{written}` in partial pressures, converted with p_j = C_j R T at T = {} K to {factor} = {}",
+                significant(t_feed),
+                crate::units::format_si(si, dim)
+            ),
+        );
+    };
+    let per_bar = |n: f64| -> String {
+        if n.abs() < 1e-12 {
+            String::new()
+        } else if (n - 1.0).abs() < 1e-12 {
+            "*bar".into()
+        } else {
+            format!("*bar^{n}")
+        }
+    };
+    let (k_dim, k_example) = if pressures {
+        match basis {
+            RateBasis::Volume => (
+                conc().div(Dim::TIME).div(Dim::pressure().powf(n_total)),
+                format!("2e-3 mol/(m3*s{})", per_bar(n_total)),
+            ),
+            RateBasis::CatalystMass => (
+                Dim::AMOUNT
+                    .div(Dim::MASS)
+                    .div(Dim::TIME)
+                    .div(Dim::pressure().powf(n_total)),
+                format!("0.04 mol/(kg*s{})", per_bar(n_total)),
+            ),
+        }
+    } else {
+        // Volumetric rate r [mol m^-3 s^-1] = k Π C^a  =>  [k] = (mol/m3)^(1−n) / s.
+        // Per catalyst mass r' [mol kg^-1 s^-1]      =>  [k] = mol kg^-1 s^-1 (mol/m3)^(−n).
+        match basis {
+            RateBasis::Volume => (
+                conc().powf(1.0 - n_total).div(Dim::TIME),
+                volumetric_example(n_total),
+            ),
+            RateBasis::CatalystMass => (
+                Dim::AMOUNT
+                    .div(Dim::MASS)
+                    .div(Dim::TIME)
+                    .mul(conc().powf(-n_total)),
+                catalytic_example(n_total),
+            ),
+        }
+    };
+    let in_p = if pressures {
+        " in partial pressures"
+    } else {
+        ""
+    };
+    let what = match basis {
+        RateBasis::Volume => {
+            format!("a rate constant for total order {n_total} per unit volume{in_p}")
+        }
+        RateBasis::CatalystMass => {
+            format!("a rate constant for total order {n_total} per unit catalyst mass{in_p}")
+        }
+    };
+    let fk = format!("{fr}.k");
+    let mut k_ref = cx.qty(&fk, &rate.k, k_dim, &what, &k_example)?;
+    if k_ref < 0.0 {
+        return Err(cx.err(&fk, "a rate constant cannot be negative", None));
+    }
+    if pressures {
+        // k_c = k_p (R T)^n; at T_ref this keeps k(T) = k_p(T) (R T)^n exact at the reactor
+        // temperature T with Arrhenius applied to k_p.
+        k_ref *= rt.powf(n_total);
+        let c_dim = match basis {
+            RateBasis::Volume => conc().powf(1.0 - n_total).div(Dim::TIME),
+            RateBasis::CatalystMass => Dim::AMOUNT
                 .div(Dim::MASS)
                 .div(Dim::TIME)
                 .mul(conc().powf(-n_total)),
-            catalytic_example(n_total),
-        ),
-    };
-    let what = match basis {
-        RateBasis::Volume => format!("a rate constant for total order {n_total} per unit volume"),
-        RateBasis::CatalystMass => {
-            format!("a rate constant for total order {n_total} per unit catalyst mass")
+        };
+        pressure_note(
+            &fk,
+            &rate.k,
+            &format!("k_c = k_p (R T)^{n_total}"),
+            k_ref,
+            c_dim,
+        );
+    }
+    // A rate constant on a species basis: −r_A = k_A Π C^a is the rate of A, which changes
+    // at ν_A r, so the k of the reaction is k_A / |ν_A| (common practice).
+    if let Some(name) = &rate.basis_species {
+        let f = format!("{fr}.basis_species");
+        let j = cx.species(&f, name, index)?;
+        let nu = net.iter().find(|(s, _)| *s == j).map_or(0.0, |(_, v)| *v);
+        if nu == 0.0 {
+            return Err(cx.err(
+                &f,
+                &format!(
+                    "`{name}` has net coefficient 0 in `{}`: it is neither consumed nor formed, so a rate of {name} cannot define k",
+                    rr.stoich.trim()
+                ),
+                Some("name a species the reaction consumes or forms".into()),
+            ));
         }
-    };
-    let k_ref = cx.qty(&format!("{fr}.k"), &rate.k, k_dim, &what, &k_example)?;
-    if k_ref < 0.0 {
-        return Err(cx.err(
-            &format!("{fr}.k"),
-            "a rate constant cannot be negative",
-            None,
-        ));
+        let k_species = k_ref;
+        k_ref /= nu.abs();
+        cx.note(
+            &f,
+            &format!(
+                "k is the rate of {}{name}, and {name} changes at |ν_{name}| = {} times the rate of reaction: k of the reaction = k_{name} / |ν_{name}| = {} / {} = {} (SI)",
+                if nu < 0.0 { "disappearance of " } else { "formation of " },
+                significant(nu.abs()),
+                significant(k_species),
+                significant(nu.abs()),
+                significant(k_ref)
+            ),
+        );
     }
     let ea = match &rate.Ea {
         None => 0.0,
@@ -156,11 +263,29 @@ pub(super) fn build_reaction(
         }
         (None, false) => None,
         (Some(q), true) => {
-            // K_c = Π C_j^ν_j at equilibrium  =>  [K_c] = (mol/m3)^Σν.
+            // K_c = Π C_j^ν_j at equilibrium  =>  [K_c] = (mol/m3)^Σν;
+            // K_p = Π p_j^ν_j = K_c (R T)^Σν  =>  [K_p] = Pa^Σν.
             let f = format!("{fr}.K_eq");
-            let want = conc().powf(sum_nu);
-            let ex = if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 (mol/L)^{sum_nu}") };
-            let k = cx.qty(&f, q, want, &format!("a concentration equilibrium constant with Σν = {sum_nu}"), &ex)?;
+            let (want, ex, what) = if pressures {
+                (
+                    Dim::pressure().powf(sum_nu),
+                    if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 bar^{sum_nu}") },
+                    format!("a partial-pressure equilibrium constant K_p with Σν = {sum_nu}"),
+                )
+            } else {
+                (
+                    conc().powf(sum_nu),
+                    if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 (mol/L)^{sum_nu}") },
+                    format!("a concentration equilibrium constant with Σν = {sum_nu}"),
+                )
+            };
+            let mut k = cx.qty(&f, q, want, &what, &ex)?;
+            if pressures {
+                k *= rt.powf(-sum_nu);
+                if sum_nu.abs() > 1e-12 {
+                    pressure_note(&f, q, &format!("K_c = K_p (R T)^{}", -sum_nu), k, conc().powf(sum_nu));
+                }
+            }
             Some(Equilibrium { k_ref: cx.positive(&f, k, "K_eq")? })
         }
     };
@@ -195,13 +320,38 @@ pub(super) fn build_reaction(
                         None,
                     ));
                 }
-                let k = cx.qty(
-                    &format!("{fa}.K"),
-                    &a.K,
-                    conc().powf(-order),
-                    "an adsorption constant",
-                    "0.5 m3/mol",
-                )?;
+                let fk = format!("{fa}.K");
+                let k = if pressures {
+                    let ex = if (order - 1.0).abs() < 1e-12 {
+                        "0.8 1/bar".to_string()
+                    } else {
+                        format!("0.8 bar^-{order}")
+                    };
+                    let kp = cx.qty(
+                        &fk,
+                        &a.K,
+                        Dim::pressure().powf(-order),
+                        "an adsorption constant in partial pressures",
+                        &ex,
+                    )?;
+                    let kc = kp * rt.powf(order);
+                    pressure_note(
+                        &fk,
+                        &a.K,
+                        &format!("K_c = K_p (R T)^{order}"),
+                        kc,
+                        conc().powf(-order),
+                    );
+                    kc
+                } else {
+                    cx.qty(
+                        &fk,
+                        &a.K,
+                        conc().powf(-order),
+                        "an adsorption constant",
+                        "0.5 m3/mol",
+                    )?
+                };
                 if k < 0.0 {
                     return Err(cx.err(
                         &format!("{fa}.K"),

@@ -6,14 +6,18 @@ use crate::model::file::RawSolver;
 use crate::model::{Reactor, SolverSettings};
 use crate::units::Dim;
 
-/// The tightest relative tolerance accepted: about 50 × the f64 machine epsilon (2.2e-16,
-/// IEEE 754). A tighter error test cannot be met in double precision and would only end in a
-/// step-size failure (common practice).
-pub const MIN_RTOL: f64 = 1e-14;
+/// The tightest relative tolerance accepted: the integrator's own floor
+/// ([`crate::solve::MIN_RTOL`], about 450 × the f64 machine epsilon 2.2e-16, IEEE 754), so no
+/// value accepted here is refused later by the integrator.
+pub const MIN_RTOL: f64 = crate::solve::MIN_RTOL;
+/// The loosest relative tolerance accepted ([`crate::solve::MAX_RTOL`]).
+pub const MAX_RTOL: f64 = crate::solve::MAX_RTOL;
 
+/// The `solver` section. `feed_total` (F_T0 in mol/s, or N_T0 in mol) bounds `atol`.
 pub(super) fn build_solver(
     s: Option<&RawSolver>,
     reactor: &Reactor,
+    feed_total: f64,
     cx: &Cx,
 ) -> Result<SolverSettings, LoadError> {
     let Some(s) = s else {
@@ -21,16 +25,22 @@ pub(super) fn build_solver(
     };
     let rtol = match s.rtol {
         None => None,
-        Some(r) if (MIN_RTOL..1.0).contains(&r) => Some(r),
+        Some(r) if (MIN_RTOL..=MAX_RTOL).contains(&r) => Some(r),
         Some(r) => {
             return Err(cx.err(
                 "solver.rtol",
-                &format!("rtol must lie in [{MIN_RTOL:e}, 1), got {}", significant(r)),
+                &format!(
+                    "rtol must lie in [{MIN_RTOL:e}, {MAX_RTOL:e}], got {}",
+                    significant(r)
+                ),
                 Some(if r > 0.0 && r < MIN_RTOL {
                     format!(
                         "below {MIN_RTOL:e} the error test asks for more than double precision \
                          resolves (machine epsilon 2.2e-16); 1e-8 is the default"
                     )
+                } else if r > MAX_RTOL {
+                    "beyond 1e-2 the integration error shows in the printed figures; 1e-8 is the default"
+                        .to_string()
                 } else {
                     "1e-8 is the default".to_string()
                 }),
@@ -52,7 +62,16 @@ pub(super) fn build_solver(
                 "an absolute tolerance on the state",
                 ex,
             )?;
-            Some(cx.positive("solver.atol", v, "atol")?)
+            let v = cx.positive("solver.atol", v, "atol")?;
+            let unit = if reactor.is_batch() { "mol" } else { "mol/s" };
+            if let Err(m) = crate::solve::check_atol(v, feed_total, unit) {
+                return Err(cx.err(
+                    "solver.atol",
+                    &m,
+                    Some("leave it out for the per-species default".into()),
+                ));
+            }
+            Some(v)
         }
     };
     let max_steps = match s.max_steps {

@@ -1,7 +1,8 @@
 //! The `species` section: names, formulas and molar masses, and per-species maps of
 //! quantities (feed flows, concentrations, amounts).
 
-use super::{Cx, LoadError};
+use super::messages::significant;
+use super::{Cx, LoadError, conc};
 use crate::model::Species;
 use crate::model::equation::{bad_name_message, valid_name};
 use crate::model::file::{RawQty, RawSpecies};
@@ -59,7 +60,10 @@ pub(super) fn build_species(
     Ok((species, index))
 }
 
-/// Read a per-species map of quantities into a vector over all species.
+/// Per-species quantities (`feed.flows`, `feed.amounts`, `feed.concentrations`) in SI.
+/// Each may also be given by mass (`kg/h`, `lb`, `g/L`: `want` times mass per amount) and is
+/// then divided by the species' molar mass, F_j = ṁ_j / M_j, with a note.
+#[allow(clippy::too_many_arguments)]
 pub(super) fn species_map(
     field: &str,
     map: &IndexMap<String, RawQty>,
@@ -67,13 +71,62 @@ pub(super) fn species_map(
     want: Dim,
     what: &str,
     ex: &str,
+    mass_ex: &str,
+    species: &[Species],
     cx: &Cx,
 ) -> Result<Vec<f64>, LoadError> {
+    let by_mass = want.mul(Dim::MASS.div(Dim::AMOUNT));
     let mut out = vec![0.0; index.len()];
     for (name, q) in map {
         let f = format!("{field}.{name}");
         let j = cx.species(&f, name, index)?;
-        let v = cx.qty(&f, q, want, what, ex)?;
+        let (si, dim) = cx.raw_qty(&f, q, want, what, ex)?;
+        let v = if dim.approx_eq(want) {
+            si
+        } else if dim.approx_eq(by_mass) {
+            let written = match q {
+                RawQty::Text(t) => t.trim().to_string(),
+                RawQty::Number(x) => x.to_string(),
+            };
+            let Some(m) = species[j].molar_mass else {
+                return Err(cx.err(
+                    &f,
+                    &format!(
+                        "`{written}` is a mass; converting it to moles needs the molar mass of {name}, which is not known"
+                    ),
+                    Some(format!(
+                        "give `species.{name}.molar_mass` (e.g. `molar_mass: 46.07 g/mol`) or `species.{name}.formula`, or write the value in moles"
+                    )),
+                ));
+            };
+            let v = si / m;
+            cx.note(
+                &f,
+                &format!(
+                    "`{written}` of {name} converted with its molar mass {} g/mol to {} {}",
+                    significant(m * 1e3),
+                    significant(v),
+                    if want.approx_eq(Dim::AMOUNT) {
+                        "mol"
+                    } else if want.approx_eq(conc()) {
+                        "mol/m3"
+                    } else {
+                        "mol/s"
+                    },
+                ),
+            );
+            v
+        } else {
+            return Err(cx.wrong_dimensions(
+                &f,
+                q,
+                dim,
+                want,
+                what,
+                ex,
+                &format!(", or a mass such as {mass_ex} (with the molar mass of {name})"),
+            ));
+        };
         if v < 0.0 {
             return Err(cx.err(
                 &f,

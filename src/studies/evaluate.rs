@@ -1,0 +1,186 @@
+//! The one evaluation gate: every command that turns a study into numbers (run, sweep,
+//! optimize, compare, and any later one) evaluates through [`evaluate`], so a result leaves
+//! only when every rule holds:
+//!
+//! 1. the study loads (ranges, units, tolerances: the loader's rules);
+//! 2. the consistency check has no error findings at this point (atom balance, Wegscheider's
+//!    condition on the K_eq at this temperature, the key fed and consumed, the desired product
+//!    made): a point of a sweep or an optimiser's candidate is refused exactly as `run`
+//!    refuses the file;
+//! 3. the solve succeeds (a failed integration or Newton solve is an error, not a result);
+//! 4. the result checks hold: every amount finite and not negative beyond the solver's
+//!    physical guard ([`crate::solve`]);
+//! 5. the metrics are computed with their "not defined" rules ([`crate::metrics`]).
+//!
+//! The check's warnings that bear on the result (a reaction that can never run, a species
+//! that can never form, k = 0, ...) travel with the evaluation so the command can repeat them.
+
+use super::study::Study;
+use crate::analysis::{self, Severity};
+use crate::metrics::{self, Metrics};
+use crate::model::{Network, Override};
+use crate::reactor::Balance;
+use crate::solve::{self, Simulation, SolveError, SolveOptions};
+
+/// A result that passed the gate.
+#[derive(Debug, Clone)]
+pub struct Evaluation {
+    pub balance: Balance,
+    pub sim: Simulation,
+    pub metrics: Metrics,
+    /// The consistency check's warnings (they bear on the result: the user should see them).
+    pub warnings: Vec<String>,
+}
+
+/// Why an evaluation produced no result.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum EvalError {
+    /// The study does not load with these values (invalid input).
+    #[error("{0}")]
+    Load(String),
+    /// The reactor model cannot be set up from the loaded network (invalid input).
+    #[error("{0}")]
+    Setup(String),
+    /// The consistency check has error findings at this point.
+    #[error("the network has error findings: {}", .0.join("; "))]
+    Findings(Vec<String>),
+    /// The solve failed or its result is not physical.
+    #[error("{0}")]
+    Solve(SolveError),
+}
+
+impl EvalError {
+    /// Invalid input (exit 2) rather than a failed computation or findings (exit 1).
+    pub fn is_invalid_input(&self) -> bool {
+        matches!(self, EvalError::Load(_) | EvalError::Setup(_))
+    }
+}
+
+/// The consistency check's findings that decide an evaluation: errors (no result) and
+/// warnings (repeated with the result).
+#[derive(Debug, Clone, Default)]
+pub struct Findings {
+    pub errors: Vec<String>,
+    pub warnings: Vec<String>,
+}
+
+impl Findings {
+    /// Run the consistency check on a network.
+    pub fn of(net: &Network) -> Findings {
+        let c = analysis::check(net);
+        let pick = |s: Severity| -> Vec<String> {
+            c.findings
+                .iter()
+                .filter(|f| f.severity == s)
+                .map(|f| f.message.clone())
+                .collect()
+        };
+        Findings {
+            errors: pick(Severity::Error),
+            warnings: pick(Severity::Warning),
+        }
+    }
+}
+
+/// Whether a `--set` path can change the consistency check: the check reads no `reactor`
+/// field (type, size, bed), so a study varied only there keeps the check of its base network
+/// and a sweep need not repeat it at every point.
+pub fn path_affects_check(path: &str) -> bool {
+    !(path == "reactor" || path.starts_with("reactor."))
+}
+
+fn findings(net: &Network) -> (Vec<String>, Vec<String>) {
+    let f = Findings::of(net);
+    (f.errors, f.warnings)
+}
+
+/// Evaluate a loaded network through the gate. With `check_beside`, the consistency check runs
+/// on a second thread while the reactor is solved (one run on an idle core); a study that
+/// evaluates many points in parallel passes false.
+pub fn evaluate(
+    net: &Network,
+    opts: &SolveOptions,
+    check_beside: bool,
+) -> Result<Evaluation, EvalError> {
+    let solve = || -> Result<(Balance, Simulation), EvalError> {
+        let balance = Balance::new(net).map_err(EvalError::Setup)?;
+        let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
+            SolveError::Setup(m) => EvalError::Setup(m),
+            e => EvalError::Solve(e),
+        })?;
+        Ok((balance, sim))
+    };
+    let ((errors, warnings), solved) = if check_beside {
+        std::thread::scope(|scope| {
+            let checking = scope.spawn(|| findings(net));
+            let solved = solve();
+            let f = checking
+                .join()
+                .unwrap_or_else(|p| std::panic::resume_unwind(p));
+            (f, solved)
+        })
+    } else {
+        let f = findings(net);
+        if !f.0.is_empty() {
+            return Err(EvalError::Findings(f.0));
+        }
+        (f, solve())
+    };
+    // A network with error findings gets no result, whatever the solve did.
+    if !errors.is_empty() {
+        return Err(EvalError::Findings(errors));
+    }
+    let (balance, sim) = solved?;
+    let metrics = metrics::compute(net, sim.outlet());
+    Ok(Evaluation {
+        balance,
+        sim,
+        metrics,
+        warnings,
+    })
+}
+
+/// Evaluate with the check's findings already known for this network (see
+/// [`path_affects_check`]): the same gate without repeating the check.
+pub fn evaluate_with(
+    net: &Network,
+    known: &Findings,
+    opts: &SolveOptions,
+) -> Result<Evaluation, EvalError> {
+    if !known.errors.is_empty() {
+        return Err(EvalError::Findings(known.errors.clone()));
+    }
+    let balance = Balance::new(net).map_err(EvalError::Setup)?;
+    let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
+        SolveError::Setup(m) => EvalError::Setup(m),
+        e => EvalError::Solve(e),
+    })?;
+    let metrics = metrics::compute(net, sim.outlet());
+    Ok(Evaluation {
+        balance,
+        sim,
+        metrics,
+        warnings: known.warnings.clone(),
+    })
+}
+
+/// Load the study with `sets` applied and evaluate it (a sweep point, an optimiser candidate).
+/// `base` is the check of the study without `sets`; it is reused when no path of `sets` can
+/// change the check, and the check runs afresh otherwise.
+pub fn evaluate_study(
+    study: &Study,
+    sets: &[Override],
+    opts: &SolveOptions,
+    base: Option<&Findings>,
+) -> Result<(Network, Evaluation), EvalError> {
+    let net = study
+        .load(sets)
+        .map_err(|e| EvalError::Load(e.to_string()))?;
+    let e = match base {
+        Some(f) if !sets.iter().any(|o| path_affects_check(&o.path)) => {
+            evaluate_with(&net, f, opts)?
+        }
+        _ => evaluate(&net, opts, false)?,
+    };
+    Ok((net, e))
+}
