@@ -175,6 +175,17 @@ fn devices_are_written_in_place_never_replaced() {
         m.file_type().is_char_device(),
         "/dev/null is still a device"
     );
+    let r = rxnet(&[
+        "sweep",
+        s(&study),
+        "--vary",
+        "reactor.volume=1 L:10 L:3",
+        "--out",
+        "/dev/null",
+    ]);
+    assert_eq!(r.code, 0, "sweep --out /dev/null: {}", r.stderr);
+    let m = std::fs::metadata("/dev/null").expect("/dev/null");
+    assert!(m.file_type().is_char_device(), "still a device after sweep");
     // A full device: the write fails, exit 1 with a message.
     let r = rxnet(&["run", s(&study), "--profile", "/dev/full"]);
     assert_eq!(r.code, 1, "{}", r.stderr);
