@@ -11,5 +11,5 @@ mod cli;
 static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
 
 fn main() {
-    std::process::exit(cli::main());
+    std::process::exit(cli::output::exit_code_of(cli::main));
 }

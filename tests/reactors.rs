@@ -1020,7 +1020,8 @@ fn profile_csv_has_units_and_the_asked_rows() {
     }
     a.report();
 
-    // Packed bed with pressure drop: --format csv to stdout, P [Pa] as the last column.
+    // Packed bed with pressure drop: --format csv to stdout, P [Pa] after the species, then
+    // the gas volumetric flow (its values are checked in tests/report_fields.rs).
     let run = run_args(
         "csv-bed",
         &bed("60 kg"),
@@ -1030,7 +1031,14 @@ fn profile_csv_has_units_and_the_asked_rows() {
     let (header, rows) = read_csv(&run.stdout);
     assert_eq!(
         header,
-        ["W [kg]", "A [mol/s]", "B [mol/s]", "N2 [mol/s]", "P [Pa]"]
+        [
+            "W [kg]",
+            "A [mol/s]",
+            "B [mol/s]",
+            "N2 [mol/s]",
+            "P [Pa]",
+            "v [m3/s]"
+        ]
     );
     assert_eq!(rows.len(), 5);
     assert_eq!(rows[0][4], 1.0e6, "P at the inlet is P0");

@@ -16,6 +16,5 @@ pub fn check(file: &std::path::Path, format: Format, set: &[Override]) -> i32 {
         Format::Text => report::check_text(&c),
         Format::Json => json(&c),
     };
-    emit(&text);
-    if c.has_errors() { EXIT_FINDINGS } else { 0 }
+    emit(&text, if c.has_errors() { EXIT_FINDINGS } else { 0 })
 }

@@ -116,17 +116,20 @@ pub fn compare(
     } else {
         table(&rows, optimum, at_conversion.is_some())
     };
-    emit(&text);
+    let code = emit(
+        &text,
+        if rows.iter().all(|r| r.error.is_some()) || rows.iter().any(|r| r.optimum_note.is_some()) {
+            EXIT_FINDINGS
+        } else {
+            0
+        },
+    );
     for r in &rows {
         if let Some(n) = &r.optimum_note {
             eprintln!("note: {} ({}): no optimum size: {n}", r.study, r.reactor);
         }
     }
-    if rows.iter().all(|r| r.error.is_some()) || rows.iter().any(|r| r.optimum_note.is_some()) {
-        EXIT_FINDINGS
-    } else {
-        0
-    }
+    code
 }
 
 /// The text table: one unit per column (space time τ = V/v0 or batch time t in s; catalyst

@@ -22,10 +22,7 @@ pub fn generate(species: usize, reactions: usize, seed: u64, reactor: GenReactor
         ..Default::default()
     };
     match rxnet::generate::generate_study(&spec) {
-        Ok(text) => {
-            emit(&text);
-            0
-        }
+        Ok(text) => emit(&text, 0),
         Err(m) => {
             eprintln!("error: {m}");
             EXIT_INVALID

@@ -54,10 +54,11 @@ pub fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network), i32
         eprintln!("error: {e}");
         EXIT_INVALID
     })?;
-    let study = Study::new(text, file.display().to_string(), set.to_vec()).map_err(|e| {
-        eprintln!("error: {e}");
-        EXIT_INVALID
-    })?;
+    let study =
+        Study::new(text, rxnet::model::source::display_name(file), set.to_vec()).map_err(|e| {
+            eprintln!("error: {e}");
+            EXIT_INVALID
+        })?;
     let net = study.load(&[]).map_err(|e| {
         eprintln!("error: {e}");
         EXIT_INVALID

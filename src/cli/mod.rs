@@ -2,8 +2,9 @@
 //! (each a documented function that returns the exit code), `input` for what every command
 //! reads, `output` for what every command writes and the exit codes.
 //!
-//! Exit codes: 0 success, 1 the analysis found errors (or a computation failed), 2 the input
-//! cannot be used (also clap's usage errors).
+//! Exit codes: 0 success, 1 the analysis found errors (or a computation failed, or the output
+//! could not be written), 2 the input cannot be used (also clap's usage errors, and an output
+//! path refused before the work). A reader that quits (`| head`) does not change the code.
 
 mod check;
 mod compare;

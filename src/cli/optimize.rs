@@ -383,6 +383,5 @@ pub fn optimize(
         o.push_str(&report::run::text(&rep.run, false));
         o
     };
-    emit(&text);
-    0
+    emit(&text, 0)
 }

@@ -2,7 +2,7 @@
 //! selectivities (and the profile along the reactor, on request).
 
 use super::input::{check_atol_for, check_tolerance, load};
-use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, write_atomic};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, OutputFile, emit, json, prepare};
 use clap::ValueEnum;
 use rxnet::model::Network;
 use rxnet::report::{num, plot};
@@ -50,6 +50,18 @@ pub struct RunArgs {
     /// `solver.steady_state`, else lowest). All are listed.
     #[arg(long, value_name = "WHICH")]
     steady_state: Option<SteadyStateChoice>,
+    /// Draw only these species (comma-separated names), e.g. to leave out a solvent.
+    #[arg(long, value_name = "NAMES", value_delimiter = ',', requires = "plot")]
+    plot_species: Vec<String>,
+    /// Leave these species (comma-separated names) out of the plot.
+    #[arg(
+        long,
+        value_name = "NAMES",
+        value_delimiter = ',',
+        requires = "plot",
+        conflicts_with = "plot_species"
+    )]
+    plot_exclude: Vec<String>,
     #[arg(long = "set", value_name = "PATH=VALUE")]
     set: Vec<Override>,
 }
@@ -92,9 +104,30 @@ pub fn run(a: &RunArgs) -> i32 {
         eprintln!("error: --points must be between 2 and 1000000, got {n}");
         return EXIT_INVALID;
     }
+    // The output files are opened before the work (a regular file as its temporary file
+    // beside it): a directory, a missing directory or a path the user may not write is
+    // refused now, not after the solve. They are filled and moved into place at the end;
+    // on any failure or interrupt the temporary files are removed.
+    let mut outputs: Vec<(&PathBuf, OutputFile)> = Vec::new();
+    for path in a.profile.iter().chain(&a.plot) {
+        match prepare(path).and_then(|t| OutputFile::open(&t)) {
+            Ok(f) => outputs.push((path, f)),
+            Err(e) => {
+                eprintln!("error: cannot write {}: {e}", path.display());
+                return EXIT_INVALID;
+            }
+        }
+    }
     let net = match load(&a.file, &a.set) {
         Ok(n) => n,
         Err(code) => return code,
+    };
+    let plotted = match plotted_species(&net, a) {
+        Ok(p) => p,
+        Err(m) => {
+            eprintln!("error: {m}");
+            return EXIT_INVALID;
+        }
     };
     if let Err(m) = check_atol_for(&net, a.atol) {
         eprintln!("error: {m}");
@@ -134,17 +167,21 @@ pub fn run(a: &RunArgs) -> i32 {
         &balance,
         &sim,
         &m,
-        want_profile && a.format == RunFormat::Json,
+        // JSON carries the profile whenever one was computed; the table shows it when points
+        // were asked for (`--points`, `--steps`), not merely for a --profile or --plot file.
+        match a.format {
+            RunFormat::Json => want_profile,
+            RunFormat::Table => a.points.is_some() || a.steps,
+            RunFormat::Csv => false,
+        },
     );
-    if let Some(path) = &a.profile
-        && let Err(e) = write_atomic(path, &report::run::profile_csv(&net, &sim))
-    {
-        eprintln!("error: cannot write {}: {e}", path.display());
-        return EXIT_FINDINGS;
-    }
-    if let Some(path) = &a.plot {
-        let svg = profile_plot(&net, &sim);
-        if let Err(e) = svg.and_then(|s| write_atomic(path, &s).map_err(|e| e.to_string())) {
+    for (path, file) in outputs {
+        let content = if Some(path) == a.profile.as_ref() {
+            Ok(report::run::profile_csv(&net, &balance, &sim))
+        } else {
+            profile_plot(&net, &sim, &plotted)
+        };
+        if let Err(e) = content.and_then(|c| file.finish(&c)) {
             eprintln!("error: cannot write {}: {e}", path.display());
             return EXIT_FINDINGS;
         }
@@ -157,26 +194,54 @@ pub fn run(a: &RunArgs) -> i32 {
             }
             t
         }
-        RunFormat::Csv => report::run::profile_csv(&net, &sim),
+        RunFormat::Csv => report::run::profile_csv(&net, &balance, &sim),
         RunFormat::Json => json(&rep),
     };
-    emit(&text);
-    0
+    emit(&text, 0)
+}
+
+/// The species drawn by `--plot`: those named by `--plot-species`, or all but those named by
+/// `--plot-exclude`; an unknown name is an error.
+fn plotted_species(net: &Network, a: &RunArgs) -> Result<Vec<bool>, String> {
+    let find = |flag: &str, name: &str| -> Result<usize, String> {
+        net.species
+            .iter()
+            .position(|s| s.name == name.trim())
+            .ok_or_else(|| {
+                let known: Vec<&str> = net.species.iter().map(|s| s.name.as_str()).collect();
+                format!(
+                    "--{flag}: no species `{}` in the study (species: {})",
+                    name.trim(),
+                    known.join(", ")
+                )
+            })
+    };
+    let mut drawn = vec![a.plot_species.is_empty(); net.species.len()];
+    for name in &a.plot_species {
+        drawn[find("plot-species", name)?] = true;
+    }
+    for name in &a.plot_exclude {
+        drawn[find("plot-exclude", name)?] = false;
+    }
+    if a.plot.is_some() && !drawn.iter().any(|d| *d) {
+        return Err("--plot-exclude leaves no species to draw".into());
+    }
+    Ok(drawn)
 }
 
 /// The species profile of a run as SVG, with the maximum of the desired product marked when it
 /// lies inside the reactor.
-fn profile_plot(net: &Network, sim: &Simulation) -> Result<String, String> {
+fn profile_plot(net: &Network, sim: &Simulation, drawn: &[bool]) -> Result<String, String> {
     let batch = net.reactor.is_batch();
     let unit = if batch { "mol" } else { "mol/s" };
     let series: Vec<(String, Vec<f64>)> = net
         .species
         .iter()
         .enumerate()
-        .filter(|(j, _)| sim.states.iter().any(|y| y[*j] != sim.states[0][*j]))
+        .filter(|(j, _)| drawn[*j] && sim.states.iter().any(|y| y[*j] != sim.states[0][*j]))
         .map(|(j, s)| (s.name.clone(), sim.states.iter().map(|y| y[j]).collect()))
         .collect();
-    let mark = net.desired.and_then(|d| {
+    let mark = net.desired.filter(|d| drawn[*d]).and_then(|d| {
         let (k, v) = sim
             .states
             .iter()

@@ -93,7 +93,7 @@ pub fn size(a: &SizeArgs) -> i32 {
             if a.format == Format::Json {
                 rep.conversion_limit = Some(x_max);
                 rep.limited_by = Some(reason);
-                emit(&json(&rep));
+                return emit(&json(&rep), EXIT_FINDINGS);
             }
             return EXIT_FINDINGS;
         }
@@ -148,6 +148,5 @@ pub fn size(a: &SizeArgs) -> i32 {
         ));
         o
     };
-    emit(&text);
-    0
+    emit(&text, 0)
 }

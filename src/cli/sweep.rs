@@ -41,16 +41,14 @@ fn parse_shard(s: &str) -> Result<(usize, usize), String> {
     Ok((k, n))
 }
 
-/// Where the rows go as they finish: standard output, or a temporary file beside `--out` that
-/// is renamed over it once the sweep is complete (so an interrupted sweep never leaves a
-/// half-written file that looks complete).
+/// Where the rows go as they finish: standard output, or `--out` through
+/// [`super::output::OutputFile`] (a temporary file beside a regular file, renamed over it once
+/// the sweep is complete, so an interrupted sweep never leaves a half-written file that looks
+/// complete; a FIFO or a device written in place; the temporary file removed on failure and
+/// on interrupt).
 enum Sink {
     Stdout(std::io::BufWriter<std::io::Stdout>),
-    File {
-        file: std::io::BufWriter<std::fs::File>,
-        tmp: PathBuf,
-        path: PathBuf,
-    },
+    File(std::io::BufWriter<super::output::OutputFile>),
 }
 
 impl Sink {
@@ -58,21 +56,10 @@ impl Sink {
         Ok(match out {
             None => Sink::Stdout(std::io::BufWriter::new(std::io::stdout())),
             Some(path) => {
-                let dir = path
-                    .parent()
-                    .filter(|p| !p.as_os_str().is_empty())
-                    .unwrap_or(std::path::Path::new("."));
-                let name = path
-                    .file_name()
-                    .map(|n| n.to_string_lossy().to_string())
-                    .unwrap_or_default();
-                let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-                let file = std::io::BufWriter::new(std::fs::File::create(&tmp)?);
-                Sink::File {
-                    file,
-                    tmp,
-                    path: path.clone(),
-                }
+                let target = super::output::prepare(path).map_err(std::io::Error::other)?;
+                let file =
+                    super::output::OutputFile::open(&target).map_err(std::io::Error::other)?;
+                Sink::File(std::io::BufWriter::new(file))
             }
         })
     }
@@ -80,7 +67,7 @@ impl Sink {
     fn write(&mut self, text: &str) -> std::io::Result<()> {
         match self {
             Sink::Stdout(w) => w.write_all(text.as_bytes()),
-            Sink::File { file, .. } => file.write_all(text.as_bytes()),
+            Sink::File(w) => w.write_all(text.as_bytes()),
         }
     }
 
@@ -88,26 +75,17 @@ impl Sink {
     fn finish(self) -> std::io::Result<()> {
         match self {
             Sink::Stdout(mut w) => w.flush(),
-            Sink::File { file, tmp, path } => {
-                let done = file
-                    .into_inner()
-                    .map_err(|e| e.into_error())
-                    .and_then(|f| f.sync_all())
-                    .and_then(|_| std::fs::rename(&tmp, &path));
-                if done.is_err() {
-                    let _ = std::fs::remove_file(&tmp);
-                }
-                done
-            }
+            Sink::File(w) => w
+                .into_inner()
+                .map_err(|e| e.into_error())?
+                .commit()
+                .map_err(std::io::Error::other),
         }
     }
 
-    /// Give up: remove the temporary file.
+    /// Give up: the temporary file is removed when the output file is dropped uncommitted.
     fn abandon(self) {
-        if let Sink::File { file, tmp, .. } = self {
-            drop(file);
-            let _ = std::fs::remove_file(&tmp);
-        }
+        drop(self);
     }
 }
 
@@ -218,6 +196,14 @@ pub fn sweep(a: &SweepArgs) -> i32 {
         eprintln!("error: --plot draws one or two varied inputs of an unsharded sweep");
         return EXIT_INVALID;
     }
+    // The output paths are checked before the work (a directory, a path the user may not
+    // write); the files themselves are written at the end.
+    for path in a.out.iter().chain(&a.plot) {
+        if let Err(e) = super::output::prepare(path) {
+            eprintln!("error: cannot write {}: {e}", path.display());
+            return EXIT_INVALID;
+        }
+    }
     let (study, net) = match read_study(&a.file, &a.set) {
         Ok(s) => s,
         Err(c) => return c,
@@ -262,7 +248,7 @@ pub fn sweep(a: &SweepArgs) -> i32 {
     };
     let out_name = |e: &std::io::Error| match &a.out {
         Some(p) => format!("error: cannot write {}: {e}", p.display()),
-        None => format!("error: cannot write the output: {e}"),
+        None => format!("error: cannot write to standard output: {e}"),
     };
     let mut sink = match Sink::open(a.out.as_ref()) {
         Ok(s) => s,

@@ -16,6 +16,5 @@ pub fn table(file: &std::path::Path, format: Format, set: &[Override]) -> i32 {
         Format::Text => report::table_text(&t),
         Format::Json => json(&t),
     };
-    emit(&text);
-    0
+    emit(&text, 0)
 }

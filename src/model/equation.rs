@@ -52,14 +52,30 @@ pub enum EquationError {
     BadTerm(String),
     #[error("coefficient `{0}` must be a finite positive decimal number")]
     BadCoefficient(String),
-    #[error(
-        "`{0}` is not a valid species name (a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`)"
-    )]
+    #[error("{}", bad_name_message(.0, "species name"))]
     BadName(String),
     #[error("the equation has no net change: every species cancels")]
     NoNetChange,
 }
 
+/// What a name (species or reaction id) may hold. Names are ASCII: the rest of the format
+/// (equations, `--set` paths, CSV headers, formulas) is read as ASCII, and a Greek letter or
+/// an accented one looks like another letter in many fonts; write `alpha`, `beta`.
+pub const NAME_RULE: &str =
+    "ASCII letters or `_` first, then ASCII letters, digits, `_`, brackets, `,` or `'`";
+
+/// Why `name` is not a valid name of this `kind` ("species name", "reaction id"), saying so
+/// plainly when it holds a letter outside ASCII (α, β, é).
+pub fn bad_name_message(name: &str, kind: &str) -> String {
+    match name.chars().find(|c| c.is_alphabetic() && !c.is_ascii()) {
+        Some(c) => format!(
+            "`{name}` is not a valid {kind}: `{c}` is not an ASCII letter; names use ASCII letters only (write e.g. `alpha` for α), then ASCII letters, digits, `_`, brackets, `,` or `'`"
+        ),
+        None => format!("`{name}` is not a valid {kind} ({NAME_RULE})"),
+    }
+}
+
+/// Whether `s` is a valid name ([`NAME_RULE`]).
 pub fn valid_name(s: &str) -> bool {
     let mut chars = s.chars();
     match chars.next() {

@@ -10,6 +10,7 @@ mod file;
 pub mod formula;
 mod load;
 pub mod locate;
+pub mod source;
 
 pub use load::{LoadError, Override, ParsedStudy, load_file, load_str, read_text};
 

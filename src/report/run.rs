@@ -1,10 +1,20 @@
-//! The report of one reactor run: outlet, concentrations, conversion, yields, selectivities.
+//! The report of one reactor run: outlet, concentrations, conversion, yields, selectivities,
+//! and the conditions an engineer checks beside them: the outlet volumetric flow of a flow
+//! reactor, the final volume and pressure of a batch, the bed constant α of a packed bed.
+//!
+//! Conditions of a state (ideal gas, isothermal at T0; CODATA R; common practice):
+//! - gas flow reactor: v = F_T R T / P, with P the local pressure (P0 without pressure drop),
+//!   which is v = v0 (F_T/F_T0)(P0/P); for a first-order A -> products at constant P this is
+//!   v = v0 (1 + ε X) (Levenspiel ch. 5);
+//! - gas batch at constant volume: P = N_T R T / V; at constant pressure: V = N_T R T / P0;
+//! - liquid (constant density): v = v0 and V = V0; the pressure is the feed's, not computed.
 
 use super::num;
 use crate::metrics::{self, Metrics};
-use crate::model::Network;
+use crate::model::{BatchMode, Network, Phase, Reactor};
 use crate::reactor::Balance;
 use crate::solve::{Simulation, SolveStats};
+use crate::units::GAS_CONSTANT;
 use indexmap::IndexMap;
 use serde::Serialize;
 use std::fmt::Write;
@@ -14,10 +24,20 @@ use std::fmt::Write;
 pub struct ProfilePoint {
     pub x: f64,
     pub state: IndexMap<String, f64>,
+    /// Pressure, Pa, where it varies (packed bed with pressure drop, constant-volume gas batch).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pressure: Option<f64>,
+    /// Volumetric flow v, m3/s, of a gas flow reactor (it varies with the moles and P).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub volumetric_flow: Option<f64>,
+    /// Volume V, m3, of a constant-pressure gas batch (it follows the moles).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub volume: Option<f64>,
     /// Instantaneous selectivity R_D/R_U of the desired product over each other product.
     pub instantaneous_selectivity: IndexMap<String, Option<f64>>,
+    /// Instantaneous selectivity of the desired product over all other products together,
+    /// R_D / Σ_U R_U (null when no other product forms, or no desired product is named).
+    pub instantaneous_selectivity_over_all: Option<f64>,
 }
 
 /// `rxnet run` as JSON: numbers in SI (mol/s or mol, m3, kg, s, K, Pa).
@@ -31,7 +51,20 @@ pub struct RunReport {
     pub size: f64,
     pub temperature: f64,
     pub inlet_pressure: f64,
+    /// Pressure at the outlet (flow reactors) or at the end (batch), Pa: from the pressure drop
+    /// of a packed bed, N_T R T / V for a constant-volume gas batch, else the inlet pressure.
     pub outlet_pressure: f64,
+    /// Inlet volumetric flow v0, m3/s (flow reactors).
+    pub inlet_volumetric_flow: Option<f64>,
+    /// Outlet volumetric flow v, m3/s (flow reactors): F_T R T / P for a gas, v0 for a liquid.
+    pub outlet_volumetric_flow: Option<f64>,
+    /// Charged volume V0, m3 (batch).
+    pub initial_volume: Option<f64>,
+    /// Volume at the end, m3 (batch): N_T R T / P0 for a constant-pressure gas batch, else V0.
+    pub final_volume: Option<f64>,
+    /// Bed constant α of the pressure drop, 1/kg (packed bed with pressure drop): as given,
+    /// or computed from the Ergun equation (docs/methods.md).
+    pub ergun_alpha: Option<f64>,
     /// mol/s (flow reactors) or mol (batch).
     pub state_unit: &'static str,
     pub outlet: IndexMap<String, f64>,
@@ -93,6 +126,86 @@ fn pressure_ratio(net: &Network, sim: &Simulation, k: usize) -> f64 {
         .unwrap_or(1.0)
 }
 
+/// Pressure and volumetric flow (flow reactors) or volume (batch) of profile point `k`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Conditions {
+    /// Pa.
+    pub pressure: f64,
+    /// m3/s (flow reactors) or m3 (batch).
+    pub volumetric: f64,
+}
+
+/// The conditions of profile point `k` (see the module docs for the equations).
+pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
+    let feed = &net.feed;
+    let p_local = sim.pressure.as_ref().map_or(feed.pressure, |p| p[k]);
+    if net.phase != Phase::Gas {
+        return Conditions {
+            pressure: p_local,
+            volumetric: feed.volumetric,
+        };
+    }
+    let n_rt = sim.states[k].iter().sum::<f64>() * GAS_CONSTANT * feed.temperature;
+    match net.reactor {
+        Reactor::Batch {
+            mode: BatchMode::ConstantVolume,
+            ..
+        } => Conditions {
+            pressure: n_rt / feed.volumetric,
+            volumetric: feed.volumetric,
+        },
+        Reactor::Batch {
+            mode: BatchMode::ConstantPressure,
+            ..
+        } => Conditions {
+            pressure: feed.pressure,
+            volumetric: n_rt / feed.pressure,
+        },
+        _ => Conditions {
+            pressure: p_local,
+            volumetric: n_rt / p_local,
+        },
+    }
+}
+
+/// Which conditions vary along the profile, and so get a column: (pressure, volumetric).
+fn varying(net: &Network, sim: &Simulation) -> (bool, bool) {
+    if net.phase != Phase::Gas {
+        return (false, false);
+    }
+    match net.reactor {
+        Reactor::Batch {
+            mode: BatchMode::ConstantVolume,
+            ..
+        } => (true, false),
+        Reactor::Batch {
+            mode: BatchMode::ConstantPressure,
+            ..
+        } => (false, true),
+        _ => (sim.pressure.is_some(), true),
+    }
+}
+
+/// R_D / Σ_U R_U from the per-product instantaneous selectivities: Σ_U R_U / R_D = Σ_U 1/S_D/U.
+fn over_all(per_product: &[metrics::Selectivity]) -> Option<f64> {
+    if per_product.is_empty() {
+        return None;
+    }
+    // S = R_D/R_U; a product whose rate is zero has S = None and adds nothing to the sum.
+    let inverse: f64 = per_product
+        .iter()
+        .filter_map(|s| s.value)
+        .map(|s| 1.0 / s)
+        .sum();
+    if inverse.is_nan() || inverse == 0.0 {
+        None
+    } else if inverse.is_infinite() {
+        Some(0.0) // R_D = 0 while another product forms
+    } else {
+        Some(1.0 / inverse)
+    }
+}
+
 /// Build the report of a run.
 pub fn build(
     net: &Network,
@@ -116,26 +229,36 @@ pub fn build(
     }
     let mut c = Vec::new();
     balance.concentrations(&y, &mut c);
+    let (p_varies, v_varies) = varying(net, sim);
+    let batch = net.reactor.is_batch();
     let profile = with_profile.then(|| {
         sim.x
             .iter()
             .enumerate()
-            .map(|(k, x)| ProfilePoint {
-                x: *x,
-                state: names(&sim.states[k]),
-                pressure: sim.pressure.as_ref().map(|p| p[k]),
-                instantaneous_selectivity: metrics::instantaneous_selectivity(
+            .map(|(k, x)| {
+                let cond = conditions(net, sim, k);
+                let inst = metrics::instantaneous_selectivity(
                     net,
                     balance,
                     &sim.states[k],
                     pressure_ratio(net, sim, k),
-                )
-                .into_iter()
-                .map(|s| (s.over, s.value))
-                .collect(),
+                );
+                ProfilePoint {
+                    x: *x,
+                    state: names(&sim.states[k]),
+                    pressure: p_varies.then_some(cond.pressure),
+                    volumetric_flow: (v_varies && !batch).then_some(cond.volumetric),
+                    volume: (v_varies && batch).then_some(cond.volumetric),
+                    instantaneous_selectivity_over_all: over_all(&inst),
+                    instantaneous_selectivity: inst
+                        .into_iter()
+                        .map(|s| (s.over, s.value))
+                        .collect(),
+                }
             })
             .collect()
     });
+    let end = conditions(net, sim, last);
     RunReport {
         study: net.name.clone(),
         reactor: net.reactor.kind(),
@@ -144,11 +267,12 @@ pub fn build(
         size: sim.size,
         temperature: net.feed.temperature,
         inlet_pressure: net.feed.pressure,
-        outlet_pressure: sim
-            .pressure
-            .as_ref()
-            .map(|p| p[last])
-            .unwrap_or(net.feed.pressure),
+        outlet_pressure: end.pressure,
+        inlet_volumetric_flow: (!batch).then_some(net.feed.volumetric),
+        outlet_volumetric_flow: (!batch).then_some(end.volumetric),
+        initial_volume: batch.then_some(net.feed.volumetric),
+        final_volume: batch.then_some(end.volumetric),
+        ergun_alpha: balance.alpha(),
         state_unit: if net.reactor.is_batch() {
             "mol"
         } else {
@@ -244,12 +368,36 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         } else {
             String::new()
         },
-        if (r.outlet_pressure - r.inlet_pressure).abs() > 0.0 {
+        if r.size_variable != "t" && (r.outlet_pressure - r.inlet_pressure).abs() > 0.0 {
             format!(", P_out = {} bar", num(r.outlet_pressure / 1e5))
         } else {
             String::new()
         }
     );
+    let mut conditions = Vec::new();
+    if let (Some(v0), Some(v)) = (r.inlet_volumetric_flow, r.outlet_volumetric_flow) {
+        conditions.push(format!(
+            "v_in = {} L/s, v_out = {} L/s",
+            num(v0 * 1e3),
+            num(v * 1e3)
+        ));
+    }
+    if let (Some(v0), Some(v)) = (r.initial_volume, r.final_volume) {
+        conditions.push(format!(
+            "V_0 = {} L, V_end = {} L",
+            num(v0 * 1e3),
+            num(v * 1e3)
+        ));
+        if r.phase == crate::model::Phase::Gas {
+            conditions.push(format!("P_end = {} bar", num(r.outlet_pressure / 1e5)));
+        }
+    }
+    if let Some(a) = r.ergun_alpha {
+        conditions.push(format!("bed constant α = {} 1/kg", num(a)));
+    }
+    if !conditions.is_empty() {
+        let _ = writeln!(o, "{}", conditions.join(", "));
+    }
     let w = r.outlet.keys().map(|k| k.len()).max().unwrap_or(7).max(7);
     let flow = if r.state_unit == "mol" {
         "N [mol]"
@@ -348,6 +496,9 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
             parts.join(", ")
         );
     }
+    if let Some(profile) = &r.profile {
+        profile_text(&mut o, r, profile);
+    }
     let s = &r.solver;
     if s.newton_iterations > 0 || s.residual.is_some() {
         let _ = writeln!(
@@ -388,29 +539,149 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     o
 }
 
-/// The profile as CSV: the independent variable, every species, and P where it varies.
-pub fn profile_csv(net: &Network, sim: &Simulation) -> String {
-    let mut o = String::new();
-    let unit = if net.reactor.is_batch() {
-        "mol"
-    } else {
-        "mol/s"
+/// The profile as a readable table: the independent variable, every species, the pressure
+/// and volumetric flow (or volume) where they vary, and the instantaneous selectivities.
+fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
+    let unit = |x: &str| match x {
+        "V" => "m3",
+        "W" => "kg",
+        _ => "s",
     };
+    let mut header = vec![format!("{} [{}]", r.size_variable, unit(r.size_variable))];
+    header.extend(r.outlet.keys().map(|s| format!("{s} [{}]", r.state_unit)));
+    let first = &profile[0];
+    if first.pressure.is_some() {
+        header.push("P [bar]".into());
+    }
+    if first.volumetric_flow.is_some() {
+        header.push("v [L/s]".into());
+    }
+    if first.volume.is_some() {
+        header.push("V [L]".into());
+    }
+    if let Some(d) = &r.desired {
+        header.extend(
+            first
+                .instantaneous_selectivity
+                .keys()
+                .map(|u| format!("S_inst {d}/{u}")),
+        );
+        header.push(format!("S_inst {d}/all"));
+    }
+    let rows: Vec<Vec<String>> = profile
+        .iter()
+        .map(|p| {
+            let mut row = vec![num(p.x)];
+            row.extend(p.state.values().map(|v| num(*v)));
+            row.extend(p.pressure.map(|v| num(v / 1e5)));
+            row.extend(p.volumetric_flow.map(|v| num(v * 1e3)));
+            row.extend(p.volume.map(|v| num(v * 1e3)));
+            if r.desired.is_some() {
+                row.extend(
+                    p.instantaneous_selectivity
+                        .values()
+                        .map(|s| s.map(num).unwrap_or_else(|| "—".into())),
+                );
+                row.push(
+                    p.instantaneous_selectivity_over_all
+                        .map(num)
+                        .unwrap_or_else(|| "—".into()),
+                );
+            }
+            row
+        })
+        .collect();
+    let widths: Vec<usize> = (0..header.len())
+        .map(|c| {
+            rows.iter()
+                .map(|row| row[c].chars().count())
+                .chain([header[c].chars().count()])
+                .max()
+                .unwrap_or(0)
+        })
+        .collect();
+    let line = |cells: &[String]| -> String {
+        let parts: Vec<String> = cells
+            .iter()
+            .zip(&widths)
+            .map(|(c, w)| format!("{c:>w$}"))
+            .collect();
+        format!("  {}\n", parts.join("  "))
+    };
+    let _ = write!(o, "\nprofile ({} points):\n", profile.len());
+    o.push_str(&line(&header));
+    for row in &rows {
+        o.push_str(&line(row));
+    }
+    if r.desired.is_some() {
+        let _ = writeln!(
+            o,
+            "  S_inst: instantaneous selectivity, the desired product's net rate of formation over another's (— where that rate is zero); /all: over all other products together."
+        );
+    }
+}
+
+/// The profile as CSV: the independent variable, every species, then P where it varies
+/// (packed bed with pressure drop, constant-volume gas batch), the volumetric flow v of a gas
+/// flow reactor or the volume V of a constant-pressure gas batch, then the instantaneous
+/// selectivities of the desired product over each other product and over all of them (empty
+/// where not defined).
+pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String {
+    let mut o = String::new();
+    let batch = net.reactor.is_batch();
+    let unit = if batch { "mol" } else { "mol/s" };
+    let (p_varies, v_varies) = varying(net, sim);
     let _ = write!(o, "{} [{}]", sim.x_name, sim.x_unit);
     for s in &net.species {
         let _ = write!(o, ",{}", csv_field(&format!("{} [{unit}]", s.name)));
     }
-    if sim.pressure.is_some() {
+    if p_varies {
         let _ = write!(o, ",P [Pa]");
     }
+    if v_varies {
+        let _ = write!(o, "{}", if batch { ",V [m3]" } else { ",v [m3/s]" });
+    }
+    if let Some(d) = net.desired {
+        let name = &net.species[d].name;
+        for u in metrics::products(net).into_iter().filter(|&u| u != d) {
+            let _ = write!(
+                o,
+                ",{}",
+                csv_field(&format!("S_inst {name}/{} [-]", net.species[u].name))
+            );
+        }
+        let _ = write!(o, ",{}", csv_field(&format!("S_inst {name}/all [-]")));
+    }
     o.push('\n');
+    let opt = |o: &mut String, v: Option<f64>| match v {
+        Some(v) => {
+            let _ = write!(o, ",{v:.12e}");
+        }
+        None => o.push(','),
+    };
     for (k, x) in sim.x.iter().enumerate() {
         let _ = write!(o, "{x:.12e}");
         for v in &sim.states[k] {
             let _ = write!(o, ",{v:.12e}");
         }
-        if let Some(p) = &sim.pressure {
-            let _ = write!(o, ",{:.12e}", p[k]);
+        let cond = conditions(net, sim, k);
+        if p_varies {
+            let _ = write!(o, ",{:.12e}", cond.pressure);
+        }
+        if v_varies {
+            let _ = write!(o, ",{:.12e}", cond.volumetric);
+        }
+        if net.desired.is_some() {
+            let inst = metrics::instantaneous_selectivity(
+                net,
+                balance,
+                &sim.states[k],
+                pressure_ratio(net, sim, k),
+            );
+            for s in &inst {
+                opt(&mut o, s.value);
+            }
+            opt(&mut o, over_all(&inst));
         }
         o.push('\n');
     }

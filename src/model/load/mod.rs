@@ -32,7 +32,7 @@ use std::fmt;
 
 /// Largest study file accepted, in bytes (a study is a few kilobytes; a generated network of
 /// 10,000 reactions is a few megabytes).
-pub const MAX_FILE_BYTES: usize = 64 * 1024 * 1024;
+pub const MAX_FILE_BYTES: usize = super::source::MAX_STUDY_BYTES;
 
 /// A study file that cannot be read or is not a valid study.
 #[derive(Debug, Clone, PartialEq)]
@@ -113,33 +113,13 @@ impl std::str::FromStr for Override {
 /// Read and load a study file.
 pub fn load_file(path: &std::path::Path, overrides: &[Override]) -> Result<Network, LoadError> {
     let text = read_text(path)?;
-    load_str(&text, &path.display().to_string(), overrides)
+    load_str(&text, &super::source::display_name(path), overrides)
 }
 
-/// Read a study file's text: refuses files over [`MAX_FILE_BYTES`] and text that is not UTF-8.
+/// Read a study's text from a path, or from standard input for `-` (see [`super::source`]:
+/// one byte cap for every kind of file, a UTF-8 byte-order mark dropped).
 pub fn read_text(path: &std::path::Path) -> Result<String, LoadError> {
-    let name = path.display().to_string();
-    let whole = |message: String| LoadError {
-        file: name.clone(),
-        position: None,
-        field: String::new(),
-        message,
-        hint: None,
-    };
-    let meta = std::fs::metadata(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
-    if meta.len() > MAX_FILE_BYTES as u64 {
-        return Err(whole(format!(
-            "the file is {} bytes; a study file may have at most {MAX_FILE_BYTES} bytes",
-            meta.len()
-        )));
-    }
-    let bytes = std::fs::read(path).map_err(|e| whole(format!("cannot read the file: {e}")))?;
-    String::from_utf8(bytes).map_err(|e| {
-        whole(format!(
-            "the file is not UTF-8 text (invalid byte at offset {})",
-            e.utf8_error().valid_up_to()
-        ))
-    })
+    super::source::read_study(path)
 }
 
 /// Load a study from its text; `file` names it in messages.

@@ -3,7 +3,7 @@
 
 use super::messages::significant;
 use super::{Cx, LoadError, conc, molar_energy};
-use crate::model::equation::{parse_equation, valid_name};
+use crate::model::equation::{bad_name_message, parse_equation, valid_name};
 use crate::model::file::*;
 use crate::model::*;
 use crate::units::{Dim, GAS_CONSTANT};
@@ -21,11 +21,7 @@ pub(super) fn build_reaction(
     let base = format!("reactions[{i}]");
     let fid = format!("{base}.id");
     if !valid_name(&rr.id) {
-        return Err(cx.err(
-            &fid,
-            &format!("`{}` is not a valid reaction id", rr.id),
-            Some("a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`".into()),
-        ));
+        return Err(cx.err(&fid, &bad_name_message(&rr.id, "reaction id"), None));
     }
     let fs = format!("{base}.stoich");
     let eq = parse_equation(&rr.stoich, &|s| index.contains_key(s))

@@ -4,7 +4,7 @@
 use super::messages::significant;
 use super::{Cx, LoadError, conc};
 use crate::model::Species;
-use crate::model::equation::valid_name;
+use crate::model::equation::{bad_name_message, valid_name};
 use crate::model::file::{RawQty, RawSpecies};
 use crate::model::formula::Formula;
 use crate::units::Dim;
@@ -23,13 +23,7 @@ pub(super) fn build_species(
     for (i, (name, sp)) in raw.iter().enumerate() {
         let field = format!("species.{name}");
         if !valid_name(name) {
-            return Err(cx.err(
-                &field,
-                &format!("`{name}` is not a valid species name"),
-                Some(
-                    "a letter or `_` first, then letters, digits, `_`, brackets, `,` or `'`".into(),
-                ),
-            ));
+            return Err(cx.err(&field, &bad_name_message(name, "species name"), None));
         }
         let sp = sp.as_ref();
         let formula = match sp.and_then(|s| s.formula.as_deref()) {
