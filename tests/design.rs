@@ -10,10 +10,9 @@
 
 mod common;
 
-use common::{Agreement, Run, TempFile, rxnet, temp_study};
+use common::{Agreement, Run, TempFile, num, rxnet, temp_study};
 use rxnet::solve::{SolveOptions, simulate};
 use rxnet::{Override, load_str};
-use serde_json::Value;
 
 /// Volumetric feed of the flow studies, m3/s (1 L/s, test value); F_A0 = 1 mol/s, so
 /// C_A0 = 1000 mol/m3.
@@ -94,20 +93,6 @@ fn reversible(feed: &str, reactor: &str) -> String {
     )
 }
 
-fn ok(run: &Run) -> Value {
-    assert_eq!(
-        run.code, 0,
-        "command failed:\nstdout:\n{}\nstderr:\n{}",
-        run.stdout, run.stderr
-    );
-    run.json()
-}
-
-fn num(v: &Value, what: &str) -> f64 {
-    v.as_f64()
-        .unwrap_or_else(|| panic!("{what} is not a number: {v}"))
-}
-
 fn optimize(f: &TempFile, args: &[&str]) -> Run {
     let mut all = vec!["optimize", f.p()];
     all.extend_from_slice(args);
@@ -180,7 +165,7 @@ fn series_targets_against_closed_forms() {
         let f = temp_study("d-series", &series(feed, reactor));
         // Amount of B: an interior maximum, τ_opt = ln(k2/k1)/(k2 − k1) in plug flow or
         // batch, 1/√(k1 k2) in mixed flow (Levenspiel ch. 8, from memory).
-        let j = ok(&optimize(&f, &["--maximize", "B"]));
+        let j = (optimize(&f, &["--maximize", "B"])).ok_json();
         let t_opt = if kind == "cstr" {
             1.0 / (K1 * K2).sqrt()
         } else {
@@ -251,7 +236,7 @@ fn series_targets_against_closed_forms() {
         };
         let (_, b, c) = series_at(kind, t_half);
         for t in ["selectivity:B/C", "selectivity:B/all"] {
-            let j = ok(&optimize(&f, &["--maximize", t, "--min-conversion", "0.5"]));
+            let j = (optimize(&f, &["--maximize", t, "--min-conversion", "0.5"])).ok_json();
             assert_eq!(
                 j["best"]["on_bound"][path], "min-conversion",
                 "{kind} {t}: {j}"
@@ -283,7 +268,7 @@ fn series_targets_against_closed_forms() {
         }
 
         // Conversion: best at the upper bound, and still rising there.
-        let j = ok(&optimize(&f, &["--maximize", "conversion"]));
+        let j = (optimize(&f, &["--maximize", "conversion"])).ok_json();
         assert_eq!(j["best"]["on_bound"][path], "upper", "{kind}: {j}");
         assert_eq!(j["best"]["improves_beyond_bound"], true, "{kind}: {j}");
         ag.check(
@@ -319,14 +304,7 @@ fn parallel_targets_against_closed_forms() {
             );
         }
         // The run reports the same selectivity (S_B/C = k1/k2).
-        let run = ok(&rxnet(&[
-            "run",
-            f.p(),
-            "--rtol",
-            "1e-10",
-            "--format",
-            "json",
-        ]));
+        let run = (rxnet(&["run", f.p(), "--rtol", "1e-10", "--format", "json"])).ok_json();
         ag.check(
             num(&run["selectivity"]["C"], "S_B/C"),
             KP[0] / KP[1],
@@ -336,7 +314,7 @@ fn parallel_targets_against_closed_forms() {
         // Amount of B rises with size: upper bound, F_B = k1/Σk · X with X = 1 − e^(−Σk τ)
         // (plug flow, batch) or Σk τ/(1 + Σk τ) (mixed flow) (Levenspiel ch. 7, from memory).
         let hi = if kind == "batch" { "10 s" } else { "10 L" };
-        let j = ok(&optimize(&f, &["--maximize", "B", "--bounds", "0", hi]));
+        let j = (optimize(&f, &["--maximize", "B", "--bounds", "0", hi])).ok_json();
         let x = if kind == "cstr" {
             ksum * 10.0 / (1.0 + ksum * 10.0)
         } else {
@@ -362,7 +340,7 @@ fn reversible_targets_against_closed_forms() {
         let f = temp_study("d-rev", &reversible(feed, reactor));
         // Conversion: X = X_eq (1 − e^(−(k_f + k_r) τ)) in plug flow or batch,
         // k_f τ/(1 + (k_f + k_r) τ) in mixed flow; best at the upper bound.
-        let j = ok(&optimize(&f, &["--maximize", "conversion"]));
+        let j = (optimize(&f, &["--maximize", "conversion"])).ok_json();
         let want = if kind == "cstr" {
             KF * 100.0 / (1.0 + (KF + kr) * 100.0)
         } else {
@@ -439,7 +417,7 @@ fn size_for_conversion_against_closed_forms() {
         for (kind, feed, reactor, _) in REACTORS {
             // First order: kτ = −ln(1 − X) (plug flow; batch with t), kτ = X/(1 − X) (mixed flow).
             let f = temp_study("d-size1", &first(feed, reactor));
-            let j = ok(&size_json(&f, &xs, &[]));
+            let j = (size_json(&f, &xs, &[])).ok_json();
             let want = if kind == "cstr" {
                 x / (1.0 - x) / k
             } else {
@@ -464,7 +442,7 @@ fn size_for_conversion_against_closed_forms() {
             );
             // Second order: k τ C_A0 = X/(1 − X) (plug flow, batch), X/(1 − X)² (mixed flow).
             let f = temp_study("d-size2", &second(feed, reactor));
-            let j = ok(&size_json(&f, &xs, &[]));
+            let j = (size_json(&f, &xs, &[])).ok_json();
             let want = if kind == "cstr" {
                 x / (1.0 - x).powi(2) / (k2 * CA0)
             } else {
@@ -483,7 +461,7 @@ fn size_for_conversion_against_closed_forms() {
     let x_eq = KEQ / (1.0 + KEQ);
     for (kind, feed, reactor, xn) in REACTORS {
         let f = temp_study("d-size-rev", &reversible(feed, reactor));
-        let j = ok(&size_json(&f, "0.5", &[]));
+        let j = (size_json(&f, "0.5", &[])).ok_json();
         // X = X_eq (1 − e^(−(k_f + k_r) τ)) (plug flow, batch); X = k_f τ/(1 + (k_f + k_r) τ) (mixed).
         let want = if kind == "cstr" {
             0.5 / (KF - 0.5 * (KF + kr))
@@ -550,10 +528,7 @@ fn optimize_output_is_si_with_units_and_refuses_bare_bounds() {
     let yaml = series(FLOW_FEED, PFR);
     let f = temp_study("d-units", &yaml);
     // Bounds in litres: the JSON is in m3, the unit beside it.
-    let j = ok(&optimize(
-        &f,
-        &["--maximize", "B", "--bounds", "1 L", "50 L"],
-    ));
+    let j = (optimize(&f, &["--maximize", "B", "--bounds", "1 L", "50 L"])).ok_json();
     assert_eq!(j["best"]["units"]["reactor.volume"], "m3", "{j}");
     assert_eq!(j["best"]["size_unit"], "m3", "{j}");
     assert_eq!(j["best"]["value_unit"], "mol/s", "{j}");
@@ -637,7 +612,7 @@ fn optimize_output_is_si_with_units_and_refuses_bare_bounds() {
     );
     let ft = temp_study("d-units-t", &yaml_t);
     // Bounds in °C: the point in K (NIST SP 811: T/K = t/°C + 273.15).
-    let jt = ok(&optimize(
+    let jt = (optimize(
         &ft,
         &[
             "--maximize",
@@ -648,13 +623,14 @@ fn optimize_output_is_si_with_units_and_refuses_bare_bounds() {
             "20 degC",
             "30 degC",
         ],
-    ));
+    ))
+    .ok_json();
     assert_eq!(jt["best"]["units"]["feed.T"], "K", "{jt}");
     let t = num(&jt["best"]["point"]["feed.T"], "feed.T");
     // Ea2 > Ea1: the lower bound, 20 °C = 293.15 K.
     assert_eq!(jt["best"]["on_bound"]["feed.T"], "lower", "{jt}");
     ag.check(t, 293.15, 1e-12, "20 degC in K");
-    let j = ok(&optimize(
+    let j = (optimize(
         &ft,
         &[
             "--maximize",
@@ -670,7 +646,8 @@ fn optimize_output_is_si_with_units_and_refuses_bare_bounds() {
             "290 K",
             "310 K",
         ],
-    ));
+    ))
+    .ok_json();
     let k_at = |k: f64, ea: f64, t: f64| k * (-ea / r_gas * (1.0 / t - 1.0 / 300.0)).exp();
     let (k1, k2) = (k_at(K1, ea1, 290.0), k_at(K2, ea2, 290.0));
     let tau_290 = (k2 / k1).ln() / (k2 - k1);
@@ -766,7 +743,7 @@ fn compare_table_units_names_and_optimum() {
         "--format",
         "json",
     ]);
-    let j = ok(&r);
+    let j = r.ok_json();
     let mut ag = Agreement::new("compare --optimum with --min-conversion (Levenspiel ch. 8)");
     for row in j.as_array().expect("rows") {
         let kind = row["reactor"].as_str().unwrap_or_default();

@@ -9,7 +9,7 @@
 
 mod common;
 
-use common::{Agreement, Run, rel_err, run_args, rxnet};
+use common::{Agreement, num, rel_err, run_args, rxnet};
 use rxnet::solve::{Points, SolveError, SolveOptions, simulate};
 use rxnet::{Network, load_str};
 use serde_json::Value;
@@ -40,21 +40,6 @@ fn solve(yaml: &str, points: Points) -> (Network, rxnet::solve::Simulation) {
 fn idx(net: &Network, name: &str) -> usize {
     net.species_index(name)
         .unwrap_or_else(|| panic!("no species {name}"))
-}
-
-/// A run that must succeed, as JSON.
-fn ok_json(run: &Run) -> Value {
-    assert_eq!(
-        run.code, 0,
-        "run failed:\nstdout:\n{}\nstderr:\n{}",
-        run.stdout, run.stderr
-    );
-    run.json()
-}
-
-fn num(v: &Value, what: &str) -> f64 {
-    v.as_f64()
-        .unwrap_or_else(|| panic!("{what} is not a number: {v}"))
 }
 
 // ---------------------------------------------------------------------------------------
@@ -148,7 +133,7 @@ fn series_through_the_binary_matches_bateman() {
         ),
         &["--format", "json", "--rtol", "1e-10"],
     );
-    let v = ok_json(&run);
+    let v = run.ok_json();
     let want = bateman(5.0); // Levenspiel ch. 8 (from memory)
     let mut a = Agreement::new("series A->B->C, binary PFR outlet vs Bateman (Levenspiel ch. 8)");
     for (k, name) in ["A", "B", "C"].iter().enumerate() {
@@ -306,7 +291,7 @@ fn parallel_second_order_profile_through_the_binary() {
         ),
         &["--format", "json", "--points", "11", "--rtol", "1e-10"],
     );
-    let v = ok_json(&run);
+    let v = run.ok_json();
     let profile = v["profile"].as_array().expect("a profile");
     assert_eq!(profile.len(), 11);
     let mut a =
@@ -372,11 +357,7 @@ key: A
 
     // Through the binary: the outlet conversion, and C_A = C_T0 F_A/F_T at P0, T0 (ideal gas,
     // common practice).
-    let v = ok_json(&run_args(
-        "gas-bin",
-        &yaml,
-        &["--format", "json", "--rtol", "1e-10"],
-    ));
+    let v = (run_args("gas-bin", &yaml, &["--format", "json", "--rtol", "1e-10"])).ok_json();
     let mut b = Agreement::new("gas A->2B, binary outlet (Levenspiel ch. 5)");
     b.check(num(&v["conversion"], "X"), x_target, 1e-6, "conversion");
     let f_a = 1.0 - x_target;
@@ -566,11 +547,12 @@ fn packed_bed_pressure_follows_square_root_law() {
     // ln(F_A0/F_A) = (k' C_T0 / F_T0) · (2/(3α)) (1 − (1 − αW)^(3/2)).
     let (alpha, p0, t0, kp, f_t0) = (0.01, 1.0e6, 500.0, 1.0e-4, 1.0);
     let c_t0 = p0 / (R * t0);
-    let v = ok_json(&run_args(
+    let v = (run_args(
         "bed",
         &bed("60 kg"),
         &["--format", "json", "--points", "21", "--rtol", "1e-10"],
-    ));
+    ))
+    .ok_json();
     let profile = v["profile"].as_array().expect("a profile");
     assert_eq!(profile.len(), 21);
     let mut p = Agreement::new("packed bed P/P0 = (1 − αW)^(1/2) (common practice)");
@@ -630,11 +612,12 @@ fn packed_bed_that_runs_out_of_pressure_is_an_error() {
         other => panic!("expected a pressure collapse, got {other:?}"),
     }
     // Just inside the limit (αW = 0.99) the bed still solves, with P/P0 = 0.1.
-    let v = ok_json(&run_args(
+    let v = (run_args(
         "bed-edge",
         &bed("99 kg"),
         &["--format", "json", "--rtol", "1e-10"],
-    ));
+    ))
+    .ok_json();
     let mut a = Agreement::new("packed bed near collapse, P/P0 = (1 − αW)^(1/2) (common practice)");
     a.check(
         num(&v["outlet_pressure"], "P_out") / 1e6,
@@ -745,7 +728,7 @@ fn element_balances_hold_along_every_bundled_network() {
             continue;
         }
         let run = rxnet(&["run", p, "--format", "json", "--points", "21"]);
-        let v = ok_json(&run);
+        let v = run.ok_json();
         let net = rxnet::load_file(path, &[]).expect("the bundled network loads");
         let profile = v["profile"].as_array().expect("a profile");
         if v["reactor"] == "cstr" {
@@ -923,7 +906,7 @@ fn cstr_reports_a_small_newton_residual() {
     ];
     let mut worst: f64 = 0.0;
     for yaml in &studies {
-        let v = ok_json(&run_args("cstr-res", yaml, &["--format", "json"]));
+        let v = (run_args("cstr-res", yaml, &["--format", "json"])).ok_json();
         let res = num(&v["solver"]["residual"], "solver.residual");
         let total: f64 = 1.0; // F_T0 = 1 mol/s
         assert!(res >= 0.0 && res < 1e-9 * total, "residual {res:e} mol/s");
@@ -1116,7 +1099,7 @@ reactor: {{type: cstr, volume: {volume:.17e} m3}}
 key: A
 "
     );
-    let v = ok_json(&run_args("gas-cstr", &yaml, &["--format", "json"]));
+    let v = (run_args("gas-cstr", &yaml, &["--format", "json"])).ok_json();
     let mut a = Agreement::new("gas A->2B, CSTR vs kτ = X(1+εX)/(1−X) (Levenspiel ch. 5)");
     a.check(num(&v["conversion"], "X"), x_target, 1e-9, "conversion");
     a.report();
@@ -1148,11 +1131,7 @@ key: A
             &format!("N_A at t = {t}"),
         );
     }
-    let v = ok_json(&run_args(
-        "cp-batch",
-        yaml,
-        &["--format", "json", "--rtol", "1e-10"],
-    ));
+    let v = (run_args("cp-batch", yaml, &["--format", "json", "--rtol", "1e-10"])).ok_json();
     let x = 1.0 - (-1.0_f64).exp();
     let v0 = 2.0 * R * 400.0 / 2e5;
     let vol = v0 * (1.0 + 0.5 * x);

@@ -5,7 +5,7 @@
 
 mod common;
 
-use common::{Agreement, Run, rxnet, write_temp};
+use common::{Agreement, Run, num, rxnet, write_temp};
 
 /// Gas constant, J/(mol K): CODATA 2018, R = N_A k_B, exact in the 2019 SI
 /// (6.02214076e23 × 1.380649e-23).
@@ -18,20 +18,6 @@ fn run_args(tag: &str, yaml: &str, args: &[&str]) -> Run {
     let run = rxnet(&all);
     let _ = std::fs::remove_file(&path);
     run
-}
-
-fn ok_json(run: &Run) -> serde_json::Value {
-    assert_eq!(
-        run.code, 0,
-        "stdout:\n{}\nstderr:\n{}",
-        run.stdout, run.stderr
-    );
-    run.json()
-}
-
-fn num(v: &serde_json::Value, what: &str) -> f64 {
-    v.as_f64()
-        .unwrap_or_else(|| panic!("{what} is not a number: {v}"))
 }
 
 /// CSV text to (header, rows); empty cells are None.
@@ -90,11 +76,12 @@ fn gas_pfr_outlet_volumetric_flow_follows_the_expansion() {
         "{type: pfr, volume: 30 L}",
         "{T: 400 K, P: 2 bar, flows: {A: 1 mol/s, I: 1 mol/s}}",
     );
-    let v = ok_json(&run_args(
+    let v = (run_args(
         "pfr-v",
         &yaml,
         &["--format", "json", "--points", "11", "--rtol", "1e-10"],
-    ));
+    ))
+    .ok_json();
     let v0 = f_t0 * R * t0 / p0;
     let mut a = Agreement::new("gas PFR v = v0 (1 + εX) (Levenspiel ch. 5)");
     a.check(
@@ -156,7 +143,7 @@ reactions:
 feed: {T: 300 K, volumetric: 3 L/s, concentrations: {A: 1 mol/L}}
 reactor: {type: cstr, volume: 20 L}
 ";
-    let v = ok_json(&run_args("cstr-v", yaml, &["--format", "json"]));
+    let v = (run_args("cstr-v", yaml, &["--format", "json"])).ok_json();
     let mut a = Agreement::new("liquid CSTR v = v0 (common practice)");
     a.check(num(&v["outlet_volumetric_flow"], "v"), 3e-3, 1e-12, "v");
     a.report();
@@ -178,11 +165,12 @@ fn constant_volume_gas_batch_reports_its_final_pressure() {
         "{type: batch, volume: 41.57 L, time: 0.5 s}",
         &format!("{{T: 500 K, P: {p0} Pa, amounts: {{A: 0.5 mol, I: 0.5 mol}}}}"),
     );
-    let v = ok_json(&run_args(
+    let v = (run_args(
         "batch-p",
         &yaml,
         &["--format", "json", "--points", "6", "--rtol", "1e-10"],
-    ));
+    ))
+    .ok_json();
     let mut a = Agreement::new("constant-volume gas batch P = N_T R T / V (CODATA R)");
     let x = num(&v["conversion"], "X");
     assert!(x > 0.3, "the pressure must rise visibly: X = {x}");
@@ -216,11 +204,7 @@ fn constant_pressure_gas_batch_reports_its_final_volume() {
         "{type: batch, mode: constant_pressure, time: 0.5 s}",
         "{T: 450 K, P: 3 bar, amounts: {A: 0.5 mol, I: 0.5 mol}}",
     );
-    let v = ok_json(&run_args(
-        "batch-v",
-        &yaml,
-        &["--format", "json", "--rtol", "1e-10"],
-    ));
+    let v = (run_args("batch-v", &yaml, &["--format", "json", "--rtol", "1e-10"])).ok_json();
     let mut a = Agreement::new("constant-pressure gas batch V = N_T R T / P0 (CODATA R)");
     let x = num(&v["conversion"], "X");
     a.check(
@@ -266,11 +250,7 @@ key: A
     let beta0 =
         g * (1.0 - phi) / (rho0 * dp * phi.powi(3)) * (150.0 * (1.0 - phi) * mu / dp + 1.75 * g);
     let alpha = 2.0 * beta0 / (ac * (1.0 - phi) * rho_c * p0);
-    let v = ok_json(&run_args(
-        "ergun",
-        yaml,
-        &["--format", "json", "--rtol", "1e-10"],
-    ));
+    let v = (run_args("ergun", yaml, &["--format", "json", "--rtol", "1e-10"])).ok_json();
     let mut a = Agreement::new("Ergun bed constant α (Ergun 1952, docs/methods.md)");
     a.check(num(&v["ergun_alpha"], "α"), alpha, 1e-12, "α");
     // No mole change: P/P0 = (1 − αW)^(1/2) (common practice, from memory), and the gas
@@ -324,11 +304,12 @@ fn instantaneous_selectivity_is_in_every_profile() {
         a.check(r[sd].expect("B/D"), k1 / k3, 1e-12, "CSV B/D");
         a.check(r[sall].expect("B/all"), k1 / (k2 + k3), 1e-12, "CSV B/all");
     }
-    let v = ok_json(&run_args(
+    let v = (run_args(
         "sinst-json",
         PARALLEL,
         &["--format", "json", "--points", "4"],
-    ));
+    ))
+    .ok_json();
     for p in v["profile"].as_array().expect("a profile") {
         a.check(
             num(&p["instantaneous_selectivity_over_all"], "B/all"),

@@ -10,7 +10,7 @@
 
 mod common;
 
-use common::{Agreement, Run, TempFile, network, rel_err, rxnet, temp_out, temp_study};
+use common::{Agreement, Run, TempFile, network, num, rel_err, rxnet, temp_out, temp_study};
 use rxnet::solve::{SolveOptions, simulate};
 use rxnet::{Override, load_file, load_str};
 use serde_json::Value;
@@ -22,27 +22,12 @@ const R: f64 = 8.314_462_618_153_24;
 /// Volumetric feed of the flow studies below, m3/s (1 L/s, test value).
 const V0: f64 = 1e-3;
 
-/// A run that must succeed.
-fn ok(run: &Run) -> Value {
-    assert_eq!(
-        run.code, 0,
-        "command failed:\nstdout:\n{}\nstderr:\n{}",
-        run.stdout, run.stderr
-    );
-    run.json()
-}
-
-fn num(v: &Value, what: &str) -> f64 {
-    v.as_f64()
-        .unwrap_or_else(|| panic!("{what} is not a number: {v}"))
-}
-
 /// `rxnet optimize FILE ARGS... --format json`, which must succeed.
 fn optimize(file: &TempFile, args: &[&str]) -> Value {
     let mut all = vec!["optimize", file.p()];
     all.extend_from_slice(args);
     all.extend_from_slice(&["--format", "json"]);
-    ok(&rxnet(&all))
+    (rxnet(&all)).ok_json()
 }
 
 /// A command that must be refused with `code`, one message on stderr and nothing on stdout.
@@ -389,7 +374,7 @@ fn compare_recasts_reactor_types_at_equal_space_time() {
         "compare-types",
         &series(k1, k2, FLOW_FEED, "{type: pfr, volume: 10 L}"),
     );
-    let j = ok(&rxnet(&[
+    let j = (rxnet(&[
         "compare",
         study.p(),
         "--reactors",
@@ -400,7 +385,8 @@ fn compare_recasts_reactor_types_at_equal_space_time() {
         "1e-10",
         "--format",
         "json",
-    ]));
+    ]))
+    .ok_json();
     let rows = j.as_array().expect("a JSON list");
     assert_eq!(rows.len(), 3, "{j}");
     let mut ag = Agreement::new("compare pfr/cstr/batch at τ = 10 s (Levenspiel ch. 8)");
@@ -775,7 +761,7 @@ fn sweep_rows_equal_single_runs() {
         let v = 2.0 + 6.0 * (p % 4) as f64;
         assert_eq!(r["feed.T [K]"].parse::<f64>().unwrap(), t);
         assert_eq!(r["reactor.volume [L]"].parse::<f64>().unwrap(), v);
-        let single = ok(&rxnet(&[
+        let single = (rxnet(&[
             "run",
             study.p(),
             "--set",
@@ -784,7 +770,8 @@ fn sweep_rows_equal_single_runs() {
             &format!("reactor.volume={} L", r["reactor.volume [L]"]),
             "--format",
             "json",
-        ]));
+        ]))
+        .ok_json();
         for h in &header[4..header.len() - 1] {
             let want = if h == "conversion" {
                 &single["conversion"]
@@ -816,7 +803,7 @@ fn sweep_rows_equal_single_runs() {
         &study,
         &[GRID[0], GRID[1], GRID[2], GRID[3], "--format", "json"],
     );
-    let items = ok(&js);
+    let items = js.ok_json();
     let items = items.as_array().expect("a JSON list");
     assert_eq!(items.len(), 12);
     // serde_json's default float parser (no `float_roundtrip` feature) may land one ulp off
@@ -979,7 +966,7 @@ fn failing_points_become_rows_not_crashes() {
     assert_eq!(rows[2]["status"], "ok", "{:?}", rows[2]);
 
     // The JSON form carries the same failures.
-    let js = ok(&sweep(
+    let js = (sweep(
         &study,
         &[
             "--vary",
@@ -989,7 +976,8 @@ fn failing_points_become_rows_not_crashes() {
             "--format",
             "json",
         ],
-    ));
+    ))
+    .ok_json();
     let failed: Vec<u64> = js
         .as_array()
         .unwrap()
@@ -1138,7 +1126,7 @@ fn compare_ranks_reactor_types_by_order_of_the_wanted_step() {
     // (Levenspiel ch. 7, from memory).
     for (first, second, winner) in [("R", "S", "cstr"), ("S", "R", "pfr")] {
         let study = temp_study("compare-par", &parallel(first, second));
-        let j = ok(&rxnet(&[
+        let j = (rxnet(&[
             "compare",
             study.p(),
             "--reactors",
@@ -1151,7 +1139,8 @@ fn compare_ranks_reactor_types_by_order_of_the_wanted_step() {
             "1e-10",
             "--format",
             "json",
-        ]));
+        ]))
+        .ok_json();
         let rows = j.as_array().expect("a JSON list");
         assert_eq!(rows.len(), 2, "{j}");
         assert_eq!(
@@ -1313,17 +1302,18 @@ fn bundled_studies_optimize_and_compare() {
     for f in &files {
         let p = f.to_str().unwrap();
         let net = load_file(f, &[]).unwrap_or_else(|e| panic!("{p}: {e}"));
-        let plain = ok(&rxnet(&["run", p, "--format", "json"]));
+        let plain = (rxnet(&["run", p, "--format", "json"])).ok_json();
         // Conversion over [0, size]: at least the conversion of the full-size run
         // (the conversion never falls along a reactor; common practice).
-        let j = ok(&rxnet(&[
+        let j = (rxnet(&[
             "optimize",
             p,
             "--maximize",
             "conversion",
             "--format",
             "json",
-        ]));
+        ]))
+        .ok_json();
         let best = num(&j["best"]["value"], "best.value");
         let full = num(&plain["conversion"], "conversion");
         assert!(
@@ -1344,7 +1334,7 @@ fn bundled_studies_optimize_and_compare() {
             // Half the full-size conversion keeps the size away from zero, and the full
             // size stays feasible.
             let xmin = format!("{}", 0.5 * num(&plain["conversion"], "conversion"));
-            let j = ok(&rxnet(&[
+            let j = (rxnet(&[
                 "optimize",
                 p,
                 "--maximize",
@@ -1353,7 +1343,8 @@ fn bundled_studies_optimize_and_compare() {
                 &xmin,
                 "--format",
                 "json",
-            ]));
+            ]))
+            .ok_json();
             let v = num(&j["best"]["value"], "best.value");
             // The reported value is the yield of the run at the optimum (same definition).
             assert!(
@@ -1369,7 +1360,7 @@ fn bundled_studies_optimize_and_compare() {
     let mut args = vec!["compare"];
     args.extend(files.iter().map(|f| f.to_str().unwrap()));
     args.extend_from_slice(&["--format", "json"]);
-    let j = ok(&rxnet(&args));
+    let j = (rxnet(&args)).ok_json();
     let rows = j.as_array().expect("a JSON list");
     assert_eq!(rows.len(), files.len(), "{j}");
     for f in &files {

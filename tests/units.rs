@@ -9,26 +9,12 @@
 
 mod common;
 
-use common::{Run, rel_err, run_study};
+use common::{num, rel_err, run_study};
 use rxnet::load_str;
 use serde_json::Value;
 
 /// Molar gas constant, J/(mol K): CODATA 2018, exact (N_A k_B).
 const R: f64 = 8.314_462_618_153_24;
-
-fn ok_json(run: &Run) -> Value {
-    assert_eq!(
-        run.code, 0,
-        "run failed:\nstdout:\n{}\nstderr:\n{}",
-        run.stdout, run.stderr
-    );
-    run.json()
-}
-
-fn num(v: &Value, what: &str) -> f64 {
-    v.as_f64()
-        .unwrap_or_else(|| panic!("{what} is not a number: {v}"))
-}
 
 /// A study that must be refused with exit 2 and every `needle` in its message.
 fn refused(tag: &str, yaml: &str, needles: &[&str]) {
@@ -54,7 +40,7 @@ fn run_tight(tag: &str, yaml: &str) -> Value {
     let p = path.to_str().expect("temporary path is UTF-8");
     let run = common::rxnet(&["run", p, "--format", "json", "--rtol", "1e-10"]);
     let _ = std::fs::remove_file(&path);
-    ok_json(&run)
+    run.ok_json()
 }
 
 fn outlet(v: &Value, name: &str) -> f64 {

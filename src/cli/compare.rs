@@ -38,7 +38,7 @@ pub fn compare(
     rtol: Option<f64>,
     steady_state: Option<rxnet::solve::SteadyStateChoice>,
 ) -> i32 {
-    if let Err(m) = check_tolerance("rtol", rtol, 1.0) {
+    if let Err(m) = check_tolerance("rtol", rtol) {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }

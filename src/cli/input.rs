@@ -19,9 +19,8 @@ pub fn load(file: &Path, set: &[Override]) -> Result<rxnet::Network, i32> {
 
 /// A tolerance given on the command line, in the ranges the loader applies to `solver.rtol`
 /// and `solver.atol` ([`rxnet::solve::check_rtol`]); the cap of atol against the feed is
-/// checked once the study is loaded ([`check_atol_for`]). `_upper` is unused (kept for the
-/// callers' signature).
-pub fn check_tolerance(name: &str, v: Option<f64>, _upper: f64) -> Result<(), String> {
+/// checked once the study is loaded ([`check_atol_for`]).
+pub fn check_tolerance(name: &str, v: Option<f64>) -> Result<(), String> {
     match (name, v) {
         (_, None) => Ok(()),
         ("rtol", Some(x)) => rxnet::solve::check_rtol(x).map_err(|m| format!("--{m}")),

@@ -86,12 +86,8 @@ enum Command {
         min_conversion: Option<f64>,
         #[arg(long, value_enum, default_value_t = Format::Text)]
         format: Format,
-        #[arg(long)]
-        rtol: Option<f64>,
-        /// CSTR with several steady states: which one to use, `lowest` (default) or `highest`
-        /// conversion of the key, or a number from 1 (as --set solver.steady_state=WHICH).
-        #[arg(long, value_name = "WHICH")]
-        steady_state: Option<SteadyStateChoice>,
+        #[command(flatten)]
+        solver: SolverFlags,
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
     },
@@ -115,12 +111,8 @@ enum Command {
         /// Quantity to plot (default: yield of the desired product, else conversion).
         #[arg(long, value_name = "TARGET")]
         plot_target: Option<String>,
-        #[arg(long)]
-        rtol: Option<f64>,
-        /// CSTR with several steady states: which one to use, `lowest` (default) or `highest`
-        /// conversion of the key, or a number from 1 (as --set solver.steady_state=WHICH).
-        #[arg(long, value_name = "WHICH")]
-        steady_state: Option<SteadyStateChoice>,
+        #[command(flatten)]
+        solver: SolverFlags,
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
     },
@@ -145,12 +137,8 @@ enum Command {
         min_conversion: Option<f64>,
         #[arg(long, value_enum, default_value_t = Format::Text)]
         format: Format,
-        #[arg(long)]
-        rtol: Option<f64>,
-        /// CSTR with several steady states: which one to use, `lowest` (default) or `highest`
-        /// conversion of the key, or a number from 1 (as --set solver.steady_state=WHICH).
-        #[arg(long, value_name = "WHICH")]
-        steady_state: Option<SteadyStateChoice>,
+        #[command(flatten)]
+        solver: SolverFlags,
     },
     /// Check a network: atom balances, independent reactions, equilibrium consistency, graph.
     Check {
@@ -169,6 +157,18 @@ enum Command {
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
     },
+}
+
+/// The solver flags of the design commands (optimize, sweep, compare).
+#[derive(clap::Args)]
+struct SolverFlags {
+    /// Relative tolerance of every integration (default: the study's `solver.rtol`, else 1e-8).
+    #[arg(long)]
+    rtol: Option<f64>,
+    /// CSTR with several steady states: which one to use, `lowest` (default) or `highest`
+    /// conversion of the key, or a number from 1 (as --set solver.steady_state=WHICH).
+    #[arg(long, value_name = "WHICH")]
+    steady_state: Option<SteadyStateChoice>,
 }
 
 pub fn main() -> i32 {
@@ -198,8 +198,7 @@ pub fn main() -> i32 {
             bounds,
             min_conversion,
             format,
-            rtol,
-            steady_state,
+            solver,
             set,
         } => optimize::optimize(
             &file,
@@ -208,8 +207,8 @@ pub fn main() -> i32 {
             &bounds,
             min_conversion,
             format == Format::Json,
-            rtol,
-            &with_steady_state(set, steady_state),
+            solver.rtol,
+            &with_steady_state(set, solver.steady_state),
         ),
         Command::Sweep {
             file,
@@ -219,8 +218,7 @@ pub fn main() -> i32 {
             shard,
             plot,
             plot_target,
-            rtol,
-            steady_state,
+            solver,
             set,
         } => sweep::sweep(&sweep::SweepArgs {
             file,
@@ -230,8 +228,8 @@ pub fn main() -> i32 {
             shard,
             plot,
             plot_target,
-            rtol,
-            set: with_steady_state(set, steady_state),
+            rtol: solver.rtol,
+            set: with_steady_state(set, solver.steady_state),
         }),
         Command::Compare {
             files,
@@ -241,8 +239,7 @@ pub fn main() -> i32 {
             optimum,
             min_conversion,
             format,
-            rtol,
-            steady_state,
+            solver,
         } => compare::compare(
             &files,
             &reactors,
@@ -251,8 +248,8 @@ pub fn main() -> i32 {
             optimum.as_deref(),
             min_conversion,
             format == Format::Json,
-            rtol,
-            steady_state,
+            solver.rtol,
+            solver.steady_state,
         ),
     }
 }

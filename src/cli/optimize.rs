@@ -131,7 +131,7 @@ pub fn optimize(
     rtol: Option<f64>,
     set: &[Override],
 ) -> i32 {
-    if let Err(m) = check_tolerance("rtol", rtol, 1.0) {
+    if let Err(m) = check_tolerance("rtol", rtol) {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }

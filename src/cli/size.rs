@@ -56,7 +56,7 @@ struct SizeReport {
 }
 
 pub fn size(a: &SizeArgs) -> i32 {
-    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0) {
+    if let Err(m) = check_tolerance("rtol", a.rtol) {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }

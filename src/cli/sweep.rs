@@ -155,7 +155,7 @@ fn json_element(v: &serde_json::Value) -> String {
 /// failed ones are counted on stderr and in the output), 1 when every point failed (no plot
 /// is drawn), 2 for invalid input.
 pub fn sweep(a: &SweepArgs) -> i32 {
-    if let Err(m) = check_tolerance("rtol", a.rtol, 1.0) {
+    if let Err(m) = check_tolerance("rtol", a.rtol) {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }

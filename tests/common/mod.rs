@@ -15,6 +15,17 @@ pub struct Run {
 }
 
 impl Run {
+    /// The JSON output of a command that must succeed: exit 0, else the test fails showing
+    /// both streams.
+    pub fn ok_json(&self) -> serde_json::Value {
+        assert_eq!(
+            self.code, 0,
+            "command failed:\nstdout:\n{}\nstderr:\n{}",
+            self.stdout, self.stderr
+        );
+        self.json()
+    }
+
     /// Parse stdout as JSON, failing the test with the run's output when it does not parse.
     pub fn json(&self) -> serde_json::Value {
         serde_json::from_str(&self.stdout).unwrap_or_else(|e| {
@@ -24,6 +35,12 @@ impl Run {
             )
         })
     }
+}
+
+/// A JSON value that must be a number (`what` names it in the failure).
+pub fn num(v: &serde_json::Value, what: &str) -> f64 {
+    v.as_f64()
+        .unwrap_or_else(|| panic!("{what} is not a number: {v}"))
 }
 
 static COUNTER: AtomicUsize = AtomicUsize::new(0);
