@@ -251,7 +251,8 @@ pub fn element_closure(net: &Network, state: &[f64]) -> Vec<Closure> {
         .collect()
 }
 
-/// Instantaneous selectivity R_D/R_U (net rates of formation) at a state, for each other product.
+/// Instantaneous selectivity R_D/R_U (net rates of formation) at a state, for each other product;
+/// not defined where D or U is being net consumed, or U is not being formed.
 /// `pressure_ratio` is P/P0 at that state (1 where the pressure does not vary).
 pub fn instantaneous_selectivity(
     net: &Network,
@@ -279,11 +280,21 @@ pub fn instantaneous_selectivity(
         .filter(|&u| u != d)
         .map(|u| {
             let ru = formation(u);
+            // Defined only where both are formed (the same rule as the overall selectivity):
+            // a product being net consumed has no selectivity, not a negative one.
+            let why = if rd < 0.0 {
+                Some(format!("`{}` being net consumed", net.species[d].name))
+            } else if ru < 0.0 {
+                Some(format!("`{}` being net consumed", net.species[u].name))
+            } else if ru <= 1e-300 {
+                Some(format!("`{}` not being formed", net.species[u].name))
+            } else {
+                None
+            };
             Selectivity {
                 over: net.species[u].name.clone(),
-                value: (ru.abs() > 1e-300).then(|| rd / ru),
-                not_defined: (ru.abs() <= 1e-300)
-                    .then(|| format!("`{}` not being formed", net.species[u].name)),
+                value: why.is_none().then(|| rd / ru),
+                not_defined: why,
             }
         })
         .collect()

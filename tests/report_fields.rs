@@ -392,3 +392,54 @@ fn plot_can_leave_species_out() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn instantaneous_selectivity_is_not_defined_once_the_wanted_product_is_consumed() {
+    // Series A -> B -> C, first order, liquid PFR (demo values): up to τ_opt = ln(k2/k1)/(k2−k1)
+    // B is formed and R_B/R_C = (k1 C_A − k2 C_B)/(k2 C_B) with C_A, C_B from the Bateman
+    // closed form (Levenspiel ch. 8, from memory); past τ_opt B is net consumed, and the
+    // selectivity is not defined (null), never a negative number.
+    let (k1, k2, ca0) = (0.2_f64, 0.1_f64, 1000.0_f64);
+    let yaml = format!(
+        "name: series (demo values)\nphase: liquid\nspecies: {{A: {{}}, B: {{}}, C: {{}}}}\nreactions:\n  - {{id: r1, stoich: A -> B, rate: {{k: {k1} 1/s}}}}\n  - {{id: r2, stoich: B -> C, rate: {{k: {k2} 1/s}}}}\nfeed: {{T: 300 K, volumetric: 1 L/s, concentrations: {{A: 1 mol/L}}}}\nreactor: {{type: pfr, volume: 30 L}}\nkey: A\ndesired: B\n"
+    );
+    let tau_opt = (k2 / k1).ln() / (k2 - k1);
+    let v = run_args(
+        "sinst-series",
+        &yaml,
+        &["--format", "json", "--points", "31"],
+    )
+    .ok_json();
+    let mut a = Agreement::new("instantaneous selectivity along a series PFR (Levenspiel ch. 8)");
+    let (mut before, mut after) = (0, 0);
+    for p in v["profile"].as_array().expect("a profile") {
+        let tau = num(&p["x"], "V") / 1e-3;
+        let s = &p["instantaneous_selectivity"]["C"];
+        if tau > 0.0 && tau < 0.99 * tau_opt {
+            let c_a = ca0 * (-k1 * tau).exp();
+            let c_b = ca0 * k1 / (k2 - k1) * ((-k1 * tau).exp() - (-k2 * tau).exp());
+            a.check(
+                num(s, "S_inst B/C"),
+                (k1 * c_a - k2 * c_b) / (k2 * c_b),
+                1e-6,
+                "before τ_opt",
+            );
+            before += 1;
+        } else if tau > 1.01 * tau_opt {
+            assert!(
+                s.is_null(),
+                "past τ_opt (τ = {tau} s) S_inst B/C must be null, got {s}"
+            );
+            assert!(
+                p["instantaneous_selectivity_over_all"].is_null(),
+                "past τ_opt B/all must be null: {p}"
+            );
+            after += 1;
+        }
+    }
+    assert!(
+        before > 3 && after > 3,
+        "points on both sides: {before}, {after}"
+    );
+    a.report();
+}

@@ -616,7 +616,7 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
     if r.desired.is_some() {
         let _ = writeln!(
             o,
-            "  S_inst: instantaneous selectivity, the desired product's net rate of formation over another's (— where that rate is zero); /all: over all other products together."
+            "  S_inst: instantaneous selectivity, the desired product's net rate of formation over another's (— where it is not defined: either product being net consumed, or the other not being formed); /all: over all other products being formed together."
         );
     }
 }
