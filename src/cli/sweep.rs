@@ -163,10 +163,11 @@ pub fn sweep(a: &SweepArgs) -> i32 {
     for v in &a.vary {
         match Axis::parse(v) {
             Ok(ax) => {
-                if let Some(first) = axes.iter().find(|b| b.var.path == ax.var.path) {
+                // `axes` holds the --vary parsed so far, in order, so `first` indexes both.
+                if let Some(first) = axes.iter().position(|b| b.var.path == ax.var.path) {
                     eprintln!(
-                        "error: --vary {}: `{}` is already varied (by `--vary {}={}:{}:{}`); vary each input once",
-                        v, ax.var.path, first.var.path, first.var.lo, first.var.hi, first.n
+                        "error: --vary {v}: `{}` is already varied (by `--vary {}`); vary each input once",
+                        ax.var.path, a.vary[first]
                     );
                     return EXIT_INVALID;
                 }
