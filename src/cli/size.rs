@@ -8,7 +8,7 @@ use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json};
 use rxnet::model::{Override, Reactor};
 use rxnet::report::{self, num};
 use rxnet::solve;
-use rxnet::studies::compare::{Reach, beyond_message, reach_conversion};
+use rxnet::studies::conversion::{Reach, beyond_message, reach_conversion};
 use rxnet::studies::study::StudyError;
 use std::fmt::Write;
 use std::path::PathBuf;

@@ -10,6 +10,7 @@ mod file;
 pub mod formula;
 mod load;
 pub mod locate;
+pub mod solver_settings;
 pub mod source;
 
 pub use load::{LoadError, Override, ParsedStudy, load_file, load_str, read_text};
@@ -234,9 +235,9 @@ pub struct SolverSettings {
     pub atol: Option<f64>,
     pub max_steps: Option<usize>,
     /// How the Newton systems of the integration are solved; `None` chooses by size.
-    pub linear_algebra: Option<crate::solve::ode::LinearAlgebra>,
+    pub linear_algebra: Option<solver_settings::LinearAlgebra>,
     /// CSTR: which steady state to report when there are several (`solver.steady_state`).
-    pub steady_state: Option<crate::solve::SteadyStateChoice>,
+    pub steady_state: Option<solver_settings::SteadyStateChoice>,
 }
 
 /// A loaded, validated study.

@@ -57,50 +57,14 @@ pub const PRESSURE_COLLAPSE: f64 = 0.05;
 
 /// Default relative tolerance of the integration.
 pub const DEFAULT_RTOL: f64 = 1e-8;
-/// The tightest relative tolerance the integrator accepts (about 450 × the f64 machine
-/// epsilon 2.2e-16, IEEE 754: a tighter error test cannot be met in double precision). The
-/// loader and the command line refuse anything tighter, so no value accepted there is refused
-/// later by the integrator.
-pub const MIN_RTOL: f64 = 1e-13;
-/// The loosest relative tolerance accepted: beyond 1 % the integration error is visible in the
-/// printed figures and the answer can no longer be trusted (common practice).
-pub const MAX_RTOL: f64 = 1e-2;
-/// The loosest absolute tolerance accepted, as a fraction of the total feed (F_T0 or N_T0):
-/// a looser one lets the error test pass with amounts wrong by a visible part of the feed.
-pub const MAX_ATOL_FRACTION: f64 = 1e-3;
+pub use crate::model::solver_settings::{
+    MAX_ATOL_FRACTION, MAX_RTOL, MIN_RTOL, check_atol, check_rtol,
+};
 /// An amount more negative than this fraction of the total feed is refused as unphysical,
 /// whatever the tolerances (an absolute guard: 1e-7 of the feed is below the six significant
 /// figures a report prints, and above the round-off of any accepted tolerance's honest error).
 pub const NEGATIVE_FRACTION: f64 = 1e-7;
 
-/// Whether a relative tolerance lies in the accepted range; the message names the range.
-pub fn check_rtol(rtol: f64) -> Result<(), String> {
-    if (MIN_RTOL..=MAX_RTOL).contains(&rtol) {
-        Ok(())
-    } else {
-        Err(format!(
-            "rtol must lie in [{MIN_RTOL:e}, {MAX_RTOL:e}], got {rtol:e}{}",
-            if rtol > 0.0 && rtol < MIN_RTOL {
-                " (tighter than double precision resolves; 1e-8 is the default)"
-            } else {
-                " (1e-8 is the default)"
-            }
-        ))
-    }
-}
-
-/// Whether an absolute tolerance (mol/s or mol) lies in the accepted range for a feed of
-/// `total` (F_T0 or N_T0): positive and at most [`MAX_ATOL_FRACTION`] of it.
-pub fn check_atol(atol: f64, total: f64, unit: &str) -> Result<(), String> {
-    let max = MAX_ATOL_FRACTION * total;
-    if atol > 0.0 && atol.is_normal() && atol <= max {
-        Ok(())
-    } else {
-        Err(format!(
-            "atol must be positive and at most {MAX_ATOL_FRACTION:e} of the total feed ({max:.3e} {unit}), got {atol:e} {unit}"
-        ))
-    }
-}
 /// Default absolute tolerance of a species, as a fraction of its scale (see [`species_atol`]).
 pub const DEFAULT_ATOL_FRACTION: f64 = 1e-12;
 /// The smallest scale of a species for its default absolute tolerance, as a fraction of the

@@ -27,39 +27,7 @@ use diffsol::{
     error::OdeSolverError, matrix::MatrixRef,
 };
 
-/// Which matrix representation and LU factorization the Newton iteration uses.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum LinearAlgebra {
-    /// Dense nalgebra matrix with partial-pivoting LU (`NalgebraMat` + `NalgebraLU`).
-    Dense,
-    /// Sparse faer CSC matrix with sparse LU (`FaerSparseMat` + `FaerSparseLU`); the pattern is
-    /// taken from the Jacobian triplets at y0.
-    Sparse,
-    /// Sparse faer CSC matrix, solved by GMRES preconditioned with the LU of the matrix with
-    /// its small entries dropped ([`super::krylov`]); falls back to the complete sparse LU when
-    /// GMRES does not converge.
-    Krylov,
-    /// Dense up to [`AUTO_KRYLOV_ABOVE`] states, Krylov above.
-    #[default]
-    Auto,
-}
-
-impl LinearAlgebra {
-    /// The choice in force for `n` states: [`LinearAlgebra::Auto`] resolved by size.
-    pub fn resolve(self, n: usize) -> LinearAlgebra {
-        match self {
-            LinearAlgebra::Auto if n > AUTO_KRYLOV_ABOVE => LinearAlgebra::Krylov,
-            LinearAlgebra::Auto => LinearAlgebra::Dense,
-            chosen => chosen,
-        }
-    }
-}
-
-/// [`LinearAlgebra::Auto`] switches from dense LU to the Krylov solver for more states than
-/// this. Measured on generated networks (docs/performance.md): dense was faster at 50 and 100
-/// states (16 against 44 ms, 22 against 35 ms), Krylov at 200 (65 against 121 ms), 300 (0.19
-/// against 0.41 s) and 500 states (0.41 against 2.7 s).
-pub const AUTO_KRYLOV_ABOVE: usize = 150;
+pub use crate::model::solver_settings::{AUTO_KRYLOV_ABOVE, LinearAlgebra};
 
 /// Smallest step allowed, as a fraction of the integration length or of the system's own
 /// scale at the start, whichever is shorter.

@@ -25,43 +25,7 @@ use crate::model::{Network, Phase};
 use crate::reactor::Balance;
 use nalgebra::{DMatrix, DVector};
 
-/// Which steady state a solve reports when there are several.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum SteadyStateChoice {
-    /// The one with the lowest conversion of the key (the default).
-    #[default]
-    Lowest,
-    /// The one with the highest conversion of the key.
-    Highest,
-    /// The n-th from the lowest conversion, 1-based.
-    Number(usize),
-}
-
-impl std::str::FromStr for SteadyStateChoice {
-    type Err = String;
-    fn from_str(s: &str) -> Result<Self, String> {
-        match s.trim() {
-            "lowest" => Ok(SteadyStateChoice::Lowest),
-            "highest" => Ok(SteadyStateChoice::Highest),
-            t => match t.parse::<usize>() {
-                Ok(n) if n >= 1 => Ok(SteadyStateChoice::Number(n)),
-                _ => Err(format!(
-                    "`{t}` is not a steady-state choice: give `lowest`, `highest` or a number from 1 (in order of rising conversion)"
-                )),
-            },
-        }
-    }
-}
-
-impl std::fmt::Display for SteadyStateChoice {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        match self {
-            SteadyStateChoice::Lowest => write!(f, "lowest"),
-            SteadyStateChoice::Highest => write!(f, "highest"),
-            SteadyStateChoice::Number(n) => write!(f, "{n}"),
-        }
-    }
-}
+pub use crate::model::solver_settings::SteadyStateChoice;
 
 /// One steady state.
 #[derive(Debug, Clone, serde::Serialize)]

@@ -7,11 +7,11 @@
 //! With `--at-conversion X` every entry is resized to reach that conversion, so yields and
 //! selectivities are compared at equal conversion.
 
-use super::optimize::{bisect_ln, optimize_size};
+use super::conversion::size_for_conversion;
+use super::optimize::optimize_size;
 use super::study::StudyError;
 use super::target::Target;
 use crate::model::{BatchMode, Network, Phase, Reactor};
-use crate::reactor::Balance;
 use crate::solve::{self, SolveOptions};
 
 /// A reactor type to screen.
@@ -80,155 +80,6 @@ pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
         }
     }
     Ok(n)
-}
-
-/// How far a reactor can take the key conversion.
-#[derive(Debug, Clone, PartialEq)]
-pub enum Reach {
-    /// The size (V, W or t, SI) at which the conversion is reached.
-    Size(f64),
-    /// The conversion is never reached: it approaches `x_max` as the size grows without bound.
-    Beyond {
-        x_max: f64,
-        /// Why: "equilibrium" (a reversible reaction stops) or the co-reactant that runs out.
-        reason: String,
-    },
-}
-
-/// Largest number of decades the size is grown by while looking for a conversion.
-const DECADES: usize = 40;
-
-/// Why the conversion stops at the end state `y`: a reactant of the key's reactions (other
-/// than the key) that is used up, else equilibrium (a reversible reaction), else no reaction.
-fn limit_reason(net: &Network, y: &[f64]) -> String {
-    let a = net.key;
-    let total = net.feed.total();
-    for r in &net.reactions {
-        if r.nu(a) >= 0.0 {
-            continue;
-        }
-        for t in &r.reactants {
-            if t.species != a && y[t.species] <= 1e-9 * total {
-                return format!("{} runs out", net.species[t.species].name);
-            }
-        }
-    }
-    if net.reactions.iter().any(|r| r.reversible) {
-        "equilibrium".into()
-    } else {
-        "the reactions stop".into()
-    }
-}
-
-/// The size at which the key conversion reaches `x` in this reactor, or the most it can reach.
-///
-/// PFR, packed bed, batch: one integration from the inlet, stopped where X − x changes sign,
-/// extended tenfold at a time beyond the study's size. The conversion counts as settled (X_eq,
-/// or the co-reactant exhausted) when the amounts change by less than 1e-10 of the feed over
-/// another tenfold length (max_j |dF_j/dx| · x ≤ 1e-11 F_total).
-/// CSTR: X(V) by steady-state solves at V = size · 10^k until it passes x, then bisection on
-/// ln V to 1e-14; settled when a tenfold V changes X by less than 1e-10, X_eq then extrapolated
-/// from the 1/V tail, X_eq ≈ X(10V) + (X(10V) − X(V))/9.
-pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, StudyError> {
-    let b = Balance::new(net).map_err(StudyError::Invalid)?;
-    let a = net.key;
-    let f0 = net.feed.amounts[a];
-    if f0 <= 0.0 {
-        return Err(StudyError::Invalid(format!(
-            "the key reactant {} is not fed",
-            net.species[a].name
-        )));
-    }
-    let conv = |y: &[f64]| (f0 - y[a]) / f0;
-    let total = net.feed.total();
-    let size = net.size();
-    if let Reactor::Cstr { .. } = net.reactor {
-        let at = |v: f64| -> Result<(f64, Vec<f64>), StudyError> {
-            let tol = super::optimize::cstr_tolerance(net, &b, v);
-            let f = solve::cstr_outlet(net, &b, v, tol, opts.steady_state)
-                .map_err(StudyError::Solve)?;
-            Ok((conv(&f), f))
-        };
-        let mut lo = 1e-9 * size;
-        let mut prev: Option<f64> = None;
-        for k in 0..DECADES {
-            let v = size * 10f64.powi(k as i32);
-            let (xv, f) = at(v)?;
-            if xv >= x {
-                let (l, h) = bisect_ln(lo, v, |v| Ok(at(v)?.0 < x))?;
-                return Ok(Reach::Size((0.5 * (l + h)).exp()));
-            }
-            if let Some(p) = prev
-                && (xv - p).abs() <= 1e-10
-            {
-                return Ok(Reach::Beyond {
-                    x_max: xv + (xv - p) / 9.0,
-                    reason: limit_reason(net, &f),
-                });
-            }
-            prev = Some(xv);
-            lo = v;
-        }
-        Err(StudyError::Infeasible(format!(
-            "conversion {x} is not reached below V = {:.3e} m3 and the conversion has not settled",
-            size * 10f64.powi(DECADES as i32 - 1)
-        )))
-    } else {
-        let g = |y: &[f64]| conv(y) - x;
-        let mut y = b.initial_state(net);
-        let (mut from, mut len) = (0.0, size);
-        let mut d = vec![0.0; y.len()];
-        for _ in 0..DECADES {
-            let (root, end) = solve::trace_root(net, &b, &y, len, &g, opts)?;
-            if let Some((s, _)) = root {
-                return Ok(Reach::Size(from + s));
-            }
-            from += len;
-            b.rhs(&end, &mut d);
-            let n = net.species.len();
-            let change = d[..n].iter().fold(0.0f64, |m, v| m.max(v.abs())) * from;
-            if change <= 1e-11 * total {
-                return Ok(Reach::Beyond {
-                    x_max: conv(&end),
-                    reason: limit_reason(net, &end),
-                });
-            }
-            y = end;
-            len = 9.0 * from;
-        }
-        let (xn, xu, _) = solve::reactor_axis(net);
-        Err(StudyError::Infeasible(format!(
-            "conversion {x} is not reached below {xn} = {from:.3e} {xu} and the conversion has not settled"
-        )))
-    }
-}
-
-/// The size at which the key conversion reaches `x`; an `Infeasible` error naming the largest
-/// conversion when `x` is beyond it.
-pub fn size_for_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<f64, StudyError> {
-    match reach_conversion(net, x, opts)? {
-        Reach::Size(s) => Ok(s),
-        Reach::Beyond { x_max, reason } => Err(StudyError::Infeasible(beyond_message(
-            net, x, x_max, &reason,
-        ))),
-    }
-}
-
-/// "conversion 0.9 of A is beyond equilibrium: X approaches X_eq = 0.666667 as V -> ∞".
-pub fn beyond_message(net: &Network, x: f64, x_max: f64, reason: &str) -> String {
-    let (xn, _, _) = solve::reactor_axis(net);
-    let key = &net.species[net.key].name;
-    if reason == "equilibrium" {
-        format!(
-            "conversion {x} of {key} is beyond equilibrium: the conversion approaches X_eq = {} as {xn} -> ∞",
-            crate::report::num(x_max)
-        )
-    } else {
-        format!(
-            "conversion {x} of {key} is beyond reach ({reason}): the conversion approaches {} as {xn} -> ∞",
-            crate::report::num(x_max)
-        )
-    }
 }
 
 /// One entry of a screen. Numbers in SI; each size is given with its variable and unit.

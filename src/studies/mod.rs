@@ -2,6 +2,7 @@
 //! load → solve → metrics path many times; per-run set-up is one load and one `Balance`.
 
 pub mod compare;
+pub mod conversion;
 pub mod evaluate;
 pub mod optimize;
 pub mod study;

@@ -17,6 +17,7 @@
 //! Journal 7, 1965) with the points clamped to the bounds. Each evaluation is a full load and
 //! run, so an override meets the same validation as the file.
 
+use super::conversion::{Reach, beyond_message, bisect_ln, cstr_tolerance, reach_conversion};
 use super::study::{Study, StudyError, Variable};
 use super::target::{Limit, Target};
 use crate::model::{Network, Override, Reactor};
@@ -79,18 +80,6 @@ struct Probe<'a> {
     target: &'a Target,
     opts: &'a SolveOptions,
     cstr: bool,
-}
-
-/// The residual tolerance of a CSTR steady state at volume V, mol/s: 1e-14 of the feed plus
-/// 1e-14 of V times the rates of change at the feed. The second term is the round-off of
-/// V f(F) in a large reactor, where forward and reverse rates are each far above the flows;
-/// the error in F is the residual over V ∂f/∂F, so it stays small.
-pub(crate) fn cstr_tolerance(net: &Network, b: &Balance, volume: f64) -> f64 {
-    let f0 = &net.feed.amounts;
-    let mut d = vec![0.0; f0.len()];
-    b.rhs(f0, &mut d);
-    let gross: f64 = d.iter().map(|v| v.abs()).sum();
-    1e-14 * (net.feed.total() + volume * gross)
 }
 
 impl Probe<'_> {
@@ -317,15 +306,14 @@ fn short_of(net: &Network, xmin: f64, reached: f64, hi: f64, opts: &SolveOptions
         "the conversion reaches only {reached:.6} at the upper bound {xn} = {} {xu}, below the required {xmin}",
         crate::report::num(hi)
     );
-    let tail = match super::compare::reach_conversion(net, xmin, opts) {
-        Ok(super::compare::Reach::Size(s)) => format!(
+    let tail = match reach_conversion(net, xmin, opts) {
+        Ok(Reach::Size(s)) => format!(
             "; it is reached at {xn} = {} {xu}: raise the upper bound",
             crate::report::num(s)
         ),
-        Ok(super::compare::Reach::Beyond { x_max, reason }) => format!(
-            "; {}",
-            super::compare::beyond_message(net, xmin, x_max, &reason)
-        ),
+        Ok(Reach::Beyond { x_max, reason }) => {
+            format!("; {}", beyond_message(net, xmin, x_max, &reason))
+        }
         Err(_) => String::new(),
     };
     StudyError::Infeasible(format!("{head}{tail}"))
@@ -424,28 +412,6 @@ fn cstr_candidates(
         }
     }
     Ok((cands, x_conv))
-}
-
-/// Bisection on ln V over [lo, hi]: keeps `left(V)` true at the lower end of the bracket and
-/// false at the upper, until the bracket is 1e-14 wide in ln V. Returns the bracket (ln V).
-pub(crate) fn bisect_ln(
-    lo: f64,
-    hi: f64,
-    mut left: impl FnMut(f64) -> Result<bool, StudyError>,
-) -> Result<(f64, f64), StudyError> {
-    let (mut a, mut c) = (lo.ln(), hi.ln());
-    for _ in 0..200 {
-        if c - a < 1e-14 {
-            break;
-        }
-        let m = 0.5 * (a + c);
-        if left(m.exp())? {
-            a = m;
-        } else {
-            c = m;
-        }
-    }
-    Ok((a, c))
 }
 
 #[derive(Debug, Clone)]

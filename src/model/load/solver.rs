@@ -8,11 +8,11 @@ use crate::model::{Reactor, SolverSettings};
 use crate::units::Dim;
 
 /// The tightest relative tolerance accepted: the integrator's own floor
-/// ([`crate::solve::MIN_RTOL`], about 450 × the f64 machine epsilon 2.2e-16, IEEE 754), so no
+/// ([`crate::model::solver_settings::MIN_RTOL`], about 450 × the f64 machine epsilon 2.2e-16, IEEE 754), so no
 /// value accepted here is refused later by the integrator.
-pub const MIN_RTOL: f64 = crate::solve::MIN_RTOL;
-/// The loosest relative tolerance accepted ([`crate::solve::MAX_RTOL`]).
-pub const MAX_RTOL: f64 = crate::solve::MAX_RTOL;
+pub const MIN_RTOL: f64 = crate::model::solver_settings::MIN_RTOL;
+/// The loosest relative tolerance accepted ([`crate::model::solver_settings::MAX_RTOL`]).
+pub const MAX_RTOL: f64 = crate::model::solver_settings::MAX_RTOL;
 
 /// The `solver` section. `feed_total` (F_T0 in mol/s, or N_T0 in mol) bounds `atol`.
 pub(super) fn build_solver(
@@ -65,7 +65,7 @@ pub(super) fn build_solver(
             )?;
             let v = cx.positive("solver.atol", v, "atol")?;
             let unit = if reactor.is_batch() { "mol" } else { "mol/s" };
-            if let Err(m) = crate::solve::check_atol(v, feed_total, unit) {
+            if let Err(m) = crate::model::solver_settings::check_atol(v, feed_total, unit) {
                 return Err(cx.err(
                     "solver.atol",
                     &m,
@@ -79,7 +79,7 @@ pub(super) fn build_solver(
         Some(0) => return Err(cx.err("solver.max_steps", "max_steps must be at least 1", None)),
         m => m,
     };
-    use crate::solve::ode::LinearAlgebra;
+    use crate::model::solver_settings::LinearAlgebra;
     let linear_algebra = match s.linear_algebra.as_deref().map(str::trim) {
         None | Some("auto") => None,
         Some("dense") => Some(LinearAlgebra::Dense),
