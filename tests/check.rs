@@ -656,3 +656,16 @@ fn the_limiting_reactant_is_the_key_when_none_is_named() {
     assert_eq!(t["key_is_default"], false);
     assert_eq!(t["reactions"][0]["limiting"], "B");
 }
+
+#[test]
+fn a_species_made_on_balance_is_never_the_limiting_reactant() {
+    // A + 2 B -> 3 B makes B on balance (net ν_B = +1), so only A can run out: the limiting
+    // reactant of the reaction and the default key are A, even with B fed far below A/2
+    // (limiting reactant on net coefficients, common practice).
+    let yaml = "name: autocatalytic (demo values)\nphase: liquid\nspecies: {A: {}, B: {}, C: {}}\nreactions:\n  - {id: grow, stoich: A + 2 B -> 3 B, rate: {k: 1e-6 m6/(mol2*s)}}\n  - {id: decay, stoich: B -> C, rate: {k: 1e-3 1/s}}\nfeed: {T: 300 K, volumetric: 1 L/s, concentrations: {A: 1 mol/L, B: 0.01 mol/L}}\nreactor: {type: cstr, volume: 1 m3}\n";
+    let t = table_of("autocatalytic_key", yaml);
+    assert_eq!(t["key"], "A");
+    assert_eq!(t["key_is_default"], true);
+    assert_eq!(t["reactions"][0]["limiting"], "A");
+    assert_eq!(t["reactions"][1]["limiting"], "B");
+}

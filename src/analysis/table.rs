@@ -115,14 +115,8 @@ pub fn build(net: &Network) -> StoichTable {
                 .map(|t| net.species[t.species].name.clone())
                 .collect();
             let limiting = r
-                .reactants
-                .iter()
-                .filter(|t| net.feed.amounts[t.species] > 0.0)
-                .min_by(|x, y| {
-                    (net.feed.amounts[x.species] / x.coefficient)
-                        .total_cmp(&(net.feed.amounts[y.species] / y.coefficient))
-                })
-                .map(|t| net.species[t.species].name.clone())
+                .limiting_reactant(&net.feed.amounts)
+                .map(|j| net.species[j].name.clone())
                 .filter(|_| unfed_reactants.is_empty());
             ReactionColumn {
                 id: r.id.clone(),

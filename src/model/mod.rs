@@ -138,6 +138,18 @@ impl Reaction {
             .map(|(_, v)| *v)
             .unwrap_or(0.0)
     }
+    /// The limiting reactant of this reaction in a feed of `amounts` (F_j0 or N_j0): the fed
+    /// species with the smallest amount per unit of its net consumption, F_j0/|ν_j| (common
+    /// practice). Counted on net coefficients, so a species the reaction makes on balance (B
+    /// in the autocatalytic A + 2 B -> 3 B) is never the limiting one.
+    pub fn limiting_reactant(&self, amounts: &[f64]) -> Option<usize> {
+        self.net
+            .iter()
+            .filter(|&&(j, nu)| nu < 0.0 && amounts[j] > 0.0)
+            .map(|&(j, nu)| (j, amounts[j] / -nu))
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(j, _)| j)
+    }
     /// Whether species j is written on the reactant side.
     pub fn has_reactant(&self, j: usize) -> bool {
         self.reactants.iter().any(|t| t.species == j)

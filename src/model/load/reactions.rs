@@ -437,16 +437,12 @@ pub(super) fn default_key(
     feed: &Feed,
     cx: &Cx,
 ) -> Result<usize, LoadError> {
-    for r in reactions {
-        let best = r
-            .reactants
-            .iter()
-            .filter(|t| feed.amounts[t.species] > 0.0)
-            .map(|t| (t.species, feed.amounts[t.species] / t.coefficient))
-            .min_by(|a, b| a.1.total_cmp(&b.1));
-        if let Some((j, _)) = best {
-            return Ok(j);
-        }
+    // The limiting fed reactant of the first reaction that has one (net coefficients).
+    if let Some(j) = reactions
+        .iter()
+        .find_map(|r| r.limiting_reactant(&feed.amounts))
+    {
+        return Ok(j);
     }
     Err(cx.err(
         "key",
