@@ -232,6 +232,13 @@ fn sweep_optimize_and_compare_apply_every_check_run_applies() {
     ]);
     assert_eq!(opt.code, 0, "{}", opt.stderr);
     assert!(opt.stdout.contains("best feed.T = 350 K"), "{}", opt.stdout);
+    // Its neighbours fail the check, so it is the edge of the valid region, not a maximum
+    // whose slope changes sign.
+    assert!(
+        opt.stdout.contains("edge of the valid region") && !opt.stdout.contains("interior"),
+        "{}",
+        opt.stdout
+    );
     // compare: a study inconsistent at its own temperature is refused, not ranked.
     let hot = write_temp(
         "gate-cycle-hot",

@@ -340,6 +340,9 @@ pub fn optimize(
                         Bound::Lower => "lower bound",
                         Bound::Upper => "upper bound",
                         Bound::MinConversion => "conversion constraint",
+                        Bound::ValidRegion => {
+                            "edge of the valid region: a point just beyond fails the study's checks or has no defined value"
+                        }
                     };
                     if rep.best.improves_beyond_bound == Some(true) {
                         format!("  (on the {name}; {} still improves beyond it)", rep.target)

@@ -31,6 +31,9 @@ pub enum Bound {
     Lower,
     Upper,
     MinConversion,
+    /// The edge of the region where the study is valid: a point just beyond fails a check
+    /// (e.g. K_eq breaking Wegscheider's condition) or has no defined target value.
+    ValidRegion,
 }
 
 #[derive(Debug, Clone)]
@@ -531,6 +534,7 @@ pub fn optimize_vars(
             }
         })
         .collect::<Vec<_>>();
+    let mut on_bound = on_bound;
     // An input the target does not depend on (the same value at both of its bounds and at
     // the best point, the other inputs at their best) would be reported on an arbitrary bound.
     for (i, v) in vars.iter().enumerate() {
@@ -562,7 +566,11 @@ pub fn optimize_vars(
             let mut x = best_x.clone();
             x[i] = (x[i] + side).clamp(v.lo, v.hi);
             let fx = f(&x)?;
-            if fx > best_f + 1e-9 * best_f.abs() {
+            if fx == f64::NEG_INFINITY {
+                // No value there: the best point is where the valid region ends, not a
+                // maximum with a slope changing sign.
+                on_bound[i] = Some(Bound::ValidRegion);
+            } else if fx > best_f + 1e-9 * best_f.abs() {
                 return Err(StudyError::Infeasible(format!(
                     "the search ended at {} = {} {} where {target_text} still rises toward {} = {} {}: no verified maximum",
                     v.path, best_x[i], v.unit, v.path, x[i], v.unit
