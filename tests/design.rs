@@ -10,7 +10,7 @@
 
 mod common;
 
-use common::{Agreement, Run, TempFile, num, rxnet, temp_study};
+use common::{Agreement, Run, TempFile, network, num, rxnet, temp_study};
 use rxnet::solve::{SolveOptions, simulate};
 use rxnet::{Override, load_str};
 
@@ -763,4 +763,61 @@ fn compare_table_units_names_and_optimum() {
         assert_eq!(row["size_unit"], "m3", "{row}");
     }
     ag.report();
+}
+
+#[test]
+fn size_says_when_a_packed_bed_runs_out_of_pressure_first() {
+    // Gas A -> B (no mole change) in a bed with a lumped pressure drop: P/P0 = (1 − αW)^½
+    // (Ergun, lumped; common practice, from memory), so the pressure runs out at W = 1/α =
+    // 100 kg. With a slow reaction, X = 0.9 is out of reach of any longer bed: `size` says so,
+    // naming where the pressure runs out, and exits 1 (demo values).
+    let alpha = 0.01;
+    let f = temp_study(
+        "size-pbr-pressure",
+        &format!(
+            "name: slow bed (demo values)\nphase: gas\nspecies: {{A: {{}}, B: {{}}, N2: {{}}}}\nreactions:\n  - {{id: r1, stoich: A -> B, rate: {{k: 1e-5 m3/(kg*s)}}}}\nfeed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, N2: 4 mol/s}}}}\nreactor: {{type: pbr, catalyst: 10 kg, pressure_drop: {{alpha: {alpha} 1/kg}}}}\nkey: A\n"
+        ),
+    );
+    let run = rxnet(&["size", f.p(), "--conversion", "0.9"]);
+    assert_eq!(run.code, 1, "{}\n{}", run.stdout, run.stderr);
+    assert!(run.stderr.contains("pressure runs out"), "{}", run.stderr);
+    let w = run
+        .stderr
+        .split("near W = ")
+        .nth(1)
+        .and_then(|t| t.split_whitespace().next())
+        .and_then(|t| t.parse::<f64>().ok())
+        .unwrap_or_else(|| panic!("no W in: {}", run.stderr));
+    assert!(
+        (w - 1.0 / alpha).abs() / (1.0 / alpha) < 1e-2,
+        "pressure runs out at W = 1/α = {} kg, reported {w}",
+        1.0 / alpha
+    );
+}
+
+#[test]
+fn compare_rows_that_fail_name_the_reactor_type_asked_for() {
+    // A packed bed's rates are per catalyst mass, so it has no PFR or CSTR equivalent: each
+    // screen fails, and its row still says which type was asked for.
+    let f = network("ethylene_epoxidation.yaml");
+    let run = rxnet(&[
+        "compare",
+        f.to_str().unwrap(),
+        "--reactors",
+        "pfr,cstr",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(run.code, 1, "every entry failed: {}", run.stderr);
+    let rows = run.json();
+    let kinds: Vec<&str> = rows
+        .as_array()
+        .expect("rows")
+        .iter()
+        .map(|r| {
+            assert!(r["error"].is_string(), "{r}");
+            r["reactor"].as_str().expect("reactor")
+        })
+        .collect();
+    assert_eq!(kinds, ["pfr", "cstr"]);
 }

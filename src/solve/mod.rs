@@ -345,18 +345,7 @@ pub fn simulate_with(
         let reactor = reactor_name(net);
         let sol =
             ode::integrate(&Adapter(balance), &y0, size, &out, &ode_opts).map_err(|source| {
-                let x = match &source {
-                    OdeError::NonFiniteRhs { x, .. }
-                    | OdeError::NonFiniteJacobian { x, .. }
-                    | OdeError::SparsityChanged { x, .. }
-                    | OdeError::NonFiniteRoot { x }
-                    | OdeError::NonFiniteState { x, .. }
-                    | OdeError::StepSizeTooSmall { x }
-                    | OdeError::MaxSteps { x, .. }
-                    | OdeError::ConvergenceFailure { x, .. }
-                    | OdeError::Solver { x, .. } => *x,
-                    _ => 0.0,
-                };
+                let x = source.position().unwrap_or(0.0);
                 if balance.has_pressure() && x > 0.0 {
                     // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
                     let before = ode::integrate(
@@ -491,13 +480,14 @@ pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> Ode
     }
 }
 
-fn study_error(net: &Network, x: f64, source: OdeError) -> SolveError {
+/// An integration over `length` that failed: placed where it failed, else at its end.
+fn study_error(net: &Network, length: f64, source: OdeError) -> SolveError {
     let (x_name, x_unit, _) = reactor_axis(net);
     SolveError::Integration {
         reactor: reactor_name(net),
         x_name,
         x_unit,
-        x,
+        x: source.position().unwrap_or(length),
         source,
     }
 }

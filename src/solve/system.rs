@@ -69,3 +69,21 @@ pub enum OdeError {
     #[error("the ODE solver failed at x = {x:.6e}: {reason}")]
     Solver { x: f64, reason: String },
 }
+
+impl OdeError {
+    /// Where along the integration it failed, when the failure happened during it.
+    pub fn position(&self) -> Option<f64> {
+        match self {
+            OdeError::NonFiniteRhs { x, .. }
+            | OdeError::NonFiniteJacobian { x, .. }
+            | OdeError::SparsityChanged { x, .. }
+            | OdeError::NonFiniteRoot { x }
+            | OdeError::NonFiniteState { x, .. }
+            | OdeError::StepSizeTooSmall { x }
+            | OdeError::MaxSteps { x, .. }
+            | OdeError::ConvergenceFailure { x, .. }
+            | OdeError::Solver { x, .. } => Some(*x),
+            OdeError::InvalidInput { .. } | OdeError::JacobianIndexOutOfRange { .. } => None,
+        }
+    }
+}

@@ -23,6 +23,15 @@ pub enum Kind {
 }
 
 impl Kind {
+    /// The reactor type's name, as `Reactor::kind` gives it.
+    pub fn name(self) -> &'static str {
+        match self {
+            Kind::Pfr => "pfr",
+            Kind::Cstr => "cstr",
+            Kind::Batch => "batch",
+        }
+    }
+
     pub fn parse(s: &str) -> Result<Kind, String> {
         match s.trim() {
             "pfr" => Ok(Kind::Pfr),
@@ -151,7 +160,8 @@ pub fn evaluate(
     let mut row = CompareRow {
         file: file.to_string(),
         study: net.name.clone(),
-        reactor: net.reactor.kind(),
+        // The type asked for, so a row that fails still says which screen it was.
+        reactor: kind.map_or(net.reactor.kind(), Kind::name),
         size_variable: xn,
         size_unit: xu,
         size: None,

@@ -105,7 +105,21 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
         let (mut from, mut len) = (0.0, size);
         let mut d = vec![0.0; y.len()];
         for _ in 0..DECADES {
-            let (root, end) = solve::trace_root(net, &b, &y, len, &g, opts)?;
+            let (root, end) = match solve::trace_root(net, &b, &y, len, &g, opts) {
+                Ok(r) => r,
+                // A bed with pressure drop cannot be made longer than where its pressure runs
+                // out (P/P0 → 0 as αW → 1 for constant F_T; Ergun lumped form, common
+                // practice): say so rather than pass on the integrator's failure there.
+                Err(solve::SolveError::Integration { x: at, .. }) if b.has_pressure() => {
+                    return Err(StudyError::Infeasible(format!(
+                        "conversion {x} of {} is not reached before the bed's pressure runs out near W = {:.4e} kg (P/P0 → 0 with the bed constant α = {:.4e} 1/kg); a longer bed cannot reach it: lower the pressure drop (larger cross-section or particles) or raise the inlet pressure",
+                        net.species[a].name,
+                        from + at,
+                        b.alpha().unwrap_or(f64::NAN)
+                    )));
+                }
+                Err(e) => return Err(e.into()),
+            };
             if let Some((s, _)) = root {
                 return Ok(Reach::Size(from + s));
             }
