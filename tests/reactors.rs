@@ -938,23 +938,12 @@ fn cstr_reports_a_small_newton_residual() {
     println!("agreement | CSTR Newton residual / F_T0 | max {worst:.2e}");
 }
 
+/// CSV text to (header, rows) where every cell is a number.
 fn read_csv(text: &str) -> (Vec<String>, Vec<Vec<f64>>) {
-    let mut lines = text.lines();
-    let header = lines
-        .next()
-        .expect("a header")
-        .split(',')
-        .map(str::to_string)
-        .collect();
-    let rows = lines
-        .map(|l| {
-            l.split(',')
-                .map(|c| {
-                    c.parse::<f64>()
-                        .unwrap_or_else(|e| panic!("`{c}` is not a number: {e}"))
-                })
-                .collect()
-        })
+    let (header, rows) = common::read_csv(text);
+    let rows = rows
+        .into_iter()
+        .map(|r| r.into_iter().map(|c| c.expect("no empty cell")).collect())
         .collect();
     (header, rows)
 }

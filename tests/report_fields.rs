@@ -5,7 +5,7 @@
 
 mod common;
 
-use common::{Agreement, Run, num, rxnet, write_temp};
+use common::{Agreement, Run, num, read_csv, rxnet, write_temp};
 
 /// Gas constant, J/(mol K): CODATA 2018, R = N_A k_B, exact in the 2019 SI
 /// (6.02214076e23 × 1.380649e-23).
@@ -18,30 +18,6 @@ fn run_args(tag: &str, yaml: &str, args: &[&str]) -> Run {
     let run = rxnet(&all);
     let _ = std::fs::remove_file(&path);
     run
-}
-
-/// CSV text to (header, rows); empty cells are None.
-fn read_csv(text: &str) -> (Vec<String>, Vec<Vec<Option<f64>>>) {
-    let mut lines = text.lines();
-    let header = lines
-        .next()
-        .expect("a header")
-        .split(',')
-        .map(str::to_string)
-        .collect();
-    let rows = lines
-        .map(|l| {
-            l.split(',')
-                .map(|c| {
-                    (!c.is_empty()).then(|| {
-                        c.parse::<f64>()
-                            .unwrap_or_else(|e| panic!("`{c}` is not a number: {e}"))
-                    })
-                })
-                .collect()
-        })
-        .collect();
-    (header, rows)
 }
 
 fn column(header: &[String], name: &str) -> usize {

@@ -43,6 +43,30 @@ pub fn num(v: &serde_json::Value, what: &str) -> f64 {
         .unwrap_or_else(|| panic!("{what} is not a number: {v}"))
 }
 
+/// CSV text to (header, rows); empty cells are None.
+pub fn read_csv(text: &str) -> (Vec<String>, Vec<Vec<Option<f64>>>) {
+    let mut lines = text.lines();
+    let header = lines
+        .next()
+        .expect("a header")
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    let rows = lines
+        .map(|l| {
+            l.split(',')
+                .map(|c| {
+                    (!c.is_empty()).then(|| {
+                        c.parse::<f64>()
+                            .unwrap_or_else(|e| panic!("`{c}` is not a number: {e}"))
+                    })
+                })
+                .collect()
+        })
+        .collect();
+    (header, rows)
+}
+
 static COUNTER: AtomicUsize = AtomicUsize::new(0);
 
 /// The absolute path of a bundled study in `networks/`.
