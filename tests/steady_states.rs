@@ -352,3 +352,45 @@ desired: B
         "optimize B = {b_opt}, run B = {b_run}"
     );
 }
+
+#[test]
+fn size_for_a_conversion_never_lands_on_a_branch_jump() {
+    // Substrate-inhibited A -> B, r = k C/(1 + K C)², k = 1 1/s, K = 20 L/mol, C_A0 = 1 mol/L,
+    // v0 = 1 L/s (demo values): each conversion has one space time, τ = X C_A0 (1 + K C)²/(k C)
+    // with C = C_A0 (1 − X) (CSTR design equation, Levenspiel ch. 5). X = 0.2 (low branch) and
+    // X = 0.99 (high branch) are sized to it; X = 0.9 has τ = 81 s, on the unstable middle
+    // branch, and both choices of branch jump over it: refused, never the volume of the jump.
+    let tau = |x: f64| {
+        let c = 1.0 - x;
+        x * (1.0 + 20.0 * c).powi(2) / c
+    };
+    let study = substrate_inhibited(100.0);
+    for x in [0.2, 0.99] {
+        let rep = rxnet_size(&study, x, &[]);
+        let size_l = rep["size"].as_f64().expect("a size") * 1e3;
+        assert!(
+            rel_err(size_l, tau(x)) < 1e-6,
+            "X = {x}: V = {size_l} L, τ = {} s",
+            tau(x)
+        );
+    }
+    for choice in ["lowest", "highest"] {
+        let run = size_run(&study, 0.9, &["--steady-state", choice]);
+        assert_eq!(run.code, 1, "{}\n{}", run.stdout, run.stderr);
+        assert!(run.stderr.contains("jumps from X"), "{}", run.stderr);
+    }
+}
+
+fn size_run(study: &str, x: f64, extra: &[&str]) -> common::Run {
+    let f = common::write_temp("size-inhibited", study);
+    let xs = x.to_string();
+    let mut args = vec!["size", f.to_str().unwrap(), "--conversion", &xs];
+    args.extend_from_slice(extra);
+    common::rxnet(&args)
+}
+
+fn rxnet_size(study: &str, x: f64, extra: &[&str]) -> serde_json::Value {
+    let mut args = extra.to_vec();
+    args.extend_from_slice(&["--format", "json"]);
+    size_run(study, x, &args).ok_json()
+}

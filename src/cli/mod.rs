@@ -159,7 +159,7 @@ enum Command {
     },
 }
 
-/// The solver flags of the design commands (optimize, sweep, compare).
+/// The solver flags of the design commands (size, optimize, sweep, compare).
 #[derive(clap::Args)]
 struct SolverFlags {
     /// Relative tolerance of every integration (default: the study's `solver.rtol`, else 1e-8).

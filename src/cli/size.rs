@@ -22,9 +22,8 @@ pub struct SizeArgs {
     conversion: f64,
     #[arg(long, value_enum, default_value_t = Format::Text)]
     format: Format,
-    /// Relative tolerance of the integration (default 1e-8).
-    #[arg(long)]
-    rtol: Option<f64>,
+    #[command(flatten)]
+    solver: super::SolverFlags,
     /// Change a value of the study, PATH=VALUE (e.g. reactor.type=cstr); may repeat.
     #[arg(long = "set", value_name = "PATH=VALUE")]
     set: Vec<Override>,
@@ -56,7 +55,7 @@ struct SizeReport {
 }
 
 pub fn size(a: &SizeArgs) -> i32 {
-    if let Err(m) = check_tolerance("rtol", a.rtol) {
+    if let Err(m) = check_tolerance("rtol", a.solver.rtol) {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
@@ -65,11 +64,12 @@ pub fn size(a: &SizeArgs) -> i32 {
         eprintln!("error: --conversion must lie in (0, 1), got {x}");
         return EXIT_INVALID;
     }
-    let (_, net) = match read_study(&a.file, &a.set) {
+    let set = super::with_steady_state(a.set.clone(), a.solver.steady_state);
+    let (_, net) = match read_study(&a.file, &set) {
         Ok(s) => s,
         Err(c) => return c,
     };
-    let opts = solve_opts(a.rtol);
+    let opts = solve_opts(a.solver.rtol);
     let (xn, xu, _) = solve::reactor_axis(&net);
     let key = net.species[net.key].name.clone();
     let flow = matches!(net.reactor, Reactor::Pfr { .. } | Reactor::Cstr { .. });

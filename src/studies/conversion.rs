@@ -82,6 +82,22 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
             let (xv, f) = at(v)?;
             if xv >= x {
                 let (l, h) = bisect_ln(lo, v, |v| Ok(at(v)?.0 < x))?;
+                // With several steady states the chosen branch can jump over x (ignition or
+                // extinction): then the bracket closes on the jump, not on a state with
+                // conversion x, and that size would be a wrong answer.
+                let (x_below, x_above) = (at(l.exp())?.0, at(h.exp())?.0);
+                if x_above - x_below > 1e-6 {
+                    return Err(StudyError::Infeasible(format!(
+                        "the steady state followed (solver.steady_state: {}) jumps from X = {} to X = {} near V = {:.6e} m3, past conversion {x} of {}: that conversion lies on a part of the CSTR's steady-state curve this choice does not follow, possibly the unstable middle branch, which the vessel cannot hold without control (list the states at a volume with `rxnet run --set reactor.volume=...`, or try the other branch with --steady-state)",
+                        opts.steady_state
+                            .or(net.solver.steady_state)
+                            .unwrap_or_default(),
+                        crate::report::num(x_below),
+                        crate::report::num(x_above),
+                        (0.5 * (l + h)).exp(),
+                        net.species[a].name
+                    )));
+                }
                 return Ok(Reach::Size((0.5 * (l + h)).exp()));
             }
             if let Some(p) = prev
