@@ -77,7 +77,7 @@ pub fn compare(
     };
     let mut rows = Vec::new();
     for f in files {
-        let (_, net) = match read_study(f, &[]) {
+        let (_, net, _) = match read_study(f, &[]) {
             Ok(s) => s,
             Err(c) => return c,
         };

@@ -6,6 +6,7 @@ use super::output::{EXIT_FINDINGS, EXIT_INVALID};
 use rxnet::load_file;
 use rxnet::model::{Network, Override, read_text};
 use rxnet::solve::SolveOptions;
+use rxnet::studies::evaluate::Findings;
 use rxnet::studies::study::Study;
 use std::path::Path;
 
@@ -47,8 +48,10 @@ pub fn check_atol_for(net: &Network, atol: Option<f64>) -> Result<(), String> {
     }
 }
 
-/// Read a study for a design command; errors are printed, the exit code returned.
-pub fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network), i32> {
+/// Read a study for a design command, with the consistency check of its base network (refused
+/// on error findings; the findings are returned so later evaluations of the same network need
+/// not check it again); errors are printed, the exit code returned.
+pub fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network, Findings), i32> {
     let text = read_text(file).map_err(|e| {
         eprintln!("error: {e}");
         EXIT_INVALID
@@ -62,15 +65,15 @@ pub fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network), i32
         eprintln!("error: {e}");
         EXIT_INVALID
     })?;
-    let c = rxnet::analysis::check(&net);
-    if c.has_errors() {
+    let findings = Findings::of(&net);
+    if !findings.errors.is_empty() {
         eprintln!(
             "error: {}: the network has error findings; run `rxnet check` on it",
             file.display()
         );
         return Err(EXIT_FINDINGS);
     }
-    Ok((study, net))
+    Ok((study, net, findings))
 }
 
 pub fn solve_opts(rtol: Option<f64>) -> SolveOptions {

@@ -6,7 +6,7 @@ use rxnet::model::{Network, Override, Reactor};
 use rxnet::report::{self, num};
 use rxnet::solve;
 use rxnet::studies::optimize::{Bound, optimize_size, optimize_vars, value_unit};
-use rxnet::studies::study::{StudyError, Variable};
+use rxnet::studies::study::Variable;
 use rxnet::studies::target::Target;
 use rxnet::units::parse_quantity;
 use std::fmt::Write;
@@ -141,7 +141,7 @@ pub fn optimize(
         eprintln!("error: --min-conversion must lie in [0, 1), got {x}");
         return EXIT_INVALID;
     }
-    let (study, net) = match read_study(file, set) {
+    let (study, net, findings) = match read_study(file, set) {
         Ok(s) => s,
         Err(c) => return c,
     };
@@ -209,8 +209,7 @@ pub fn optimize(
             }
             Err(e) => {
                 eprintln!("error: {}: {e}", file.display());
-                // A bad request (bounds) is a command-line error; anything else a failed study.
-                return if matches!(e, StudyError::Invalid(_)) {
+                return if e.is_invalid_input() {
                     EXIT_INVALID
                 } else {
                     EXIT_FINDINGS
@@ -301,7 +300,7 @@ pub fn optimize(
             }
             Err(e) => {
                 eprintln!("error: {}: {e}", file.display());
-                return if matches!(e, StudyError::Invalid(_)) {
+                return if e.is_invalid_input() {
                     EXIT_INVALID
                 } else {
                     EXIT_FINDINGS
@@ -309,8 +308,14 @@ pub fn optimize(
             }
         }
     };
-    // The optimum through the evaluation gate: the same checks as `run`.
-    let (balance, sim, m) = match rxnet::studies::evaluate::evaluate(&net_best, &opts, false) {
+    // The optimum through the evaluation gate: the same checks as `run` (a size-only optimum
+    // reuses the study's check, which does not read the size).
+    let evaluated = if size_only {
+        rxnet::studies::evaluate::evaluate_with(&net_best, &findings, &opts)
+    } else {
+        rxnet::studies::evaluate::evaluate(&net_best, &opts, false)
+    };
+    let (balance, sim, m) = match evaluated {
         Ok(ev) => (ev.balance, ev.sim, ev.metrics),
         Err(e) => {
             eprintln!("error: {}: at the optimum: {e}", file.display());

@@ -9,7 +9,6 @@ use rxnet::model::{Override, Reactor};
 use rxnet::report::{self, num};
 use rxnet::solve;
 use rxnet::studies::conversion::{Reach, beyond_message, reach_conversion};
-use rxnet::studies::study::StudyError;
 use std::fmt::Write;
 use std::path::PathBuf;
 
@@ -65,7 +64,7 @@ pub fn size(a: &SizeArgs) -> i32 {
         return EXIT_INVALID;
     }
     let set = super::with_steady_state(a.set.clone(), a.solver.steady_state);
-    let (_, net) = match read_study(&a.file, &set) {
+    let (_, net, findings) = match read_study(&a.file, &set) {
         Ok(s) => s,
         Err(c) => return c,
     };
@@ -99,7 +98,7 @@ pub fn size(a: &SizeArgs) -> i32 {
         }
         Err(e) => {
             eprintln!("error: {file}: {e}");
-            return if matches!(e, StudyError::Invalid(_)) {
+            return if e.is_invalid_input() {
                 EXIT_INVALID
             } else {
                 EXIT_FINDINGS
@@ -107,8 +106,10 @@ pub fn size(a: &SizeArgs) -> i32 {
         }
     };
     let sized = net.with_size(s);
-    // The sized study through the evaluation gate: the same checks as `run`.
-    let (balance, sim, m) = match rxnet::studies::evaluate::evaluate(&sized, &opts, false) {
+    // The sized study through the evaluation gate: the same checks as `run`; only the size
+    // changed, which the consistency check does not read, so its findings are reused.
+    let (balance, sim, m) = match rxnet::studies::evaluate::evaluate_with(&sized, &findings, &opts)
+    {
         Ok(ev) => (ev.balance, ev.sim, ev.metrics),
         Err(e) => {
             eprintln!("error: {file}: at the size found: {e}");

@@ -205,7 +205,7 @@ pub fn sweep(a: &SweepArgs) -> i32 {
             return EXIT_INVALID;
         }
     }
-    let (study, net) = match read_study(&a.file, &a.set) {
+    let (study, net, findings) = match read_study(&a.file, &a.set) {
         Ok(s) => s,
         Err(c) => return c,
     };
@@ -299,6 +299,7 @@ pub fn sweep(a: &SweepArgs) -> i32 {
     };
     let ran = sweep::run(
         &study,
+        Some(&findings),
         &cols,
         &axes,
         shard,

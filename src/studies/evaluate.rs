@@ -89,46 +89,25 @@ pub fn path_affects_check(path: &str) -> bool {
     !(path == "reactor" || path.starts_with("reactor."))
 }
 
-fn findings(net: &Network) -> (Vec<String>, Vec<String>) {
-    let f = Findings::of(net);
-    (f.errors, f.warnings)
+/// Set up the balances and solve: the part of the gate after the check.
+fn solve_network(net: &Network, opts: &SolveOptions) -> Result<(Balance, Simulation), EvalError> {
+    let balance = Balance::new(net).map_err(EvalError::Setup)?;
+    let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
+        SolveError::Setup(m) => EvalError::Setup(m),
+        e => EvalError::Solve(e),
+    })?;
+    Ok((balance, sim))
 }
 
-/// Evaluate a loaded network through the gate. With `check_beside`, the consistency check runs
-/// on a second thread while the reactor is solved (one run on an idle core); a study that
-/// evaluates many points in parallel passes false.
-pub fn evaluate(
+/// The end of the gate: a network with error findings gets no result, whatever the solve
+/// did; otherwise the result's metrics, with the check's warnings.
+fn finish(
     net: &Network,
-    opts: &SolveOptions,
-    check_beside: bool,
+    findings: Findings,
+    solved: Result<(Balance, Simulation), EvalError>,
 ) -> Result<Evaluation, EvalError> {
-    let solve = || -> Result<(Balance, Simulation), EvalError> {
-        let balance = Balance::new(net).map_err(EvalError::Setup)?;
-        let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
-            SolveError::Setup(m) => EvalError::Setup(m),
-            e => EvalError::Solve(e),
-        })?;
-        Ok((balance, sim))
-    };
-    let ((errors, warnings), solved) = if check_beside {
-        std::thread::scope(|scope| {
-            let checking = scope.spawn(|| findings(net));
-            let solved = solve();
-            let f = checking
-                .join()
-                .unwrap_or_else(|p| std::panic::resume_unwind(p));
-            (f, solved)
-        })
-    } else {
-        let f = findings(net);
-        if !f.0.is_empty() {
-            return Err(EvalError::Findings(f.0));
-        }
-        (f, solve())
-    };
-    // A network with error findings gets no result, whatever the solve did.
-    if !errors.is_empty() {
-        return Err(EvalError::Findings(errors));
+    if !findings.errors.is_empty() {
+        return Err(EvalError::Findings(findings.errors));
     }
     let (balance, sim) = solved?;
     let metrics = metrics::compute(net, sim.outlet());
@@ -136,8 +115,37 @@ pub fn evaluate(
         balance,
         sim,
         metrics,
-        warnings,
+        warnings: findings.warnings,
     })
+}
+
+/// Evaluate a loaded network through the gate. With `check_beside`, the consistency check runs
+/// on a second thread while the reactor is solved (one run on an idle core); a study that
+/// evaluates many points in parallel passes false, and a network with error findings is then
+/// not solved at all.
+pub fn evaluate(
+    net: &Network,
+    opts: &SolveOptions,
+    check_beside: bool,
+) -> Result<Evaluation, EvalError> {
+    if check_beside {
+        let (findings, solved) = std::thread::scope(|scope| {
+            let checking = scope.spawn(|| Findings::of(net));
+            let solved = solve_network(net, opts);
+            let f = checking
+                .join()
+                .unwrap_or_else(|p| std::panic::resume_unwind(p));
+            (f, solved)
+        });
+        finish(net, findings, solved)
+    } else {
+        let findings = Findings::of(net);
+        if !findings.errors.is_empty() {
+            return Err(EvalError::Findings(findings.errors));
+        }
+        let solved = solve_network(net, opts);
+        finish(net, findings, solved)
+    }
 }
 
 /// Evaluate with the check's findings already known for this network (see
@@ -150,18 +158,7 @@ pub fn evaluate_with(
     if !known.errors.is_empty() {
         return Err(EvalError::Findings(known.errors.clone()));
     }
-    let balance = Balance::new(net).map_err(EvalError::Setup)?;
-    let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
-        SolveError::Setup(m) => EvalError::Setup(m),
-        e => EvalError::Solve(e),
-    })?;
-    let metrics = metrics::compute(net, sim.outlet());
-    Ok(Evaluation {
-        balance,
-        sim,
-        metrics,
-        warnings: known.warnings.clone(),
-    })
+    finish(net, known.clone(), solve_network(net, opts))
 }
 
 /// Load the study with `sets` applied and evaluate it (a sweep point, an optimiser candidate).

@@ -17,6 +17,14 @@ pub enum StudyError {
     Infeasible(String),
 }
 
+impl StudyError {
+    /// A bad request (bounds, a target, a file that does not load): exit 2, like
+    /// `EvalError::is_invalid_input`; anything else is a failed study (exit 1).
+    pub fn is_invalid_input(&self) -> bool {
+        matches!(self, StudyError::Invalid(_))
+    }
+}
+
 /// One input varied by a general optimisation: a `--set` path and its bounds, in the unit the
 /// user gave (`unit` is appended to each value set; empty for a bare number).
 #[derive(Debug, Clone)]

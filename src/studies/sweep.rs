@@ -223,9 +223,13 @@ pub fn point_numbers(total: usize, shard: Option<(usize, usize)>) -> impl Iterat
 /// Run the grid (or one shard of it) in parallel, a chunk of [`CHUNK`] points at a time, and
 /// hand each chunk's rows, in point order, to `sink` as soon as the chunk is done; memory is
 /// bounded by one chunk whatever the number of points. `progress` is called once per finished
-/// point. Stops at the first error of `sink`.
+/// point. Stops at the first error of `sink`. `base` is the consistency check of the study
+/// without the varied inputs (the caller has it from reading the study), reused at every
+/// point when only reactor fields vary; without it every point is checked.
+#[allow(clippy::too_many_arguments)]
 pub fn run<E>(
     study: &Study,
+    base: Option<&Findings>,
     cols: &Columns,
     axes: &[Axis],
     shard: Option<(usize, usize)>,
@@ -234,8 +238,6 @@ pub fn run<E>(
     sink: &mut dyn FnMut(&[SweepRow]) -> Result<(), E>,
 ) -> Result<(), SweepError<E>> {
     let total = grid_size(axes).map_err(SweepError::Grid)?;
-    // The check of the base study, reused at every point when only reactor fields vary.
-    let base = study.load(&[]).ok().map(|n| Findings::of(&n));
     let mut points = point_numbers(total, shard).peekable();
     let mut chunk = Vec::with_capacity(CHUNK);
     while points.peek().is_some() {
@@ -245,7 +247,7 @@ pub fn run<E>(
             .par_iter()
             .map(|&p| {
                 let inputs = point_inputs(axes, p);
-                let result = run_point(study, base.as_ref(), cols, axes, &inputs, opts);
+                let result = run_point(study, base, cols, axes, &inputs, opts);
                 progress();
                 SweepRow {
                     point: p,
