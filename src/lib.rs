@@ -16,6 +16,7 @@ pub mod reactor;
 pub mod report;
 pub mod solve;
 pub mod studies;
+pub mod thermo;
 pub mod units;
 
 pub use model::{LoadError, Network, Override, load_file, load_str};

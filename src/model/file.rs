@@ -65,6 +65,8 @@ pub enum RawPhase {
 pub struct RawSpecies {
     pub formula: Option<String>,
     pub molar_mass: Option<RawQty>,
+    /// Molar heat capacity at constant pressure.
+    pub cp: Option<RawQty>,
 }
 
 #[derive(Debug, Deserialize)]

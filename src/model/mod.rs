@@ -34,6 +34,8 @@ pub struct Species {
     pub formula: Option<Formula>,
     /// Molar mass in kg/mol, where given (or computed from the formula); needed by the Ergun equation.
     pub molar_mass: Option<f64>,
+    /// Heat capacity, enthalpy of formation and entropy, where given (energy balances, K(T)).
+    pub thermo: crate::thermo::SpeciesThermo,
 }
 
 /// A species and its coefficient on one side of an equation, as written.

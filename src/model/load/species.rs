@@ -7,6 +7,7 @@ use crate::model::Species;
 use crate::model::equation::{bad_name_message, valid_name};
 use crate::model::file::{RawQty, RawSpecies};
 use crate::model::formula::Formula;
+use crate::thermo::{HeatCapacity, SpeciesThermo};
 use crate::units::Dim;
 use indexmap::IndexMap;
 
@@ -50,11 +51,33 @@ pub(super) fn build_species(
                 Some(cx.positive(&f, m, "a molar mass")?)
             }
         };
+        let cp = match sp.and_then(|s| s.cp.as_ref()) {
+            None => None,
+            Some(q) => {
+                let f = format!("{field}.cp");
+                let v = cx.qty(
+                    &f,
+                    q,
+                    Dim::energy().div(Dim::AMOUNT).div(Dim::TEMPERATURE),
+                    "a molar heat capacity",
+                    "75 J/(mol*K)",
+                )?;
+                Some(HeatCapacity::Constant(cx.positive(
+                    &f,
+                    v,
+                    "a heat capacity",
+                )?))
+            }
+        };
         index.insert(name.clone(), i);
         species.push(Species {
             name: name.clone(),
             formula,
             molar_mass,
+            thermo: SpeciesThermo {
+                cp,
+                ..Default::default()
+            },
         });
     }
     Ok((species, index))

@@ -1,0 +1,203 @@
+//! Species thermodynamic data: heat capacity, enthalpy and entropy of each species, in the
+//! published forms the data come in.
+//!
+//! A heat capacity is a constant, the Shomate form tabulated in the NIST Chemistry WebBook, or
+//! the 7-coefficient polynomials of NASA's thermodynamic tables (McBride, Zehe & Gordon,
+//! NASA/TP-2002-211556, from memory):
+//!
+//! ```text
+//! Shomate, t = T/1000:  Cp = A + B t + C t² + D t³ + E/t²                     J/(mol K)
+//!                       H(T) − H(298.15) = A t + B t²/2 + C t³/3 + D t⁴/4 − E/t + F − H   kJ/mol
+//!                       S(T) = A ln t + B t + C t²/2 + D t³/3 − E/(2 t²) + G               J/(mol K)
+//! NASA 7:               Cp/R = a1 + a2 T + a3 T² + a4 T³ + a5 T⁴
+//!                       H/(R T) = a1 + a2 T/2 + a3 T²/3 + a4 T³/4 + a5 T⁴/5 + a6/T
+//!                       S/R = a1 ln T + a2 T + a3 T²/2 + a4 T³/3 + a5 T⁴/4 + a7
+//! ```
+//!
+//! The energy balances need only Cp(T), its slope and the sensible enthalpy ∫Cp dT from a fixed
+//! origin ([`T_STANDARD`]); enthalpies of reaction add a constant per reaction.
+
+use crate::units::GAS_CONSTANT;
+
+/// The standard reference temperature of formation data, 298.15 K (common practice).
+pub const T_STANDARD: f64 = 298.15;
+
+/// The molar heat capacity of one species at constant pressure.
+#[derive(Debug, Clone, PartialEq)]
+pub enum HeatCapacity {
+    /// Cp in J/(mol K), the same at every temperature.
+    Constant(f64),
+    /// Shomate coefficients A..H (NIST units: J/(mol K) with t = T/1000, F and H in kJ/mol)
+    /// and the range (K) they were fitted over.
+    Shomate { c: [f64; 8], range: (f64, f64) },
+    /// NASA 7-coefficient polynomials below and above `t_mid` (K), and the range (K).
+    Nasa7 {
+        low: [f64; 7],
+        high: [f64; 7],
+        t_mid: f64,
+        range: (f64, f64),
+    },
+}
+
+impl HeatCapacity {
+    fn nasa(&self, t: f64) -> &[f64; 7] {
+        match self {
+            HeatCapacity::Nasa7 {
+                low, high, t_mid, ..
+            } => {
+                if t < *t_mid {
+                    low
+                } else {
+                    high
+                }
+            }
+            _ => unreachable!("only called for NASA polynomials"),
+        }
+    }
+
+    /// Cp at T, J/(mol K).
+    pub fn cp(&self, t: f64) -> f64 {
+        match self {
+            HeatCapacity::Constant(cp) => *cp,
+            HeatCapacity::Shomate { c, .. } => {
+                let s = t / 1000.0;
+                c[0] + s * (c[1] + s * (c[2] + s * c[3])) + c[4] / (s * s)
+            }
+            HeatCapacity::Nasa7 { .. } => {
+                let a = self.nasa(t);
+                GAS_CONSTANT * (a[0] + t * (a[1] + t * (a[2] + t * (a[3] + t * a[4]))))
+            }
+        }
+    }
+
+    /// dCp/dT at T, J/(mol K²).
+    pub fn dcp_dt(&self, t: f64) -> f64 {
+        match self {
+            HeatCapacity::Constant(_) => 0.0,
+            HeatCapacity::Shomate { c, .. } => {
+                let s = t / 1000.0;
+                (c[1] + s * (2.0 * c[2] + 3.0 * s * c[3]) - 2.0 * c[4] / (s * s * s)) / 1000.0
+            }
+            HeatCapacity::Nasa7 { .. } => {
+                let a = self.nasa(t);
+                GAS_CONSTANT * (a[1] + t * (2.0 * a[2] + t * (3.0 * a[3] + 4.0 * t * a[4])))
+            }
+        }
+    }
+
+    /// The antiderivative of Cp used as the sensible enthalpy, J/mol: its differences give
+    /// ∫_{T1}^{T2} Cp dT exactly. Zero at [`T_STANDARD`] for a constant Cp; for the polynomial
+    /// forms it is the form's own H(T) − H(298.15) (Shomate) or H(T) − a6 R (NASA), which differ
+    /// from ∫_{298.15}^{T} Cp dT by a constant only.
+    pub fn sensible(&self, t: f64) -> f64 {
+        match self {
+            HeatCapacity::Constant(cp) => cp * (t - T_STANDARD),
+            HeatCapacity::Shomate { c, .. } => {
+                let s = t / 1000.0;
+                1000.0
+                    * (c[0] * s
+                        + c[1] * s * s / 2.0
+                        + c[2] * s.powi(3) / 3.0
+                        + c[3] * s.powi(4) / 4.0
+                        - c[4] / s)
+            }
+            HeatCapacity::Nasa7 { .. } => {
+                let a = self.nasa(t);
+                GAS_CONSTANT
+                    * t
+                    * (a[0]
+                        + t * (a[1] / 2.0 + t * (a[2] / 3.0 + t * (a[3] / 4.0 + t * a[4] / 5.0))))
+            }
+        }
+    }
+
+    /// ∫_{T1}^{T2} Cp dT, J/mol. For NASA polynomials across T_mid the two pieces are summed.
+    pub fn enthalpy_change(&self, t1: f64, t2: f64) -> f64 {
+        if let HeatCapacity::Nasa7 { t_mid, .. } = self
+            && (t1 - t_mid) * (t2 - t_mid) < 0.0
+        {
+            return self.enthalpy_change(t1, *t_mid) + self.enthalpy_change(*t_mid, t2);
+        }
+        if let HeatCapacity::Nasa7 { t_mid, .. } = self
+            && (t1 == *t_mid || t2 == *t_mid)
+        {
+            // Evaluate both ends on the side of the other end.
+            let other = if t1 == *t_mid { t2 } else { t1 };
+            let a = self.nasa(other);
+            let h = |t: f64| {
+                GAS_CONSTANT
+                    * t
+                    * (a[0]
+                        + t * (a[1] / 2.0 + t * (a[2] / 3.0 + t * (a[3] / 4.0 + t * a[4] / 5.0))))
+            };
+            return h(t2) - h(t1);
+        }
+        self.sensible(t2) - self.sensible(t1)
+    }
+
+    /// The temperature range (K) the data hold over; `None` for a constant.
+    pub fn range(&self) -> Option<(f64, f64)> {
+        match self {
+            HeatCapacity::Constant(_) => None,
+            HeatCapacity::Shomate { range, .. } | HeatCapacity::Nasa7 { range, .. } => Some(*range),
+        }
+    }
+}
+
+/// What the study gives of one species' thermodynamics.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct SpeciesThermo {
+    /// Molar heat capacity at constant pressure.
+    pub cp: Option<HeatCapacity>,
+    /// Standard enthalpy of formation at 298.15 K, J/mol.
+    pub h_f: Option<f64>,
+    /// Absolute standard entropy at 298.15 K and 1 bar, J/(mol K).
+    pub s: Option<f64>,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The sensible enthalpy's differences against the trapezoid rule on Cp, and dCp/dT against
+    /// central differences (common practice), for each form, across a NASA T_mid.
+    #[test]
+    fn forms_are_self_consistent() {
+        let forms = [
+            HeatCapacity::Constant(75.0),
+            // Water vapour, NIST WebBook Shomate coefficients 500-1700 K (from memory).
+            HeatCapacity::Shomate {
+                c: [
+                    30.092, 6.832514, 6.793435, -2.53448, 0.082139, -250.881, 223.3967, -241.8264,
+                ],
+                range: (500.0, 1700.0),
+            },
+            HeatCapacity::Nasa7 {
+                low: [3.5, 1e-4, 2e-7, -1e-10, 1e-14, -1000.0, 4.0],
+                high: [3.0, 1.2e-3, -4e-7, 6e-11, -3e-15, -900.0, 6.0],
+                t_mid: 1000.0,
+                range: (300.0, 3000.0),
+            },
+        ];
+        for f in &forms {
+            let (a, b) = (600.0, 1400.0);
+            let n = 20_000;
+            let h = (b - a) / n as f64;
+            let trap: f64 = (0..n)
+                .map(|k| 0.5 * h * (f.cp(a + k as f64 * h) + f.cp(a + (k + 1) as f64 * h)))
+                .sum();
+            let exact = f.enthalpy_change(a, b);
+            assert!(
+                (trap - exact).abs() < 1e-6 * exact.abs().max(1.0),
+                "{f:?}: {trap} vs {exact}"
+            );
+            let t = 800.0;
+            let d = 1e-3;
+            let fd = (f.cp(t + d) - f.cp(t - d)) / (2.0 * d);
+            assert!(
+                (fd - f.dcp_dt(t)).abs() < 1e-6 * fd.abs().max(1e-6),
+                "{f:?}"
+            );
+        }
+    }
+}
