@@ -13,6 +13,7 @@ mod input;
 mod optimize;
 pub mod output;
 mod run;
+mod runaway;
 mod size;
 mod sweep;
 mod table;
@@ -91,6 +92,8 @@ enum Command {
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
     },
+    /// The runaway boundary over one input: hot spot and its normalised sensitivity.
+    Runaway(runaway::RunawayArgs),
     /// Run a full grid over one or more inputs (in parallel).
     Sweep {
         file: PathBuf,
@@ -185,6 +188,7 @@ pub fn main() -> i32 {
         Command::Table { file, format, set } => table::table(&file, format, &set),
         Command::Run(args) => run::run(&args),
         Command::Size(args) => size::size(&args),
+        Command::Runaway(args) => runaway::runaway(&args),
         Command::Generate {
             species,
             reactions,

@@ -176,6 +176,12 @@ impl Energy {
         (c, dc)
     }
 
+    /// The heat capacity rate of the stream (W/K) or of the charge (J/K) at species state y
+    /// and temperature t: Σ_j y_j (Cp_j(T) − u R), or the mixture's.
+    pub fn capacity_rate(&self, y: &[f64], t: f64) -> f64 {
+        self.capacity(y, t).0
+    }
+
     /// ∂/∂y_k of the heat capacity sum: Cp_k(T) − u R (0 with a mixture heat capacity).
     pub(super) fn capacity_slope(&self, k: usize, t: f64) -> f64 {
         if self.mixture.is_some() {

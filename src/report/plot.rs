@@ -44,67 +44,87 @@ pub struct LinePlot<'a> {
 
 /// Draw a line plot into an SVG string.
 pub fn line_svg(p: &LinePlot) -> Result<String, String> {
+    stacked_svg(std::slice::from_ref(p))
+}
+
+/// Draw line plots one above the other (sharing the width) into an SVG string: quantities of
+/// different units against the same input.
+pub fn stacked_svg(plots: &[LinePlot]) -> Result<String, String> {
     let mut out = String::new();
     {
-        let root = SVGBackend::with_string(&mut out, (900, 560)).into_drawing_area();
+        let height = 560 + 400 * plots.len().saturating_sub(1) as u32;
+        let root = SVGBackend::with_string(&mut out, (900, height)).into_drawing_area();
         root.fill(&WHITE).map_err(|e| e.to_string())?;
-        let (x0, x1) = bounds(p.x.iter().copied());
-        let (y0, y1) = bounds(p.series.iter().flat_map(|(_, v)| v.iter().copied()));
-        let mut chart = ChartBuilder::on(&root)
-            .caption(p.title, ("sans-serif", 20))
-            .margin(15)
-            .margin_right(120)
-            .x_label_area_size(50)
-            .y_label_area_size(80)
-            .build_cartesian_2d(x0..x1, y0..y1)
-            .map_err(|e| e.to_string())?;
-        chart
-            .configure_mesh()
-            .x_desc(p.x_label)
-            .y_desc(p.y_label)
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(|e| e.to_string())?;
-        for (k, (name, ys)) in p.series.iter().enumerate() {
-            let colour = COLOURS[k % COLOURS.len()];
-            let pts: Vec<(f64, f64)> =
-                p.x.iter()
-                    .copied()
-                    .zip(ys.iter().copied())
-                    .filter(|(_, y)| y.is_finite())
-                    .collect();
-            chart
-                .draw_series(LineSeries::new(pts.clone(), colour.stroke_width(2)))
-                .map_err(|e| e.to_string())?;
-            if let Some(&(xl, yl)) = pts.last() {
-                chart
-                    .draw_series(std::iter::once(Text::new(
-                        format!(" {name}"),
-                        (xl, yl),
-                        ("sans-serif", 15).into_font().color(&colour),
-                    )))
-                    .map_err(|e| e.to_string())?;
-            }
-        }
-        if let Some((mx, my, label)) = &p.mark {
-            chart
-                .draw_series(std::iter::once(Circle::new(
-                    (*mx, *my),
-                    6,
-                    BLACK.stroke_width(2),
-                )))
-                .map_err(|e| e.to_string())?;
-            chart
-                .draw_series(std::iter::once(Text::new(
-                    format!("  {label}"),
-                    (*mx, *my),
-                    ("sans-serif", 14).into_font(),
-                )))
-                .map_err(|e| e.to_string())?;
+        for (area, p) in root.split_evenly((plots.len().max(1), 1)).iter().zip(plots) {
+            draw_lines(area, p)?;
         }
         root.present().map_err(|e| e.to_string())?;
     }
     Ok(out)
+}
+
+fn draw_lines<DB: DrawingBackend>(
+    root: &DrawingArea<DB, plotters::coord::Shift>,
+    p: &LinePlot,
+) -> Result<(), String>
+where
+    DB::ErrorType: 'static,
+{
+    let (x0, x1) = bounds(p.x.iter().copied());
+    let (y0, y1) = bounds(p.series.iter().flat_map(|(_, v)| v.iter().copied()));
+    let mut chart = ChartBuilder::on(root)
+        .caption(p.title, ("sans-serif", 20))
+        .margin(15)
+        .margin_right(120)
+        .x_label_area_size(50)
+        .y_label_area_size(80)
+        .build_cartesian_2d(x0..x1, y0..y1)
+        .map_err(|e| e.to_string())?;
+    chart
+        .configure_mesh()
+        .x_desc(p.x_label)
+        .y_desc(p.y_label)
+        .light_line_style(RGBColor(235, 235, 235))
+        .draw()
+        .map_err(|e| e.to_string())?;
+    for (k, (name, ys)) in p.series.iter().enumerate() {
+        let colour = COLOURS[k % COLOURS.len()];
+        let pts: Vec<(f64, f64)> =
+            p.x.iter()
+                .copied()
+                .zip(ys.iter().copied())
+                .filter(|(_, y)| y.is_finite())
+                .collect();
+        chart
+            .draw_series(LineSeries::new(pts.clone(), colour.stroke_width(2)))
+            .map_err(|e| e.to_string())?;
+        if let Some(&(xl, yl)) = pts.last() {
+            chart
+                .draw_series(std::iter::once(Text::new(
+                    format!(" {name}"),
+                    (xl, yl),
+                    ("sans-serif", 15).into_font().color(&colour),
+                )))
+                .map_err(|e| e.to_string())?;
+        }
+    }
+    if let Some((mx, my, label)) = &p.mark {
+        chart
+            .draw_series(std::iter::once(Circle::new(
+                (*mx, *my),
+                6,
+                BLACK.stroke_width(2),
+            )))
+            .map_err(|e| e.to_string())?;
+        chart
+            .draw_series(std::iter::once(Text::new(
+                format!("  {label}"),
+                (*mx, *my),
+                ("sans-serif", 14).into_font(),
+            )))
+            .map_err(|e| e.to_string())?;
+    }
+    Ok(())
 }
 
 /// A heat map of z over a grid (xs × ys), z[i][j] at (xs[i], ys[j]); None cells are grey.

@@ -96,6 +96,10 @@ pub struct RunReport {
     /// their stability.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub steady_states: Option<SteadyStatesReport>,
+    /// A counter-current coolant: every solution of the boundary-value problem and which one
+    /// this report shows.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub coolant_solutions: Option<CoolantSolutionsReport>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub profile: Option<Vec<ProfilePoint>>,
 }
@@ -123,6 +127,36 @@ pub struct SteadyStatesReport {
     pub states: Vec<SteadyStateEntry>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
+}
+
+/// One solution of a counter-current coolant problem (K, and V m3 or W kg).
+#[derive(Debug, Clone, Serialize)]
+pub struct CoolantSolutionEntry {
+    /// 1-based, in order of rising coolant outlet temperature.
+    pub number: usize,
+    /// T_a at the reactor inlet, where the coolant leaves.
+    pub coolant_outlet_temperature: f64,
+    pub hot_spot_temperature: f64,
+    pub hot_spot_at: f64,
+    pub conversion: f64,
+}
+
+/// The solutions of a counter-current coolant problem (shooting on T_a(0)).
+#[derive(Debug, Clone, Serialize)]
+pub struct CoolantSolutionsReport {
+    pub count: usize,
+    /// The number (1-based) of the solution this report's profile and outlet show.
+    pub shown: usize,
+    /// The rule that picked it.
+    pub choice: String,
+    pub solutions: Vec<CoolantSolutionEntry>,
+    /// The range of coolant outlet temperatures searched, K.
+    pub searched_from: f64,
+    pub searched_to: f64,
+    pub trials: usize,
+    pub failed_trials: usize,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub notes: Vec<String>,
 }
 
 /// Pressure and volumetric flow (flow reactors) or volume (batch) of profile point `k`.
@@ -363,6 +397,31 @@ pub fn build(
                 .collect(),
             note: st.note.clone(),
         }),
+        coolant_solutions: sim
+            .counter_current
+            .as_ref()
+            .map(|cc| CoolantSolutionsReport {
+                count: cc.solutions.len(),
+                shown: cc.shown + 1,
+                choice: cc.choice.to_string(),
+                solutions: cc
+                    .solutions
+                    .iter()
+                    .enumerate()
+                    .map(|(k, s)| CoolantSolutionEntry {
+                        number: k + 1,
+                        coolant_outlet_temperature: s.coolant_outlet_temperature,
+                        hot_spot_temperature: s.hot_spot.temperature,
+                        hot_spot_at: s.hot_spot.at,
+                        conversion: s.conversion,
+                    })
+                    .collect(),
+                searched_from: cc.scan.0,
+                searched_to: cc.scan.1,
+                trials: cc.trials,
+                failed_trials: cc.failed_trials,
+                notes: cc.notes.clone(),
+            }),
         profile,
     }
 }
@@ -475,6 +534,49 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     }
     if let Some(note) = r.steady_states.as_ref().and_then(|s| s.note.as_ref()) {
         let _ = writeln!(o, "\n  note: {note}");
+    }
+    if let Some(cc) = &r.coolant_solutions {
+        let _ = writeln!(
+            o,
+            "\n  counter-current coolant: {} solution{} with the coolant leaving at T_a(0) between {} and {} K ({} trials{}):",
+            cc.count,
+            if cc.count == 1 { "" } else { "s" },
+            num(cc.searched_from),
+            num(cc.searched_to),
+            cc.trials,
+            if cc.failed_trials > 0 {
+                format!(", {} failed", cc.failed_trials)
+            } else {
+                String::new()
+            }
+        );
+        for s in &cc.solutions {
+            let _ = writeln!(
+                o,
+                "    {}. T_a(0) = {} K, hot spot {} K at {} = {}, X = {}{}",
+                s.number,
+                num(s.coolant_outlet_temperature),
+                num(s.hot_spot_temperature),
+                r.size_variable,
+                num(s.hot_spot_at),
+                num(s.conversion),
+                if cc.count > 1 && s.number == cc.shown {
+                    "  <- shown"
+                } else {
+                    ""
+                }
+            );
+        }
+        if cc.count > 1 {
+            let _ = writeln!(
+                o,
+                "  the boundary-value problem has several solutions; this report shows solution {} ({}); which one the tube runs at depends on how it is started up",
+                cc.shown, cc.choice
+            );
+        }
+        for n in &cc.notes {
+            let _ = writeln!(o, "  note: {n}");
+        }
     }
     let _ = writeln!(o, "\n  conversion of {}: {}", r.key, num(r.conversion));
     let not_defined = |why: Option<&String>| match why {

@@ -3,9 +3,11 @@
 //! a result.
 
 pub mod equations;
+pub mod hotspot;
 pub mod krylov;
 pub mod newton;
 pub mod ode;
+pub mod shooting;
 pub mod steady;
 pub mod system;
 
@@ -119,6 +121,9 @@ pub struct Simulation {
     pub stats: SolveStats,
     /// CSTR: every steady state found (rising key conversion) and which one `states` holds.
     pub steady: Option<CstrSteadyStates>,
+    /// A counter-current coolant: every solution of the boundary-value problem and which one
+    /// the profile shows.
+    pub counter_current: Option<shooting::CounterCurrent>,
 }
 
 /// The steady states of a CSTR solve.
@@ -193,6 +198,8 @@ pub enum SolveError {
     },
     #[error("{0}")]
     Unphysical(String),
+    #[error("counter-current coolant: {0}")]
+    BoundaryValue(String),
     #[error(
         "the pressure in the packed bed falls to zero at W = {w:.6e} kg, before the end of the bed (αW → 1): use less catalyst, a smaller bed constant α or a larger cross-section"
     )]
@@ -333,15 +340,10 @@ pub fn simulate_with(
             "the non-isothermal CSTR is solved by the steady-state search of the energy balance, not yet available in this build".into(),
         ));
     }
-    if balance
+    let counter = balance
         .energy()
         .and_then(|e| e.coolant_stream())
-        .is_some_and(|c| c.2)
-    {
-        return Err(SolveError::Setup(
-            "a counter-current coolant is a boundary-value problem, not yet available in this build".into(),
-        ));
-    }
+        .is_some_and(|c| c.2);
     let sim = if let Reactor::Cstr { volume } = net.reactor {
         stats.method = "damped Newton on the extents (analytic Jacobian)";
         // Residual tolerance: far below what the ODE tolerances ask of a flow reactor.
@@ -370,6 +372,7 @@ pub fn simulate_with(
             coolant: None,
             warnings: Vec::new(),
             stats,
+            counter_current: None,
             steady: Some(CstrSteadyStates {
                 shown,
                 choice: choice.to_string(),
@@ -378,8 +381,14 @@ pub fn simulate_with(
             }),
         }
     } else {
-        let y0 = balance.initial_state(net);
         let ode_opts = ode_options(net, balance, opts);
+        // A counter-current coolant: T_a(0) from the boundary-value problem, else the inlet.
+        let (y0, counter_current) = if counter {
+            let (y0, cc) = shooting::solve(net, balance, &ode_opts)?;
+            (y0, Some(cc))
+        } else {
+            (balance.initial_state(net), None)
+        };
         stats.method = match ode_opts.linear_algebra.resolve(balance.dim()) {
             LinearAlgebra::Dense => "BDF (diffsol, analytic Jacobian, dense LU)",
             LinearAlgebra::Sparse => "BDF (diffsol, analytic Jacobian, sparse LU)",
@@ -469,6 +478,7 @@ pub fn simulate_with(
             pressure,
             stats,
             steady: None,
+            counter_current,
         }
     };
     let limit = negative_limit(total);

@@ -57,6 +57,11 @@ fn limit_reason(net: &Network, y: &[f64]) -> String {
 /// from the 1/V tail, X_eq ≈ X(10V) + (X(10V) − X(V))/9.
 pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, StudyError> {
     let b = Balance::new(net).map_err(StudyError::Invalid)?;
+    if solve::shooting::is_counter_current(&b) {
+        return Err(StudyError::Invalid(solve::shooting::size_study_refusal(
+            "the size for a conversion",
+        )));
+    }
     let a = net.key;
     let f0 = net.feed.amounts[a];
     if f0 <= 0.0 {

@@ -158,6 +158,11 @@ pub fn optimize_size(
     let lo_open = lo == 0.0;
     let lo_eff = if lo_open { ZERO_SIZE * hi } else { lo };
     let balance = Balance::new(net).map_err(StudyError::Invalid)?;
+    if solve::shooting::is_counter_current(&balance) {
+        return Err(StudyError::Invalid(solve::shooting::size_study_refusal(
+            "the best reactor size",
+        )));
+    }
     let cstr = matches!(net.reactor, Reactor::Cstr { .. });
     let probe = Probe {
         net,
