@@ -107,3 +107,50 @@ fn counter_current_tube_matches_solve_bvp() {
     );
     a.report();
 }
+
+fn counter_current_study() -> String {
+    fixture()["coolant_stream"]["counter_current"]["study"]
+        .as_str()
+        .expect("study text")
+        .to_string()
+}
+
+#[test]
+fn run_reports_the_solutions_and_the_one_shown() {
+    let study = common::temp_study("cc-run", &counter_current_study());
+    let text = common::rxnet(&["run", study.p()]);
+    assert_eq!(text.code, 0, "{}", text.stderr);
+    assert!(
+        text.stdout.contains("counter-current coolant: 1 solution"),
+        "{}",
+        text.stdout
+    );
+    let j = common::rxnet(&["run", study.p(), "--format", "json"]).ok_json();
+    let cc = &j["coolant_solutions"];
+    assert_eq!(cc["count"], 1);
+    assert_eq!(cc["shown"], 1);
+    assert_eq!(cc["choice"], "lowest hot spot");
+    // the solve_bvp coolant outlet temperature (heat_cooled_pfr.py), to 1e-6
+    let want = num(
+        &fixture()["coolant_stream"]["counter_current"]["coolant_outlet_T"],
+        "coolant_outlet_T",
+    );
+    let got = num(
+        &cc["solutions"][0]["coolant_outlet_temperature"],
+        "coolant_outlet_temperature",
+    );
+    assert!((got - want).abs() <= 1e-6 * want, "{got} vs {want}");
+}
+
+#[test]
+fn size_studies_refuse_a_counter_current_coolant() {
+    // Each size of a counter-current tube is its own boundary-value problem: the size for a
+    // conversion and the best size are not found by one integration from the inlet.
+    let study = common::temp_study("cc-size", &counter_current_study());
+    let size = common::rxnet(&["size", study.p(), "--conversion", "0.5"]);
+    assert_eq!(size.code, 2, "{}\n{}", size.stdout, size.stderr);
+    assert!(size.stderr.contains("counter-current"), "{}", size.stderr);
+    let opt = common::rxnet(&["optimize", study.p(), "--maximize", "B"]);
+    assert_eq!(opt.code, 2, "{}\n{}", opt.stdout, opt.stderr);
+    assert!(opt.stderr.contains("counter-current"), "{}", opt.stderr);
+}

@@ -21,7 +21,8 @@
 //! as consumption vanishes.
 //!
 //! All numbers are demo values (a liquid charge with an exaggerated heat of reaction, so that
-//! consumption is small, B ≥ 1000), not data for any real process.
+//! consumption is small, B ≥ 1000; the runaway then heats the charge by thousands of kelvin, which only the
+//! arithmetic, not any real material, would survive), not data for any real process.
 
 mod common;
 
@@ -61,7 +62,7 @@ reactor:
     UA: {UA} W/K
     coolant: {{T: {T_REF} K}}
 key: A
-solver: {{rtol: 1e-10}}
+solver: {{rtol: 1e-8}}
 "
     )
 }
@@ -111,15 +112,16 @@ fn critical_coolant_t(gamma: f64, b: f64) -> f64 {
 #[test]
 fn critical_coolant_temperature_approaches_the_semenov_limit() {
     // Two charges, the second with a larger activation energy and less consumption.
-    // Expected offsets of ψ_c from 1/e: tangency with the exact Arrhenius term (computed) plus
-    // the consumption correction, of order 2.5 B^(−2/3): 1.7 % at B = 1000 (γ = 40), 0.6 % at
-    // B = 5000 (γ = 60). The check allows the tangency value plus three times that estimate
-    // (the coefficient is quoted from memory and the sensitivity criterion is not exactly
-    // tangency at finite B), and at least 0.2 % below it (the central-difference step, 0.125 K,
-    // moves the located maximum by a fraction of itself; 0.05 K is 0.2 % of ψ at γ = 40 —
-    // dψ/ψ = γ dT/T).
+    // Expected offsets of ψ_c from 1/e: the tangency with the exact Arrhenius term (computed:
+    // +2.6 % at γ = 40, +2.1 % at γ = 50) plus the consumption correction, of order
+    // 2.5 B^(−2/3): +2.5 % at B = 1000, +1.6 % at B = 2000; so about +5 % and +4 %. The check
+    // allows from 0.2 % below the tangency value (the located maximum moves by a fraction of
+    // the central-difference step, 0.125 K; dψ/ψ = γ dT/T, so 0.015 K is 0.2 % at γ = 40) up
+    // to the tangency value plus three times the consumption estimate (its coefficient is
+    // quoted from memory, and the sensitivity criterion is not exactly tangency at finite B).
+    // Measured: ψ e − 1 = 5.2 % and 3.4 %.
     let mut previous = f64::INFINITY;
-    for (gamma, b) in [(40.0, 1000.0), (60.0, 5000.0)] {
+    for (gamma, b) in [(40.0, 1000.0), (50.0, 2000.0)] {
         let tc = critical_coolant_t(gamma, b);
         let got = psi(gamma, tc);
         let tangency = psi_tangency(gamma);
@@ -167,7 +169,11 @@ fn runaway_draws_the_plot_and_lists_each_point() {
     );
     assert!(run.stdout.contains("process-safety review"));
     // the seven points' rows: the first and last input values appear
-    assert!(run.stdout.contains("  5000  ") && run.stdout.contains("  20000  "), "{}", run.stdout);
+    assert!(
+        run.stdout.contains("  5000  ") && run.stdout.contains("  20000  "),
+        "{}",
+        run.stdout
+    );
     let text = std::fs::read_to_string(&svg.path).expect("the plot is written");
     assert!(text.contains("<svg") && text.contains("T_hot"));
 }

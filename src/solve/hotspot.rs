@@ -80,6 +80,14 @@ pub fn hot_spot_of_steps(
     }
     // dT/dx > 0 before the step of largest T; find where it turns negative.
     let x0 = xs[k - 1];
+    if !(xs[k + 1] > x0) {
+        // Steps that do not advance (a restart at one point): the step value stands.
+        return Ok(HotSpot {
+            temperature: t_max,
+            at: xs[k],
+            interior: true,
+        });
+    }
     let shifted = Shifted { balance, x0 };
     let buf = std::cell::RefCell::new(vec![0.0; balance.dim()]);
     let slope = |x: f64, y: &[f64]| {
