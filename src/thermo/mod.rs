@@ -17,6 +17,13 @@
 //! The energy balances need only Cp(T), its slope and the sensible enthalpy ∫Cp dT from a fixed
 //! origin ([`T_STANDARD`]); enthalpies of reaction add a constant per reaction.
 
+mod reaction;
+
+pub use reaction::{
+    C_STANDARD_LIQUID, EnthalpySource, KSource, P_STANDARD, ReactionEnthalpy, ReactionThermo,
+    reaction_enthalpies,
+};
+
 use crate::units::GAS_CONSTANT;
 
 /// The standard reference temperature of formation data, 298.15 K (common practice).
@@ -40,19 +47,9 @@ pub enum HeatCapacity {
 }
 
 impl HeatCapacity {
-    fn nasa(&self, t: f64) -> &[f64; 7] {
-        match self {
-            HeatCapacity::Nasa7 {
-                low, high, t_mid, ..
-            } => {
-                if t < *t_mid {
-                    low
-                } else {
-                    high
-                }
-            }
-            _ => unreachable!("only called for NASA polynomials"),
-        }
+    /// The NASA coefficients that hold at T (low below `t_mid`, high from it).
+    fn nasa_piece<'a>(low: &'a [f64; 7], high: &'a [f64; 7], t_mid: f64, t: f64) -> &'a [f64; 7] {
+        if t < t_mid { low } else { high }
     }
 
     /// Cp at T, J/(mol K).
@@ -63,8 +60,10 @@ impl HeatCapacity {
                 let s = t / 1000.0;
                 c[0] + s * (c[1] + s * (c[2] + s * c[3])) + c[4] / (s * s)
             }
-            HeatCapacity::Nasa7 { .. } => {
-                let a = self.nasa(t);
+            HeatCapacity::Nasa7 {
+                low, high, t_mid, ..
+            } => {
+                let a = Self::nasa_piece(low, high, *t_mid, t);
                 GAS_CONSTANT * (a[0] + t * (a[1] + t * (a[2] + t * (a[3] + t * a[4]))))
             }
         }
@@ -78,61 +77,131 @@ impl HeatCapacity {
                 let s = t / 1000.0;
                 (c[1] + s * (2.0 * c[2] + 3.0 * s * c[3]) - 2.0 * c[4] / (s * s * s)) / 1000.0
             }
-            HeatCapacity::Nasa7 { .. } => {
-                let a = self.nasa(t);
+            HeatCapacity::Nasa7 {
+                low, high, t_mid, ..
+            } => {
+                let a = Self::nasa_piece(low, high, *t_mid, t);
                 GAS_CONSTANT * (a[1] + t * (2.0 * a[2] + t * (3.0 * a[3] + 4.0 * t * a[4])))
             }
         }
     }
 
-    /// The antiderivative of Cp used as the sensible enthalpy, J/mol: its differences give
-    /// ∫_{T1}^{T2} Cp dT exactly. Zero at [`T_STANDARD`] for a constant Cp; for the polynomial
-    /// forms it is the form's own H(T) − H(298.15) (Shomate) or H(T) − a6 R (NASA), which differ
-    /// from ∫_{298.15}^{T} Cp dT by a constant only.
+    /// The sensible enthalpy, an antiderivative of Cp (J/mol) continuous in T: its differences
+    /// give ∫_{T1}^{T2} Cp dT exactly, across a NASA `t_mid` too. Zero at [`T_STANDARD`] for a
+    /// constant Cp; for the polynomial forms its origin is the form's own (Shomate:
+    /// 1000 (A t + B t²/2 + C t³/3 + D t⁴/4 − E/t); NASA: the low polynomial's H(T) − a6 R,
+    /// continued above `t_mid` by the high one's increase from `t_mid`), a fixed constant away
+    /// from ∫_{298.15}^{T} Cp dT.
     pub fn sensible(&self, t: f64) -> f64 {
         match self {
             HeatCapacity::Constant(cp) => cp * (t - T_STANDARD),
             HeatCapacity::Shomate { c, .. } => {
                 let s = t / 1000.0;
                 1000.0
-                    * (c[0] * s
-                        + c[1] * s * s / 2.0
-                        + c[2] * s.powi(3) / 3.0
-                        + c[3] * s.powi(4) / 4.0
-                        - c[4] / s)
+                    * (s * (c[0] + s * (c[1] / 2.0 + s * (c[2] / 3.0 + s * c[3] / 4.0))) - c[4] / s)
             }
-            HeatCapacity::Nasa7 { .. } => {
-                let a = self.nasa(t);
-                GAS_CONSTANT
-                    * t
-                    * (a[0]
-                        + t * (a[1] / 2.0 + t * (a[2] / 3.0 + t * (a[3] / 4.0 + t * a[4] / 5.0))))
+            HeatCapacity::Nasa7 {
+                low, high, t_mid, ..
+            } => {
+                let p = |a: &[f64; 7], t: f64| {
+                    GAS_CONSTANT
+                        * t
+                        * (a[0]
+                            + t * (a[1] / 2.0
+                                + t * (a[2] / 3.0 + t * (a[3] / 4.0 + t * a[4] / 5.0))))
+                };
+                if t < *t_mid {
+                    p(low, t)
+                } else {
+                    p(high, t) - p(high, *t_mid) + p(low, *t_mid)
+                }
             }
         }
     }
 
-    /// ∫_{T1}^{T2} Cp dT, J/mol. For NASA polynomials across T_mid the two pieces are summed.
+    /// An antiderivative of Cp/T (J/(mol K)), continuous in T: the entropy's temperature part.
+    /// Shomate: A ln t + B t + C t²/2 + D t³/3 − E/(2 t²) (the form's S without G); NASA:
+    /// R (a1 ln T + a2 T + a3 T²/2 + a4 T³/3 + a5 T⁴/4) of the low polynomial, continued
+    /// above `t_mid` by the high one's increase; constant Cp: Cp ln(T/298.15).
+    fn entropy_antiderivative(&self, t: f64) -> f64 {
+        match self {
+            HeatCapacity::Constant(cp) => cp * (t / T_STANDARD).ln(),
+            HeatCapacity::Shomate { c, .. } => {
+                let s = t / 1000.0;
+                c[0] * s.ln() + s * (c[1] + s * (c[2] / 2.0 + s * c[3] / 3.0))
+                    - c[4] / (2.0 * s * s)
+            }
+            HeatCapacity::Nasa7 {
+                low, high, t_mid, ..
+            } => {
+                let q = |a: &[f64; 7], t: f64| {
+                    GAS_CONSTANT
+                        * (a[0] * t.ln()
+                            + t * (a[1] + t * (a[2] / 2.0 + t * (a[3] / 3.0 + t * a[4] / 4.0))))
+                };
+                if t < *t_mid {
+                    q(low, t)
+                } else {
+                    q(high, t) - q(high, *t_mid) + q(low, *t_mid)
+                }
+            }
+        }
+    }
+
+    /// ∫_{298.15}^{T} Cp/T dT, J/(mol K): the change of entropy at constant pressure from
+    /// [`T_STANDARD`] (dS = Cp dT/T, common practice).
+    pub fn entropy_change(&self, t: f64) -> f64 {
+        self.entropy_antiderivative(t) - self.entropy_antiderivative(T_STANDARD)
+    }
+
+    /// ∫_{T1}^{T2} Cp dT, J/mol (across a NASA `t_mid` the two pieces are summed).
     pub fn enthalpy_change(&self, t1: f64, t2: f64) -> f64 {
-        if let HeatCapacity::Nasa7 { t_mid, .. } = self
-            && (t1 - t_mid) * (t2 - t_mid) < 0.0
-        {
-            return self.enthalpy_change(t1, *t_mid) + self.enthalpy_change(*t_mid, t2);
-        }
-        if let HeatCapacity::Nasa7 { t_mid, .. } = self
-            && (t1 == *t_mid || t2 == *t_mid)
-        {
-            // Evaluate both ends on the side of the other end.
-            let other = if t1 == *t_mid { t2 } else { t1 };
-            let a = self.nasa(other);
-            let h = |t: f64| {
-                GAS_CONSTANT
-                    * t
-                    * (a[0]
-                        + t * (a[1] / 2.0 + t * (a[2] / 3.0 + t * (a[3] / 4.0 + t * a[4] / 5.0))))
-            };
-            return h(t2) - h(t1);
-        }
         self.sensible(t2) - self.sensible(t1)
+    }
+
+    /// The standard enthalpy of formation at 298.15 K the form itself carries, J/mol: the
+    /// Shomate H coefficient (kJ/mol, NIST's ΔfH° at 298.15 K) or the NASA H(298.15) (its a6
+    /// term includes formation); none for a constant Cp.
+    pub fn implied_h_f(&self) -> Option<f64> {
+        match self {
+            HeatCapacity::Constant(_) => None,
+            HeatCapacity::Shomate { c, .. } => Some(1000.0 * c[7]),
+            HeatCapacity::Nasa7 {
+                low, high, t_mid, ..
+            } => {
+                let a = Self::nasa_piece(low, high, *t_mid, T_STANDARD);
+                let t = T_STANDARD;
+                Some(
+                    GAS_CONSTANT
+                        * (t * (a[0]
+                            + t * (a[1] / 2.0
+                                + t * (a[2] / 3.0 + t * (a[3] / 4.0 + t * a[4] / 5.0))))
+                            + a[5]),
+                )
+            }
+        }
+    }
+
+    /// The absolute standard entropy at 298.15 K and 1 bar the form itself carries,
+    /// J/(mol K): the Shomate S(298.15) with its G term, or the NASA S(298.15) with its a7
+    /// term; none for a constant Cp.
+    pub fn implied_s(&self) -> Option<f64> {
+        match self {
+            HeatCapacity::Constant(_) => None,
+            HeatCapacity::Shomate { c, .. } => Some(self.entropy_antiderivative(T_STANDARD) + c[6]),
+            HeatCapacity::Nasa7 {
+                low, high, t_mid, ..
+            } => {
+                let a = Self::nasa_piece(low, high, *t_mid, T_STANDARD);
+                let t = T_STANDARD;
+                Some(
+                    GAS_CONSTANT
+                        * (a[0] * t.ln()
+                            + t * (a[1] + t * (a[2] / 2.0 + t * (a[3] / 3.0 + t * a[4] / 4.0)))
+                            + a[6]),
+                )
+            }
+        }
     }
 
     /// The temperature range (K) the data hold over; `None` for a constant.
@@ -141,6 +210,12 @@ impl HeatCapacity {
             HeatCapacity::Constant(_) => None,
             HeatCapacity::Shomate { range, .. } | HeatCapacity::Nasa7 { range, .. } => Some(*range),
         }
+    }
+
+    /// The range (K) when T lies outside it (the polynomial is then extrapolated, and the
+    /// caller warns); `None` inside it or for a constant Cp.
+    pub fn outside_range(&self, t: f64) -> Option<(f64, f64)> {
+        self.range().filter(|&(lo, hi)| !(lo..=hi).contains(&t))
     }
 }
 
@@ -153,6 +228,28 @@ pub struct SpeciesThermo {
     pub h_f: Option<f64>,
     /// Absolute standard entropy at 298.15 K and 1 bar, J/(mol K).
     pub s: Option<f64>,
+}
+
+impl SpeciesThermo {
+    /// The absolute (formation-based) molar enthalpy at T, J/mol:
+    /// H_j(T) = ΔfH°_j(298.15) + ∫_{298.15}^{T} Cp_j dT (Kirchhoff, common practice). Needs H_f
+    /// and cp.
+    pub fn enthalpy(&self, t: f64) -> Option<f64> {
+        Some(self.h_f? + self.cp.as_ref()?.enthalpy_change(T_STANDARD, t))
+    }
+
+    /// The absolute standard molar entropy at T and 1 bar, J/(mol K):
+    /// S°_j(T) = S°_j(298.15) + ∫_{298.15}^{T} Cp_j/T dT (common practice). Needs S and cp.
+    pub fn entropy(&self, t: f64) -> Option<f64> {
+        Some(self.s? + self.cp.as_ref()?.entropy_change(t))
+    }
+
+    /// The range (K) of the species' heat capacity when T lies outside it (a warning for the
+    /// caller to collect: the polynomial is extrapolated there); `None` inside it, for a
+    /// constant Cp, or without Cp.
+    pub fn outside_range(&self, t: f64) -> Option<(f64, f64)> {
+        self.cp.as_ref()?.outside_range(t)
+    }
 }
 
 #[cfg(test)]
