@@ -29,6 +29,11 @@ use crate::units::GAS_CONSTANT;
 /// The standard reference temperature of formation data, 298.15 K (common practice).
 pub const T_STANDARD: f64 = 298.15;
 
+/// A polynomial whose range starts at or below this temperature (K) is taken to hold at
+/// 298.15 K: published sets often start at 300 K, and 1.85 K of extrapolation is well within
+/// their fit (common practice).
+pub const T_COVERS_STANDARD: f64 = 300.0;
+
 /// The molar heat capacity of one species at constant pressure.
 #[derive(Debug, Clone, PartialEq)]
 pub enum HeatCapacity {
@@ -159,6 +164,31 @@ impl HeatCapacity {
         self.sensible(t2) - self.sensible(t1)
     }
 
+    /// H(T) − H(298.15) as the form itself defines it, J/mol: ∫_{298.15}^{T} Cp dT for a
+    /// constant Cp and NASA polynomials; for the Shomate form NIST's
+    /// 1000 (A t + B t²/2 + C t³/3 + D t⁴/4 − E/t + F − H), whose F carries the enthalpy
+    /// gained between 298.15 K and the start of a range that begins higher (a Shomate set for
+    /// 1000–2500 K is not extrapolated down to 298.15 K). It differs from
+    /// [`Self::sensible`] by a constant ([`Self::enthalpy_offset`]).
+    pub fn enthalpy_increment(&self, t: f64) -> f64 {
+        self.sensible(t) + self.enthalpy_offset()
+    }
+
+    /// [`Self::enthalpy_increment`] − [`Self::sensible`], a constant, J/mol.
+    pub fn enthalpy_offset(&self) -> f64 {
+        match self {
+            HeatCapacity::Constant(_) => 0.0,
+            HeatCapacity::Shomate { c, .. } => 1000.0 * (c[5] - c[7]),
+            HeatCapacity::Nasa7 { .. } => -self.sensible(T_STANDARD),
+        }
+    }
+
+    /// Whether the form's own values at 298.15 K are data rather than an extrapolation: its
+    /// range starts at or below [`T_COVERS_STANDARD`]. Always true for a constant.
+    pub fn covers_standard(&self) -> bool {
+        self.range().is_none_or(|(lo, _)| lo <= T_COVERS_STANDARD)
+    }
+
     /// The standard enthalpy of formation at 298.15 K the form itself carries, J/mol: the
     /// Shomate H coefficient (kJ/mol, NIST's ΔfH° at 298.15 K) or the NASA H(298.15) (its a6
     /// term includes formation); none for a constant Cp.
@@ -226,16 +256,19 @@ pub struct SpeciesThermo {
     pub cp: Option<HeatCapacity>,
     /// Standard enthalpy of formation at 298.15 K, J/mol.
     pub h_f: Option<f64>,
-    /// Absolute standard entropy at 298.15 K and 1 bar, J/(mol K).
+    /// Absolute standard entropy at 298.15 K and 1 bar, J/(mol K). For a Shomate form whose
+    /// range starts above 300 K this is the form's own value at 298.15 K (an extrapolation),
+    /// which with the form gives the tabulated S(T) inside its range.
     pub s: Option<f64>,
 }
 
 impl SpeciesThermo {
     /// The absolute (formation-based) molar enthalpy at T, J/mol:
-    /// H_j(T) = ΔfH°_j(298.15) + ∫_{298.15}^{T} Cp_j dT (Kirchhoff, common practice). Needs H_f
+    /// H_j(T) = ΔfH°_j(298.15) + ∫_{298.15}^{T} Cp_j dT (Kirchhoff, common practice), the
+    /// integral as the form defines it ([`HeatCapacity::enthalpy_increment`]). Needs H_f
     /// and cp.
     pub fn enthalpy(&self, t: f64) -> Option<f64> {
-        Some(self.h_f? + self.cp.as_ref()?.enthalpy_change(T_STANDARD, t))
+        Some(self.h_f? + self.cp.as_ref()?.enthalpy_increment(t))
     }
 
     /// The absolute standard molar entropy at T and 1 bar, J/(mol K):
@@ -288,6 +321,23 @@ mod tests {
                 (trap - exact).abs() < 1e-6 * exact.abs().max(1.0),
                 "{f:?}: {trap} vs {exact}"
             );
+            // ∫ Cp/T dT likewise (dS = Cp dT/T).
+            let trap_s: f64 = (0..n)
+                .map(|k| {
+                    let (t1, t2) = (a + k as f64 * h, a + (k + 1) as f64 * h);
+                    0.5 * h * (f.cp(t1) / t1 + f.cp(t2) / t2)
+                })
+                .sum();
+            let exact_s = f.entropy_change(b) - f.entropy_change(a);
+            assert!(
+                (trap_s - exact_s).abs() < 1e-6 * exact_s.abs().max(1.0),
+                "{f:?}: {trap_s} vs {exact_s}"
+            );
+            // The antiderivatives are continuous (across a NASA T_mid too).
+            for tc in [1000.0 - 1e-9, 1000.0] {
+                assert!((f.sensible(tc) - f.sensible(1000.0 - 1e-9)).abs() < 1e-4);
+                assert!((f.entropy_change(tc) - f.entropy_change(1000.0 - 1e-9)).abs() < 1e-7);
+            }
             let t = 800.0;
             let d = 1e-3;
             let fd = (f.cp(t + d) - f.cp(t - d)) / (2.0 * d);
@@ -296,5 +346,42 @@ mod tests {
                 "{f:?}"
             );
         }
+    }
+
+    /// NIST's Shomate form closes at 298.15 K: H(298.15) − H(298.15) = A t + ... − E/t + F − H
+    /// is zero within the fit (CO, 298–1300 K, NIST WebBook coefficients from memory), and the
+    /// form's S(298.15) with G is CO's tabulated 197.66 J/(mol K) (CODATA key values, from
+    /// memory).
+    #[test]
+    fn shomate_closes_at_the_standard_temperature() {
+        let co = HeatCapacity::Shomate {
+            c: [
+                25.56759, 6.096130, 4.054656, -2.671301, 0.131021, -118.0089, 227.3665, -110.5271,
+            ],
+            range: (298.0, 1300.0),
+        };
+        assert!(co.enthalpy_increment(T_STANDARD).abs() < 5.0);
+        assert!((co.implied_s().unwrap() - 197.66).abs() < 0.05);
+        assert_eq!(co.implied_h_f(), Some(-110_527.1));
+        let sp = SpeciesThermo {
+            cp: Some(co.clone()),
+            h_f: co.implied_h_f(),
+            s: co.implied_s(),
+        };
+        // Absolute H and S follow the form: H(T) = H_f + increment, S(T) = the form's S.
+        let t: f64 = 900.0;
+        let x = t / 1000.0;
+        let c = [
+            25.56759, 6.096130, 4.054656, -2.671301, 0.131021, -118.0089, 227.3665, -110.5271,
+        ];
+        let s_form = c[0] * x.ln() + c[1] * x + c[2] * x * x / 2.0 + c[3] * x.powi(3) / 3.0
+            - c[4] / (2.0 * x * x)
+            + c[6];
+        assert!((sp.entropy(t).unwrap() - s_form).abs() < 1e-9);
+        let h_form = 1000.0
+            * (c[0] * x + c[1] * x * x / 2.0 + c[2] * x.powi(3) / 3.0 + c[3] * x.powi(4) / 4.0
+                - c[4] / x
+                + c[5]);
+        assert!((sp.enthalpy(t).unwrap() - h_form).abs() < 1e-6);
     }
 }

@@ -175,7 +175,13 @@ impl ReactionThermo {
         let Some(dh298) = sum(&|s| s.h_f) else {
             return out;
         };
-        out.dh0 = Some(dh298 - out.sum_hs(T_STANDARD));
+        // ΔH(T) = Σ ν [H_f + increment(T)], increment = sensible + a constant offset.
+        let offsets: f64 = out
+            .terms
+            .iter()
+            .map(|(_, nu, cp)| nu * cp.enthalpy_offset())
+            .sum();
+        out.dh0 = Some(dh298 + offsets);
         out.dh_source = Some(EnthalpySource::Species);
         let Some(ds298) = sum(&|s| s.s) else {
             return out;

@@ -115,6 +115,30 @@ fn build_thermo(field: &str, sp: &RawSpecies, cx: &Cx) -> Result<SpeciesThermo, 
             "197.7 J/(mol*K)",
         )?),
     };
+    // A polynomial fitted only above 298.15 K does not hold there: its own values at 298.15 K
+    // are extrapolations that make H(T) and S(T) right inside its range, and a tabulated
+    // value at 298.15 K cannot be checked against them.
+    if let Some(p) = cp.as_ref().filter(|c| !c.covers_standard()) {
+        let lo = p.range().map_or(0.0, |r| r.0);
+        let given = match (p, &h_f, &s) {
+            (HeatCapacity::Nasa7 { .. }, Some(_), _) => Some("H_f"),
+            (_, _, Some(_)) => Some("S"),
+            _ => None,
+        };
+        if let Some(key) = given {
+            return Err(cx.err(
+                &format!("{field}.{key}"),
+                &format!(
+                    "`{key}` at {T_STANDARD} K cannot be checked against a polynomial whose \
+                     range starts at {} K; the polynomial's own terms give it",
+                    significant(lo)
+                ),
+                Some(format!(
+                    "drop `{key}`, or use a set of coefficients whose range includes {T_STANDARD} K"
+                )),
+            ));
+        }
+    }
     let form = |cp: &HeatCapacity| match cp {
         HeatCapacity::Shomate { .. } => "the Shomate H coefficient",
         _ => "the NASA polynomial (a6)",
