@@ -167,7 +167,7 @@ reactor: {type: pfr, volume: 1 L}
 }
 
 #[test]
-fn gas_k_c_from_species_uses_the_one_bar_standard_state() {
+fn k_c_from_species_uses_one_bar_for_a_gas_and_one_mol_per_litre_for_a_liquid() {
     // 2 X -> Y with constant Cp and given H_f and S: K° = exp(−ΔG°/(R T)) and
     // K_c = K° (P°/(R T))^Σν with P° = 1 bar, Σν = −1 (common practice).
     let yaml = "name: dimerisation (test values)
@@ -189,6 +189,18 @@ reactor: {type: pfr, volume: 1 L}
     let ln_k0 = -(dh - t * ds) / (R * t);
     let ln_kc = ln_k0 - (1.0e5 / (R * t)).ln();
     assert!((th.ln_k(t).unwrap() - ln_kc).abs() < 1e-12 * ln_kc.abs());
+    // The same reaction in a liquid: the data are taken for the 1 mol/L standard state,
+    // K_c = K° (c°)^Σν with c° = 1000 mol/m3 (common practice).
+    let liquid = yaml.replace("phase: gas", "phase: liquid").replace(
+        "{T: 500 K, P: 1 bar, flows: {X: 1 mol/s}}",
+        "{T: 500 K, volumetric: 1 L/s, concentrations: {X: 1 mol/L}}",
+    );
+    let net = load_str(&liquid, "dimer-liquid.yaml", &[]).expect("loads");
+    let th = ReactionThermo::new(&net, 0);
+    let ln_kc = ln_k0 - 1000f64.ln();
+    assert!((th.ln_k(t).unwrap() - ln_kc).abs() < 1e-12 * ln_kc.abs());
+    // d ln K_c/dT = ΔH/(R T²) for the liquid (no (R T)^Σν factor).
+    assert!((th.d_ln_k_dt(t).unwrap() - dh / (R * t * t)).abs() < 1e-12 * (dh / (R * t * t)).abs());
 }
 
 // ---------------------------------------------------------------------------------------

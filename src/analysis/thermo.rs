@@ -44,13 +44,16 @@ pub struct CycleCheck {
 /// Check every dependent reaction whose members are all reversible with K_eq given.
 pub fn check(net: &Network, dependent: &[Dependent]) -> Vec<CycleCheck> {
     let t = net.feed.temperature;
+    // ln K of each reaction, computed once however many dependent reactions it is part of.
+    let mut memo: Vec<Option<Option<f64>>> = vec![None; net.reactions.len()];
+    let mut ln_k = |i: usize| *memo[i].get_or_insert_with(|| ln_keq(net, i, t));
     dependent
         .iter()
         .filter_map(|d| {
-            let ln_dep = ln_keq(net, d.reaction, t)?;
+            let ln_dep = ln_k(d.reaction)?;
             let mut ln_comb = 0.0;
             for (i, c) in &d.combination {
-                ln_comb += to_f64(c) * ln_keq(net, *i, t)?;
+                ln_comb += to_f64(c) * ln_k(*i)?;
             }
             let members = std::iter::once(d.reaction).chain(d.combination.iter().map(|(i, _)| *i));
             let any_dh = members.clone().any(|i| net.reactions[i].dh.is_some());
