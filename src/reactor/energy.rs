@@ -24,7 +24,7 @@
 //! bed's pressure gradient carries the factor T/T0.
 
 use crate::model::{BatchMode, Coolant, Heat, Network, Phase, Reactor};
-use crate::thermo::{HeatCapacity, T_STANDARD};
+use crate::thermo::HeatCapacity;
 use crate::units::GAS_CONSTANT;
 
 /// The energy-balance data of one reactor.
@@ -75,33 +75,31 @@ impl Energy {
             net.species.iter().map(|s| s.thermo.cp.clone()).collect()
         };
         let sensible = |j: usize, t: f64| cp[j].as_ref().map_or(0.0, |c| c.sensible(t));
+        // ΔH_i(T) from the reaction's `dH` or its species' H_f, by Kirchhoff's law
+        // ([`crate::thermo::ReactionThermo`]), put in the form h_i + Σ_j ν_ij H_j(T) over the
+        // species whose H_j the balance carries.
+        let enthalpies = crate::thermo::reaction_enthalpies(net);
         let mut offset = Vec::with_capacity(net.reactions.len());
-        for r in &net.reactions {
-            let h = match r.dh {
-                // ΔH given at the rate's reference temperature.
-                Some(dh) => {
-                    dh - r
-                        .net
-                        .iter()
-                        .map(|&(j, v)| v * sensible(j, r.rate.t_ref))
-                        .sum::<f64>()
-                }
-                // From the species' enthalpies of formation at 298.15 K.
-                None => {
-                    let mut h = 0.0;
-                    for &(j, v) in &r.net {
-                        let Some(hf) = net.species[j].thermo.h_f else {
-                            return Err(format!(
-                                "an energy balance needs the heat of reaction of `{}`: give its `dH` or `H_f` of each species",
-                                r.id
-                            ));
-                        };
-                        h += v * (hf - sensible(j, T_STANDARD));
-                    }
-                    h
-                }
+        for (r, dh) in net.reactions.iter().zip(&enthalpies) {
+            let Some(dh) = dh else {
+                return Err(format!(
+                    "an energy balance needs the heat of reaction of `{}`: give its `dH` or `H_f` of each species",
+                    r.id
+                ));
             };
-            offset.push(h);
+            let complete = !dh.terms.is_empty() && r.net.iter().all(|&(j, _)| cp[j].is_some());
+            offset.push(if complete {
+                dh.offset
+            } else {
+                // ΔCp not known for every species (or a mixture heat capacity): ΔH as at the
+                // reaction's reference temperature, less what the carried H_j add there.
+                let t_ref = r.rate.t_ref;
+                dh.at(net, t_ref)
+                    - r.net
+                        .iter()
+                        .map(|&(j, v)| v * sensible(j, t_ref))
+                        .sum::<f64>()
+            });
         }
         if mixture.is_none() {
             let fed_or_made =
@@ -158,6 +156,30 @@ impl Energy {
     /// ΔH_i(T) of reaction i with net coefficients `nu`.
     pub fn reaction_enthalpy(&self, i: usize, nu: &[(usize, f64)], t: f64) -> f64 {
         self.offset[i] + nu.iter().map(|&(j, v)| v * self.h(j, t)).sum::<f64>()
+    }
+
+    /// ΔT_ad of the feed (see [`crate::safety`]): the heat of the most exothermic reaction
+    /// that consumes the key, per mole of key, times the key fed, over the feed's heat capacity
+    /// at T0; and that reaction. (0, None) when no reaction consumes the key.
+    pub fn adiabatic_rise(&self, net: &Network) -> (f64, Option<usize>) {
+        let k = net.key;
+        let t0 = net.feed.temperature;
+        let best = net
+            .reactions
+            .iter()
+            .enumerate()
+            .filter(|(_, r)| r.nu(k) < 0.0)
+            .map(|(i, r)| {
+                let de = self.reaction_enthalpy(i, &r.net, t0)
+                    - self.u * GAS_CONSTANT * t0 * r.mole_change();
+                (i, de / -r.nu(k))
+            })
+            .min_by(|a, b| a.1.total_cmp(&b.1));
+        let Some((i, de)) = best else {
+            return (0.0, None);
+        };
+        let (cap, _) = self.capacity(&net.feed.amounts, t0);
+        (-de * net.feed.amounts[k] / cap, Some(i))
     }
 
     /// Σ_j y_j (Cp_j(T) − u R) (or the mixture's), and its derivative in T.
