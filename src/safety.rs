@@ -88,8 +88,12 @@ impl HeatFigures {
         });
         let coolant_outlet = sim.coolant.as_ref().map(|c| {
             match e.coolant_stream() {
-                // Counter-current: the coolant leaves at the reactor inlet.
-                Some((_, _, true)) => c[0],
+                // Counter-current: the coolant leaves at the reactor inlet, T_a(0) of the
+                // solution shown (the profile may hold the outlet only).
+                Some((_, _, true)) => sim
+                    .counter_current
+                    .as_ref()
+                    .map_or(c[0], |cc| cc.solutions[cc.shown].coolant_outlet_temperature),
                 _ => *c.last().expect("a profile has its outlet"),
             }
         });

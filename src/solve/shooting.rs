@@ -13,25 +13,26 @@
 //! vanishes (single shooting; Keller, Numerical Methods for Two-Point Boundary-Value
 //! Problems, 1968, from memory).
 //!
-//! **Where the roots can be.** The coolant relaxes toward the reacting stream along its own
-//! path (dT_a/ds = Ua (T − T_a)/(ṁ_c c_p,c) with s running from x = L to 0), so its outlet
-//! temperature θ lies between T_in and the temperatures of the reacting stream (a maximum
-//! principle). The reacting stream in turn cannot be hotter than the hotter of its feed and the
-//! coolant by more than the heat the reactions can release, nor colder than the colder of them
-//! by more than the heat they can absorb (the steady-flow energy balance of the two streams;
-//! Fogler, Elements of Chemical Reaction Engineering, ch. 12, from memory). So every solution
-//! has
+//! **Where the roots can be.** The steady-flow energy balance of the two streams together
+//! (Fogler, Elements of Chemical Reaction Engineering, ch. 12, from memory) gives
 //!
 //! ```text
-//! min(T0, T_in) − ΔT⁻  ≤  θ  ≤  max(T0, T_in) + ΔT⁺,
+//! ṁ_c c_p,c (θ − T_in) = Q_released − Σ_j F_j0 Cp_j (T_out − T0),
 //! ```
 //!
-//! ΔT^± = Σ_j F_j0 h^±_j / Σ_j F_j0 Cp_j(T0), where h⁺_j bounds the heat released per mole of
-//! species j as it reacts down the most exothermic path of the network (its own reaction's
-//! −ΔH_i(T0)/|ν_ij| plus what its products can release in turn; a longest-path relaxation over
-//! the reactions, both directions of a reversible one) and h⁻_j the heat absorbed likewise.
-//! The scan widens this by 10 % and 1 K (Cp and ΔH vary with T; ΔCp ≠ 0 moves the bound by a
-//! few per cent).
+//! and with an exothermic network the reacting stream leaves no colder than min(T0, T_in) (it
+//! only gains heat from reaction and exchanges it with a coolant that is never colder than
+//! that), so θ ≤ T_in + [Q⁺ + C0 max(0, T0 − T_in)]/(ṁ_c c_p,c), C0 = Σ_j F_j0 Cp_j(T0); likewise
+//! θ ≥ T_in − [Q⁻ + C0 max(0, T_in − T0)]/(ṁ_c c_p,c). Q⁺ = Σ_j F_j0 h⁺_j bounds the heat the
+//! reactions can release, h⁺_j the heat released per mole of species j as it reacts down the
+//! most exothermic path of the network (its own reaction's −ΔH_i(T0)/|ν_ij| plus what its
+//! products can release in turn; a longest-path relaxation over the reactions, both
+//! directions of a reversible one); Q⁻ the heat they can absorb. The coolant also relaxes
+//! toward the reacting stream along its path, so the scan range is the wider of this and
+//! [min(T0, T_in) − Q⁻/C0, max(T0, T_in) + Q⁺/C0], each margin widened by 10 % and the range by
+//! 1 K (Cp and ΔH vary with T). The reacting stream itself can be hotter than T0 + Q⁺/C0:
+//! the coolant carries heat from the reaction zone back toward the inlet (heat
+//! recirculation).
 //!
 //! **All roots.** R is evaluated at [`SCAN_POINTS`] evenly spaced θ over that range; every sign
 //! change between neighbours is refined by the Illinois variant of regula falsi (Dahlquist &
@@ -42,9 +43,10 @@
 //! scan interval (about 1/40 of the range) give no sign change between scan points and can be
 //! missed; that limit is stated in docs/methods.md.
 //!
-//! **Trials that run away.** A trial θ far from a root can drive T or T_a outside the range
-//! above (the residual of single shooting grows like exp(Ua L/(ṁ_c c_p,c))): such an
-//! integration is stopped where it leaves the range widened by its own width, and the trial
+//! **Trials that run away.** A trial θ far from a root can drive T or T_a far outside the
+//! range above (the residual of single shooting grows like exp(Ua L/(ṁ_c c_p,c))): such an
+//! integration is stopped where it leaves the range widened by its own width below and four
+//! widths above (room for heat recirculation), and the trial
 //! counts only for its sign (above: positive; below: negative), never as a root. A refined
 //! bracket whose end is such a trial is a jump of R, not a root, and is reported as a note. A
 //! trial whose integration fails outright has no sign: the scan counts it, and a sign change
@@ -189,9 +191,12 @@ pub fn scan_range(net: &Network, balance: &Balance, t_in: f64) -> (f64, f64) {
         if cap > 0.0 { q / cap } else { 0.0 }
     };
     let (up, down) = (rise(1.0), rise(-1.0));
-    let lo = (t0.min(t_in) - 1.1 * down - 1.0).max(1.0);
-    let hi = t0.max(t_in) + 1.1 * up + 1.0;
-    (lo, hi)
+    let (_, coolant, _) = e.coolant_stream().expect("a coolant stream");
+    // Through the coolant's own energy balance (module notes).
+    let via_coolant = |q: f64, sensible: f64| 1.1 * (q * cap + cap * sensible.max(0.0)) / coolant;
+    let lo = (t0.min(t_in) - 1.1 * down).min(t_in - via_coolant(down, t_in - t0)) - 1.0;
+    let hi = (t0.max(t_in) + 1.1 * up).max(t_in + via_coolant(up, t0 - t_in)) + 1.0;
+    (lo.max(1.0), hi)
 }
 
 /// Solve the counter-current problem: every solution in the scan range, and the model state at
@@ -212,7 +217,7 @@ pub fn solve(
     let (_, _, size) = super::reactor_axis(net);
     let (lo, hi) = scan_range(net, balance, t_in);
     let width = hi - lo;
-    let (band_lo, band_hi) = ((lo - width).max(0.5 * lo), hi + width);
+    let (band_lo, band_hi) = ((lo - width).max(0.5 * lo), hi + 4.0 * width);
     let start = |theta: f64| {
         let mut y = balance.initial_state(net);
         y[ki] = theta;
