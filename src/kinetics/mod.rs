@@ -82,15 +82,22 @@ struct Compiled {
     depends_on: Vec<usize>,
 }
 
-/// The temperature-dependent constants of one rate at the network's temperature, computed once
-/// (the reactors are isothermal, so every evaluation of a solve uses the same T).
-#[derive(Debug, Clone)]
-struct AtTemperature {
+/// The temperature-dependent constants of one rate at one temperature, with their logarithmic
+/// slopes d ln(·)/dT for ∂r/∂T (computed once per law at the feed temperature for the
+/// isothermal models, and once per evaluation of the right-hand side for the others).
+#[derive(Debug, Clone, Default)]
+pub struct AtTemperature {
     k: f64,
     /// 1/K_eq(T), for a reversible step.
     inv_k_eq: f64,
     /// K_m(T) of each adsorption term.
     k_ads: Vec<f64>,
+    /// d ln k/dT = Ea/(R T²).
+    dlnk: f64,
+    /// d ln K_eq/dT = ΔH/(R T²) (van't Hoff).
+    dln_keq: f64,
+    /// d ln K_m/dT = ΔH_m/(R T²) of each adsorption term.
+    dln_kads: Vec<f64>,
 }
 
 /// All rate laws of a network, ready to evaluate.
@@ -265,23 +272,35 @@ fn arrhenius(k_ref: f64, e: f64, t_ref: f64, t: f64) -> f64 {
     }
 }
 
+/// d ln(k)/dT of an Arrhenius (or van't Hoff) form with energy `e`: e/(R T²).
+fn log_slope(e: f64, t: f64) -> f64 {
+    e / (GAS_CONSTANT * t * t)
+}
+
 impl Compiled {
     fn at(&self, t: f64) -> AtTemperature {
+        let (k_ads, dln_kads) =
+            self.denominator
+                .as_ref()
+                .map_or_else(Default::default, |(terms, _)| {
+                    terms
+                        .iter()
+                        .map(|(k, dh, _)| (arrhenius(*k, *dh, self.t_ref, t), log_slope(*dh, t)))
+                        .unzip()
+                });
         AtTemperature {
             k: arrhenius(self.k_ref, self.ea, self.t_ref, t),
             inv_k_eq: self
                 .reverse
                 .as_ref()
                 .map_or(0.0, |(k, dh, _)| 1.0 / arrhenius(*k, *dh, self.t_ref, t)),
-            k_ads: self
-                .denominator
+            k_ads,
+            dlnk: log_slope(self.ea, t),
+            dln_keq: self
+                .reverse
                 .as_ref()
-                .map_or_else(Vec::new, |(terms, _)| {
-                    terms
-                        .iter()
-                        .map(|(k, dh, _)| arrhenius(*k, *dh, self.t_ref, t))
-                        .collect()
-                }),
+                .map_or(0.0, |(_, dh, _)| log_slope(*dh, t)),
+            dln_kads,
         }
     }
 }
@@ -437,7 +456,7 @@ impl RateSet {
     /// Rate of power-law reaction i at the network's temperature from the packed arrays: the
     /// same products, in the same order, as the general path of [`RateSet::eval`].
     #[inline]
-    fn power_law_rate(&self, h: &HotLaw, i: usize, c: &[f64]) -> f64 {
+    fn power_law_rate(&self, k: f64, inv_k_eq: f64, i: usize, c: &[f64]) -> f64 {
         let (forward, reverse, _) = self.ranges(i);
         let mut num = 1.0;
         for f in &self.packed[forward] {
@@ -448,7 +467,7 @@ impl RateSet {
         for f in &self.packed[reverse] {
             rev *= f.value(c, &self.floor);
         }
-        h.k * (num - rev * h.inv_k_eq)
+        k * (num - rev * inv_k_eq)
     }
 
     /// Species that rate i depends on.
@@ -465,64 +484,121 @@ impl RateSet {
         if grad.is_none() && t == self.temperature {
             let h = &self.hot[i];
             if !h.hyperbolic {
-                return self.power_law_rate(h, i, c);
+                return self.power_law_rate(h.k, h.inv_k_eq, i, c);
             }
         }
-        let law = &self.laws[i];
-        let fresh;
-        let at = if t == self.temperature {
-            &self.cached[i]
+        if t == self.temperature {
+            self.eval_at(i, &self.cached[i], c, grad, None)
         } else {
-            fresh = law.at(t);
-            &fresh
-        };
-        let k = at.k;
+            self.eval_at(i, &self.laws[i].at(t), c, grad, None)
+        }
+    }
+
+    /// The constants of every law at temperature T (one exponential per constant), for
+    /// [`RateSet::eval_at`]: the non-isothermal models compute them once per evaluation.
+    pub fn constants(&self, t: f64, out: &mut Vec<AtTemperature>) {
+        out.clear();
+        if t == self.temperature {
+            out.extend_from_slice(&self.cached);
+        } else {
+            out.extend(self.laws.iter().map(|l| l.at(t)));
+        }
+    }
+
+    /// Rate of reaction i with the constants `at` (from [`RateSet::constants`]); with `grad`,
+    /// ∂r_i/∂C_j as in [`RateSet::eval`]; with `dr_dt`, ∂r_i/∂T at constant concentrations:
+    ///
+    /// ```text
+    /// ∂r/∂T = r d ln k/dT + (k/D^n) (1/K) Π C^(a+ν) d ln K/dT − n (r/D) Σ_m K_m C_m^b_m d ln K_m/dT
+    /// ```
+    pub fn eval_at(
+        &self,
+        i: usize,
+        at: &AtTemperature,
+        c: &[f64],
+        grad: Option<&mut Vec<(usize, f64)>>,
+        dr_dt: Option<&mut f64>,
+    ) -> f64 {
+        let law = &self.laws[i];
         let (forward, reverse, deps) = self.ranges(i);
+        let k = at.k;
+        if grad.is_none() && dr_dt.is_none() && law.denominator.is_none() {
+            return self.power_law_rate(k, at.inv_k_eq, i, c);
+        }
         let Some(g) = grad else {
-            // Rate only: no gradient bookkeeping.
-            let mut num = product_value(&self.full[forward], c, &self.floor);
-            if law.reverse.is_some() {
-                num -= product_value(&self.full[reverse], c, &self.floor) * at.inv_k_eq;
-            }
-            return match &law.denominator {
-                None => k * num,
-                Some((terms, n)) => {
+            let fwd = product_value(&self.full[forward], c, &self.floor);
+            let rev = if law.reverse.is_some() {
+                product_value(&self.full[reverse], c, &self.floor) * at.inv_k_eq
+            } else {
+                0.0
+            };
+            let num = fwd - rev;
+            let (d, dd_dt) = match &law.denominator {
+                None => (1.0, 0.0),
+                Some((terms, _)) => {
                     let mut d = 1.0;
-                    for ((_, _, f), k_ads) in terms.iter().zip(&at.k_ads) {
-                        d += k_ads * power(c[f.species], f.exponent, self.floor[f.species]).0;
+                    let mut dd = 0.0;
+                    for (m, (_, _, f)) in terms.iter().enumerate() {
+                        let v =
+                            at.k_ads[m] * power(c[f.species], f.exponent, self.floor[f.species]).0;
+                        d += v;
+                        dd += v * at.dln_kads[m];
                     }
-                    k * num / d.powf(*n)
+                    (d, dd)
                 }
             };
+            let n = law.denominator.as_ref().map_or(1.0, |(_, n)| *n);
+            let dn = if law.denominator.is_some() {
+                d.powf(n)
+            } else {
+                1.0
+            };
+            let r = k * num / dn;
+            if let Some(out) = dr_dt {
+                *out = r * at.dlnk + k * rev * at.dln_keq / dn - n * r * dd_dt / d;
+            }
+            return r;
         };
         g.clear();
         g.extend(self.deps[deps].iter().map(|&j| (j, 0.0)));
         // Numerator N = Π C^a − (1/K) Π C^(a+ν); gradient of N collected first.
         let mut num = product(&self.full[forward], c, &self.floor, g, 1.0);
+        let mut rev = 0.0;
         if law.reverse.is_some() {
-            num -= product(&self.full[reverse], c, &self.floor, g, -at.inv_k_eq) * at.inv_k_eq;
+            rev = product(&self.full[reverse], c, &self.floor, g, -at.inv_k_eq) * at.inv_k_eq;
+            num -= rev;
         }
         match &law.denominator {
             None => {
                 for e in g.iter_mut() {
                     e.1 *= k;
                 }
-                k * num
+                let r = k * num;
+                if let Some(out) = dr_dt {
+                    *out = r * at.dlnk + k * rev * at.dln_keq;
+                }
+                r
             }
             Some((terms, n)) => {
                 // r = k N / D^n; ∂r = k (∂N / D^n − n N D^(−n−1) ∂D).
                 let mut d = 1.0;
+                let mut dd_dt = 0.0;
                 let mut dgrad = vec![0.0; g.len()];
-                for ((_, _, f), k_ads) in terms.iter().zip(&at.k_ads) {
+                for (m, (_, _, f)) in terms.iter().enumerate() {
                     let (v, dv) = power(c[f.species], f.exponent, self.floor[f.species]);
-                    d += k_ads * v;
-                    dgrad[f.slot] += k_ads * dv;
+                    d += at.k_ads[m] * v;
+                    dd_dt += at.k_ads[m] * v * at.dln_kads[m];
+                    dgrad[f.slot] += at.k_ads[m] * dv;
                 }
                 let dn = d.powf(*n);
                 for (e, de) in g.iter_mut().zip(dgrad.iter()) {
                     e.1 = k * (e.1 / dn - n * num * de / (dn * d));
                 }
-                k * num / dn
+                let r = k * num / dn;
+                if let Some(out) = dr_dt {
+                    *out = r * at.dlnk + k * rev * at.dln_keq / dn - n * r * dd_dt / d;
+                }
+                r
             }
         }
     }
@@ -638,6 +714,38 @@ mod tests {
                 assert!(
                     (fd - d).abs() <= 1e-6 * d.abs(),
                     "a = {a}, x = {x}: {fd} vs {d}"
+                );
+            }
+        }
+    }
+
+    /// ∂r/∂T of every law (Arrhenius, van't Hoff, adsorption heats) against central
+    /// differences in T (common practice), on both paths (with and without the gradient).
+    #[test]
+    fn temperature_derivative_matches_finite_differences() {
+        let net = study(MIXED_LAWS);
+        let rs = RateSet::new(&net);
+        let c = [800.0, 450.0, 120.0, 3.0];
+        let (mut at, mut atp, mut atm) = (Vec::new(), Vec::new(), Vec::new());
+        let t = 335.0;
+        let h = 1e-4;
+        rs.constants(t, &mut at);
+        rs.constants(t + h, &mut atp);
+        rs.constants(t - h, &mut atm);
+        let mut g = Vec::new();
+        for i in 0..rs.len() {
+            let (mut d1, mut d2) = (0.0, 0.0);
+            let r1 = rs.eval_at(i, &at[i], &c, None, Some(&mut d1));
+            let r2 = rs.eval_at(i, &at[i], &c, Some(&mut g), Some(&mut d2));
+            assert_eq!(r1, rs.eval(i, t, &c, None));
+            assert!((r1 - r2).abs() <= 1e-14 * r1.abs());
+            let fd = (rs.eval_at(i, &atp[i], &c, None, None)
+                - rs.eval_at(i, &atm[i], &c, None, None))
+                / (2.0 * h);
+            for d in [d1, d2] {
+                assert!(
+                    (d - fd).abs() <= 1e-6 * fd.abs().max(1e-12),
+                    "reaction {i}: {d} vs {fd}"
                 );
             }
         }

@@ -163,6 +163,70 @@ pub struct RawReactor {
     pub time: Option<RawQty>,
     pub mode: Option<RawBatchMode>,
     pub pressure_drop: Option<RawPressureDrop>,
+    pub heat: Option<RawHeat>,
+    #[serde(rename = "T_max")]
+    pub t_max: Option<RawQty>,
+}
+
+/// `reactor.heat`: a word (`isothermal`, `adiabatic`) or the map of the heat exchange.
+#[derive(Debug)]
+pub enum RawHeat {
+    Word(String),
+    Map(RawHeatMap),
+}
+
+impl<'de> Deserialize<'de> for RawHeat {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> Visitor<'de> for V {
+            type Value = RawHeat;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str("`isothermal`, `adiabatic`, or a map such as {U: 300 W/(m2*K), area: 40 m2/m3, coolant: {T: 300 K}}")
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<RawHeat, E> {
+                Ok(RawHeat::Word(v.to_string()))
+            }
+            fn visit_map<A: de::MapAccess<'de>>(self, m: A) -> Result<RawHeat, A::Error> {
+                RawHeatMap::deserialize(de::value::MapAccessDeserializer::new(m)).map(RawHeat::Map)
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+#[derive(Debug, Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+pub struct RawHeatMap {
+    #[serde(rename = "U")]
+    pub u: Option<RawQty>,
+    pub area: Option<RawQty>,
+    #[serde(rename = "UA")]
+    pub ua: Option<RawQty>,
+    pub coolant: Option<RawCoolant>,
+    pub mixture_cp: Option<RawQty>,
+    pub density: Option<RawQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawCoolant {
+    #[serde(rename = "T")]
+    pub t: Option<RawQty>,
+    pub ramp: Option<RawQty>,
+    #[serde(rename = "T_final")]
+    pub t_final: Option<RawQty>,
+    #[serde(rename = "T_in")]
+    pub t_in: Option<RawQty>,
+    pub mass_flow: Option<RawQty>,
+    pub cp: Option<RawQty>,
+    pub direction: Option<RawDirection>,
+}
+
+#[derive(Debug, Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum RawDirection {
+    CoCurrent,
+    CounterCurrent,
 }
 
 #[derive(Debug, Deserialize)]

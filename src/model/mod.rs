@@ -241,6 +241,84 @@ impl Reactor {
     }
 }
 
+/// How the reactor's temperature is found.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub enum Heat {
+    /// The reactor is held at the feed temperature (heat of reaction removed perfectly).
+    #[default]
+    Isothermal,
+    /// Temperature is a state: the energy balance of the reactor with its heat exchange.
+    Balance(EnergyBalance),
+}
+
+impl Heat {
+    /// The energy balance, when the reactor has one.
+    pub fn balance(&self) -> Option<&EnergyBalance> {
+        match self {
+            Heat::Isothermal => None,
+            Heat::Balance(e) => Some(e),
+        }
+    }
+    /// Short name for reports: `isothermal`, `adiabatic` or `cooled`.
+    pub fn name(&self) -> &'static str {
+        match self {
+            Heat::Isothermal => "isothermal",
+            Heat::Balance(EnergyBalance { exchange: None, .. }) => "adiabatic",
+            Heat::Balance(_) => "heat exchange",
+        }
+    }
+}
+
+/// The energy balance of a non-isothermal reactor, SI.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EnergyBalance {
+    /// Heat exchange through the wall; `None` is adiabatic.
+    pub exchange: Option<Exchange>,
+    /// Heat capacity of the liquid mixture per volume, J/(m3 K), used instead of the species'
+    /// molar heat capacities (process-development liquids whose species data are unknown).
+    pub mixture_cp: Option<f64>,
+}
+
+/// Heat exchange with a coolant (or heating medium) through the wall.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Exchange {
+    /// U times exchange area: per reactor volume W/(m3 K) (PFR), per catalyst mass W/(kg K)
+    /// (packed bed), or in total W/K (CSTR, batch).
+    pub ua: f64,
+    pub coolant: Coolant,
+}
+
+/// The coolant side of the heat exchange.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Coolant {
+    /// A constant temperature T_a (K).
+    Constant { temperature: f64 },
+    /// A batch jacket whose temperature rises (or falls) at `rate` K/s from `start` and stays at
+    /// `end` once it gets there.
+    Ramp { start: f64, rate: f64, end: f64 },
+    /// A coolant stream along a tube: inlet temperature (K), capacity ṁ c_p (W/K), and whether
+    /// it flows against the reacting stream (entering at the reactor outlet).
+    Stream {
+        inlet: f64,
+        capacity: f64,
+        counter_current: bool,
+    },
+}
+
+impl Coolant {
+    /// The coolant temperature at time t of a batch (constant or ramp).
+    pub fn temperature_at(&self, t: f64) -> f64 {
+        match *self {
+            Coolant::Constant { temperature } => temperature,
+            Coolant::Ramp { start, rate, end } => {
+                let v = start + rate * t;
+                if rate >= 0.0 { v.min(end) } else { v.max(end) }
+            }
+            Coolant::Stream { inlet, .. } => inlet,
+        }
+    }
+}
+
 /// Integration settings from the file (the command line may override them).
 #[derive(Debug, Clone, Default)]
 pub struct SolverSettings {
@@ -272,6 +350,10 @@ pub struct Network {
     /// Index of the desired product, if named.
     pub desired: Option<usize>,
     pub solver: SolverSettings,
+    /// Energy balance or isothermal (`reactor.heat`).
+    pub heat: Heat,
+    /// A temperature the process must not exceed (`reactor.T_max`, K), if given.
+    pub t_max: Option<f64>,
     /// Conversions made on loading that change what the user wrote beyond a unit factor (a
     /// gauge pressure made absolute, a rate constant on a species basis or in partial
     /// pressures put on the reaction and concentration basis), each as a sentence naming the

@@ -9,6 +9,7 @@
 //! "did you mean" suggestions.
 
 mod feed;
+mod heat;
 mod messages;
 mod reactions;
 mod reactor;
@@ -22,6 +23,7 @@ use super::locate::{Locator, Position};
 use super::*;
 use crate::units::{Dim, describe, dimension_mismatch, gauge_note, parse_quantity, unit_text};
 use feed::build_feed;
+use heat::build_heat;
 use indexmap::IndexMap;
 use messages::{serde_path, significant, strip_location, unknown_field_hint, yaml_wording};
 use reactions::{build_reaction, default_key};
@@ -556,6 +558,15 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         None => None,
     };
     let solver = build_solver(raw.solver.as_ref(), &reactor, feed.total(), cx)?;
+    let (heat, t_max) = build_heat(
+        &raw.reactor,
+        &reactor,
+        phase,
+        &species,
+        &reactions,
+        &feed,
+        cx,
+    )?;
     debug_assert_eq!(feed.amounts.len(), ns);
 
     Ok(Network {
@@ -570,6 +581,8 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         key_is_default,
         desired,
         solver,
+        heat,
+        t_max,
         notes: cx.notes.take(),
     })
 }
