@@ -257,16 +257,11 @@ pub fn element_closure(net: &Network, state: &[f64]) -> Vec<Closure> {
 pub fn instantaneous_selectivity(
     net: &Network,
     balance: &crate::reactor::Balance,
-    state: &[f64],
-    pressure_ratio: f64,
+    y: &[f64],
 ) -> Vec<Selectivity> {
     let Some(d) = net.desired else { return vec![] };
-    let mut y = state[..balance.n_species()].to_vec();
-    if balance.has_pressure() {
-        y.push(pressure_ratio);
-    }
     let mut r = Vec::new();
-    balance.reaction_rates(&y, &mut r);
+    balance.reaction_rates(y, &mut r);
     let formation = |j: usize| -> f64 {
         net.reactions
             .iter()

@@ -172,7 +172,7 @@ pub struct RawReactor {
 #[derive(Debug)]
 pub enum RawHeat {
     Word(String),
-    Map(RawHeatMap),
+    Map(Box<RawHeatMap>),
 }
 
 impl<'de> Deserialize<'de> for RawHeat {
@@ -187,7 +187,8 @@ impl<'de> Deserialize<'de> for RawHeat {
                 Ok(RawHeat::Word(v.to_string()))
             }
             fn visit_map<A: de::MapAccess<'de>>(self, m: A) -> Result<RawHeat, A::Error> {
-                RawHeatMap::deserialize(de::value::MapAccessDeserializer::new(m)).map(RawHeat::Map)
+                RawHeatMap::deserialize(de::value::MapAccessDeserializer::new(m))
+                    .map(|m| RawHeat::Map(Box::new(m)))
             }
         }
         d.deserialize_any(V)

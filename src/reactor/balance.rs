@@ -1,7 +1,9 @@
-//! The isothermal balance equations of one vessel (see the module docs of [`crate::reactor`]
-//! for the one form they share).
+//! The balance equations of one vessel (see the module docs of [`crate::reactor`] for the one
+//! form they share): isothermal here, with the energy balance of [`super::energy`] when the
+//! study has one.
 
 use super::Model;
+use super::energy::Energy;
 use super::ergun::ergun_alpha;
 use super::state::{StateKind, StateLayout};
 use crate::kinetics::RateSet;
@@ -10,7 +12,7 @@ use crate::units::GAS_CONSTANT;
 
 /// How concentrations follow from the state, and how the rates are scaled.
 #[derive(Debug, Clone, Copy, PartialEq)]
-enum Mixture {
+pub(super) enum Mixture {
     /// C = y / v (v constant), rates scaled by σ.
     Fixed { volume: f64, sigma: f64 },
     /// C = c_tot p y / S (ideal gas at T0), σ = 1 (flow reactors).
@@ -19,24 +21,30 @@ enum Mixture {
     GasConstantPressure { c_tot: f64 },
 }
 
-/// The balance equations of one reactor for one network, isothermal at the feed temperature.
+/// The balance equations of one reactor for one network: isothermal at the feed temperature,
+/// or with temperature as a state when the study has an energy balance.
 #[derive(Debug, Clone)]
 pub struct Balance {
     pub rates: RateSet,
+    /// The energy balance, when temperature is a state.
+    pub(super) energy: Option<Energy>,
+    /// Positions of T and of the coolant temperature in the state, where present.
+    pub(super) t_index: Option<usize>,
+    pub(super) coolant_index: Option<usize>,
     /// Net coefficients (species, ν) of all reactions in one array, reaction i's at
     /// `nu[nu_starts[i]..nu_starts[i + 1]]` (one block walked in order, whatever the allocator;
     /// see `RateSet`'s packed factors).
-    nu: Vec<(usize, f64)>,
-    nu_starts: Vec<usize>,
-    n_species: usize,
-    mixture: Mixture,
-    temperature: f64,
+    pub(super) nu: Vec<(usize, f64)>,
+    pub(super) nu_starts: Vec<usize>,
+    pub(super) n_species: usize,
+    pub(super) mixture: Mixture,
+    pub(super) temperature: f64,
     /// Bed constant α (1/kg) when the pressure drop is modelled: then state n is p = P/P0.
-    alpha: Option<f64>,
+    pub(super) alpha: Option<f64>,
     /// S at the inlet (F_T0), for the pressure equation.
-    total0: f64,
+    pub(super) total0: f64,
     /// Species with a non-zero ν in some reaction (rows of the Jacobian that can be non-zero).
-    reactive: Vec<usize>,
+    pub(super) reactive: Vec<usize>,
     /// What each state entry is: the species, then p = P/P0 when the pressure drop is modelled.
     layout: StateLayout,
 }
@@ -84,13 +92,23 @@ impl Balance {
                 None,
             ),
         };
-        let extra: &[StateKind] = if alpha.is_some() {
-            &[StateKind::PressureRatio]
-        } else {
-            &[]
-        };
+        let energy = Energy::new(net)?;
+        let mut extra = Vec::new();
+        if alpha.is_some() {
+            extra.push(StateKind::PressureRatio);
+        }
+        if let Some(e) = &energy {
+            extra.push(StateKind::Temperature);
+            if e.coolant_stream().is_some() {
+                extra.push(StateKind::CoolantTemperature);
+            }
+        }
+        let layout = StateLayout::new(net, &extra);
         Ok(Balance {
-            layout: StateLayout::new(net, extra),
+            t_index: layout.index_of(StateKind::Temperature),
+            coolant_index: layout.index_of(StateKind::CoolantTemperature),
+            energy,
+            layout,
             reactive: net.reacting_species(),
             rates: RateSet::new(net),
             nu: net
@@ -136,16 +154,48 @@ impl Balance {
         self.alpha
     }
 
-    /// Initial state from the feed.
+    /// Initial state from the feed (a counter-current coolant starts at its inlet temperature
+    /// here; the solver finds its temperature at the reactor inlet by shooting).
     pub fn initial_state(&self, net: &Network) -> Vec<f64> {
         let mut y = net.feed.amounts.clone();
         if self.alpha.is_some() {
             y.push(1.0);
         }
+        if let Some(e) = &self.energy {
+            y.push(net.feed.temperature);
+            if let Some((inlet, _, _)) = e.coolant_stream() {
+                y.push(inlet);
+            }
+        }
         y
     }
 
-    fn pressure_ratio(&self, y: &[f64]) -> f64 {
+    /// Whether temperature is a state (the study has an energy balance).
+    pub fn has_energy(&self) -> bool {
+        self.energy.is_some()
+    }
+
+    /// The energy balance, when there is one.
+    pub fn energy(&self) -> Option<&Energy> {
+        self.energy.as_ref()
+    }
+
+    /// Position of T in the state, when it is one.
+    pub fn temperature_index(&self) -> Option<usize> {
+        self.t_index
+    }
+
+    /// Position of the coolant stream's temperature in the state, when it is one.
+    pub fn coolant_index(&self) -> Option<usize> {
+        self.coolant_index
+    }
+
+    /// The temperature at state y (the feed temperature when isothermal).
+    pub fn temperature_of(&self, y: &[f64]) -> f64 {
+        self.t_index.map_or(self.temperature, |i| y[i])
+    }
+
+    pub(super) fn pressure_ratio(&self, y: &[f64]) -> f64 {
         if self.alpha.is_some() {
             y[self.n_species]
         } else {
@@ -154,7 +204,10 @@ impl Balance {
     }
 
     /// (κ, σ, S) at state y.
-    fn scales(&self, y: &[f64]) -> (f64, f64, f64) {
+    pub(super) fn scales(&self, y: &[f64]) -> (f64, f64, f64) {
+        if let Some(e) = &self.energy {
+            return self.scales_at(e, y);
+        }
         let s: f64 = y[..self.n_species].iter().sum();
         match self.mixture {
             Mixture::Fixed { volume, sigma } => (1.0 / volume, sigma, s),
@@ -174,12 +227,30 @@ impl Balance {
     pub fn reaction_rates(&self, y: &[f64], r: &mut Vec<f64>) {
         let mut c = Vec::with_capacity(self.n_species);
         self.concentrations(y, &mut c);
+        let t = self.temperature_of(y);
         r.clear();
-        r.extend((0..self.rates.len()).map(|i| self.rates.eval(i, self.temperature, &c, None)));
+        r.extend((0..self.rates.len()).map(|i| self.rates.eval(i, t, &c, None)));
     }
 
-    /// dy/dx at state y.
+    /// dy/dx at state y at the reactor inlet (x = 0); the balances are autonomous except a
+    /// batch whose jacket follows a ramp ([`Balance::rhs_at`]).
     pub fn rhs(&self, y: &[f64], dydx: &mut [f64]) {
+        self.rhs_at(0.0, y, dydx)
+    }
+
+    /// Whether dy/dx depends on x itself (a batch jacket ramp).
+    pub fn is_autonomous(&self) -> bool {
+        !matches!(
+            self.energy.as_ref().and_then(|e| e.coolant.as_ref()),
+            Some(crate::model::Coolant::Ramp { .. })
+        ) || self.energy.as_ref().is_some_and(|e| e.ua == 0.0)
+    }
+
+    /// dy/dx at x and state y.
+    pub fn rhs_at(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
+        if let Some(e) = &self.energy {
+            return self.rhs_energy(e, x, y, dydx);
+        }
         let (kappa, sigma, s) = self.scales(y);
         // C on the stack for small networks (no allocation per call), on the heap beyond.
         let mut small = [0.0; SMALL_NETWORK];
@@ -211,8 +282,16 @@ impl Balance {
         }
     }
 
-    /// ∂(dy/dx)/∂y as (row, column, value) triplets; duplicates add.
+    /// ∂(dy/dx)/∂y at x = 0 as (row, column, value) triplets; duplicates add.
     pub fn jacobian(&self, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+        self.jacobian_at(0.0, y, out)
+    }
+
+    /// ∂(dy/dx)/∂y at x as (row, column, value) triplets; duplicates add.
+    pub fn jacobian_at(&self, x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+        if let Some(e) = &self.energy {
+            return self.jacobian_energy(e, x, y, out);
+        }
         let n = self.n_species;
         let (kappa, sigma, s) = self.scales(y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
@@ -274,37 +353,38 @@ impl Model for Balance {
     fn layout(&self) -> &StateLayout {
         &self.layout
     }
-    fn rhs(&self, y: &[f64], dydx: &mut [f64]) {
-        Balance::rhs(self, y, dydx)
+    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
+        Balance::rhs_at(self, x, y, dydx)
     }
-    fn jacobian(&self, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
-        Balance::jacobian(self, y, out)
+    fn jacobian(&self, x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+        Balance::jacobian_at(self, x, y, out)
     }
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::model::load_str;
+mod tests_support {
+    pub(super) use super::*;
+    pub(super) use crate::model::load_str;
 
-    fn fd_check(text: &str, y: &[f64]) {
+    pub(super) fn fd_check(text: &str, y: &[f64]) {
         let net = load_str(text, "test", &[]).unwrap();
         let b = Balance::new(&net).unwrap();
         let n = b.dim();
         let mut trip = Vec::new();
-        b.jacobian(y, &mut trip);
+        let x = 120.0;
+        b.jacobian_at(x, y, &mut trip);
         let mut j = vec![vec![0.0; n]; n];
         for (r, c, v) in trip {
             j[r][c] += v;
         }
         for k in 0..n {
-            let h = 1e-6 * y[k].abs().max(1e-6);
+            let h = 1e-7 * y[k].abs().max(1e-6);
             let (mut yp, mut ym) = (y.to_vec(), y.to_vec());
             yp[k] += h;
             ym[k] -= h;
             let (mut fp, mut fm) = (vec![0.0; n], vec![0.0; n]);
-            b.rhs(&yp, &mut fp);
-            b.rhs(&ym, &mut fm);
+            b.rhs_at(x, &yp, &mut fp);
+            b.rhs_at(x, &ym, &mut fm);
             for r in 0..n {
                 let fd = (fp[r] - fm[r]) / (2.0 * h);
                 let scale = fd.abs().max(j[r][k].abs()).max(1e-10);
@@ -316,6 +396,11 @@ mod tests {
             }
         }
     }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::tests_support::*;
 
     const REACTIONS: &str = "reactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-3 m3/(mol*s)}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 1/s, K_eq: 3}}\n  - {id: r3, stoich: A -> D + E, rate: {law: hyperbolic, k: 0.05 1/s, adsorption: {D: {K: 0.01 m3/mol}}}}\n";
     const SPECIES: &str = "name: t\nspecies: {A: {}, B: {}, C: {}, D: {}, E: {}, I: {}}\n";
@@ -350,5 +435,55 @@ mod tests {
         );
         let pbr = "name: t\nspecies: {A: {}, B: {}, C: {}, D: {}, E: {}, I: {}}\nphase: gas\nreactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-6 m6/(mol*kg*s)}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 m3/(kg*s), K_eq: 3}}\nfeed: {T: 500 K, P: 5 bar, flows: {A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}\nreactor: {type: pbr, catalyst: 10 kg, pressure_drop: {alpha: 0.01 1/kg}}\n";
         fd_check(pbr, &[0.8, 0.5, 0.3, 0.2, 0.1, 0.4, 0.7]);
+    }
+}
+
+#[cfg(test)]
+mod energy_tests {
+    use super::tests_support::*;
+
+    const CP: &str = "name: t\nspecies: {A: {cp: 150 J/(mol*K)}, B: {cp: 90 J/(mol*K)}, C: {cp: 120 J/(mol*K)}, D: {cp: 60 J/(mol*K)}, E: {cp: 40 J/(mol*K)}, I: {cp: 30 J/(mol*K)}}\n";
+    const REACTIONS: &str = "reactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-3 m3/(mol*s), Ea: 60 kJ/mol, T_ref: 450 K, dH: -90 kJ/mol}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 1/s, Ea: 40 kJ/mol, K_eq: 3, dH: -30 kJ/mol}}\n  - {id: r3, stoich: A -> D + E, rate: {law: hyperbolic, k: 0.05 1/s, Ea: 80 kJ/mol, dH: 20 kJ/mol, adsorption: {D: {K: 0.01 m3/mol, dH: -10 kJ/mol}}}}\n";
+
+    /// The Jacobians of the energy balances (T, coolant stream, pressure, gas scaling, batch
+    /// internal energy, jacket ramp) against central finite differences (common practice).
+    #[test]
+    fn energy_jacobians_match_finite_differences() {
+        let y = [0.8, 0.5, 0.3, 0.2, 0.1, 0.4];
+        let with = |extra: &[f64]| [&y[..], extra].concat();
+        fd_check(
+            &format!(
+                "{CP}phase: liquid\n{REACTIONS}feed: {{T: 300 K, volumetric: 2 L/s, flows: {{A: 1 mol/s, B: 1 mol/s}}}}\nreactor: {{type: pfr, volume: 1 m3, heat: adiabatic}}\n"
+            ),
+            &with(&[470.0]),
+        );
+        fd_check(
+            &format!(
+                "{CP}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor: {{type: pfr, volume: 1 m3, heat: {{U: 100 W/(m2*K), area: 50 m2/m3, coolant: {{T_in: 450 K, mass_flow: 0.5 kg/s, cp: 4 kJ/(kg*K), direction: counter_current}}}}}}\n"
+            ),
+            &with(&[520.0, 470.0]),
+        );
+        fd_check(
+            &format!(
+                "{CP}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, amounts: {{A: 1 mol, B: 1 mol, I: 1 mol}}}}\nreactor: {{type: batch, time: 1 h, mode: constant_pressure, heat: {{UA: 20 W/K, coolant: {{T: 480 K}}}}}}\n"
+            ),
+            &with(&[520.0]),
+        );
+        fd_check(
+            &format!(
+                "{CP}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, amounts: {{A: 1 mol, B: 1 mol, I: 1 mol}}}}\nreactor: {{type: batch, time: 1 h, volume: 24.9433 L, heat: {{UA: 20 W/K, coolant: {{T: 400 K, ramp: 1 K/min, T_final: 520 K}}}}}}\n"
+            ),
+            &with(&[520.0]),
+        );
+        fd_check(
+            &format!(
+                "name: t\nspecies: {{A: {{}}, B: {{}}, C: {{}}, D: {{}}, E: {{}}, I: {{}}}}\nphase: liquid\n{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor: {{type: batch, time: 1 h, volume: 3 L, heat: {{mixture_cp: 3.9 kJ/(kg*K), density: 900 kg/m3}}}}\n"
+            ),
+            &with(&[330.0]),
+        );
+        let pbr = format!(
+            "{CP}phase: gas\nreactions:\n  - {{id: r1, stoich: A + B -> 2 C, rate: {{k: 1e-6 m6/(mol*kg*s), Ea: 50 kJ/mol, dH: -50 kJ/mol}}}}\n  - {{id: r2, stoich: C <=> D, rate: {{k: 0.2 m3/(kg*s), K_eq: 3, dH: -20 kJ/mol}}}}\nfeed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor: {{type: pbr, catalyst: 10 kg, pressure_drop: {{alpha: 0.01 1/kg}}, heat: {{UA: 30 W/(kg*K), coolant: {{T_in: 480 K, mass_flow: 0.2 kg/s, cp: 2 kJ/(kg*K), direction: co_current}}}}}}\n"
+        );
+        fd_check(&pbr, &with(&[0.7, 530.0, 490.0]));
     }
 }

@@ -36,10 +36,12 @@
 //! inlet stream to an outlet stream unit by unit, mixing points and side feeds being streams too.
 
 mod balance;
+mod energy;
 mod ergun;
 mod state;
 
 pub use balance::Balance;
+pub use energy::Energy;
 pub use ergun::ergun_alpha;
 pub use state::{StateKind, StateLayout, StateVar};
 
@@ -47,10 +49,10 @@ pub use state::{StateKind, StateLayout, StateVar};
 pub trait Model {
     /// What each entry of the state is.
     fn layout(&self) -> &StateLayout;
-    /// dy/dx at state y.
-    fn rhs(&self, y: &[f64], dydx: &mut [f64]);
-    /// ∂(dy/dx)/∂y at state y as (row, column, value) triplets; duplicates add. The sparse
+    /// dy/dx at position x (V, W or t) and state y.
+    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]);
+    /// ∂(dy/dx)/∂y at x and state y as (row, column, value) triplets; duplicates add. The sparse
     /// solvers fix their pattern from the first call, so every structural entry is emitted,
     /// zero or not.
-    fn jacobian(&self, y: &[f64], out: &mut Vec<(usize, usize, f64)>);
+    fn jacobian(&self, x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>);
 }

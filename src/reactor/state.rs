@@ -11,6 +11,10 @@ pub enum StateKind {
     Species(usize),
     /// The pressure ratio p = P/P0 of a packed bed with pressure drop (dimensionless).
     PressureRatio,
+    /// The temperature of the reacting mixture (K), when the model has an energy balance.
+    Temperature,
+    /// The temperature of a coolant stream along a tube (K).
+    CoolantTemperature,
 }
 
 /// One entry of the state vector.
@@ -53,6 +57,16 @@ impl StateLayout {
                     kind: *kind,
                     name: "P/P0".into(),
                     unit: "1",
+                },
+                StateKind::Temperature => StateVar {
+                    kind: *kind,
+                    name: "T".into(),
+                    unit: "K",
+                },
+                StateKind::CoolantTemperature => StateVar {
+                    kind: *kind,
+                    name: "T_a".into(),
+                    unit: "K",
                 },
             });
         }

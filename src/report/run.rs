@@ -24,6 +24,12 @@ use std::fmt::Write;
 pub struct ProfilePoint {
     pub x: f64,
     pub state: IndexMap<String, f64>,
+    /// Temperature, K, where it varies (energy balance).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub temperature: Option<f64>,
+    /// Coolant temperature, K, where it varies (a coolant stream, a batch jacket ramp).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub coolant_temperature: Option<f64>,
     /// Pressure, Pa, where it varies (packed bed with pressure drop, constant-volume gas batch).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pressure: Option<f64>,
@@ -119,13 +125,6 @@ pub struct SteadyStatesReport {
     pub note: Option<String>,
 }
 
-fn pressure_ratio(net: &Network, sim: &Simulation, k: usize) -> f64 {
-    sim.pressure
-        .as_ref()
-        .map(|p| p[k] / net.feed.pressure)
-        .unwrap_or(1.0)
-}
-
 /// Pressure and volumetric flow (flow reactors) or volume (batch) of profile point `k`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Conditions {
@@ -145,7 +144,8 @@ pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
             volumetric: feed.volumetric,
         };
     }
-    let n_rt = sim.states[k].iter().sum::<f64>() * GAS_CONSTANT * feed.temperature;
+    let n_rt =
+        sim.states[k].iter().sum::<f64>() * GAS_CONSTANT * sim.temperature_at(k, feed.temperature);
     match net.reactor {
         Reactor::Batch {
             mode: BatchMode::ConstantVolume,
@@ -165,6 +165,34 @@ pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
             pressure: p_local,
             volumetric: n_rt / p_local,
         },
+    }
+}
+
+/// Whether the coolant temperature varies along a batch (a jacket ramp) without being a state.
+fn coolant_varies(net: &Network) -> bool {
+    matches!(
+        net.heat.balance().and_then(|e| e.exchange.as_ref()),
+        Some(crate::model::Exchange {
+            coolant: crate::model::Coolant::Ramp { .. },
+            ..
+        })
+    )
+}
+
+/// The coolant temperature at profile point k where it varies: a coolant stream's state, or
+/// a batch jacket's ramp.
+pub fn coolant_temperature(net: &Network, sim: &Simulation, k: usize) -> Option<f64> {
+    if let Some(t) = &sim.coolant {
+        return Some(t[k]);
+    }
+    match net.heat.balance().and_then(|e| e.exchange.as_ref()) {
+        Some(
+            x @ crate::model::Exchange {
+                coolant: crate::model::Coolant::Ramp { .. },
+                ..
+            },
+        ) => Some(x.coolant.temperature_at(sim.x[k])),
+        _ => None,
     }
 }
 
@@ -223,10 +251,7 @@ pub fn build(
             .collect()
     };
     let last = sim.x.len() - 1;
-    let mut y = out.to_vec();
-    if balance.has_pressure() {
-        y.push(pressure_ratio(net, sim, last));
-    }
+    let y = sim.model_state(last, net.feed.pressure);
     let mut c = Vec::new();
     balance.concentrations(&y, &mut c);
     let (p_varies, v_varies) = varying(net, sim);
@@ -240,12 +265,13 @@ pub fn build(
                 let inst = metrics::instantaneous_selectivity(
                     net,
                     balance,
-                    &sim.states[k],
-                    pressure_ratio(net, sim, k),
+                    &sim.model_state(k, net.feed.pressure),
                 );
                 ProfilePoint {
                     x: *x,
                     state: names(&sim.states[k]),
+                    temperature: sim.temperature.as_ref().map(|t| t[k]),
+                    coolant_temperature: coolant_temperature(net, sim, k),
                     pressure: p_varies.then_some(cond.pressure),
                     volumetric_flow: (v_varies && !batch).then_some(cond.volumetric),
                     volume: (v_varies && batch).then_some(cond.volumetric),
@@ -641,6 +667,12 @@ pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String
     if v_varies {
         let _ = write!(o, "{}", if batch { ",V [m3]" } else { ",v [m3/s]" });
     }
+    if sim.temperature.is_some() {
+        let _ = write!(o, ",T [K]");
+    }
+    if sim.coolant.is_some() || coolant_varies(net) {
+        let _ = write!(o, ",T_coolant [K]");
+    }
     if let Some(d) = net.desired {
         let name = &net.species[d].name;
         for u in metrics::products(net).into_iter().filter(|&u| u != d) {
@@ -671,12 +703,17 @@ pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String
         if v_varies {
             let _ = write!(o, ",{:.12e}", cond.volumetric);
         }
+        if let Some(t) = &sim.temperature {
+            let _ = write!(o, ",{:.12e}", t[k]);
+        }
+        if let Some(ta) = coolant_temperature(net, sim, k) {
+            let _ = write!(o, ",{ta:.12e}");
+        }
         if net.desired.is_some() {
             let inst = metrics::instantaneous_selectivity(
                 net,
                 balance,
-                &sim.states[k],
-                pressure_ratio(net, sim, k),
+                &sim.model_state(k, net.feed.pressure),
             );
             for s in &inst {
                 opt(&mut o, s.value);

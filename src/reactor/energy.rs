@@ -1,0 +1,372 @@
+//! The energy balance of a non-isothermal reactor: temperature (and a coolant stream's
+//! temperature) as states beside the species.
+//!
+//! With y the species state, x the reactor coordinate (V, W or t) and σ the rate scale of
+//! [`super`]'s table:
+//!
+//! ```text
+//! dT/dx   = [Q + Σ_i σ r_i (−ΔE_i(T))] / Σ_j y_j (Cp_j(T) − u R)
+//! Q       = Ua (T_a − T)                       (0 when adiabatic)
+//! ΔE_i(T) = ΔH_i(T) − u R T Σ_j ν_ij,   ΔH_i(T) = h_i + Σ_j ν_ij H_j(T),   H_j = ∫ Cp_j dT
+//! dT_a/dx = ± Ua (T − T_a)/(ṁ_c c_p,c)          (+ co-current, − counter-current)
+//! ```
+//!
+//! u = 1 in a constant-volume gas batch (the internal-energy balance of a closed vessel, with
+//! Cv = Cp − R of an ideal gas), else 0: flowing streams and a constant-pressure batch carry
+//! enthalpy, and for a liquid Cv ≈ Cp and ΔU ≈ ΔH (incompressible; common practice). ΔH_i(T)
+//! is Kirchhoff's law, ΔH_i(T) = ΔH_i(T_ref) + ∫_{T_ref}^{T} ΔCp_i dT, written with one
+//! constant h_i per reaction so that a single pass over the species' H_j(T) gives every
+//! reaction's enthalpy, and Σ_j F_j H_j + ∫Q is conserved along the reactor exactly
+//! (Fogler, Elements of Chemical Reaction Engineering, ch. 11–12; Levenspiel, Chemical
+//! Reaction Engineering, ch. 9; both from memory). With a liquid mixture heat capacity per
+//! volume c_v the denominator is c_v v0 (flow) or c_v V (batch) and ΔCp = 0. For a gas the
+//! concentrations follow the local temperature, C_j = C_T0 p (T0/T) F_j/F_T, and the packed
+//! bed's pressure gradient carries the factor T/T0.
+
+use crate::model::{BatchMode, Coolant, Heat, Network, Phase, Reactor};
+use crate::thermo::{HeatCapacity, T_STANDARD};
+use crate::units::GAS_CONSTANT;
+
+/// The energy-balance data of one reactor.
+#[derive(Debug, Clone)]
+pub struct Energy {
+    /// Cp of each species; `None` for species that are never present (or with a mixture
+    /// heat capacity).
+    pub(super) cp: Vec<Option<HeatCapacity>>,
+    /// Heat capacity rate of a liquid mixture (W/K) or of a batch charge (J/K), when given in
+    /// place of species data.
+    pub(super) mixture: Option<f64>,
+    /// h_i of ΔH_i(T) = h_i + Σ_j ν_ij H_j(T) (J/mol).
+    pub(super) offset: Vec<f64>,
+    /// 1 for the internal-energy balance of a constant-volume gas batch, else 0.
+    pub(super) u: f64,
+    /// Ua per unit of reactor size (W/(m3 K), W/(kg K)) or UA (W/K); 0 when adiabatic.
+    pub(super) ua: f64,
+    pub(super) coolant: Option<Coolant>,
+    /// Feed temperature T0 (K).
+    pub(super) t0: f64,
+    /// Whether concentrations scale with T0/T (an ideal gas at fixed pressure).
+    pub(super) gas_scaling: bool,
+    /// Whether σ scales with T/T0 too (constant-pressure gas batch: σ is the volume).
+    pub(super) sigma_scaling: bool,
+}
+
+impl Energy {
+    /// The energy balance of the network's reactor, or `None` when it is isothermal. Fails
+    /// when a needed heat capacity or heat of reaction is missing (the loader checks this for
+    /// study files; a network built in code gets the same message).
+    pub fn new(net: &Network) -> Result<Option<Energy>, String> {
+        let Heat::Balance(e) = &net.heat else {
+            return Ok(None);
+        };
+        let gas = net.phase == Phase::Gas;
+        let (u, sigma_scaling, basis) = match net.reactor {
+            Reactor::Batch { mode, .. } => match (gas, mode) {
+                (true, BatchMode::ConstantVolume) => (1.0, false, net.feed.volumetric),
+                (true, BatchMode::ConstantPressure) => (0.0, true, 0.0),
+                _ => (0.0, false, net.feed.volumetric),
+            },
+            _ => (0.0, false, net.feed.volumetric),
+        };
+        let mixture = e.mixture_cp.map(|c| c * basis);
+        let cp: Vec<Option<HeatCapacity>> = if mixture.is_some() {
+            vec![None; net.species.len()]
+        } else {
+            net.species.iter().map(|s| s.thermo.cp.clone()).collect()
+        };
+        let sensible = |j: usize, t: f64| cp[j].as_ref().map_or(0.0, |c| c.sensible(t));
+        let mut offset = Vec::with_capacity(net.reactions.len());
+        for r in &net.reactions {
+            let h = match r.dh {
+                // ΔH given at the rate's reference temperature.
+                Some(dh) => {
+                    dh - r
+                        .net
+                        .iter()
+                        .map(|&(j, v)| v * sensible(j, r.rate.t_ref))
+                        .sum::<f64>()
+                }
+                // From the species' enthalpies of formation at 298.15 K.
+                None => {
+                    let mut h = 0.0;
+                    for &(j, v) in &r.net {
+                        let Some(hf) = net.species[j].thermo.h_f else {
+                            return Err(format!(
+                                "an energy balance needs the heat of reaction of `{}`: give its `dH` or `H_f` of each species",
+                                r.id
+                            ));
+                        };
+                        h += v * (hf - sensible(j, T_STANDARD));
+                    }
+                    h
+                }
+            };
+            offset.push(h);
+        }
+        if mixture.is_none() {
+            let fed_or_made =
+                |j: usize| net.feed.amounts[j] > 0.0 || net.reactions.iter().any(|r| r.nu(j) > 0.0);
+            if let Some(j) = (0..net.species.len()).find(|&j| fed_or_made(j) && cp[j].is_none()) {
+                return Err(format!(
+                    "an energy balance needs the heat capacity of `{}`",
+                    net.species[j].name
+                ));
+            }
+        }
+        let (ua, coolant) = match &e.exchange {
+            None => (0.0, None),
+            Some(x) => (x.ua, Some(x.coolant.clone())),
+        };
+        Ok(Some(Energy {
+            cp,
+            mixture,
+            offset,
+            u,
+            ua,
+            coolant,
+            t0: net.feed.temperature,
+            gas_scaling: gas && !(u == 1.0),
+            sigma_scaling,
+        }))
+    }
+
+    /// Whether the coolant is a stream with its own temperature state.
+    pub fn coolant_stream(&self) -> Option<(f64, f64, bool)> {
+        match self.coolant {
+            Some(Coolant::Stream {
+                inlet,
+                capacity,
+                counter_current,
+            }) => Some((inlet, capacity, counter_current)),
+            _ => None,
+        }
+    }
+
+    /// The coolant temperature at x when it is not a state (constant or ramp).
+    pub(super) fn coolant_at(&self, x: f64) -> f64 {
+        self.coolant
+            .as_ref()
+            .map_or(self.t0, |c| c.temperature_at(x))
+    }
+
+    /// H_j(T) of species j (J/mol; 0 without data).
+    #[inline]
+    pub(super) fn h(&self, j: usize, t: f64) -> f64 {
+        self.cp[j].as_ref().map_or(0.0, |c| c.sensible(t))
+    }
+
+    /// ΔH_i(T) of reaction i with net coefficients `nu`.
+    pub fn reaction_enthalpy(&self, i: usize, nu: &[(usize, f64)], t: f64) -> f64 {
+        self.offset[i] + nu.iter().map(|&(j, v)| v * self.h(j, t)).sum::<f64>()
+    }
+
+    /// Σ_j y_j (Cp_j(T) − u R) (or the mixture's), and its derivative in T.
+    pub(super) fn capacity(&self, y: &[f64], t: f64) -> (f64, f64) {
+        if let Some(m) = self.mixture {
+            return (m, 0.0);
+        }
+        let mut c = 0.0;
+        let mut dc = 0.0;
+        for (yj, cp) in y.iter().zip(&self.cp) {
+            if let Some(cp) = cp {
+                c += yj * (cp.cp(t) - self.u * GAS_CONSTANT);
+                dc += yj * cp.dcp_dt(t);
+            }
+        }
+        (c, dc)
+    }
+
+    /// ∂/∂y_k of the heat capacity sum: Cp_k(T) − u R (0 with a mixture heat capacity).
+    pub(super) fn capacity_slope(&self, k: usize, t: f64) -> f64 {
+        if self.mixture.is_some() {
+            0.0
+        } else {
+            self.cp[k]
+                .as_ref()
+                .map_or(0.0, |cp| cp.cp(t) - self.u * GAS_CONSTANT)
+        }
+    }
+
+    /// Cp_j(T) (0 without data).
+    pub(super) fn cp_at(&self, j: usize, t: f64) -> f64 {
+        self.cp[j].as_ref().map_or(0.0, |c| c.cp(t))
+    }
+
+    /// The species whose heat capacity data hold over a range that T lies outside, with the
+    /// range.
+    pub fn out_of_range(&self, t: f64) -> impl Iterator<Item = (usize, (f64, f64))> + '_ {
+        self.cp.iter().enumerate().filter_map(move |(j, c)| {
+            let (lo, hi) = c.as_ref()?.range()?;
+            (t < lo || t > hi).then_some((j, (lo, hi)))
+        })
+    }
+}
+
+use super::balance::{Balance, Mixture};
+
+impl Balance {
+    /// (κ, σ, S) at state y with the local temperature (see the module notes).
+    pub(super) fn scales_at(&self, e: &Energy, y: &[f64]) -> (f64, f64, f64) {
+        let s: f64 = y[..self.n_species].iter().sum();
+        let t = self.temperature_of(y);
+        let theta = if e.gas_scaling { e.t0 / t } else { 1.0 };
+        match self.mixture {
+            Mixture::Fixed { volume, sigma } => (1.0 / volume, sigma, s),
+            Mixture::GasFlow { c_tot } => (c_tot * theta * self.pressure_ratio(y) / s, 1.0, s),
+            Mixture::GasConstantPressure { c_tot } => (c_tot * theta / s, s / (c_tot * theta), s),
+        }
+    }
+
+    /// The coolant temperature at x and state y.
+    fn coolant_temperature(&self, e: &Energy, x: f64, y: &[f64]) -> f64 {
+        self.coolant_index.map_or_else(|| e.coolant_at(x), |k| y[k])
+    }
+
+    /// dy/dx with the energy balance (module notes).
+    pub(super) fn rhs_energy(&self, e: &Energy, x: f64, y: &[f64], dydx: &mut [f64]) {
+        let n = self.n_species;
+        let ti = self.t_index.expect("an energy balance has T in its state");
+        let t = y[ti];
+        let (kappa, sigma, s) = self.scales_at(e, y);
+        let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
+        let mut at = Vec::new();
+        self.rates.constants(t, &mut at);
+        dydx.iter_mut().for_each(|v| *v = 0.0);
+        // Σ_i σ r_i h_i, then the species' part of ΔE through dy/dx.
+        let mut with_offset = 0.0;
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
+            let r = sigma * self.rates.eval_at(i, &at[i], &c, None, None);
+            with_offset += r * e.offset[i];
+            for &(j, v) in nu {
+                dydx[j] += v * r;
+            }
+        }
+        let urt = e.u * GAS_CONSTANT * t;
+        let mut release = -with_offset;
+        for (j, d) in dydx[..n].iter().enumerate() {
+            if *d != 0.0 {
+                release -= (e.h(j, t) - urt) * d;
+            }
+        }
+        let ta = self.coolant_temperature(e, x, y);
+        let (cap, _) = e.capacity(&y[..n], t);
+        dydx[ti] = (e.ua * (ta - t) + release) / cap;
+        if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
+            let sign = if counter { -1.0 } else { 1.0 };
+            dydx[k] = sign * e.ua * (t - ta) / capacity;
+        }
+        if let Some(alpha) = self.alpha {
+            let p = y[n];
+            dydx[n] = -alpha / (2.0 * p) * (s / self.total0) * (t / e.t0);
+        }
+    }
+
+    /// ∂(dy/dx)/∂y with the energy balance, every structural entry emitted.
+    pub(super) fn jacobian_energy(
+        &self,
+        e: &Energy,
+        x: f64,
+        y: &[f64],
+        out: &mut Vec<(usize, usize, f64)>,
+    ) {
+        let n = self.n_species;
+        let ti = self.t_index.expect("an energy balance has T in its state");
+        let t = y[ti];
+        let p = self.pressure_ratio(y);
+        let (kappa, sigma, s) = self.scales_at(e, y);
+        let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
+        // Uniform-in-k derivatives of κ and σ, and their T derivatives.
+        let (dkappa, dsigma) = match self.mixture {
+            Mixture::Fixed { .. } => (0.0, 0.0),
+            Mixture::GasFlow { .. } => (-kappa / s, 0.0),
+            Mixture::GasConstantPressure { .. } => (-kappa / s, sigma / s),
+        };
+        let dkappa_dt = if e.gas_scaling { -kappa / t } else { 0.0 };
+        let dsigma_dt = if e.sigma_scaling { sigma / t } else { 0.0 };
+        let mut at = Vec::new();
+        self.rates.constants(t, &mut at);
+        let urt = e.u * GAS_CONSTANT * t;
+        let ur = e.u * GAS_CONSTANT;
+        let mut uniform = vec![0.0; n];
+        let mut col_t = vec![0.0; n];
+        let mut col_p = vec![0.0; n];
+        let mut energy_row = vec![0.0; n];
+        let mut energy_uniform = 0.0;
+        let (mut release, mut release_dt, mut release_dp) = (0.0, 0.0, 0.0);
+        let mut grad = Vec::new();
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
+            let mut dr_dt = 0.0;
+            let r = self
+                .rates
+                .eval_at(i, &at[i], &c, Some(&mut grad), Some(&mut dr_dt));
+            let a: f64 = grad.iter().map(|&(m, g)| g * y[m]).sum();
+            // Total ∂r/∂T: explicit, and through κ(T).
+            let dr_dt = dr_dt + a * dkappa_dt;
+            let mut de = e.offset[i];
+            let mut de_dt = 0.0;
+            for &(j, v) in nu {
+                de += v * (e.h(j, t) - urt);
+                de_dt += v * (e.cp_at(j, t) - ur);
+                for &(k, g) in &grad {
+                    out.push((j, k, sigma * v * g * kappa));
+                }
+                uniform[j] += sigma * v * a * dkappa + dsigma * v * r;
+                col_t[j] += v * (sigma * dr_dt + dsigma_dt * r);
+                col_p[j] += sigma * v * a * kappa / p;
+            }
+            release -= sigma * r * de;
+            for &(k, g) in &grad {
+                energy_row[k] -= de * sigma * g * kappa;
+            }
+            energy_uniform -= de * (sigma * a * dkappa + dsigma * r);
+            release_dt -= de * (sigma * dr_dt + dsigma_dt * r) + sigma * r * de_dt;
+            release_dp -= de * sigma * a * kappa / p;
+        }
+        for &j in &self.reactive {
+            for k in 0..n {
+                out.push((j, k, uniform[j]));
+            }
+            out.push((j, ti, col_t[j]));
+        }
+        let ta = self.coolant_temperature(e, x, y);
+        let (cap, dcap_dt) = e.capacity(&y[..n], t);
+        let f_t = (e.ua * (ta - t) + release) / cap;
+        for (k, row) in energy_row.iter().enumerate() {
+            out.push((
+                ti,
+                k,
+                (row + energy_uniform - f_t * e.capacity_slope(k, t)) / cap,
+            ));
+        }
+        out.push((ti, ti, (-e.ua + release_dt - f_t * dcap_dt) / cap));
+        if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
+            let sign = if counter { -1.0 } else { 1.0 };
+            out.push((ti, k, e.ua / cap));
+            out.push((k, ti, sign * e.ua / capacity));
+            out.push((k, k, -sign * e.ua / capacity));
+        }
+        if let Some(alpha) = self.alpha {
+            for &j in &self.reactive {
+                out.push((j, n, col_p[j]));
+            }
+            out.push((ti, n, release_dp / cap));
+            // dp/dW = −α S T / (2 p S0 T0).
+            let f_p = -alpha / (2.0 * p) * (s / self.total0) * (t / e.t0);
+            for k in 0..n {
+                out.push((n, k, f_p / s));
+            }
+            out.push((n, n, -f_p / p));
+            out.push((n, ti, f_p / t));
+        }
+    }
+}
