@@ -11,7 +11,8 @@
 //!   stability and the ignition and extinction temperatures;
 //! - tests/reference/heat_cooled_pfr.py: PFRs with a coolant stream (co-current by solve_ivp,
 //!   counter-current by solve_bvp checked by shooting) and a cooled series scheme;
-//! - tests/reference/heat_batch.py: a jacketed liquid batch and constant-volume gas batches.
+//! - tests/reference/heat_batch.py: a jacketed liquid batch (constant and ramped jacket) and
+//!   constant-volume gas batches.
 //!
 //! "Fogler" is H. S. Fogler, Elements of Chemical Reaction Engineering (ch. 11-13);
 //! "Levenspiel" is O. Levenspiel, Chemical Reaction Engineering, 3rd ed. (ch. 9); both quoted
@@ -607,6 +608,27 @@ fn jacketed_liquid_batch_matches_scipy() {
     let j = run_profile("jacket-batch", case);
     let mut a = Agreement::new("jacketed liquid batch vs scipy Radau (heat_batch.py)");
     profile_against_fixture(&mut a, &j, case, 1e-7);
+    a.report();
+}
+
+#[test]
+fn ramped_jacket_batch_matches_scipy() {
+    // T_a(t) = min(T_a,0 + rate t, T_a,final); the script integrates the two pieces apart
+    // at the kink (heat_batch.py, Radau rtol 1e-11).
+    let fx = fixture("heat_batch");
+    let case = &fx["liquid_jacket_ramp"];
+    let j = run_profile("ramp-batch", case);
+    let mut a = Agreement::new("liquid batch with a ramped jacket vs scipy Radau (heat_batch.py)");
+    profile_against_fixture(&mut a, &j, case, 1e-7);
+    let ta = fv(&case["coolant_T"], "coolant_T");
+    for (k, q) in profile(&j).iter().enumerate() {
+        a.check(
+            point_coolant_t(q),
+            ta[k],
+            1e-12,
+            &format!("jacket T at point {k}"),
+        );
+    }
     a.report();
 }
 

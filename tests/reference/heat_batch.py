@@ -8,6 +8,11 @@ constant species cp, cp_A = cp_B (Fogler ch. 13, Levenspiel ch. 9; from memory):
     dN_A/dt = -r V,  r = k(T) C_A,  C_A = N_A / V (constant volume),
     dT/dt = [UA (T_a - T) + r V (-dH)] / sum_j N_j cp_j.
 
+Case 6d, the same liquid charge with the jacket temperature ramped (heat-format: `coolant:
+    {T: start, ramp: rate, T_final: end}`): T_a(t) = min(T_a,0 + rate t, T_a,final). The
+    right-hand side has a kink where the ramp stops, so the integration is split there (two
+    solve_ivp Radau runs at rtol 1e-11, the second started from the end of the first).
+
 Case 6b/6c, gas A -> 2 B with an inert N in a closed vessel of fixed volume (ideal gas).
     At constant volume the energy balance is on the internal energy (docs heat-format: Cv_j =
     Cp_j - R and dU_i = dH_i - R T sum_j nu_ij; ideal gas, any thermodynamics text, from
@@ -75,6 +80,54 @@ solver: {{rtol: 1e-10}}
     return {"study": study, "points": N_POINTS, "x": x.tolist(),
             "conversion": (1.0 - y[:, 0] / na0).tolist(), "T": y[:, 1].tolist(),
             "dT_ad": -L_DH * na0 / cap, "check_dop853": d}
+
+
+# ---- 6d: liquid, ramped jacket (demo values) ----
+R_TA0, R_RATE, R_TAF = 290.0, 0.02, 330.0     # K, K/s (1.2 K/min), K
+
+
+def liquid_ramp():
+    from scipy.integrate import solve_ivp
+    na0, ns0 = L_CA0 * L_VOL, L_CS0 * L_VOL
+    cap = na0 * L_CP["A"] + ns0 * L_CP["S"]
+    t_kink = (R_TAF - R_TA0) / R_RATE
+
+    def f(t, y):
+        na, temp = y
+        ta = min(R_TA0 + R_RATE * t, R_TAF)
+        rv = arrhenius(L_K, L_EA, L_TREF, temp) * na
+        return [-rv, (L_UA * (ta - temp) + rv * (-L_DH)) / cap]
+
+    atol = [1e-14 * na0, 1e-12]
+    first = solve_ivp(f, (0.0, t_kink), [na0, L_T0], method="Radau", rtol=1e-11, atol=atol,
+                      dense_output=True)
+    second = solve_ivp(f, (t_kink, L_TIME), first.y[:, -1], method="Radau", rtol=1e-11,
+                       atol=atol, dense_output=True)
+    assert first.success and second.success
+    x = np.linspace(0.0, L_TIME, N_POINTS)
+    y = np.array([first.sol(t) if t <= t_kink else second.sol(t) for t in x])
+    study = f"""name: liquid batch with a ramped jacket (demo values)
+phase: liquid
+species:
+  A: {{cp: {num(L_CP['A'])} J/(mol*K)}}
+  B: {{cp: {num(L_CP['B'])} J/(mol*K)}}
+  S: {{cp: {num(L_CP['S'])} J/(mol*K)}}
+reactions:
+  - {{id: r1, stoich: A -> B, rate: {{k: {num(L_K)} 1/s, Ea: {num(L_EA)} J/mol, T_ref: {num(L_TREF)} K, dH: {num(L_DH)} J/mol}}}}
+feed: {{T: {num(L_T0)} K, concentrations: {{A: {num(L_CA0)} mol/m3, S: {num(L_CS0)} mol/m3}}}}
+reactor:
+  type: batch
+  volume: {num(L_VOL)} m3
+  time: {num(L_TIME)} s
+  heat:
+    UA: {num(L_UA)} W/K
+    coolant: {{T: {num(R_TA0)} K, ramp: {num(R_RATE)} K/s, T_final: {num(R_TAF)} K}}
+key: A
+solver: {{rtol: 1e-10}}
+"""
+    return {"study": study, "points": N_POINTS, "x": x.tolist(),
+            "conversion": (1.0 - y[:, 0] / na0).tolist(), "T": y[:, 1].tolist(),
+            "coolant_T": [min(R_TA0 + R_RATE * t, R_TAF) for t in x], "ramp_ends_at": t_kink}
 
 
 # ---- 6b/6c: gas at constant volume (demo values) ----
@@ -152,6 +205,7 @@ print(json.dumps({
     "command": "python3 tests/reference/heat_batch.py > tests/reference/heat_batch.json",
     "R": R,
     "liquid_jacket": liquid(),
+    "liquid_jacket_ramp": liquid_ramp(),
     "gas_constant_volume": {"volume": G_VOL, "sum_nu": SUM_NU, "adiabatic": adiabatic,
                             "jacket": jacket},
 }, indent=1))
