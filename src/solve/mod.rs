@@ -113,6 +113,12 @@ pub struct Simulation {
     pub temperature: Option<Vec<f64>>,
     /// Coolant stream temperature at each point (K), where it is a state.
     pub coolant: Option<Vec<f64>>,
+    /// The highest and lowest temperature over the whole reactor and where, located between
+    /// the integrator's steps (energy balance only; the profile points may miss them).
+    pub temperature_range: Option<ode::Extreme>,
+    /// Batch with an energy balance: the extremes of T + ΔT_ad N_k/N_k0, the temperature the
+    /// charge would reach if the cooling failed (see [`crate::safety`]).
+    pub cooling_failure: Option<ode::Extreme>,
     /// Warnings about the solution that do not make it wrong, each a sentence (heat-capacity
     /// data used outside their range, with the species, T and where).
     pub warnings: Vec<String>,
@@ -368,6 +374,8 @@ pub fn simulate_with(
             pressure: None,
             temperature: None,
             coolant: None,
+            temperature_range: None,
+            cooling_failure: None,
             warnings: Vec::new(),
             stats,
             steady: Some(CstrSteadyStates {
@@ -391,32 +399,45 @@ pub fn simulate_with(
             Points::Steps => Output::Steps,
         };
         let reactor = reactor_name(net);
-        let sol =
-            ode::integrate(&Adapter(balance), &y0, size, &out, &ode_opts).map_err(|source| {
-                let x = source.position().unwrap_or(0.0);
-                if balance.has_pressure() && x > 0.0 {
-                    // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
-                    let before = ode::integrate(
-                        &Adapter(balance),
-                        &y0,
-                        x * (1.0 - 1e-6),
-                        &Output::End,
-                        &ode_opts,
-                    );
-                    if let Ok(sol) = before
-                        && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
-                    {
-                        return SolveError::PressureCollapse { w: x };
+        // With an energy balance, watch T (and a batch's cooling-failure temperature) for
+        // their extremes between steps.
+        let mut watch: Vec<ode::Functional> = Vec::new();
+        if let (Some(ti), Some(e)) = (balance.temperature_index(), balance.energy()) {
+            watch.push(vec![(ti, 1.0)]);
+            let k = net.key;
+            let n_k0 = net.feed.amounts[k];
+            if net.reactor.is_batch() && n_k0 > 0.0 {
+                let (rise, _) = e.adiabatic_rise(net);
+                watch.push(vec![(ti, 1.0), (k, rise / n_k0)]);
+            }
+        }
+        let (sol, _) =
+            ode::integrate_watching(&Adapter(balance), &y0, size, &out, &ode_opts, &watch)
+                .map_err(|source| {
+                    let x = source.position().unwrap_or(0.0);
+                    if balance.has_pressure() && x > 0.0 {
+                        // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
+                        let before = ode::integrate(
+                            &Adapter(balance),
+                            &y0,
+                            x * (1.0 - 1e-6),
+                            &Output::End,
+                            &ode_opts,
+                        );
+                        if let Ok(sol) = before
+                            && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
+                        {
+                            return SolveError::PressureCollapse { w: x };
+                        }
                     }
-                }
-                SolveError::Integration {
-                    reactor,
-                    x_name,
-                    x_unit,
-                    x,
-                    source,
-                }
-            })?;
+                    SolveError::Integration {
+                        reactor,
+                        x_name,
+                        x_unit,
+                        x,
+                        source,
+                    }
+                })?;
         stats.steps = sol.stats.steps;
         stats.rhs_evals = sol.stats.rhs_evals;
         stats.jac_evals = sol.stats.jac_evals;
@@ -435,6 +456,8 @@ pub fn simulate_with(
         {
             return Err(SolveError::PressureCollapse { w: sol.x[k] });
         }
+        let temperature_range = sol.extremes.first().copied();
+        let cooling_failure = sol.extremes.get(1).copied();
         let column = |i: Option<usize>| i.map(|i| sol.y.iter().map(|y| y[i]).collect::<Vec<f64>>());
         let temperature = column(balance.temperature_index());
         let coolant = column(balance.coolant_index());
@@ -456,6 +479,8 @@ pub fn simulate_with(
             size,
             temperature,
             coolant,
+            temperature_range,
+            cooling_failure,
             warnings,
             x: sol.x,
             states: sol
@@ -602,18 +627,37 @@ fn study_error(net: &Network, length: f64, source: OdeError) -> SolveError {
     }
 }
 
-/// Integrate the (autonomous, isothermal) balances from state `y0` over a length `length` of
-/// the reactor and return the end state (full state: species, then p where modelled).
+/// A model seen from position `x0` of the reactor: the integrator's x = 0 is the reactor's
+/// x0 (a batch whose jacket follows a ramp is not autonomous, so a restart mid-way must keep
+/// the clock).
+struct Shifted<'a, M: Model>(&'a M, f64);
+
+impl<M: Model> OdeSystem for Shifted<'_, M> {
+    fn dim(&self) -> usize {
+        self.0.layout().len()
+    }
+    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
+        self.0.rhs(self.1 + x, y, dydx)
+    }
+    fn jacobian(&self, x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+        self.0.jacobian(self.1 + x, y, out)
+    }
+}
+
+/// Integrate the balances from state `y0` at position `x0` over a length `length` of the
+/// reactor and return the end state (full state: species, then p, T and the coolant
+/// temperature where modelled).
 pub fn advance(
     net: &Network,
     balance: &Balance,
     y0: &[f64],
+    x0: f64,
     length: f64,
     opts: &SolveOptions,
 ) -> Result<Vec<f64>, SolveError> {
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
-    let sol = ode::integrate(&Adapter(balance), y0, length, &Output::End, &o)
+    let sol = ode::integrate(&Shifted(balance, x0), y0, length, &Output::End, &o)
         .map_err(|e| study_error(net, length, e))?;
     Ok(sol
         .y
@@ -622,21 +666,23 @@ pub fn advance(
         .clone())
 }
 
-/// Integrate from `y0` over `length` until g(y) crosses zero. Returns the crossing (distance
-/// from the start, full state) if any, and the last state reached.
+/// Integrate from `y0` at position `x0` over `length` until g(x, y) crosses zero (x the
+/// reactor position). Returns the crossing (distance from `x0`, full state) if any, and the
+/// last state reached.
 #[allow(clippy::type_complexity)]
 pub fn trace_root(
     net: &Network,
     balance: &Balance,
     y0: &[f64],
+    x0: f64,
     length: f64,
-    g: &dyn Fn(&[f64]) -> f64,
+    g: &dyn Fn(f64, &[f64]) -> f64,
     opts: &SolveOptions,
 ) -> Result<(Option<(f64, Vec<f64>)>, Vec<f64>), SolveError> {
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
-    let gx = |_x: f64, y: &[f64]| g(y);
-    let (sol, root) = ode::integrate_until_root(&Adapter(balance), &gx, y0, length, &o)
+    let gx = |x: f64, y: &[f64]| g(x0 + x, y);
+    let (sol, root) = ode::integrate_until_root(&Shifted(balance, x0), &gx, y0, length, &o)
         .map_err(|e| study_error(net, length, e))?;
     let last = sol
         .y
