@@ -8,6 +8,13 @@ constant species cp, cp_A = cp_B (Fogler ch. 13, Levenspiel ch. 9; from memory):
     dN_A/dt = -r V,  r = k(T) C_A,  C_A = N_A / V (constant volume),
     dT/dt = [UA (T_a - T) + r V (-dH)] / sum_j N_j cp_j.
 
+  The cooling-failure temperature (the temperature the charge would reach if cooling failed
+  at time t; heat-format/issue: T + dT_ad (1 - X), dT_ad = (-dH) N_A0 / sum_j N_j0 cp_j): its
+  time derivative is dT/dt - dT_ad dX/dt = UA (T_a - T) / sum_j N_j cp_j (dCp = 0), so it
+  rises while T < T_a and falls after: its maximum over the batch is where T first reaches
+  T_a from below (a solve_ivp event on T - T_a, rising), and there it equals
+  T_a + dT_ad (1 - X) (the end of the batch when T never reaches T_a).
+
 Case 6d, the same liquid charge with the jacket temperature ramped (heat-format: `coolant:
     {T: start, ramp: rate, T_final: end}`): T_a(t) = min(T_a,0 + rate t, T_a,final). The
     right-hand side has a kink where the ramp stops, so the integration is split there (two
@@ -57,7 +64,20 @@ def liquid():
         rv = arrhenius(L_K, L_EA, L_TREF, t) * na
         return [-rv, (L_UA * (L_TA - t) + rv * (-L_DH)) / cap]
 
-    x, y, d, _ = integrate(f, L_TIME, [na0, L_T0], N_POINTS)
+    crossing = lambda _t, y: y[1] - L_TA
+    crossing.direction = 1.0
+    x, y, d, sol = integrate(f, L_TIME, [na0, L_T0], N_POINTS, events=crossing)
+    dt_ad = -L_DH * na0 / cap
+    if len(sol.t_events[0]) > 0:
+        t_cf, y_cf = float(sol.t_events[0][0]), sol.y_events[0][0]
+    else:
+        t_cf, y_cf = L_TIME, y[-1]
+    cooling_failure = {"temperature": float(y_cf[1] + dt_ad * y_cf[0] / na0), "at": t_cf}
+    # the same figure on a fine grid of the dense output, as a check of the event
+    grid = np.linspace(0.0, L_TIME, 400001)
+    yy = sol.sol(grid)
+    cf = yy[1] + dt_ad * yy[0] / na0
+    assert abs(cf.max() - cooling_failure["temperature"]) < 1e-6, (cf.max(), cooling_failure)
     study = f"""name: jacketed liquid batch A -> B (demo values)
 phase: liquid
 species:
@@ -79,7 +99,7 @@ solver: {{rtol: 1e-10}}
 """
     return {"study": study, "points": N_POINTS, "x": x.tolist(),
             "conversion": (1.0 - y[:, 0] / na0).tolist(), "T": y[:, 1].tolist(),
-            "dT_ad": -L_DH * na0 / cap, "check_dop853": d}
+            "dT_ad": dt_ad, "cooling_failure": cooling_failure, "check_dop853": d}
 
 
 # ---- 6d: liquid, ramped jacket (demo values) ----
