@@ -76,6 +76,9 @@ struct Compiled {
     forward: Vec<Factor>,
     /// (K_ref, ΔH for van't Hoff, reverse factors).
     reverse: Option<(f64, f64, Vec<Factor>)>,
+    /// K(T) from the reaction's thermochemistry when it is more than van't Hoff with a
+    /// constant ΔH: Kirchhoff's ΔH(T) with ΔCp, or ΔG° of the species ([`crate::thermo`]).
+    keq_thermo: Option<crate::thermo::ReactionThermo>,
     /// (K_m,ref, ΔH_m, factor) terms and the power n.
     denominator: Option<(Vec<AdsorptionTerm>, f64)>,
     /// Species whose concentration this rate depends on (sorted, unique).
@@ -290,16 +293,18 @@ impl Compiled {
                 });
         AtTemperature {
             k: arrhenius(self.k_ref, self.ea, self.t_ref, t),
-            inv_k_eq: self
-                .reverse
-                .as_ref()
-                .map_or(0.0, |(k, dh, _)| 1.0 / arrhenius(*k, *dh, self.t_ref, t)),
+            inv_k_eq: match (&self.reverse, &self.keq_thermo) {
+                (None, _) => 0.0,
+                (Some(_), Some(th)) => (-th.ln_k(t).unwrap_or(f64::NAN)).exp(),
+                (Some((k, dh, _)), None) => 1.0 / arrhenius(*k, *dh, self.t_ref, t),
+            },
             k_ads,
             dlnk: log_slope(self.ea, t),
-            dln_keq: self
-                .reverse
-                .as_ref()
-                .map_or(0.0, |(_, dh, _)| log_slope(*dh, t)),
+            dln_keq: match (&self.reverse, &self.keq_thermo) {
+                (None, _) => 0.0,
+                (Some(_), Some(th)) => th.d_ln_k_dt(t).unwrap_or(f64::NAN),
+                (Some((_, dh, _)), None) => log_slope(*dh, t),
+            },
             dln_kads,
         }
     }
@@ -316,7 +321,8 @@ impl RateSet {
         let laws: Vec<Compiled> = net
             .reactions
             .iter()
-            .map(|r| {
+            .enumerate()
+            .map(|(i, r)| {
                 let law = &r.rate;
                 let mut forward: Vec<Factor> =
                     law.orders.iter().map(|&(j, e)| factor(j, e)).collect();
@@ -367,12 +373,20 @@ impl RateSet {
                 if let Some((terms, _)) = &mut denominator {
                     terms.iter_mut().for_each(|(_, _, f)| slot_of(f));
                 }
+                // van't Hoff with a constant ΔH unless ΔCp or the species' ΔG° say more.
+                let keq_thermo = reverse.as_ref().and_then(|_| {
+                    let th = crate::thermo::ReactionThermo::new(net, i);
+                    let more =
+                        th.includes_dcp() || th.k_source() == Some(crate::thermo::KSource::Species);
+                    (more && th.ln_k(law.t_ref).is_some()).then_some(th)
+                });
                 Compiled {
                     k_ref: law.k_ref,
                     ea: law.ea,
                     t_ref: law.t_ref,
                     forward,
                     reverse,
+                    keq_thermo,
                     denominator,
                     depends_on,
                 }
@@ -749,6 +763,40 @@ mod tests {
                 );
             }
         }
+    }
+
+    /// With species heat capacities a reversible step's K(T) carries ΔCp (integrated van't
+    /// Hoff, [`crate::thermo::ReactionThermo`]): the rate vanishes at the closed-form K(T) for
+    /// constant ΔCp, ln K = ln K0 − (ΔH0 − ΔCp T0)/R (1/T − 1/T0) + ΔCp/R ln(T/T0) (integrated
+    /// van't Hoff with Kirchhoff's ΔH; Smith, Van Ness & Abbott, from memory), and ∂r/∂T
+    /// matches central differences.
+    #[test]
+    fn equilibrium_constant_carries_heat_capacity_difference() {
+        let net = load_str(
+            "name: t\nphase: liquid\nspecies: {A: {cp: 100 J/(mol*K)}, B: {cp: 160 J/(mol*K)}}\nreactions:\n  - {id: r, stoich: A <=> B, rate: {k: 0.1 1/s, K_eq: 4, T_ref: 300 K, dH: -30 kJ/mol}}\nfeed: {T: 300 K, volumetric: 1 L/s, flows: {A: 1 mol/s}}\nreactor: {type: pfr, volume: 1 L}\n",
+            "t",
+            &[],
+        )
+        .unwrap();
+        let rs = RateSet::new(&net);
+        let (t0, t, dh0, dcp) = (300.0_f64, 380.0_f64, -30e3_f64, 60.0_f64);
+        let r_gas = 8.314_462_618_153_24;
+        let ln_k = 4.0_f64.ln() - (dh0 - dcp * t0) / r_gas * (1.0 / t - 1.0 / t0)
+            + dcp / r_gas * (t / t0).ln();
+        let k = ln_k.exp();
+        let r = rs.eval(0, t, &[100.0, 100.0 * k], None);
+        assert!(r.abs() < 1e-10, "rate at the closed-form K(T): {r}");
+        let (mut at, mut p, mut m) = (Vec::new(), Vec::new(), Vec::new());
+        let h = 1e-4;
+        rs.constants(t, &mut at);
+        rs.constants(t + h, &mut p);
+        rs.constants(t - h, &mut m);
+        let c = [300.0, 50.0];
+        let mut d = 0.0;
+        rs.eval_at(0, &at[0], &c, None, Some(&mut d));
+        let fd = (rs.eval_at(0, &p[0], &c, None, None) - rs.eval_at(0, &m[0], &c, None, None))
+            / (2.0 * h);
+        assert!((d - fd).abs() < 1e-6 * fd.abs(), "{d} vs {fd}");
     }
 
     #[test]
