@@ -274,15 +274,19 @@ fn bench_rhs(c: &mut Criterion) {
         let mut yh = y.clone();
         yh.push(1.02 * hot.feed.temperature);
         let mut dh = vec![0.0; yh.len()];
-        g.bench_function(BenchmarkId::new(&id, "Balance::rhs (energy balance)"), |b| {
-            b.iter(|| hbal.rhs(black_box(&yh), &mut dh))
-        });
-        g.bench_function(BenchmarkId::new(&id, "Balance::jacobian (energy balance)"), |b| {
-            b.iter(|| {
-                trip.clear();
-                hbal.jacobian(black_box(&yh), &mut trip)
-            })
-        });
+        g.bench_function(
+            BenchmarkId::new(&id, "Balance::rhs (energy balance)"),
+            |b| b.iter(|| hbal.rhs(black_box(&yh), &mut dh)),
+        );
+        g.bench_function(
+            BenchmarkId::new(&id, "Balance::jacobian (energy balance)"),
+            |b| {
+                b.iter(|| {
+                    trip.clear();
+                    hbal.jacobian(black_box(&yh), &mut trip)
+                })
+            },
+        );
     }
     g.finish();
 }
@@ -292,7 +296,9 @@ fn bench_rhs(c: &mut Criterion) {
 fn with_energy_balance(net: &Network) -> Network {
     let mut hot = net.clone();
     for (j, s) in hot.species.iter_mut().enumerate() {
-        s.thermo.cp = Some(rxnet::thermo::HeatCapacity::Constant(80.0 + (j % 41) as f64));
+        s.thermo.cp = Some(rxnet::thermo::HeatCapacity::Constant(
+            80.0 + (j % 41) as f64,
+        ));
     }
     for (i, r) in hot.reactions.iter_mut().enumerate() {
         r.dh = Some(-20e3 + 1e3 * (i % 31) as f64);

@@ -78,7 +78,7 @@ struct Compiled {
     reverse: Option<(f64, f64, Vec<Factor>)>,
     /// K(T) from the reaction's thermochemistry when it is more than van't Hoff with a
     /// constant ΔH: Kirchhoff's ΔH(T) with ΔCp, or ΔG° of the species ([`crate::thermo`]).
-    keq_thermo: Option<crate::thermo::ReactionThermo>,
+    keq_thermo: Option<crate::thermo::LnKForm>,
     /// (K_m,ref, ΔH_m, factor) terms and the power n.
     denominator: Option<(Vec<AdsorptionTerm>, f64)>,
     /// Species whose concentration this rate depends on (sorted, unique).
@@ -281,6 +281,21 @@ fn log_slope(e: f64, t: f64) -> f64 {
 }
 
 impl Compiled {
+    /// 1/K_eq(T) and d ln K_eq/dT (0 and 0 for a one-way step).
+    #[inline]
+    fn inv_k_eq(&self, t: f64) -> (f64, f64) {
+        match (&self.reverse, &self.keq_thermo) {
+            (None, _) => (0.0, 0.0),
+            (Some(_), Some(form)) => {
+                let (ln_k, slope) = form.eval(t);
+                ((-ln_k).exp(), slope)
+            }
+            (Some((k, dh, _)), None) => {
+                (1.0 / arrhenius(*k, *dh, self.t_ref, t), log_slope(*dh, t))
+            }
+        }
+    }
+
     fn at(&self, t: f64) -> AtTemperature {
         let (k_ads, dln_kads) =
             self.denominator
@@ -293,18 +308,10 @@ impl Compiled {
                 });
         AtTemperature {
             k: arrhenius(self.k_ref, self.ea, self.t_ref, t),
-            inv_k_eq: match (&self.reverse, &self.keq_thermo) {
-                (None, _) => 0.0,
-                (Some(_), Some(th)) => (-th.ln_k(t).unwrap_or(f64::NAN)).exp(),
-                (Some((k, dh, _)), None) => 1.0 / arrhenius(*k, *dh, self.t_ref, t),
-            },
+            inv_k_eq: self.inv_k_eq(t).0,
             k_ads,
             dlnk: log_slope(self.ea, t),
-            dln_keq: match (&self.reverse, &self.keq_thermo) {
-                (None, _) => 0.0,
-                (Some(_), Some(th)) => th.d_ln_k_dt(t).unwrap_or(f64::NAN),
-                (Some((_, dh, _)), None) => log_slope(*dh, t),
-            },
+            dln_keq: self.inv_k_eq(t).1,
             dln_kads,
         }
     }
@@ -378,7 +385,7 @@ impl RateSet {
                     let th = crate::thermo::ReactionThermo::new(net, i);
                     let more =
                         th.includes_dcp() || th.k_source() == Some(crate::thermo::KSource::Species);
-                    (more && th.ln_k(law.t_ref).is_some()).then_some(th)
+                    if more { th.ln_k_form() } else { None }
                 });
                 Compiled {
                     k_ref: law.k_ref,
@@ -505,6 +512,27 @@ impl RateSet {
             self.eval_at(i, &self.cached[i], c, grad, None)
         } else {
             self.eval_at(i, &self.laws[i].at(t), c, grad, None)
+        }
+    }
+
+    /// Every rate at temperature T and concentrations `c`, into `r` (the right-hand side of a
+    /// non-isothermal model): the same values as [`RateSet::eval`] at T, with k(T) and
+    /// K_eq(T) computed on the way, so a power law takes the packed path without building its
+    /// [`AtTemperature`].
+    pub fn rates_at(&self, t: f64, c: &[f64], r: &mut [f64]) {
+        if t == self.temperature {
+            for (i, ri) in r.iter_mut().enumerate() {
+                *ri = self.eval(i, t, c, None);
+            }
+            return;
+        }
+        for (i, (law, ri)) in self.laws.iter().zip(r.iter_mut()).enumerate() {
+            *ri = if law.denominator.is_none() {
+                let k = arrhenius(law.k_ref, law.ea, law.t_ref, t);
+                self.power_law_rate(k, law.inv_k_eq(t).0, i, c)
+            } else {
+                self.eval_at(i, &law.at(t), c, None, None)
+            };
         }
     }
 
@@ -797,6 +825,29 @@ mod tests {
         let fd = (rs.eval_at(0, &p[0], &c, None, None) - rs.eval_at(0, &m[0], &c, None, None))
             / (2.0 * h);
         assert!((d - fd).abs() < 1e-6 * fd.abs(), "{d} vs {fd}");
+    }
+
+    /// The one-pass rates of the non-isothermal right-hand side equal the general path's at
+    /// any temperature, law by law (the same products in the same order).
+    #[test]
+    fn rates_at_equals_eval_at_any_temperature() {
+        let net = study(MIXED_LAWS);
+        let rs = RateSet::new(&net);
+        let c = [800.0, 450.0, 120.0, 3.0];
+        let mut r = vec![0.0; rs.len()];
+        let mut at = Vec::new();
+        for t in [300.0, 312.5, 360.0] {
+            rs.rates_at(t, &c, &mut r);
+            rs.constants(t, &mut at);
+            for i in 0..rs.len() {
+                let general = rs.eval_at(i, &at[i], &c, None, None);
+                assert!(
+                    (r[i] - general).abs() <= 1e-14 * general.abs(),
+                    "reaction {i} at {t} K: {} vs {general}",
+                    r[i]
+                );
+            }
+        }
     }
 
     #[test]

@@ -257,8 +257,8 @@ impl Balance {
         let t = y[ti];
         let (kappa, sigma, s) = self.scales_at(e, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
-        let mut at = Vec::new();
-        self.rates.constants(t, &mut at);
+        let mut rates = vec![0.0; self.rates.len()];
+        self.rates.rates_at(t, &c, &mut rates);
         dydx.iter_mut().for_each(|v| *v = 0.0);
         // Σ_i σ r_i h_i, then the species' part of ΔE through dy/dx.
         let mut with_offset = 0.0;
@@ -268,7 +268,7 @@ impl Balance {
             .map(|w| &self.nu[w[0]..w[1]])
             .enumerate()
         {
-            let r = sigma * self.rates.eval_at(i, &at[i], &c, None, None);
+            let r = sigma * rates[i];
             with_offset += r * e.offset[i];
             for &(j, v) in nu {
                 dydx[j] += v * r;
@@ -360,9 +360,12 @@ impl Balance {
             release_dt -= de * (sigma * dr_dt + dsigma_dt * r) + sigma * r * de_dt;
             release_dp -= de * sigma * a * kappa / p;
         }
+        let dense = dkappa != 0.0 || dsigma != 0.0;
         for &j in &self.reactive {
-            for k in 0..n {
-                out.push((j, k, uniform[j]));
+            if dense {
+                for k in 0..n {
+                    out.push((j, k, uniform[j]));
+                }
             }
             out.push((j, ti, col_t[j]));
         }
