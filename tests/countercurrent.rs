@@ -154,3 +154,67 @@ fn size_studies_refuse_a_counter_current_coolant() {
     assert_eq!(opt.code, 2, "{}\n{}", opt.stdout, opt.stderr);
     assert!(opt.stderr.contains("counter-current"), "{}", opt.stderr);
 }
+
+/// A tube whose boundary-value problem has three solutions (tests/reference/
+/// countercurrent_multiple.py, scipy 1.17.1: shooting on T_a(0) over 101 trial values refined by
+/// brentq with LSODA at rtol 1e-12, each solution also solved by solve_bvp at tol 1e-6 started
+/// from it where that converges; `python3 tests/reference/countercurrent_multiple.py >
+/// tests/reference/countercurrent_multiple.json`). rxnet must find all three, each with its
+/// coolant outlet temperature, outlet conversion and hot spot to 1e-6, and show the one of
+/// lowest hot spot.
+#[test]
+fn every_solution_of_a_tube_with_three_is_found() {
+    let path = format!(
+        "{}/tests/reference/countercurrent_multiple.json",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{path}: {e}"));
+    let fx: Value = serde_json::from_str(&text).unwrap_or_else(|e| panic!("{path}: {e}"));
+    let net = rxnet::load_str(fx["study"].as_str().expect("study"), "three.yaml", &[])
+        .unwrap_or_else(|e| panic!("{e}"));
+    let sim = simulate(&net, &SolveOptions::default()).unwrap_or_else(|e| panic!("{e}"));
+    let cc = sim.counter_current.as_ref().expect("solutions");
+    let want = fx["solutions"].as_array().expect("solutions");
+    assert_eq!(want.len(), 3, "the script found three solutions");
+    assert_eq!(cc.solutions.len(), 3, "{cc:?}");
+    let mut a = Agreement::new("three-solution counter-current tube vs scipy");
+    for (got, w) in cc.solutions.iter().zip(want) {
+        // where solve_bvp converged, the script's two methods agree within its tolerance
+        if let Some(d) = w["agreement"]["coolant_outlet_T"].as_f64() {
+            assert!(d < 1e-5, "shooting and solve_bvp differ by {d}");
+        }
+        a.check(
+            got.coolant_outlet_temperature,
+            num(&w["coolant_outlet_T"], "coolant_outlet_T"),
+            1e-6,
+            "coolant outlet T",
+        );
+        a.check(
+            got.conversion,
+            num(&w["conversion"], "conversion"),
+            1e-6,
+            "outlet conversion",
+        );
+        a.check(
+            got.hot_spot.temperature,
+            num(&w["hot_spot"]["T"], "hot spot"),
+            1e-6,
+            "hot spot T",
+        );
+    }
+    // the one shown: the lowest hot spot (docs/methods.md), and the profile is that solution's
+    let lowest = (0..3)
+        .min_by(|&i, &j| {
+            num(&want[i]["hot_spot"]["T"], "T").total_cmp(&num(&want[j]["hot_spot"]["T"], "T"))
+        })
+        .expect("three");
+    assert_eq!(cc.shown, lowest);
+    let fa0 = net.feed.amounts[net.key];
+    a.check(
+        (fa0 - sim.outlet()[net.key]) / fa0,
+        num(&want[lowest]["conversion"], "conversion"),
+        1e-6,
+        "conversion of the solution shown",
+    );
+    a.report();
+}
