@@ -166,3 +166,35 @@ fn size_of_a_cooled_tube_reproduces_its_conversion() {
     let x = num(&run["conversion"], "conversion");
     assert!((x - 0.9).abs() < 1e-7, "X at the size found: {x}");
 }
+
+/// A polynomial heat capacity used outside the range its coefficients hold over is
+/// extrapolated with a warning naming the species, the temperature and where along the
+/// reactor (the Shomate set of water vapour holds over 500–1700 K in the NIST WebBook, from
+/// memory; here the tube starts at 450 K).
+#[test]
+fn heat_capacity_outside_its_range_is_warned_with_species_and_place() {
+    let yaml = "name: steam heating (demo values)
+phase: gas
+species:
+  H2O: {cp: {shomate: [30.092, 6.832514, 6.793435, -2.53448, 0.082139, -250.881, 223.3967, -241.8264], range: [500 K, 1700 K]}}
+  A: {cp: 50 J/(mol*K)}
+  B: {cp: 50 J/(mol*K)}
+reactions:
+  - {id: r1, stoich: A -> B, rate: {k: 0.05 1/s, dH: -30 kJ/mol}}
+feed: {T: 450 K, P: 2 bar, flows: {H2O: 5 mol/s, A: 1 mol/s}}
+reactor: {type: pfr, volume: 2 m3, heat: adiabatic}
+";
+    let f = common::temp_study("cp_range", yaml);
+    let run = rxnet(&["run", f.p()]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert!(
+        run.stderr
+            .contains("heat capacity of `H2O` is used outside its range 500..1700 K")
+            && run.stderr.contains("T = 450.0 K at V = 0"),
+        "{}",
+        run.stderr
+    );
+    let json = rxnet(&["run", f.p(), "--format", "json"]).ok_json();
+    let w = json["warnings"].as_array().expect("warnings");
+    assert_eq!(w.len(), 1, "{json}");
+}
