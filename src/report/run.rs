@@ -458,7 +458,11 @@ fn heat_text(o: &mut String, r: &RunReport, h: &crate::safety::HeatFigures) {
         num(h.inlet_temperature),
         if x == "t" { "end" } else { "out" },
         num(h.outlet_temperature),
-        if h.adiabatic_rise < 0.0 { "drop (endothermic)" } else { "rise" },
+        if h.adiabatic_rise < 0.0 {
+            "drop (endothermic)"
+        } else {
+            "rise"
+        },
         num(h.adiabatic_rise),
         h.adiabatic_rise_reaction,
         r.key
