@@ -14,6 +14,7 @@ pub mod metrics;
 pub mod model;
 pub mod reactor;
 pub mod report;
+pub mod safety;
 pub mod solve;
 pub mod studies;
 pub mod thermo;

@@ -187,7 +187,10 @@ pub fn run(a: &RunArgs) -> i32 {
     let text = match a.format {
         RunFormat::Table => {
             let mut t = report::run::text(&rep, a.verbose);
-            if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
+            if rep.heat.is_some() {
+                t.push_str(rxnet::safety::CAUTION);
+                t.push('\n');
+            } else if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
                 t.push_str("caution: exothermic reactions; this isothermal result assumes the heat is removed. Assess runaway and relief under local codes.\n");
             }
             t
@@ -195,7 +198,29 @@ pub fn run(a: &RunArgs) -> i32 {
         RunFormat::Csv => report::run::profile_csv(&net, &balance, &sim),
         RunFormat::Json => json(&rep),
     };
-    emit(&text, 0)
+    // A result that breaks the process limit is a finding: shown, and exit 1.
+    let code = match &rep.heat {
+        Some(h) if h.exceeds_limit() => {
+            eprintln!(
+                "error: {}: the process limit T_max = {} K is exceeded (hot spot {} K{})",
+                a.file.display(),
+                report::num(h.t_max.unwrap_or(f64::NAN)),
+                report::num(h.hot_spot.temperature),
+                h.cooling_failure
+                    .map(|c| format!(
+                        ", cooling-failure temperature {} K",
+                        report::num(c.temperature)
+                    ))
+                    .unwrap_or_default()
+            );
+            EXIT_FINDINGS
+        }
+        _ => 0,
+    };
+    for w in &sim.warnings {
+        eprintln!("warning: {}: {w}", a.file.display());
+    }
+    emit(&text, code)
 }
 
 /// The species drawn by `--plot`: those named by `--plot-species`, or all but those named by

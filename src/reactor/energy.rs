@@ -160,6 +160,30 @@ impl Energy {
         self.offset[i] + nu.iter().map(|&(j, v)| v * self.h(j, t)).sum::<f64>()
     }
 
+    /// ΔT_ad of the feed (see [`crate::safety`]): the heat of the most exothermic reaction
+    /// that consumes the key, per mole of key, times the key fed, over the feed's heat capacity
+    /// at T0; and that reaction. (0, None) when no reaction consumes the key.
+    pub fn adiabatic_rise(&self, net: &Network) -> (f64, Option<usize>) {
+        let k = net.key;
+        let t0 = net.feed.temperature;
+        let best = net
+            .reactions
+            .iter()
+            .enumerate()
+            .filter(|(_, r)| r.nu(k) < 0.0)
+            .map(|(i, r)| {
+                let de = self.reaction_enthalpy(i, &r.net, t0)
+                    - self.u * GAS_CONSTANT * t0 * r.mole_change();
+                (i, de / -r.nu(k))
+            })
+            .min_by(|a, b| a.1.total_cmp(&b.1));
+        let Some((i, de)) = best else {
+            return (0.0, None);
+        };
+        let (cap, _) = self.capacity(&net.feed.amounts, t0);
+        (-de * net.feed.amounts[k] / cap, Some(i))
+    }
+
     /// Σ_j y_j (Cp_j(T) − u R) (or the mixture's), and its derivative in T.
     pub(super) fn capacity(&self, y: &[f64], t: f64) -> (f64, f64) {
         if let Some(m) = self.mixture {

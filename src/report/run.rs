@@ -96,6 +96,13 @@ pub struct RunReport {
     /// their stability.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub steady_states: Option<SteadyStatesReport>,
+    /// Temperatures of a run with an energy balance: inlet and outlet, the adiabatic rise,
+    /// hot spot, margin to T_max, coolant outlet, batch cooling-failure temperature (K, and
+    /// where in the size variable's unit); absent for an isothermal run.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub heat: Option<crate::safety::HeatFigures>,
+    /// Warnings about the solution (heat-capacity data used outside their range).
+    pub warnings: Vec<String>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub profile: Option<Vec<ProfilePoint>>,
 }
@@ -299,6 +306,8 @@ pub fn build(
         initial_volume: batch.then_some(net.feed.volumetric),
         final_volume: batch.then_some(end.volumetric),
         ergun_alpha: balance.alpha(),
+        heat: crate::safety::HeatFigures::of(net, balance, sim),
+        warnings: sim.warnings.clone(),
         state_unit: if net.reactor.is_batch() {
             "mol"
         } else {
@@ -375,20 +384,94 @@ fn size_text(r: &RunReport) -> String {
     }
 }
 
+/// The heat figures of a non-isothermal run (see [`crate::safety`]).
+fn heat_text(o: &mut String, r: &RunReport, h: &crate::safety::HeatFigures) {
+    let unit = match r.size_variable {
+        "V" => "m3",
+        "W" => "kg",
+        _ => "s",
+    };
+    let x = r.size_variable;
+    let _ = writeln!(
+        o,
+        "\n  temperature: T_in = {} K, T_{} = {} K; adiabatic rise of the feed ΔT_ad = {} K (on {}, per its key {})",
+        num(h.inlet_temperature),
+        if x == "t" { "end" } else { "out" },
+        num(h.outlet_temperature),
+        num(h.adiabatic_rise),
+        h.adiabatic_rise_reaction,
+        r.key
+    );
+    let _ = writeln!(
+        o,
+        "  hot spot {} K at {x} = {} {unit}{}",
+        num(h.hot_spot.temperature),
+        num(h.hot_spot.at),
+        if h.cold_spot.temperature < h.inlet_temperature {
+            format!(
+                "; lowest {} K at {x} = {} {unit}",
+                num(h.cold_spot.temperature),
+                num(h.cold_spot.at)
+            )
+        } else {
+            String::new()
+        }
+    );
+    if let Some(c) = h.coolant_outlet {
+        let _ = writeln!(o, "  coolant leaves at {} K", num(c));
+    }
+    if let Some(c) = &h.cooling_failure {
+        let _ = writeln!(
+            o,
+            "  if the cooling failed, the charge could reach {} K (T + ΔT_ad × unreacted fraction of {}; largest at t = {} s)",
+            num(c.temperature),
+            r.key,
+            num(c.at)
+        );
+    }
+    if let (Some(m), Some(margin)) = (h.t_max, h.margin) {
+        if h.exceeds_limit() {
+            let _ = writeln!(
+                o,
+                "  T_max = {} K IS EXCEEDED{}",
+                num(m),
+                if margin < 0.0 {
+                    format!(" by the hot spot, by {} K", num(-margin))
+                } else {
+                    " by the cooling-failure temperature".to_string()
+                }
+            );
+        } else {
+            let _ = writeln!(
+                o,
+                "  T_max = {} K: margin {} K to the hot spot",
+                num(m),
+                num(margin)
+            );
+        }
+    }
+    for w in &r.warnings {
+        let _ = writeln!(o, "  warning: {w}");
+    }
+}
+
 /// The run as a readable table.
 pub fn text(r: &RunReport, verbose: bool) -> String {
     let mut o = String::new();
     let _ = writeln!(o, "{}", r.study);
     let _ = writeln!(
         o,
-        "{} ({}), {}, T = {} K{}{}",
+        "{} ({}), {}, {}{}{}",
         r.reactor.to_uppercase(),
         match r.phase {
             crate::model::Phase::Gas => "gas",
             crate::model::Phase::Liquid => "liquid",
         },
         size_text(r),
-        num(r.temperature),
+        match &r.heat {
+            None => format!("T = {} K", num(r.temperature)),
+            Some(h) => format!("{}, T_in = {} K", h.heat, num(r.temperature)),
+        },
         if r.phase == crate::model::Phase::Gas {
             format!(", P_in = {} bar", num(r.inlet_pressure / 1e5))
         } else {
@@ -475,6 +558,9 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     }
     if let Some(note) = r.steady_states.as_ref().and_then(|s| s.note.as_ref()) {
         let _ = writeln!(o, "\n  note: {note}");
+    }
+    if let Some(h) = &r.heat {
+        heat_text(&mut o, r, h);
     }
     let _ = writeln!(o, "\n  conversion of {}: {}", r.key, num(r.conversion));
     let not_defined = |why: Option<&String>| match why {

@@ -114,6 +114,12 @@ pub struct Simulation {
     pub temperature: Option<Vec<f64>>,
     /// Coolant stream temperature at each point (K), where it is a state.
     pub coolant: Option<Vec<f64>>,
+    /// The highest and lowest temperature over the whole reactor and where, located between
+    /// the integrator's steps (energy balance only; the profile points may miss them).
+    pub temperature_range: Option<ode::Extreme>,
+    /// Batch with an energy balance: the extremes of T + ΔT_ad N_k/N_k0, the temperature the
+    /// charge would reach if the cooling failed (see [`crate::safety`]).
+    pub cooling_failure: Option<ode::Extreme>,
     /// Warnings about the solution that do not make it wrong, each a sentence (heat-capacity
     /// data used outside their range, with the species, T and where).
     pub warnings: Vec<String>,
@@ -398,6 +404,8 @@ pub fn simulate_with(
             pressure: None,
             temperature: None,
             coolant: None,
+            temperature_range: None,
+            cooling_failure: None,
             warnings: Vec::new(),
             stats,
             steady: Some(CstrSteadyStates {
@@ -422,32 +430,45 @@ pub fn simulate_with(
             Points::Steps => Output::Steps,
         };
         let reactor = reactor_name(net);
-        let sol =
-            ode::integrate(&Adapter(balance), &y0, size, &out, &ode_opts).map_err(|source| {
-                let x = source.position().unwrap_or(0.0);
-                if balance.has_pressure() && x > 0.0 {
-                    // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
-                    let before = ode::integrate(
-                        &Adapter(balance),
-                        &y0,
-                        x * (1.0 - 1e-6),
-                        &Output::End,
-                        &ode_opts,
-                    );
-                    if let Ok(sol) = before
-                        && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
-                    {
-                        return SolveError::PressureCollapse { w: x };
+        // With an energy balance, watch T (and a batch's cooling-failure temperature) for
+        // their extremes between steps.
+        let mut watch: Vec<ode::Functional> = Vec::new();
+        if let (Some(ti), Some(e)) = (balance.temperature_index(), balance.energy()) {
+            watch.push(vec![(ti, 1.0)]);
+            let k = net.key;
+            let n_k0 = net.feed.amounts[k];
+            if net.reactor.is_batch() && n_k0 > 0.0 {
+                let (rise, _) = e.adiabatic_rise(net);
+                watch.push(vec![(ti, 1.0), (k, rise / n_k0)]);
+            }
+        }
+        let (sol, _) =
+            ode::integrate_watching(&Adapter(balance), &y0, size, &out, &ode_opts, &watch)
+                .map_err(|source| {
+                    let x = source.position().unwrap_or(0.0);
+                    if balance.has_pressure() && x > 0.0 {
+                        // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
+                        let before = ode::integrate(
+                            &Adapter(balance),
+                            &y0,
+                            x * (1.0 - 1e-6),
+                            &Output::End,
+                            &ode_opts,
+                        );
+                        if let Ok(sol) = before
+                            && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
+                        {
+                            return SolveError::PressureCollapse { w: x };
+                        }
                     }
-                }
-                SolveError::Integration {
-                    reactor,
-                    x_name,
-                    x_unit,
-                    x,
-                    source,
-                }
-            })?;
+                    SolveError::Integration {
+                        reactor,
+                        x_name,
+                        x_unit,
+                        x,
+                        source,
+                    }
+                })?;
         stats.steps = sol.stats.steps;
         stats.rhs_evals = sol.stats.rhs_evals;
         stats.jac_evals = sol.stats.jac_evals;
@@ -466,6 +487,8 @@ pub fn simulate_with(
         {
             return Err(SolveError::PressureCollapse { w: sol.x[k] });
         }
+        let temperature_range = sol.extremes.first().copied();
+        let cooling_failure = sol.extremes.get(1).copied();
         let column = |i: Option<usize>| i.map(|i| sol.y.iter().map(|y| y[i]).collect::<Vec<f64>>());
         let temperature = column(balance.temperature_index());
         let coolant = column(balance.coolant_index());
@@ -487,6 +510,8 @@ pub fn simulate_with(
             size,
             temperature,
             coolant,
+            temperature_range,
+            cooling_failure,
             warnings,
             x: sol.x,
             states: sol

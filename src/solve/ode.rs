@@ -97,6 +97,8 @@ pub struct OdeSolution {
     pub x: Vec<f64>,
     pub y: Vec<Vec<f64>>,
     pub stats: OdeStats,
+    /// Extremes of the watched functionals ([`integrate_watching`]); empty otherwise.
+    pub extremes: Vec<Extreme>,
 }
 
 /// Work done by the integrator.
@@ -134,7 +136,54 @@ pub fn integrate(
     if let Output::Points(xs) = out {
         validate_points(xs, x_end)?;
     }
-    run(sys, y0, x_end, out, opts, None).map(|(sol, _)| sol)
+    run(sys, y0, x_end, out, opts, None, &[]).map(|(sol, _)| sol)
+}
+
+/// A linear function of the state, w(y) = Σ c_i y_i, as (index, coefficient) pairs.
+pub type Functional = Vec<(usize, f64)>;
+
+/// The largest and smallest value of a watched [`Functional`] over [0, x_end], and where.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Extreme {
+    pub max: f64,
+    pub max_at: f64,
+    pub min: f64,
+    pub min_at: f64,
+}
+
+impl Extreme {
+    fn consider(&mut self, x: f64, v: f64) {
+        if v > self.max {
+            self.max = v;
+            self.max_at = x;
+        }
+        if v < self.min {
+            self.min = v;
+            self.min_at = x;
+        }
+    }
+}
+
+/// Integrate as [`integrate`] does and also find the extremes of each functional in `watch`
+/// over the whole interval, whatever `out` asks for: besides the ends and every accepted step,
+/// where dw/dx = Σ c_i f_i(x, y) changes sign within a step the turning point is located on
+/// the step's interpolating polynomial by the Illinois method, so a hot spot between two
+/// steps is found to the solver's tolerance rather than to the step length.
+pub fn integrate_watching(
+    sys: &dyn OdeSystem,
+    y0: &[f64],
+    x_end: f64,
+    out: &Output,
+    opts: &OdeOptions,
+    watch: &[Functional],
+) -> Result<(OdeSolution, Vec<Extreme>), OdeError> {
+    validate(sys, y0, x_end, opts)?;
+    if let Output::Points(xs) = out {
+        validate_points(xs, x_end)?;
+    }
+    let (sol, _) = run(sys, y0, x_end, out, opts, None, watch)?;
+    let ext = sol.extremes.clone();
+    Ok((sol, ext))
 }
 
 /// Integrate until g(x, y) crosses zero (e.g. d(F_B)/dV changes sign at the maximum of an
@@ -154,7 +203,7 @@ pub fn integrate_until_root(
     opts: &OdeOptions,
 ) -> Result<(OdeSolution, Option<(f64, Vec<f64>)>), OdeError> {
     validate(sys, y0, x_end, opts)?;
-    run(sys, y0, x_end, &Output::Steps, opts, Some(g))
+    run(sys, y0, x_end, &Output::Steps, opts, Some(g), &[])
 }
 
 fn invalid(what: String) -> OdeError {
@@ -276,6 +325,7 @@ fn run(
     out: &Output,
     opts: &OdeOptions,
     g: Option<RootFn>,
+    watch: &[Functional],
 ) -> Result<RootResult, OdeError> {
     let n = sys.dim();
     let la = opts.linear_algebra.resolve(n);
@@ -337,7 +387,7 @@ fn run(
                 return Err(e);
             }
             let mut solver = problem.bdf_with(state, $make).map_err(fail)?;
-            drive(&mut solver, &sh, x_end, out, opts, g)
+            drive(&mut solver, &sh, x_end, out, opts, g, sys, watch)
         }};
     }
     match la {
@@ -437,6 +487,7 @@ fn eval_g(g: &dyn Fn(f64, &[f64]) -> f64, x: f64, y: &[f64]) -> Result<f64, OdeE
 }
 
 /// The stepping loop shared by the dense and sparse solvers.
+#[allow(clippy::too_many_arguments)]
 fn drive<'a, Eqn, S>(
     solver: &mut S,
     sh: &Shared,
@@ -444,6 +495,8 @@ fn drive<'a, Eqn, S>(
     out: &Output,
     opts: &OdeOptions,
     g: Option<RootFn>,
+    sys: &dyn OdeSystem,
+    watch: &[Functional],
 ) -> Result<RootResult, OdeError>
 where
     Eqn: OdeEquations<T = f64> + 'a,
@@ -492,6 +545,26 @@ where
         Some(g) => Some(eval_g(g, 0.0, &y0)?),
         None => None,
     };
+    // Watched functionals: value, and slope dw/dx from the right-hand side.
+    let value = |w: &Functional, y: &[f64]| w.iter().map(|&(i, c)| c * y[i]).sum::<f64>();
+    let mut f_buf = vec![0.0; y0.len()];
+    let mut slope = |w: &Functional, x: f64, y: &[f64]| -> f64 {
+        sys.rhs(x, y, &mut f_buf);
+        w.iter().map(|&(i, c)| c * f_buf[i]).sum::<f64>()
+    };
+    let mut extremes: Vec<Extreme> = watch
+        .iter()
+        .map(|w| {
+            let v = value(w, &y0);
+            Extreme {
+                max: v,
+                max_at: 0.0,
+                min: v,
+                min_at: 0.0,
+            }
+        })
+        .collect();
+    let mut slope_prev: Vec<f64> = watch.iter().map(|w| slope(w, 0.0, &y0)).collect();
 
     solver
         .set_stop_time(x_end)
@@ -507,6 +580,28 @@ where
         let at_end = matches!(reason, OdeSolverStopReason::TstopReached);
         let y_now = solver.state().y.clone_as_vec();
         check_finite(x_now, &y_now)?;
+        for (k, w) in watch.iter().enumerate() {
+            extremes[k].consider(x_now, value(w, &y_now));
+            let d = slope(w, x_now, &y_now);
+            let d0 = slope_prev[k];
+            if d0 != 0.0 && d != 0.0 && (d0 < 0.0) != (d < 0.0) && x_now > x_prev {
+                let xr = illinois(
+                    |x| {
+                        let y = interp(solver, x)?;
+                        let mut f = vec![0.0; y.len()];
+                        sys.rhs(x, &y, &mut f);
+                        Ok(w.iter().map(|&(i, c)| c * f[i]).sum::<f64>())
+                    },
+                    x_prev,
+                    d0,
+                    x_now,
+                    d,
+                )?;
+                let yr = interp(solver, xr)?;
+                extremes[k].consider(xr, value(w, &yr));
+            }
+            slope_prev[k] = d;
+        }
 
         if let (Some(g), Some(ga)) = (g, g_prev) {
             let gb = eval_g(g, x_now, &y_now)?;
@@ -527,6 +622,7 @@ where
                     x: xs,
                     y: ys,
                     stats: stats(solver),
+                    extremes,
                 };
                 return Ok((sol, Some((xr, yr))));
             }
@@ -558,6 +654,7 @@ where
             x: xs,
             y: ys,
             stats: stats(solver),
+            extremes,
         },
         None,
     ))
