@@ -44,6 +44,11 @@ pub struct LinePlot<'a> {
 
 /// Draw a line plot into an SVG string.
 pub fn line_svg(p: &LinePlot) -> Result<String, String> {
+    line_svg_marked(p, &[])
+}
+
+/// A line plot with further marked points (x, y, label) besides `p.mark`.
+pub fn line_svg_marked(p: &LinePlot, marks: &[(f64, f64, String)]) -> Result<String, String> {
     let mut out = String::new();
     {
         let root = SVGBackend::with_string(&mut out, (900, 560)).into_drawing_area();
@@ -86,7 +91,7 @@ pub fn line_svg(p: &LinePlot) -> Result<String, String> {
                     .map_err(|e| e.to_string())?;
             }
         }
-        if let Some((mx, my, label)) = &p.mark {
+        for (mx, my, label) in p.mark.iter().chain(marks) {
             chart
                 .draw_series(std::iter::once(Circle::new(
                     (*mx, *my),
@@ -105,6 +110,36 @@ pub fn line_svg(p: &LinePlot) -> Result<String, String> {
         root.present().map_err(|e| e.to_string())?;
     }
     Ok(out)
+}
+
+/// The heat generated G(T) and removed R(T) by a CSTR, kW against the reactor temperature, with
+/// its steady states (the crossings) marked `label`.
+pub fn heat_balance_svg(
+    title: &str,
+    t: &[f64],
+    generated: &[f64],
+    removed: &[f64],
+    states: &[(f64, f64, String)],
+) -> Result<String, String> {
+    let kw = |v: &[f64]| v.iter().map(|q| q / 1e3).collect::<Vec<f64>>();
+    let marks: Vec<(f64, f64, String)> = states
+        .iter()
+        .map(|(x, q, l)| (*x, q / 1e3, l.clone()))
+        .collect();
+    line_svg_marked(
+        &LinePlot {
+            title,
+            x_label: "reactor temperature T [K]",
+            y_label: "heat rate [kW]",
+            x: t,
+            series: vec![
+                ("heat generated G(T)".to_string(), kw(generated)),
+                ("heat removed R(T)".to_string(), kw(removed)),
+            ],
+            mark: None,
+        },
+        &marks,
+    )
 }
 
 /// A heat map of z over a grid (xs × ys), z[i][j] at (xs[i], ys[j]); None cells are grey.

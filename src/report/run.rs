@@ -116,6 +116,9 @@ pub struct SteadyStateEntry {
     pub stable: bool,
     /// Largest real part of the eigenvalues of the transient CSTR's Jacobian, 1/s.
     pub max_eigenvalue_real_per_s: f64,
+    /// Reactor temperature, K (a CSTR with an energy balance).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub temperature: Option<f64>,
     pub outlet: IndexMap<String, f64>,
 }
 
@@ -130,6 +133,13 @@ pub struct SteadyStatesReport {
     pub states: Vec<SteadyStateEntry>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
+    /// With an energy balance: the temperatures scanned for states, K.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub scan_window_k: Option<(f64, f64)>,
+    /// With an energy balance: the ignition and extinction points along the feed and coolant
+    /// temperatures (K), where the steady-state curve has them in the scanned range.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub turning_points: Option<Vec<crate::solve::cstr_heat::TurningPoint>>,
 }
 
 /// Pressure and volumetric flow (flow reactors) or volume (batch) of profile point `k`.
@@ -367,10 +377,13 @@ pub fn build(
                     conversion: s.conversion,
                     stable: s.stable,
                     max_eigenvalue_real_per_s: s.max_eigenvalue_real,
+                    temperature: s.temperature,
                     outlet: names(&s.flows),
                 })
                 .collect(),
             note: st.note.clone(),
+            scan_window_k: st.heat.as_ref().map(|h| h.window_k),
+            turning_points: st.heat.as_ref().map(|h| h.turning_points.clone()),
         }),
         profile,
     }
@@ -528,19 +541,24 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         );
     }
     if let Some(st) = &r.steady_states
-        && st.count > 1
+        && (st.count > 1 || st.scan_window_k.is_some())
     {
         let _ = writeln!(
             o,
-            "\n  {} steady states (conversion of {}; stable when every eigenvalue of the transient has a negative real part):",
-            st.count, r.key
+            "\n  {} steady state{} (conversion of {}; stable when every eigenvalue of the transient has a negative real part):",
+            st.count,
+            if st.count == 1 { "" } else { "s" },
+            r.key
         );
         for e in &st.states {
             let _ = writeln!(
                 o,
-                "    {}. X = {}  {} (largest eigenvalue real part {:.3e} 1/s){}",
+                "    {}. X = {}{}  {} (largest eigenvalue real part {:.3e} 1/s){}",
                 e.number,
                 num(e.conversion),
+                e.temperature
+                    .map(|t| format!(", T = {} K", num(t)))
+                    .unwrap_or_default(),
                 if e.stable { "stable  " } else { "unstable" },
                 e.max_eigenvalue_real_per_s,
                 if e.number == st.shown {
@@ -555,6 +573,31 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
             "  this report shows steady state {} (choice `{}`; pick another with --steady-state lowest|highest|N or solver.steady_state)",
             st.shown, st.choice
         );
+        if let Some((lo, hi)) = st.scan_window_k {
+            let _ = writeln!(
+                o,
+                "  states sought between T = {} K and {} K (heat generated against heat removed)",
+                num(lo),
+                num(hi)
+            );
+        }
+        if let Some(tp) = st.turning_points.as_ref().filter(|t| !t.is_empty()) {
+            let _ = writeln!(
+                o,
+                "  ignition and extinction (turning points of the steady state against a temperature; the others held):"
+            );
+            for p in tp {
+                let _ = writeln!(
+                    o,
+                    "    {} at {} {} K (reactor T = {} K, X = {})",
+                    p.kind,
+                    p.parameter,
+                    num(p.value_k),
+                    num(p.reactor_temperature_k),
+                    num(p.conversion)
+                );
+            }
+        }
     }
     if let Some(note) = r.steady_states.as_ref().and_then(|s| s.note.as_ref()) {
         let _ = writeln!(o, "\n  note: {note}");

@@ -371,6 +371,8 @@ pub fn simulate_with(
             pressure: None,
             temperature: Some(vec![st.temperature.unwrap_or(net.feed.temperature)]),
             coolant: None,
+            temperature_range: None,
+            cooling_failure: None,
             warnings,
             stats,
             steady: Some(CstrSteadyStates {
