@@ -62,6 +62,21 @@ pub struct CycleOut {
     pub consistent: bool,
 }
 
+/// A reaction's own `dH` and `K_eq` against what its species data give, at its T_ref.
+#[derive(Debug, Clone, Serialize)]
+pub struct SpeciesDataOut {
+    pub reaction: String,
+    /// K.
+    pub temperature: f64,
+    /// J/mol, when both are known.
+    pub dh_given: Option<f64>,
+    pub dh_species: Option<f64>,
+    /// K_c in SI, when both are known.
+    pub k_given: Option<f64>,
+    pub k_species: Option<f64>,
+    pub consistent: bool,
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct ElementsOut {
     pub elements: Vec<String>,
@@ -91,6 +106,8 @@ pub struct Check {
     pub unreachable_species: Vec<String>,
     pub dead_reactions: Vec<String>,
     pub equilibrium_cycles: Vec<CycleOut>,
+    /// Reactions whose `dH` or `K_eq` can be compared with species data.
+    pub species_data: Vec<SpeciesDataOut>,
     pub findings: Vec<Finding>,
 }
 
@@ -140,6 +157,7 @@ pub fn check(net: &Network) -> Check {
     let el = atoms::element_matrix(net);
     let gr = graph::analyse(net);
     let cycles = thermo::check(net, &st.dependent);
+    let from_species = thermo::species_data(net);
     let sp = |j: usize| net.species[j].name.clone();
     let rx = |i: usize| net.reactions[i].id.clone();
     let mut findings: Vec<Finding> = Vec::new();
@@ -235,6 +253,42 @@ pub fn check(net: &Network) -> Check {
                     rx(c.reaction),
                     given,
                     combined
+                ),
+            );
+        }
+    }
+    for c in &from_species {
+        let r = &net.reactions[c.reaction];
+        if let Some((given, species)) = c.k
+            && !c.k_consistent()
+        {
+            add(
+                Severity::Error,
+                format!(
+                    "`{}`: K_eq = {:.6e} given at {:.2} K, but the species data give {:.6e} \
+                     (ΔG° = ΔH° − TΔS°; they must agree within {} relative)",
+                    r.id,
+                    given,
+                    c.temperature,
+                    species,
+                    thermo::K_SPECIES_TOLERANCE
+                ),
+            );
+        }
+        if let Some((given, species)) = c.dh
+            && !c.dh_consistent()
+        {
+            add(
+                Severity::Warning,
+                format!(
+                    "`{}`: dH = {:.4} kJ/mol given at {:.2} K, but the species data give {:.4} \
+                     kJ/mol (Kirchhoff from the enthalpies of formation; they should agree \
+                     within {} kJ/mol); rxnet uses the given dH",
+                    r.id,
+                    given / 1e3,
+                    c.temperature,
+                    species / 1e3,
+                    thermo::DH_SPECIES_TOLERANCE / 1e3
                 ),
             );
         }
@@ -388,6 +442,18 @@ pub fn check(net: &Network) -> Check {
                 k_given: c.k_given,
                 k_combined: c.k_combined,
                 consistent: c.consistent,
+            })
+            .collect(),
+        species_data: from_species
+            .iter()
+            .map(|c| SpeciesDataOut {
+                reaction: rx(c.reaction),
+                temperature: c.temperature,
+                dh_given: c.dh.map(|d| d.0),
+                dh_species: c.dh.map(|d| d.1),
+                k_given: c.k.map(|k| k.0),
+                k_species: c.k.map(|k| k.1),
+                consistent: c.dh_consistent() && c.k_consistent(),
             })
             .collect(),
         findings,

@@ -348,6 +348,9 @@ pub fn optimize(
                         Bound::ValidRegion => {
                             "edge of the valid region: a point just beyond fails the study's checks or has no defined value"
                         }
+                        Bound::TemperatureLimit => {
+                            "process limit T_max: just beyond, the hot spot would exceed it"
+                        }
                     };
                     if rep.best.improves_beyond_bound == Some(true) {
                         format!("  (on the {name}; {} still improves beyond it)", rep.target)

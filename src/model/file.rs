@@ -62,11 +62,78 @@ pub enum RawPhase {
 
 #[derive(Debug, Deserialize, Default)]
 #[serde(deny_unknown_fields)]
+#[allow(non_snake_case)]
 pub struct RawSpecies {
     pub formula: Option<String>,
     pub molar_mass: Option<RawQty>,
-    /// Molar heat capacity at constant pressure.
-    pub cp: Option<RawQty>,
+    /// Molar heat capacity at constant pressure: a constant or a polynomial form.
+    pub cp: Option<RawCp>,
+    /// Standard enthalpy of formation at 298.15 K.
+    pub H_f: Option<RawQty>,
+    /// Absolute standard entropy at 298.15 K and 1 bar.
+    pub S: Option<RawQty>,
+}
+
+/// A species heat capacity as written: a quantity (`75 J/(mol*K)`) or a map with a
+/// polynomial form and its range.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RawCp {
+    Constant(RawQty),
+    Polynomial(RawCpPolynomial),
+}
+
+impl<'de> Deserialize<'de> for RawCp {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> Visitor<'de> for V {
+            type Value = RawCp;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str(
+                    "a heat capacity: a quantity such as \"75 J/(mol*K)\", or a map \
+                     {shomate: [A, B, C, D, E, F, G, H], range: [298 K, 1300 K]} or \
+                     {nasa7: {low: [..7], high: [..7], T_mid: 1000 K}, range: [200 K, 3500 K]}",
+                )
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<RawCp, E> {
+                Ok(RawCp::Constant(RawQty::Number(v)))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<RawCp, E> {
+                Ok(RawCp::Constant(RawQty::Number(v as f64)))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<RawCp, E> {
+                Ok(RawCp::Constant(RawQty::Number(v as f64)))
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<RawCp, E> {
+                Ok(RawCp::Constant(RawQty::Text(v.to_string())))
+            }
+            fn visit_map<A: de::MapAccess<'de>>(self, map: A) -> Result<RawCp, A::Error> {
+                RawCpPolynomial::deserialize(de::value::MapAccessDeserializer::new(map))
+                    .map(RawCp::Polynomial)
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+/// `cp: {shomate: [...], range: [...]}` or `cp: {nasa7: {...}, range: [...]}`.
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawCpPolynomial {
+    /// Shomate coefficients A..H (NIST units).
+    pub shomate: Option<Vec<f64>>,
+    pub nasa7: Option<RawNasa7>,
+    /// The temperatures the polynomial holds between.
+    pub range: Option<Vec<RawQty>>,
+}
+
+/// NASA 7-coefficient polynomials (Cp/R, H/(R T), S/R) below and above `T_mid`.
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(non_snake_case)]
+pub struct RawNasa7 {
+    pub low: Vec<f64>,
+    pub high: Vec<f64>,
+    pub T_mid: RawQty,
 }
 
 #[derive(Debug, Deserialize)]

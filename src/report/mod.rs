@@ -239,6 +239,40 @@ pub fn check_text(c: &Check) -> String {
             let _ = writeln!(o, " {}", more(c.equilibrium_cycles.len(), TEXT_LIST_LIMIT));
         }
     }
+    if !c.species_data.is_empty() {
+        let _ = writeln!(
+            o,
+            "\nReaction data against species data (at each reaction's T_ref)"
+        );
+        for sd in c.species_data.iter().take(TEXT_LIST_LIMIT) {
+            let mut parts = Vec::new();
+            if let (Some(g), Some(s)) = (sd.dh_given, sd.dh_species) {
+                parts.push(format!(
+                    "dH given {} kJ/mol  from species {} kJ/mol",
+                    num(g / 1e3),
+                    num(s / 1e3)
+                ));
+            }
+            if let (Some(g), Some(s)) = (sd.k_given, sd.k_species) {
+                parts.push(format!("K given {}  from species {}", num(g), num(s)));
+            }
+            let _ = writeln!(
+                o,
+                "  {:<16} {}  at {} K: {}",
+                sd.reaction,
+                parts.join("  "),
+                num(sd.temperature),
+                if sd.consistent {
+                    "consistent"
+                } else {
+                    "MISMATCH"
+                }
+            );
+        }
+        if c.species_data.len() > TEXT_LIST_LIMIT {
+            let _ = writeln!(o, " {}", more(c.species_data.len(), TEXT_LIST_LIMIT));
+        }
+    }
     let _ = writeln!(o, "\nFindings");
     if c.findings.is_empty() {
         let _ = writeln!(o, "  none");

@@ -672,18 +672,37 @@ fn study_error(net: &Network, length: f64, source: OdeError) -> SolveError {
     }
 }
 
-/// Integrate the (autonomous, isothermal) balances from state `y0` over a length `length` of
-/// the reactor and return the end state (full state: species, then p where modelled).
+/// A model seen from position `x0` of the reactor: the integrator's x = 0 is the reactor's
+/// x0 (a batch whose jacket follows a ramp is not autonomous, so a restart mid-way must keep
+/// the clock).
+struct Shifted<'a, M: Model>(&'a M, f64);
+
+impl<M: Model> OdeSystem for Shifted<'_, M> {
+    fn dim(&self) -> usize {
+        self.0.layout().len()
+    }
+    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
+        self.0.rhs(self.1 + x, y, dydx)
+    }
+    fn jacobian(&self, x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
+        self.0.jacobian(self.1 + x, y, out)
+    }
+}
+
+/// Integrate the balances from state `y0` at position `x0` over a length `length` of the
+/// reactor and return the end state (full state: species, then p, T and the coolant
+/// temperature where modelled).
 pub fn advance(
     net: &Network,
     balance: &Balance,
     y0: &[f64],
+    x0: f64,
     length: f64,
     opts: &SolveOptions,
 ) -> Result<Vec<f64>, SolveError> {
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
-    let sol = ode::integrate(&Adapter(balance), y0, length, &Output::End, &o)
+    let sol = ode::integrate(&Shifted(balance, x0), y0, length, &Output::End, &o)
         .map_err(|e| study_error(net, length, e))?;
     Ok(sol
         .y
@@ -692,21 +711,23 @@ pub fn advance(
         .clone())
 }
 
-/// Integrate from `y0` over `length` until g(y) crosses zero. Returns the crossing (distance
-/// from the start, full state) if any, and the last state reached.
+/// Integrate from `y0` at position `x0` over `length` until g(x, y) crosses zero (x the
+/// reactor position). Returns the crossing (distance from `x0`, full state) if any, and the
+/// last state reached.
 #[allow(clippy::type_complexity)]
 pub fn trace_root(
     net: &Network,
     balance: &Balance,
     y0: &[f64],
+    x0: f64,
     length: f64,
-    g: &dyn Fn(&[f64]) -> f64,
+    g: &dyn Fn(f64, &[f64]) -> f64,
     opts: &SolveOptions,
 ) -> Result<(Option<(f64, Vec<f64>)>, Vec<f64>), SolveError> {
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
-    let gx = |_x: f64, y: &[f64]| g(y);
-    let (sol, root) = ode::integrate_until_root(&Adapter(balance), &gx, y0, length, &o)
+    let gx = |x: f64, y: &[f64]| g(x0 + x, y);
+    let (sol, root) = ode::integrate_until_root(&Shifted(balance, x0), &gx, y0, length, &o)
         .map_err(|e| study_error(net, length, e))?;
     let last = sol
         .y

@@ -117,12 +117,12 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
             size * 10f64.powi(DECADES as i32 - 1)
         )))
     } else {
-        let g = |y: &[f64]| conv(y) - x;
+        let g = |_x: f64, y: &[f64]| conv(y) - x;
         let mut y = b.initial_state(net);
         let (mut from, mut len) = (0.0, size);
         let mut d = vec![0.0; y.len()];
         for _ in 0..DECADES {
-            let (root, end) = match solve::trace_root(net, &b, &y, len, &g, opts) {
+            let (root, end) = match solve::trace_root(net, &b, &y, from, len, &g, opts) {
                 Ok(r) => r,
                 // A bed with pressure drop cannot be made longer than where its pressure runs
                 // out (P/P0 → 0 as αW → 1 for constant F_T; Ergun lumped form, common
@@ -141,7 +141,7 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
                 return Ok(Reach::Size(from + s));
             }
             from += len;
-            b.rhs(&end, &mut d);
+            b.rhs_at(from, &end, &mut d);
             let n = net.species.len();
             let change = d[..n].iter().fold(0.0f64, |m, v| m.max(v.abs())) * from;
             if change <= 1e-11 * total {

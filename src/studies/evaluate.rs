@@ -10,7 +10,10 @@
 //! 3. the solve succeeds (a failed integration or Newton solve is an error, not a result);
 //! 4. the result checks hold: every amount finite and not negative beyond the solver's
 //!    physical guard ([`crate::solve`]);
-//! 5. the metrics are computed with their "not defined" rules ([`crate::metrics`]).
+//! 5. the metrics are computed with their "not defined" rules ([`crate::metrics`]), and with an
+//!    energy balance the heat figures ([`crate::safety`]): a result over the process limit
+//!    T_max is a result, flagged, which `run` reports with exit 1 and the design studies
+//!    treat as infeasible.
 //!
 //! The check's warnings that bear on the result (a reaction that can never run, a species
 //! that can never form, k = 0, ...) travel with the evaluation so the command can repeat them.
@@ -30,6 +33,8 @@ pub struct Evaluation {
     pub metrics: Metrics,
     /// The consistency check's warnings (they bear on the result: the user should see them).
     pub warnings: Vec<String>,
+    /// The temperatures of a run with an energy balance (hot spot, margin to T_max, ...).
+    pub heat: Option<crate::safety::HeatFigures>,
 }
 
 /// Why an evaluation produced no result.
@@ -111,7 +116,9 @@ fn finish(
     }
     let (balance, sim) = solved?;
     let metrics = metrics::compute(net, sim.outlet());
+    let heat = crate::safety::HeatFigures::of(net, &balance, &sim);
     Ok(Evaluation {
+        heat,
         balance,
         sim,
         metrics,

@@ -34,6 +34,9 @@ pub enum Bound {
     /// The edge of the region where the study is valid: a point just beyond fails a check
     /// (e.g. K_eq breaking Wegscheider's condition) or has no defined target value.
     ValidRegion,
+    /// The process limit T_max (`reactor.T_max`): just beyond, the hot spot (or a batch's
+    /// cooling-failure temperature) would exceed it.
+    TemperatureLimit,
 }
 
 #[derive(Debug, Clone)]
@@ -93,7 +96,7 @@ impl Probe<'_> {
                 .map_err(StudyError::Solve)
         } else {
             let y0 = self.b.initial_state(self.net);
-            Ok(solve::advance(self.net, self.b, &y0, x, self.opts)?)
+            Ok(solve::advance(self.net, self.b, &y0, 0.0, x, self.opts)?)
         }
     }
 
@@ -106,7 +109,7 @@ impl Probe<'_> {
             ))?
         } else {
             let mut d = vec![0.0; y.len()];
-            self.b.rhs(&y, &mut d);
+            self.b.rhs_at(x, &y, &mut d);
             d
         };
         Ok((self.target.slope_sign(self.net, &y, &d), y))
@@ -124,6 +127,8 @@ impl Probe<'_> {
 
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum PointKind {
+    /// Where the process limit T_max is reached (the end of the feasible sizes).
+    TemperatureLimit,
     /// The lower bound the user gave (a size > 0).
     Lower,
     /// The smallest size tried when the lower bound is zero (not a bound: the limit x → 0).
@@ -167,6 +172,23 @@ pub fn optimize_size(
         opts,
         cstr,
     };
+    // The process limit: the hot spot over [0, x] only grows with x, so sizes beyond the first
+    // point where T reaches T_max are infeasible; the search ends there.
+    let x_limit = if cstr {
+        None
+    } else {
+        temperature_limit(net, &balance, hi, opts)?
+    };
+    if x_limit.is_some_and(|x| x <= lo_eff) {
+        return Err(StudyError::Infeasible(format!(
+            "the process limit T_max = {} K is reached at {} = {} {}, at or below the lower bound: no size in the bounds keeps the reactor below it",
+            crate::report::num(net.t_max.unwrap_or(f64::NAN)),
+            solve::reactor_axis(net).0,
+            crate::report::num(x_limit.unwrap_or(0.0)),
+            solve::reactor_axis(net).1,
+        )));
+    }
+    let hi = x_limit.map_or(hi, |x| x.min(hi));
     let (stationary, mut x_conv) = if cstr {
         cstr_candidates(&probe, lo_eff, hi, min_conversion)?
     } else {
@@ -187,7 +209,15 @@ pub fn optimize_size(
                 PointKind::Lower
             },
         ),
-        (hi, probe.state(hi)?, PointKind::Upper),
+        (
+            hi,
+            probe.state(hi)?,
+            if x_limit == Some(hi) {
+                PointKind::TemperatureLimit
+            } else {
+                PointKind::Upper
+            },
+        ),
     ];
     if let Some(xc) = x_conv {
         points.push((xc, probe.state(xc)?, PointKind::Constraint));
@@ -283,12 +313,13 @@ pub fn optimize_size(
     let on_bound = match kind {
         PointKind::Lower | PointKind::Smallest => Some(Bound::Lower),
         PointKind::Upper => Some(Bound::Upper),
+        PointKind::TemperatureLimit => Some(Bound::TemperatureLimit),
         PointKind::Constraint => Some(Bound::MinConversion),
         PointKind::Stationary => None,
     };
     let improves_beyond = match on_bound {
         None => false,
-        Some(Bound::Upper) => probe.slope(size)?.0 > 0.0,
+        Some(Bound::Upper | Bound::TemperatureLimit) => probe.slope(size)?.0 > 0.0,
         Some(_) => probe.slope(size)?.0 < 0.0,
     };
     Ok(SizeOptimum {
@@ -301,6 +332,43 @@ pub fn optimize_size(
 }
 
 type Candidates = (Vec<(f64, Vec<f64>)>, Option<f64>);
+
+/// Where along a non-isothermal PFR, packed bed or batch the process limit T_max is first
+/// reached: T itself, and for a batch also the cooling-failure temperature T + ΔT_ad N_k/N_k0
+/// ([`crate::safety`]). `None` without a limit, without an energy balance, or when it is not
+/// reached within `hi`. A feed already above the limit is infeasible.
+fn temperature_limit(
+    net: &Network,
+    b: &Balance,
+    hi: f64,
+    opts: &SolveOptions,
+) -> Result<Option<f64>, StudyError> {
+    let (Some(t_max), Some(ti), Some(e)) = (net.t_max, b.temperature_index(), b.energy()) else {
+        return Ok(None);
+    };
+    let k = net.key;
+    let n_k0 = net.feed.amounts[k];
+    let rise = if net.reactor.is_batch() && n_k0 > 0.0 {
+        e.adiabatic_rise(net).0 / n_k0
+    } else {
+        0.0
+    };
+    let guard = |_x: f64, y: &[f64]| y[ti].max(y[ti] + rise * y[k]) - t_max;
+    let y0 = b.initial_state(net);
+    if guard(0.0, &y0) >= 0.0 {
+        return Err(StudyError::Infeasible(format!(
+            "the feed is already at or above the process limit T_max = {} K{}",
+            crate::report::num(t_max),
+            if rise != 0.0 {
+                " (counting the cooling-failure temperature of the charge)"
+            } else {
+                ""
+            }
+        )));
+    }
+    let (root, _) = solve::trace_root(net, b, &y0, 0.0, hi, &guard, opts)?;
+    Ok(root.map(|(x, _)| x))
+}
 
 /// The error when the conversion constraint is not met at the upper bound: how far it gets,
 /// and whether a larger reactor would meet it (the size that does) or none can (X_eq).
@@ -335,9 +403,9 @@ fn flow_candidates(
 ) -> Result<Candidates, StudyError> {
     let y0 = b.initial_state(net);
     let mut cands = Vec::new();
-    let slope = |y: &[f64]| {
+    let slope = |x: f64, y: &[f64]| {
         let mut d = vec![0.0; y.len()];
-        b.rhs(y, &mut d);
+        b.rhs_at(x, y, &mut d);
         target.slope_sign(net, y, &d)
     };
     let (mut x, mut y) = (0.0, y0.clone());
@@ -346,7 +414,7 @@ fn flow_candidates(
         if len <= 1e-12 * hi {
             break;
         }
-        let (root, _) = solve::trace_root(net, b, &y, len, &slope, opts)?;
+        let (root, _) = solve::trace_root(net, b, &y, x, len, &slope, opts)?;
         match root {
             Some((dx, yr)) => {
                 x += dx;
@@ -355,7 +423,7 @@ fn flow_candidates(
                 // Step a hair past the stationary point so it is not found again.
                 let nudge = (1e-9 * hi).min(hi - x);
                 if nudge > 0.0 {
-                    y = solve::advance(net, b, &y, nudge, opts)?;
+                    y = solve::advance(net, b, &y, x, nudge, opts)?;
                     x += nudge;
                 }
             }
@@ -364,8 +432,8 @@ fn flow_candidates(
     }
     let mut x_conv = None;
     if let Some(xmin) = min_conversion {
-        let g = |y: &[f64]| conversion(net, y) - xmin;
-        let (root, end) = solve::trace_root(net, b, &y0, hi, &g, opts)?;
+        let g = |_x: f64, y: &[f64]| conversion(net, y) - xmin;
+        let (root, end) = solve::trace_root(net, b, &y0, 0.0, hi, &g, opts)?;
         match root {
             Some((xc, _)) => x_conv = Some(xc),
             None => {
@@ -428,7 +496,17 @@ pub struct VarOptimum {
     pub evaluations: usize,
 }
 
-/// Evaluate the target at one point (None when infeasible or the solve fails there).
+/// Why a candidate has no value.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum NoValue {
+    /// Its hot spot exceeds the process limit T_max.
+    OverTemperatureLimit,
+    /// It fails a check or the solve, misses the conversion constraint, or its target is not
+    /// defined.
+    Other,
+}
+
+/// Evaluate the target at one point.
 fn evaluate(
     study: &Study,
     vars: &[Variable],
@@ -436,7 +514,7 @@ fn evaluate(
     target_text: &str,
     min_conversion: Option<f64>,
     opts: &SolveOptions,
-) -> Result<Option<f64>, StudyError> {
+) -> Result<Result<f64, NoValue>, StudyError> {
     let sets: Vec<Override> = vars.iter().zip(x).map(|(v, x)| v.set(*x)).collect();
     let net = study.load(&sets)?;
     let target = Target::parse(target_text, &net).map_err(StudyError::Invalid)?;
@@ -444,15 +522,19 @@ fn evaluate(
     // point, a failed or unphysical solve) is infeasible.
     let ev = match super::evaluate::evaluate(&net, opts, false) {
         Ok(ev) => ev,
-        Err(_) => return Ok(None),
+        Err(_) => return Ok(Err(NoValue::Other)),
     };
     let out = ev.sim.outlet();
     if let Some(xmin) = min_conversion
         && ev.metrics.conversion < xmin
     {
-        return Ok(None);
+        return Ok(Err(NoValue::Other));
     }
-    Ok(target.value(&net, out))
+    // The process limit: a candidate whose hot spot exceeds T_max is infeasible.
+    if ev.heat.as_ref().is_some_and(|h| h.exceeds_limit()) {
+        return Ok(Err(NoValue::OverTemperatureLimit));
+    }
+    Ok(target.value(&net, out).ok_or(NoValue::Other))
 }
 
 /// Maximise the target over general inputs within their bounds.
@@ -568,9 +650,14 @@ pub fn optimize_vars(
             x[i] = (x[i] + side).clamp(v.lo, v.hi);
             let fx = f(&x)?;
             if fx == f64::NEG_INFINITY {
-                // No value there: the best point is where the valid region ends, not a
-                // maximum with a slope changing sign.
-                on_bound[i] = Some(Bound::ValidRegion);
+                // No value there: the best point is where the valid region ends (or the process
+                // limit T_max), not a maximum with a slope changing sign.
+                let why = evaluate(study, vars, &x, target_text, min_conversion, opts)?;
+                on_bound[i] = Some(if why == Err(NoValue::OverTemperatureLimit) {
+                    Bound::TemperatureLimit
+                } else {
+                    Bound::ValidRegion
+                });
             } else if fx > best_f + 1e-9 * best_f.abs() {
                 return Err(StudyError::Infeasible(format!(
                     "the search ended at {} = {} {} where {target_text} still rises toward {} = {} {}: no verified maximum",
