@@ -702,3 +702,91 @@ fn max_eigenvalue_real(
         None => f64::INFINITY,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::load_str;
+
+    const CP: &str = "name: t\nspecies: {A: {cp: 150 J/(mol*K)}, B: {cp: 90 J/(mol*K)}, C: {cp: 120 J/(mol*K)}, D: {cp: 60 J/(mol*K)}, E: {cp: 40 J/(mol*K)}, I: {cp: 30 J/(mol*K)}}\n";
+    const REACTIONS: &str = "reactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-3 m3/(mol*s), Ea: 60 kJ/mol, T_ref: 450 K, dH: -90 kJ/mol}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 1/s, Ea: 40 kJ/mol, K_eq: 3, dH: -30 kJ/mol}}\n  - {id: r3, stoich: A -> D + E, rate: {law: hyperbolic, k: 0.05 1/s, Ea: 80 kJ/mol, dH: 20 kJ/mol, adsorption: {D: {K: 0.01 m3/mol, dH: -10 kJ/mol}}}}\n";
+
+    /// The Jacobian of the whole (F, T) residual against central finite differences (common
+    /// practice), for a liquid and a gas CSTR.
+    #[test]
+    fn full_jacobian_matches_finite_differences() {
+        for text in [
+            format!(
+                "{CP}phase: liquid\n{REACTIONS}feed: {{T: 300 K, volumetric: 2 L/s, flows: {{A: 1 mol/s, B: 1 mol/s}}}}\nreactor: {{type: cstr, volume: 1 m3, heat: {{UA: 200 W/K, coolant: {{T: 310 K}}}}}}\n"
+            ),
+            format!(
+                "{CP}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor: {{type: cstr, volume: 1 m3, heat: {{UA: 50 W/K, coolant: {{T: 480 K}}}}}}\n"
+            ),
+        ] {
+            let net = load_str(&text, "test", &[]).unwrap();
+            let b = Balance::new(&net).unwrap();
+            let e = b.energy().unwrap();
+            let mut iso = net.clone();
+            iso.heat = Heat::Isothermal;
+            let s = Search {
+                net: &net,
+                b: &b,
+                e,
+                iso,
+                volume: 1.0,
+                tol: 1e-12,
+                floor: b.rates.floor().to_vec(),
+                ua: e.ua(),
+                ta: e.constant_coolant().unwrap(),
+                newton_iterations: std::cell::Cell::new(0),
+            };
+            let f = [0.8, 0.5, 0.3, 0.2, 0.1, 1.0];
+            // Near the feed temperatures, where V r is of the order of the flows (far above,
+            // V r ≫ F and the differences of the residual lose the flows to round-off).
+            let t = if net.phase == Phase::Gas {
+                480.0
+            } else {
+                310.0
+            };
+            let n = f.len();
+            let (g, _, _, jm) = s.system(&f, t);
+            let mut z: Vec<f64> = f.to_vec();
+            // G is the heat release of the tube's energy balance at the same state:
+            // Σ F Cp dT/dV = UA (T_a − T) + q.
+            let mut d = vec![0.0; n + 1];
+            b.rhs_at(
+                0.0,
+                &{
+                    let mut y = f.to_vec();
+                    y.push(t);
+                    y
+                },
+                &mut d,
+            );
+            let q = e.flow_capacity(&f, t) * d[n] - s.ua * (s.ta - t);
+            assert!(
+                (g - q).abs() <= 1e-9 * g.abs().max(q.abs()),
+                "G = {g}, q = {q}"
+            );
+            z.push(t);
+            for k in 0..=n {
+                let h = 1e-6 * z[k].abs().max(1e-3);
+                let (mut zp, mut zm) = (z.clone(), z.clone());
+                zp[k] += h;
+                zm[k] -= h;
+                let (_, _, rp, _) = s.system(&zp[..n], zp[n]);
+                let (_, _, rm, _) = s.system(&zm[..n], zm[n]);
+                for r in 0..=n {
+                    let fd = (rp[r] - rm[r]) / (2.0 * h);
+                    let scale = fd.abs().max(jm[(r, k)].abs()).max(1e-8);
+                    assert!(
+                        (fd - jm[(r, k)]).abs() / scale < 1e-5,
+                        "{}: J[{r}][{k}] = {} vs fd {fd}",
+                        net.phase == Phase::Gas,
+                        jm[(r, k)]
+                    );
+                }
+            }
+        }
+    }
+}
