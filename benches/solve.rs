@@ -267,8 +267,47 @@ fn bench_rhs(c: &mut Criterion) {
                 bal.jacobian(black_box(&y), &mut trip)
             })
         });
+        // The same network with an energy balance (adiabatic, species Cp, ΔH per reaction):
+        // k(T), K(T) per evaluation and the T row and column of the Jacobian.
+        let hot = with_energy_balance(&net);
+        let hbal = Balance::new(&hot).expect("balance");
+        let mut yh = y.clone();
+        yh.push(1.02 * hot.feed.temperature);
+        let mut dh = vec![0.0; yh.len()];
+        g.bench_function(
+            BenchmarkId::new(&id, "Balance::rhs (energy balance)"),
+            |b| b.iter(|| hbal.rhs(black_box(&yh), &mut dh)),
+        );
+        g.bench_function(
+            BenchmarkId::new(&id, "Balance::jacobian (energy balance)"),
+            |b| {
+                b.iter(|| {
+                    trip.clear();
+                    hbal.jacobian(black_box(&yh), &mut trip)
+                })
+            },
+        );
     }
     g.finish();
+}
+
+/// The network with an adiabatic energy balance: every species Cp = 80..120 J/(mol K), every
+/// reaction ΔH = −20..+10 kJ/mol (demo values), so that temperature is a state.
+fn with_energy_balance(net: &Network) -> Network {
+    let mut hot = net.clone();
+    for (j, s) in hot.species.iter_mut().enumerate() {
+        s.thermo.cp = Some(rxnet::thermo::HeatCapacity::Constant(
+            80.0 + (j % 41) as f64,
+        ));
+    }
+    for (i, r) in hot.reactions.iter_mut().enumerate() {
+        r.dh = Some(-20e3 + 1e3 * (i % 31) as f64);
+    }
+    hot.heat = rxnet::model::Heat::Balance(rxnet::model::EnergyBalance {
+        exchange: None,
+        mixture_cp: None,
+    });
+    hot
 }
 
 fn small_pfr() -> Network {

@@ -201,6 +201,21 @@ fn table(rows: &[compare::CompareRow], optimum: Option<&str>, resized: bool) -> 
             rows.iter().map(|r| f(r.selectivity_over_all)).collect(),
         ));
     }
+    if rows.iter().any(|r| r.hot_spot.is_some()) {
+        cols.push((
+            "T_hot [K]".into(),
+            rows.iter()
+                .map(|r| {
+                    let t = f(r.hot_spot);
+                    if r.over_limit {
+                        format!("{t} > T_max")
+                    } else {
+                        t
+                    }
+                })
+                .collect(),
+        ));
+    }
     if show_rank {
         cols.push((
             if amount_rank {

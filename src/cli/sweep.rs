@@ -114,11 +114,15 @@ fn json_row(cols: &Columns, axes: &[Axis], r: &sweep::SweepRow) -> serde_json::V
     match &r.result {
         Ok(p) => {
             let mut v = serde_json::json!({
-                "point": r.point, "inputs": inputs, "status": "ok", "conversion": p.conversion,
+                "point": r.point, "inputs": inputs, "status": p.status(), "conversion": p.conversion,
                 "yield": map(&cols.products, &p.yields),
                 "selectivity": map(&cols.others, &p.selectivity),
                 "outlet": cols.species.iter().zip(&p.outlet).map(|(k, v)| (k.clone(), serde_json::json!(v))).collect::<serde_json::Map<_, _>>(),
             });
+            if let Some((out, hot)) = p.temperatures {
+                v["outlet_temperature"] = serde_json::json!(out);
+                v["hot_spot_temperature"] = serde_json::json!(hot);
+            }
             if !p.not_defined.is_empty() {
                 v["not_defined"] = p
                     .not_defined

@@ -76,6 +76,9 @@ struct Compiled {
     forward: Vec<Factor>,
     /// (K_ref, ΔH for van't Hoff, reverse factors).
     reverse: Option<(f64, f64, Vec<Factor>)>,
+    /// K(T) from the reaction's thermochemistry when it is more than van't Hoff with a
+    /// constant ΔH: Kirchhoff's ΔH(T) with ΔCp, or ΔG° of the species ([`crate::thermo`]).
+    keq_thermo: Option<crate::thermo::LnKForm>,
     /// (K_m,ref, ΔH_m, factor) terms and the power n.
     denominator: Option<(Vec<AdsorptionTerm>, f64)>,
     /// Species whose concentration this rate depends on (sorted, unique).
@@ -278,6 +281,21 @@ fn log_slope(e: f64, t: f64) -> f64 {
 }
 
 impl Compiled {
+    /// 1/K_eq(T) and d ln K_eq/dT (0 and 0 for a one-way step).
+    #[inline]
+    fn inv_k_eq(&self, t: f64) -> (f64, f64) {
+        match (&self.reverse, &self.keq_thermo) {
+            (None, _) => (0.0, 0.0),
+            (Some(_), Some(form)) => {
+                let (ln_k, slope) = form.eval(t);
+                ((-ln_k).exp(), slope)
+            }
+            (Some((k, dh, _)), None) => {
+                (1.0 / arrhenius(*k, *dh, self.t_ref, t), log_slope(*dh, t))
+            }
+        }
+    }
+
     fn at(&self, t: f64) -> AtTemperature {
         let (k_ads, dln_kads) =
             self.denominator
@@ -290,16 +308,10 @@ impl Compiled {
                 });
         AtTemperature {
             k: arrhenius(self.k_ref, self.ea, self.t_ref, t),
-            inv_k_eq: self
-                .reverse
-                .as_ref()
-                .map_or(0.0, |(k, dh, _)| 1.0 / arrhenius(*k, *dh, self.t_ref, t)),
+            inv_k_eq: self.inv_k_eq(t).0,
             k_ads,
             dlnk: log_slope(self.ea, t),
-            dln_keq: self
-                .reverse
-                .as_ref()
-                .map_or(0.0, |(_, dh, _)| log_slope(*dh, t)),
+            dln_keq: self.inv_k_eq(t).1,
             dln_kads,
         }
     }
@@ -316,7 +328,8 @@ impl RateSet {
         let laws: Vec<Compiled> = net
             .reactions
             .iter()
-            .map(|r| {
+            .enumerate()
+            .map(|(i, r)| {
                 let law = &r.rate;
                 let mut forward: Vec<Factor> =
                     law.orders.iter().map(|&(j, e)| factor(j, e)).collect();
@@ -367,12 +380,20 @@ impl RateSet {
                 if let Some((terms, _)) = &mut denominator {
                     terms.iter_mut().for_each(|(_, _, f)| slot_of(f));
                 }
+                // van't Hoff with a constant ΔH unless ΔCp or the species' ΔG° say more.
+                let keq_thermo = reverse.as_ref().and_then(|_| {
+                    let th = crate::thermo::ReactionThermo::new(net, i);
+                    let more =
+                        th.includes_dcp() || th.k_source() == Some(crate::thermo::KSource::Species);
+                    if more { th.ln_k_form() } else { None }
+                });
                 Compiled {
                     k_ref: law.k_ref,
                     ea: law.ea,
                     t_ref: law.t_ref,
                     forward,
                     reverse,
+                    keq_thermo,
                     denominator,
                     depends_on,
                 }
@@ -491,6 +512,27 @@ impl RateSet {
             self.eval_at(i, &self.cached[i], c, grad, None)
         } else {
             self.eval_at(i, &self.laws[i].at(t), c, grad, None)
+        }
+    }
+
+    /// Every rate at temperature T and concentrations `c`, into `r` (the right-hand side of a
+    /// non-isothermal model): the same values as [`RateSet::eval`] at T, with k(T) and
+    /// K_eq(T) computed on the way, so a power law takes the packed path without building its
+    /// [`AtTemperature`].
+    pub fn rates_at(&self, t: f64, c: &[f64], r: &mut [f64]) {
+        if t == self.temperature {
+            for (i, ri) in r.iter_mut().enumerate() {
+                *ri = self.eval(i, t, c, None);
+            }
+            return;
+        }
+        for (i, (law, ri)) in self.laws.iter().zip(r.iter_mut()).enumerate() {
+            *ri = if law.denominator.is_none() {
+                let k = arrhenius(law.k_ref, law.ea, law.t_ref, t);
+                self.power_law_rate(k, law.inv_k_eq(t).0, i, c)
+            } else {
+                self.eval_at(i, &law.at(t), c, None, None)
+            };
         }
     }
 
@@ -746,6 +788,63 @@ mod tests {
                 assert!(
                     (d - fd).abs() <= 1e-6 * fd.abs().max(1e-12),
                     "reaction {i}: {d} vs {fd}"
+                );
+            }
+        }
+    }
+
+    /// With species heat capacities a reversible step's K(T) carries ΔCp (integrated van't
+    /// Hoff, [`crate::thermo::ReactionThermo`]): the rate vanishes at the closed-form K(T) for
+    /// constant ΔCp, ln K = ln K0 − (ΔH0 − ΔCp T0)/R (1/T − 1/T0) + ΔCp/R ln(T/T0) (integrated
+    /// van't Hoff with Kirchhoff's ΔH; Smith, Van Ness & Abbott, from memory), and ∂r/∂T
+    /// matches central differences.
+    #[test]
+    fn equilibrium_constant_carries_heat_capacity_difference() {
+        let net = load_str(
+            "name: t\nphase: liquid\nspecies: {A: {cp: 100 J/(mol*K)}, B: {cp: 160 J/(mol*K)}}\nreactions:\n  - {id: r, stoich: A <=> B, rate: {k: 0.1 1/s, K_eq: 4, T_ref: 300 K, dH: -30 kJ/mol}}\nfeed: {T: 300 K, volumetric: 1 L/s, flows: {A: 1 mol/s}}\nreactor: {type: pfr, volume: 1 L}\n",
+            "t",
+            &[],
+        )
+        .unwrap();
+        let rs = RateSet::new(&net);
+        let (t0, t, dh0, dcp) = (300.0_f64, 380.0_f64, -30e3_f64, 60.0_f64);
+        let r_gas = 8.314_462_618_153_24;
+        let ln_k = 4.0_f64.ln() - (dh0 - dcp * t0) / r_gas * (1.0 / t - 1.0 / t0)
+            + dcp / r_gas * (t / t0).ln();
+        let k = ln_k.exp();
+        let r = rs.eval(0, t, &[100.0, 100.0 * k], None);
+        assert!(r.abs() < 1e-10, "rate at the closed-form K(T): {r}");
+        let (mut at, mut p, mut m) = (Vec::new(), Vec::new(), Vec::new());
+        let h = 1e-4;
+        rs.constants(t, &mut at);
+        rs.constants(t + h, &mut p);
+        rs.constants(t - h, &mut m);
+        let c = [300.0, 50.0];
+        let mut d = 0.0;
+        rs.eval_at(0, &at[0], &c, None, Some(&mut d));
+        let fd = (rs.eval_at(0, &p[0], &c, None, None) - rs.eval_at(0, &m[0], &c, None, None))
+            / (2.0 * h);
+        assert!((d - fd).abs() < 1e-6 * fd.abs(), "{d} vs {fd}");
+    }
+
+    /// The one-pass rates of the non-isothermal right-hand side equal the general path's at
+    /// any temperature, law by law (the same products in the same order).
+    #[test]
+    fn rates_at_equals_eval_at_any_temperature() {
+        let net = study(MIXED_LAWS);
+        let rs = RateSet::new(&net);
+        let c = [800.0, 450.0, 120.0, 3.0];
+        let mut r = vec![0.0; rs.len()];
+        let mut at = Vec::new();
+        for t in [300.0, 312.5, 360.0] {
+            rs.rates_at(t, &c, &mut r);
+            rs.constants(t, &mut at);
+            for i in 0..rs.len() {
+                let general = rs.eval_at(i, &at[i], &c, None, None);
+                assert!(
+                    (r[i] - general).abs() <= 1e-14 * general.abs(),
+                    "reaction {i} at {t} K: {} vs {general}",
+                    r[i]
                 );
             }
         }

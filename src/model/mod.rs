@@ -401,6 +401,15 @@ pub fn closest_name<'a>(name: &str, names: &[&'a str]) -> Option<&'a str> {
 }
 
 impl Network {
+    /// The heat exchange of the energy balance, if any, to change in place (a screen that
+    /// moves a study to another vessel).
+    pub fn heat_exchange_mut(&mut self) -> Option<&mut Exchange> {
+        match &mut self.heat {
+            Heat::Balance(e) => e.exchange.as_mut(),
+            Heat::Isothermal => None,
+        }
+    }
+
     /// The reactor size (V, W or batch time, SI).
     pub fn size(&self) -> f64 {
         match self.reactor {

@@ -24,7 +24,7 @@
 //! bed's pressure gradient carries the factor T/T0.
 
 use crate::model::{BatchMode, Coolant, Heat, Network, Phase, Reactor};
-use crate::thermo::{HeatCapacity, T_STANDARD};
+use crate::thermo::HeatCapacity;
 use crate::units::GAS_CONSTANT;
 
 /// The energy-balance data of one reactor.
@@ -75,33 +75,31 @@ impl Energy {
             net.species.iter().map(|s| s.thermo.cp.clone()).collect()
         };
         let sensible = |j: usize, t: f64| cp[j].as_ref().map_or(0.0, |c| c.sensible(t));
+        // ΔH_i(T) from the reaction's `dH` or its species' H_f, by Kirchhoff's law
+        // ([`crate::thermo::ReactionThermo`]), put in the form h_i + Σ_j ν_ij H_j(T) over the
+        // species whose H_j the balance carries.
+        let enthalpies = crate::thermo::reaction_enthalpies(net);
         let mut offset = Vec::with_capacity(net.reactions.len());
-        for r in &net.reactions {
-            let h = match r.dh {
-                // ΔH given at the rate's reference temperature.
-                Some(dh) => {
-                    dh - r
-                        .net
-                        .iter()
-                        .map(|&(j, v)| v * sensible(j, r.rate.t_ref))
-                        .sum::<f64>()
-                }
-                // From the species' enthalpies of formation at 298.15 K.
-                None => {
-                    let mut h = 0.0;
-                    for &(j, v) in &r.net {
-                        let Some(hf) = net.species[j].thermo.h_f else {
-                            return Err(format!(
-                                "an energy balance needs the heat of reaction of `{}`: give its `dH` or `H_f` of each species",
-                                r.id
-                            ));
-                        };
-                        h += v * (hf - sensible(j, T_STANDARD));
-                    }
-                    h
-                }
+        for (r, dh) in net.reactions.iter().zip(&enthalpies) {
+            let Some(dh) = dh else {
+                return Err(format!(
+                    "an energy balance needs the heat of reaction of `{}`: give its `dH` or `H_f` of each species",
+                    r.id
+                ));
             };
-            offset.push(h);
+            let complete = !dh.terms.is_empty() && r.net.iter().all(|&(j, _)| cp[j].is_some());
+            offset.push(if complete {
+                dh.offset
+            } else {
+                // ΔCp not known for every species (or a mixture heat capacity): ΔH as at the
+                // reaction's reference temperature, less what the carried H_j add there.
+                let t_ref = r.rate.t_ref;
+                dh.at(net, t_ref)
+                    - r.net
+                        .iter()
+                        .map(|&(j, v)| v * sensible(j, t_ref))
+                        .sum::<f64>()
+            });
         }
         if mixture.is_none() {
             let fed_or_made =
@@ -290,8 +288,8 @@ impl Balance {
         let t = y[ti];
         let (kappa, sigma, s) = self.scales_at(e, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
-        let mut at = Vec::new();
-        self.rates.constants(t, &mut at);
+        let mut rates = vec![0.0; self.rates.len()];
+        self.rates.rates_at(t, &c, &mut rates);
         dydx.iter_mut().for_each(|v| *v = 0.0);
         // Σ_i σ r_i h_i, then the species' part of ΔE through dy/dx.
         let mut with_offset = 0.0;
@@ -301,7 +299,7 @@ impl Balance {
             .map(|w| &self.nu[w[0]..w[1]])
             .enumerate()
         {
-            let r = sigma * self.rates.eval_at(i, &at[i], &c, None, None);
+            let r = sigma * rates[i];
             with_offset += r * e.offset[i];
             for &(j, v) in nu {
                 dydx[j] += v * r;
@@ -393,9 +391,12 @@ impl Balance {
             release_dt -= de * (sigma * dr_dt + dsigma_dt * r) + sigma * r * de_dt;
             release_dp -= de * sigma * a * kappa / p;
         }
+        let dense = dkappa != 0.0 || dsigma != 0.0;
         for &j in &self.reactive {
-            for k in 0..n {
-                out.push((j, k, uniform[j]));
+            if dense {
+                for k in 0..n {
+                    out.push((j, k, uniform[j]));
+                }
             }
             out.push((j, ti, col_t[j]));
         }

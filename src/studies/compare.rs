@@ -60,6 +60,33 @@ pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
         ));
     }
     let mut n = net.clone();
+    // Heat exchange moves with the vessel: U·a per reactor volume along a tube is U·A = U·a·V
+    // in total for a tank of the same volume (and back); a coolant stream is modelled along
+    // a tube only.
+    if let Some(x) = n.heat_exchange_mut() {
+        let from_tube = matches!(net.reactor, Reactor::Pfr { .. });
+        let to_tube = kind == Kind::Pfr;
+        let volume = match net.reactor {
+            Reactor::Pfr { volume } | Reactor::Cstr { volume } => volume,
+            Reactor::Batch { volume, .. } if volume > 0.0 => volume,
+            Reactor::Batch { .. } => net.feed.volumetric,
+            Reactor::Pbr { .. } => 1.0,
+        };
+        if !to_tube && matches!(x.coolant, crate::model::Coolant::Stream { .. }) {
+            return Err(format!(
+                "a coolant stream along the wall is modelled for a tube; a {} needs a coolant temperature",
+                kind.name()
+            ));
+        }
+        if kind != Kind::Batch && matches!(x.coolant, crate::model::Coolant::Ramp { .. }) {
+            return Err("a jacket ramp is modelled for a batch".into());
+        }
+        match (from_tube, to_tube) {
+            (true, false) => x.ua *= volume,
+            (false, true) => x.ua /= volume,
+            _ => {}
+        }
+    }
     match (&net.reactor, kind) {
         (Reactor::Pbr { .. }, _) => {
             return Err("a packed bed (rates per catalyst mass) is compared only as itself".into());
@@ -140,6 +167,10 @@ pub struct CompareRow {
     pub optimum_unit: Option<&'static str>,
     /// Why there is no optimum size (e.g. the supremum is approached as the size goes to 0).
     pub optimum_note: Option<String>,
+    /// With an energy balance: the hot spot, K, and whether it (or a batch's cooling-failure
+    /// temperature) exceeds the study's T_max; an entry over the limit ranks after the others.
+    pub hot_spot: Option<f64>,
+    pub over_limit: bool,
     pub error: Option<String>,
 }
 
@@ -191,6 +222,8 @@ pub fn evaluate(
         optimum_value: None,
         optimum_unit: None,
         optimum_note: None,
+        hot_spot: None,
+        over_limit: false,
         error: None,
     };
     let result = (|| -> Result<(), String> {
@@ -213,6 +246,8 @@ pub fn evaluate(
         let out = ev.sim.outlet();
         let m = &ev.metrics;
         row.conversion = Some(m.conversion);
+        row.hot_spot = ev.heat.as_ref().map(|h| h.hot_spot.temperature);
+        row.over_limit = ev.heat.as_ref().is_some_and(|h| h.exceeds_limit());
         if let Some(d) = n.desired {
             row.yield_desired = m
                 .yields
@@ -249,9 +284,11 @@ pub fn evaluate(
     row
 }
 
-/// Rank rows by their target value, best first; rows without a value last.
+/// Rank rows by their target value, best first; rows over the process limit T_max after the
+/// others, and rows without a value last.
 pub fn rank(rows: &mut [CompareRow]) {
     rows.sort_by(|a, b| match (a.rank_value, b.rank_value) {
+        (Some(_), Some(_)) if a.over_limit != b.over_limit => a.over_limit.cmp(&b.over_limit),
         (Some(x), Some(y)) => y.total_cmp(&x),
         (Some(_), None) => std::cmp::Ordering::Less,
         (None, Some(_)) => std::cmp::Ordering::Greater,

@@ -77,6 +77,17 @@ pub struct PointResult {
     /// (column, reason) of each yield or selectivity that is not defined at this point.
     pub not_defined: Vec<(String, String)>,
     pub outlet: Vec<f64>,
+    /// With an energy balance: (outlet temperature, hot spot), K.
+    pub temperatures: Option<(f64, f64)>,
+    /// The hot spot (or a batch's cooling-failure temperature) exceeds the study's T_max.
+    pub over_limit: bool,
+}
+
+impl PointResult {
+    /// The status column: `ok`, or `over T_max` for a point beyond the process limit.
+    pub fn status(&self) -> &'static str {
+        if self.over_limit { "over T_max" } else { "ok" }
+    }
 }
 
 #[derive(Debug, Clone)]
@@ -95,6 +106,8 @@ pub struct Columns {
     pub others: Vec<String>,
     pub species: Vec<String>,
     pub state_unit: &'static str,
+    /// Whether the study has an energy balance (then the T_out and T_hot columns).
+    pub heat: bool,
 }
 
 impl Columns {
@@ -124,6 +137,7 @@ impl Columns {
             desired,
             others,
             species: net.species.iter().map(|s| s.name.clone()).collect(),
+            heat: net.heat.balance().is_some(),
             state_unit: if net.reactor.is_batch() {
                 "mol"
             } else {
@@ -204,6 +218,11 @@ fn run_point(
             .collect(),
         not_defined,
         outlet: ev.sim.outlet().to_vec(),
+        temperatures: ev
+            .heat
+            .as_ref()
+            .map(|h| (h.outlet_temperature, h.hot_spot.temperature)),
+        over_limit: ev.heat.as_ref().is_some_and(|h| h.exceeds_limit()),
     })
 }
 
@@ -298,6 +317,10 @@ pub fn csv_header(cols: &Columns) -> String {
             .iter()
             .map(|s| format!("{s} [{}]", cols.state_unit)),
     );
+    if cols.heat {
+        h.push("T_out [K]".into());
+        h.push("T_hot [K]".into());
+    }
     h.push("error".into());
     let mut o = h.iter().map(|s| csv_field(s)).collect::<Vec<_>>().join(",");
     o.push('\n');
@@ -315,13 +338,18 @@ pub fn csv_rows(cols: &Columns, rows: &[SweepRow]) -> String {
         f.extend(r.inputs.iter().map(|v| fmt_num(*v)));
         match &r.result {
             Ok(p) => {
-                f.push("ok".into());
+                f.push(p.status().into());
                 f.push(fmt_num(p.conversion));
                 f.extend(p.yields.iter().map(|v| opt(*v)));
                 if cols.desired.is_some() {
                     f.extend(p.selectivity.iter().map(|v| opt(*v)));
                 }
                 f.extend(p.outlet.iter().map(|v| fmt_num(*v)));
+                if cols.heat {
+                    let (out, hot) = p.temperatures.unwrap_or((f64::NAN, f64::NAN));
+                    f.push(fmt_num(out));
+                    f.push(fmt_num(hot));
+                }
                 f.push(String::new());
             }
             Err(e) => {
@@ -333,7 +361,8 @@ pub fn csv_rows(cols: &Columns, rows: &[SweepRow]) -> String {
                     } else {
                         0
                     }
-                    + cols.species.len();
+                    + cols.species.len()
+                    + if cols.heat { 2 } else { 0 };
                 f.extend(std::iter::repeat_n(String::new(), blanks));
                 f.push(csv_field(e));
             }

@@ -20,8 +20,8 @@
 mod reaction;
 
 pub use reaction::{
-    C_STANDARD_LIQUID, EnthalpySource, KSource, P_STANDARD, ReactionEnthalpy, ReactionThermo,
-    reaction_enthalpies,
+    C_STANDARD_LIQUID, EnthalpySource, KSource, LnKForm, P_STANDARD, ReactionEnthalpy,
+    ReactionThermo, reaction_enthalpies,
 };
 
 use crate::units::GAS_CONSTANT;
@@ -128,7 +128,7 @@ impl HeatCapacity {
     /// Shomate: A ln t + B t + C t²/2 + D t³/3 − E/(2 t²) (the form's S without G); NASA:
     /// R (a1 ln T + a2 T + a3 T²/2 + a4 T³/3 + a5 T⁴/4) of the low polynomial, continued
     /// above `t_mid` by the high one's increase; constant Cp: Cp ln(T/298.15).
-    fn entropy_antiderivative(&self, t: f64) -> f64 {
+    pub(crate) fn entropy_antiderivative(&self, t: f64) -> f64 {
         match self {
             HeatCapacity::Constant(cp) => cp * (t / T_STANDARD).ln(),
             HeatCapacity::Shomate { c, .. } => {

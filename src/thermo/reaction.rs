@@ -66,6 +66,49 @@ pub struct ReactionThermo {
     gas_nu: f64,
 }
 
+/// The coefficients of [`ReactionThermo::ln_k`]:
+///
+/// ```text
+/// ln K(T) = l − (c + Σ ν_j Hs_j(T))/(R T) + Σ ν_j Ss_j(T)/R + gas_nu ln(P°/(R T))
+/// ```
+///
+/// with Hs_j = `sensible`, Ss_j = `entropy_antiderivative` of species j's Cp (`terms`, empty
+/// when ΔCp is taken as zero). The rate laws evaluate it at every temperature of a
+/// non-isothermal solve.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LnKForm {
+    pub l: f64,
+    pub c: f64,
+    pub gas_nu: f64,
+    /// Σ ν_j Cp_j over the species with a constant Cp (their Hs and Ss are Cp (T − 298.15)
+    /// and Cp ln(T/298.15), so they sum to one term).
+    pub dcp_constant: f64,
+    /// The species whose Cp is a polynomial.
+    pub terms: Vec<(usize, f64, HeatCapacity)>,
+}
+
+impl LnKForm {
+    /// ln K(T) and d ln K/dT = ΔH(T)/(R T²) − gas_nu/T.
+    pub fn eval(&self, t: f64) -> (f64, f64) {
+        let (mut hs, mut ss) = (0.0, 0.0);
+        if self.dcp_constant != 0.0 {
+            hs = self.dcp_constant * (t - crate::thermo::T_STANDARD);
+            ss = self.dcp_constant * (t / crate::thermo::T_STANDARD).ln();
+        }
+        for (_, nu, cp) in &self.terms {
+            hs += nu * cp.sensible(t);
+            ss += nu * cp.entropy_antiderivative(t);
+        }
+        let dh = self.c + hs;
+        let rt = GAS_CONSTANT * t;
+        let mut ln_k = self.l - dh / rt + ss / GAS_CONSTANT;
+        if self.gas_nu != 0.0 {
+            ln_k += self.gas_nu * (P_STANDARD / rt).ln();
+        }
+        (ln_k, dh / (rt * t) - self.gas_nu / t)
+    }
+}
+
 /// ΔH_i(T) = offset + Σ_(j, ν) ν Hs_j(T) with Hs_j = `net.species[j].thermo.cp.sensible`:
 /// the form the energy balances evaluate. `terms` is empty when ΔCp is taken as zero.
 #[derive(Debug, Clone, PartialEq)]
@@ -248,6 +291,39 @@ impl ReactionThermo {
         self.lk0?;
         let dh = self.dh(t).unwrap_or(0.0);
         Some(dh / (GAS_CONSTANT * t * t) - self.gas_nu / t)
+    }
+
+    /// ln K(T) as coefficients for a fast evaluation ([`LnKForm`]), `None` without a K.
+    pub fn ln_k_form(&self) -> Option<LnKForm> {
+        let l = self.lk0?;
+        Some(match self.dh0 {
+            None => LnKForm {
+                l,
+                c: 0.0,
+                gas_nu: 0.0,
+                dcp_constant: 0.0,
+                terms: Vec::new(),
+            },
+            Some(c) => LnKForm {
+                l,
+                c,
+                gas_nu: self.gas_nu,
+                dcp_constant: self
+                    .terms
+                    .iter()
+                    .filter_map(|(_, nu, cp)| match cp {
+                        HeatCapacity::Constant(v) => Some(nu * v),
+                        _ => None,
+                    })
+                    .sum(),
+                terms: self
+                    .terms
+                    .iter()
+                    .filter(|(_, _, cp)| !matches!(cp, HeatCapacity::Constant(_)))
+                    .map(|(j, nu, cp)| (*j, *nu, cp.clone()))
+                    .collect(),
+            },
+        })
     }
 
     /// Where ΔH comes from, if anywhere.
