@@ -109,10 +109,7 @@ fn highest_steady_state_is_shown_on_request() {
 #[test]
 fn ignition_and_extinction_match_the_scipy_turning_points() {
     let j = run_args("three-tp", THREE, &["--format", "json"]).ok_json();
-    let got = j["steady_states"]["turning_points"]
-        .as_array()
-        .expect("turning points")
-        .clone();
+    let tp = &j["steady_states"]["turning_points"];
     let want = fixture()["liquid_three_states"]["turning_points"]
         .as_array()
         .unwrap()
@@ -121,30 +118,37 @@ fn ignition_and_extinction_match_the_scipy_turning_points() {
     for w in &want {
         let kind = w["kind"].as_str().unwrap();
         for (parameter, key) in [
-            ("feed temperature", "feed_temperature"),
-            ("coolant temperature", "coolant_temperature"),
+            ("feed_T", "feed_temperature"),
+            ("coolant_T", "coolant_temperature"),
         ] {
-            let g = got
-                .iter()
-                .find(|g| g["kind"] == kind && g["parameter"] == parameter)
-                .unwrap_or_else(|| panic!("no {kind} along the {parameter}: {got:?}"));
             // Zeros of dG/dT − dR/dT by brentq, T0(T) and Ta(T) from the balance,
             // tests/reference/cstr_heat.py (scipy fixture)
-            let v = num(&g["value_k"], "value");
+            let v = num(&tp[parameter][kind], "value");
             let vw = num(&w[key], "value");
             assert!(
                 (v - vw).abs() < 1e-6,
                 "{kind} {parameter}: {v} K, scipy {vw} K"
             );
+            let points = tp[parameter]["points"].as_array().expect("points");
+            assert_eq!(points.len(), 2, "{points:?}");
+            let g = points
+                .iter()
+                .find(|g| g["kind"] == kind)
+                .unwrap_or_else(|| panic!("no {kind} along {parameter}: {points:?}"));
+            assert!((num(&g["value_k"], "value") - vw).abs() < 1e-6);
             let tr = num(&g["reactor_temperature_k"], "T");
             let trw = num(&w["reactor_temperature"], "T");
             assert!(
                 (tr - trw).abs() < 1e-6,
                 "{kind}: reactor T {tr}, scipy {trw}"
             );
+            let x = num(&g["conversion"], "X");
+            assert!(
+                (x - num(&w["conversion"], "X")).abs() < 1e-8,
+                "{kind}: X {x}"
+            );
         }
     }
-    assert_eq!(got.len(), 4, "{got:?}");
     // The text report names them too.
     let text = run_args("three-text", THREE, &[]);
     assert_eq!(text.code, 0, "{}", text.stderr);
@@ -414,4 +418,19 @@ fn sweep_over_the_coolant_temperature_follows_the_chosen_state() {
         );
     }
     assert!(conv[1] < 0.2 && conv[2] > 0.9, "{conv:?}");
+}
+
+#[test]
+fn a_hotter_state_above_t_max_is_named_when_a_cooler_one_is_shown() {
+    // States at 299.99, 328.36 and 361.85 K (scipy fixture); T_max = 340 K lies between.
+    let study = THREE.replace("  volume: 1 m3\n", "  volume: 1 m3\n  T_max: 340 K\n");
+    let run = run_args("three-tmax", &study, &[]);
+    // The shown (lowest) state is within the limit: exit 0, with a warning that names the
+    // ignited state over it (the safety rule of the project: no silent hazard).
+    assert_eq!(run.code, 0, "{}\n{}", run.stdout, run.stderr);
+    assert!(
+        run.stderr.contains("steady state 3 (T = 361.85 K") && run.stderr.contains("T_max"),
+        "{}",
+        run.stderr
+    );
 }

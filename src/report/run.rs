@@ -122,6 +122,56 @@ pub struct SteadyStateEntry {
     pub outlet: IndexMap<String, f64>,
 }
 
+/// The ignition and extinction points of a CSTR along one parameter (K).
+#[derive(Debug, Clone, Serialize)]
+pub struct TurningPointsReport {
+    /// The parameter's value at the ignition point of lowest reactor temperature (where the
+    /// cold branch ends), K; null when the steady-state curve has none in the scanned window.
+    pub ignition: Option<f64>,
+    /// Its value at the extinction point of highest reactor temperature (where the hot branch
+    /// ends), K; null when there is none.
+    pub extinction: Option<f64>,
+    /// Every turning point found, in order of rising reactor temperature.
+    pub points: Vec<crate::solve::cstr_heat::TurningPoint>,
+}
+
+/// The ignition and extinction points of a search, keyed `feed_T` and `coolant_T`.
+fn turning_points_report(
+    all: &[crate::solve::cstr_heat::TurningPoint],
+) -> IndexMap<&'static str, TurningPointsReport> {
+    let mut out = IndexMap::new();
+    for (key, parameter) in [
+        ("feed_T", "feed temperature"),
+        ("coolant_T", "coolant temperature"),
+    ] {
+        let mut points: Vec<_> = all
+            .iter()
+            .filter(|p| p.parameter == parameter)
+            .cloned()
+            .collect();
+        if points.is_empty() && key == "coolant_T" {
+            continue;
+        }
+        points.sort_by(|a, b| a.reactor_temperature_k.total_cmp(&b.reactor_temperature_k));
+        out.insert(
+            key,
+            TurningPointsReport {
+                ignition: points
+                    .iter()
+                    .find(|p| p.kind == "ignition")
+                    .map(|p| p.value_k),
+                extinction: points
+                    .iter()
+                    .rev()
+                    .find(|p| p.kind == "extinction")
+                    .map(|p| p.value_k),
+                points,
+            },
+        );
+    }
+    out
+}
+
 /// The steady states of a CSTR run.
 #[derive(Debug, Clone, Serialize)]
 pub struct SteadyStatesReport {
@@ -138,8 +188,9 @@ pub struct SteadyStatesReport {
     pub scan_window_k: Option<(f64, f64)>,
     /// With an energy balance: the ignition and extinction points along the feed and coolant
     /// temperatures (K), where the steady-state curve has them in the scanned range.
+    /// Keyed by the parameter, `feed_T` and `coolant_T` (the latter with heat exchange only).
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub turning_points: Option<Vec<crate::solve::cstr_heat::TurningPoint>>,
+    pub turning_points: Option<IndexMap<&'static str, TurningPointsReport>>,
 }
 
 /// Pressure and volumetric flow (flow reactors) or volume (batch) of profile point `k`.
@@ -383,7 +434,10 @@ pub fn build(
                 .collect(),
             note: st.note.clone(),
             scan_window_k: st.heat.as_ref().map(|h| h.window_k),
-            turning_points: st.heat.as_ref().map(|h| h.turning_points.clone()),
+            turning_points: st
+                .heat
+                .as_ref()
+                .map(|h| turning_points_report(&h.turning_points)),
         }),
         profile,
     }
@@ -581,12 +635,16 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
                 num(hi)
             );
         }
-        if let Some(tp) = st.turning_points.as_ref().filter(|t| !t.is_empty()) {
+        if let Some(tp) = st
+            .turning_points
+            .as_ref()
+            .filter(|t| t.values().any(|p| !p.points.is_empty()))
+        {
             let _ = writeln!(
                 o,
                 "  ignition and extinction (turning points of the steady state against a temperature; the others held):"
             );
-            for p in tp {
+            for p in tp.values().flat_map(|t| &t.points) {
                 let _ = writeln!(
                     o,
                     "    {} at {} {} K (reactor T = {} K, X = {})",

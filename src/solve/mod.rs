@@ -352,13 +352,29 @@ pub fn simulate_with(
     {
         stats.method = "temperature scan of the heat generated and removed, Brent's method, Newton on (F, T) with the analytic Jacobian";
         let tol = cstr_tolerance(rtol, atol, total);
-        let (all, search, warnings) = cstr_heat::find_all(net, balance, volume, tol)?;
+        let (all, search, mut warnings) = cstr_heat::find_all(net, balance, volume, tol)?;
         let choice = opts
             .steady_state
             .or(net.solver.steady_state)
             .unwrap_or_default();
         let shown = all.pick(choice).map_err(SolveError::SteadyStateChoice)?;
         let st = &all.states[shown];
+        // A hotter state the vessel can ignite to (a disturbance, a start-up) over the process
+        // limit is named even when the state shown is below it.
+        if let Some(t_max) = net.t_max {
+            for (k, s) in all.states.iter().enumerate() {
+                if let Some(t) = s.temperature
+                    && k != shown
+                    && t > t_max
+                {
+                    warnings.push(format!(
+                        "steady state {} (T = {t:.2} K, X = {:.4}) is above T_max = {t_max} K: the CSTR can ignite to it",
+                        k + 1,
+                        s.conversion
+                    ));
+                }
+            }
+        }
         stats.newton_iterations = all.stats.iterations;
         stats.residual = Some(st.residual);
         stats.newton_step = Some(st.newton_step);
