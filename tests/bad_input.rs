@@ -702,3 +702,117 @@ fn unknown_linear_algebra_is_refused_with_the_choices() {
         assert!((c - a0).abs() <= 1e-7 * a0, "{la}: {c} against {a0}");
     }
 }
+
+// ---------------------------------------------------------------------------------------
+// reactor.heat and reactor.T_max
+
+/// [`BASE`] with an energy balance: species Cp, the reaction's ΔH, and `heat` as given.
+fn heated(heat: &str) -> String {
+    let s = with(
+        BASE,
+        "      Ea: 30 kJ/mol\n",
+        "      Ea: 30 kJ/mol\n      dH: -120 kJ/mol\n",
+    );
+    let s = with(
+        &s,
+        "  A: {formula: C2H4}\n  B: {formula: H2}\n  C: {formula: C2H6}\n",
+        "  A: {formula: C2H4, cp: 60 J/(mol*K)}\n  B: {formula: H2, cp: 29 J/(mol*K)}\n  C: {formula: C2H6, cp: 70 J/(mol*K)}\n",
+    );
+    with(&s, "  volume: 1 m3\n", &format!("  volume: 1 m3\n{heat}"))
+}
+
+#[test]
+fn heat_inputs_are_refused_with_the_field() {
+    // Each: (tag, study, words the message must hold). The valid heated study loads first.
+    let ok = run_study(
+        "check",
+        "heat_ok",
+        &heated("  heat: adiabatic\n  T_max: 500 K\n"),
+        "text",
+    );
+    assert_eq!(ok.code, 0, "{}", ok.stderr);
+    let cases: Vec<(&str, String, Vec<&str>)> = vec![
+        (
+            "heat_word",
+            heated("  heat: cooled\n"),
+            vec!["reactor.heat", "unknown heat model `cooled`"],
+        ),
+        (
+            "heat_u_alone",
+            heated("  heat: {U: 300 W/(m2*K), coolant: {T: 300 K}}\n"),
+            vec!["reactor.heat", "both `U` and `area`"],
+        ),
+        (
+            "heat_area_dims",
+            heated("  heat: {U: 300 W/(m2*K), area: 4 m2, coolant: {T: 300 K}}\n"),
+            vec!["reactor.heat.area", "per reactor volume"],
+        ),
+        (
+            "heat_no_coolant",
+            heated("  heat: {UA: 2 kW/(m3*K)}\n"),
+            vec!["reactor.heat", "needs the `coolant`"],
+        ),
+        (
+            "heat_ramp_on_tube",
+            heated(
+                "  heat: {UA: 2 kW/(m3*K), coolant: {T: 300 K, ramp: 1 K/min, T_final: 320 K}}\n",
+            ),
+            vec!["reactor.heat.coolant.ramp", "batch jacket"],
+        ),
+        (
+            "heat_stream_direction",
+            heated(
+                "  heat: {UA: 2 kW/(m3*K), coolant: {T_in: 300 K, mass_flow: 1 kg/s, cp: 4 kJ/(kg*K)}}\n",
+            ),
+            vec!["reactor.heat.coolant", "`direction`"],
+        ),
+        (
+            "heat_mixture_cp_gas",
+            with(
+                &heated("  heat: {mixture_cp: 3 kJ/(kg*K), density: 900 kg/m3}\n"),
+                "phase: liquid\n",
+                "phase: gas\n",
+            )
+            .replace("  T: 300 K\n", "  T: 300 K\n  P: 2 bar\n")
+            .replace("  volumetric: 1 L/s\n", ""),
+            vec!["reactor.heat.mixture_cp", "liquids"],
+        ),
+        (
+            "heat_mixture_cp_no_density",
+            heated("  heat: {mixture_cp: 3 kJ/(kg*K)}\n"),
+            vec!["reactor.heat.mixture_cp", "density"],
+        ),
+        (
+            "heat_no_dh",
+            heated("  heat: adiabatic\n").replace("      dH: -120 kJ/mol\n", ""),
+            vec![
+                "reactor.heat",
+                "heat of reaction of `r1`",
+                "reactions[0].rate.dH",
+            ],
+        ),
+        (
+            "heat_no_cp",
+            heated("  heat: adiabatic\n").replace("C2H6, cp: 70 J/(mol*K)}", "C2H6}"),
+            vec!["reactor.heat", "heat capacity of `C`", "species.C.cp"],
+        ),
+        (
+            "heat_t_max_units",
+            heated("  heat: adiabatic\n  T_max: 500 bar\n"),
+            vec!["reactor.T_max", "temperature"],
+        ),
+    ];
+    for (tag, yaml, words) in &cases {
+        let run = refused(tag, yaml, words);
+        // The message points at the file.
+        assert!(run.stderr.contains(".yaml"), "{tag}: {}", run.stderr);
+    }
+    // A coolant stream on a tank.
+    let tank = heated("  heat: {UA: 2 kW/K, coolant: {T_in: 300 K, mass_flow: 1 kg/s, cp: 4 kJ/(kg*K), direction: co_current}}\n")
+        .replace("  type: pfr\n", "  type: cstr\n");
+    refused(
+        "heat_stream_tank",
+        &tank,
+        &["reactor.heat.coolant", "for a tube"],
+    );
+}

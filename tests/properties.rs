@@ -422,7 +422,7 @@ mod energy_closure {
         for line in base.lines() {
             let mut l = line.to_string();
             if let Some(rest) = l.strip_suffix("}")
-                && l.trim_start().starts_with(|c: char| c == 'A' || c == 'I')
+                && l.trim_start().starts_with(['A', 'I'])
                 && l.contains("formula")
             {
                 let (cp, hf) = data[k % data.len()];
@@ -513,12 +513,11 @@ mod energy_closure {
             // What enters: the feed at T0 (and the coolant at its inlet temperature).
             let e0: f64 = net.feed.amounts.iter().enumerate().map(|(j, y)| y * h(j, t0)).sum::<f64>()
                 + if sim.coolant.is_some() { coolant_capacity * 320.0 } else { 0.0 };
-            for k in 0..sim.x.len() {
+            for (k, (x, tk)) in sim.x.iter().zip(t).enumerate() {
                 let e = total(k);
                 prop_assert!(
                     (e - e0).abs() <= 1e-8 * scale,
-                    "enthalpy at x = {}: {e} vs {e0} (scale {scale}, T = {})\n{text}",
-                    sim.x[k], t[k]
+                    "enthalpy at x = {x}: {e} vs {e0} (scale {scale}, T = {tk})\n{text}"
                 );
             }
         }

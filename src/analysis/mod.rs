@@ -376,9 +376,17 @@ pub fn check(net: &Network) -> Check {
     if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
         add(
             Severity::Info,
-            "exothermic reactions present: rxnet models isothermal operation, which assumes the heat is removed; \
-             assess thermal runaway and pressure relief with a process-safety review under your local codes"
-                .to_string(),
+            if net.heat.balance().is_some() {
+                format!(
+                    "exothermic reactions present: the {} energy balance gives screening temperatures (hot spot, adiabatic rise); \
+                     assess thermal runaway, decomposition and pressure relief with a process-safety review under your local codes",
+                    net.heat.name()
+                )
+            } else {
+                "exothermic reactions present: this study is isothermal, which assumes the heat is removed (set `reactor.heat` for an energy balance); \
+                 assess thermal runaway and pressure relief with a process-safety review under your local codes"
+                    .to_string()
+            },
         );
     }
     findings.sort_by_key(|f| std::cmp::Reverse(f.severity));

@@ -191,7 +191,7 @@ pub fn run(a: &RunArgs) -> i32 {
                 t.push_str(rxnet::safety::CAUTION);
                 t.push('\n');
             } else if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
-                t.push_str("caution: exothermic reactions; this isothermal result assumes the heat is removed. Assess runaway and relief under local codes.\n");
+                t.push_str("caution: exothermic reactions; this isothermal result assumes the heat is removed (set reactor.heat for an energy balance). Assess runaway and relief under local codes.\n");
             }
             t
         }

@@ -461,10 +461,16 @@ fn heat_text(o: &mut String, r: &RunReport, h: &crate::safety::HeatFigures) {
     let x = r.size_variable;
     let _ = writeln!(
         o,
-        "\n  temperature: T_in = {} K, T_{} = {} K; adiabatic rise of the feed ΔT_ad = {} K (on {}, per its key {})",
+        "\n  temperature: T_{} = {} K, T_{} = {} K; adiabatic {} of the feed ΔT_ad = {} K (on {}, per its key {})",
+        if x == "t" { "0" } else { "in" },
         num(h.inlet_temperature),
         if x == "t" { "end" } else { "out" },
         num(h.outlet_temperature),
+        if h.adiabatic_rise < 0.0 {
+            "drop (endothermic)"
+        } else {
+            "rise"
+        },
         num(h.adiabatic_rise),
         h.adiabatic_rise_reaction,
         r.key
@@ -537,7 +543,12 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         size_text(r),
         match &r.heat {
             None => format!("T = {} K", num(r.temperature)),
-            Some(h) => format!("{}, T_in = {} K", h.heat, num(r.temperature)),
+            Some(h) => format!(
+                "{}, T_{} = {} K",
+                h.heat,
+                if r.size_variable == "t" { "0" } else { "in" },
+                num(r.temperature)
+            ),
         },
         if r.phase == crate::model::Phase::Gas {
             format!(", P_in = {} bar", num(r.inlet_pressure / 1e5))
@@ -772,6 +783,12 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
     if first.volume.is_some() {
         header.push("V [L]".into());
     }
+    if first.temperature.is_some() {
+        header.push("T [K]".into());
+    }
+    if first.coolant_temperature.is_some() {
+        header.push("T_coolant [K]".into());
+    }
     if let Some(d) = &r.desired {
         header.extend(
             first
@@ -789,6 +806,8 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
             row.extend(p.pressure.map(|v| num(v / 1e5)));
             row.extend(p.volumetric_flow.map(|v| num(v * 1e3)));
             row.extend(p.volume.map(|v| num(v * 1e3)));
+            row.extend(p.temperature.map(num));
+            row.extend(p.coolant_temperature.map(num));
             if r.desired.is_some() {
                 row.extend(
                     p.instantaneous_selectivity

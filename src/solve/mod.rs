@@ -518,9 +518,18 @@ pub fn simulate_with(
                 sol.x[k]
             )));
         }
+        // The temperatures to check against the heat-capacity ranges: the profile points and
+        // the extremes over the whole reactor (located between steps).
         let warnings = temperature
             .as_ref()
-            .map(|t| range_warnings(net, balance, &sol.x, t, x_name, x_unit))
+            .map(|t| {
+                let (mut xs, mut ts) = (sol.x.clone(), t.clone());
+                if let Some(r) = temperature_range {
+                    xs.extend([r.max_at, r.min_at]);
+                    ts.extend([r.max, r.min]);
+                }
+                range_warnings(net, balance, &xs, &ts, x_name, x_unit)
+            })
             .unwrap_or_default();
         Simulation {
             x_name,

@@ -1,0 +1,200 @@
+//! The process limit T_max and the other heat rules, checked in every command that evaluates a
+//! study (run, size, optimize, sweep, compare), on the bundled nitration tube
+//! (networks/cooled_nitration_tube.yaml, demo values). One test per rule and command. The
+//! reference for "exceeded" is the run's own hot spot, itself checked against scipy in
+//! tests/heat_effects.rs; the rule under test is what each command does with it.
+
+mod common;
+
+use common::{network, num, rxnet};
+
+fn study() -> String {
+    network("cooled_nitration_tube.yaml")
+        .to_str()
+        .expect("UTF-8 path")
+        .to_string()
+}
+
+/// `run`: a hot spot above T_max is reported with the result and exits 1; below it, exit 0
+/// with the margin T_max − T_hot.
+#[test]
+fn run_reports_the_margin_and_exits_1_over_the_limit() {
+    let p = study();
+    let ok = rxnet(&["run", &p, "--format", "json"]).ok_json();
+    let heat = &ok["heat"];
+    let hot = num(&heat["hot_spot"]["temperature"], "hot spot");
+    let margin = num(&heat["margin"], "margin");
+    assert!((num(&heat["t_max"], "T_max") - hot - margin).abs() < 1e-9);
+    assert!(margin > 0.0);
+
+    let over = rxnet(&["run", &p, "--set", "reactor.heat.coolant.T=345 K"]);
+    assert_eq!(over.code, 1, "{}", over.stderr);
+    assert!(
+        over.stderr.contains("T_max = 380 K is exceeded"),
+        "{}",
+        over.stderr
+    );
+    assert!(over.stdout.contains("IS EXCEEDED"), "{}", over.stdout);
+    assert!(
+        over.stdout.contains("process-safety review"),
+        "{}",
+        over.stdout
+    );
+}
+
+/// `optimize` over the size: the search ends where T first reaches T_max, reported on the
+/// process limit; over the coolant temperature: candidates over T_max are infeasible, and
+/// the best one's hot spot is below the limit.
+#[test]
+fn optimize_treats_the_limit_as_a_constraint() {
+    let p = study();
+    let size = rxnet(&[
+        "optimize",
+        &p,
+        "--maximize",
+        "MNT",
+        "--set",
+        "reactor.T_max=335 K",
+        "--format",
+        "json",
+    ]);
+    let v = size.ok_json();
+    let best = &v["best"];
+    let bound = best["on_bound"]["reactor.volume"].as_str().unwrap_or("");
+    assert_eq!(bound, "temperature-limit", "{v}");
+    let hot = num(&v["run"]["heat"]["hot_spot"]["temperature"], "hot spot");
+    assert!(
+        (hot - 335.0).abs() < 1e-5,
+        "hot spot at the optimum {hot} K"
+    );
+
+    let coolant = rxnet(&[
+        "optimize",
+        &p,
+        "--maximize",
+        "MNT",
+        "--over",
+        "reactor.heat.coolant.T",
+        "--bounds",
+        "300 K",
+        "350 K",
+        "--set",
+        "reactor.T_max=340 K",
+        "--format",
+        "json",
+    ]);
+    let v = coolant.ok_json();
+    let hot = num(&v["run"]["heat"]["hot_spot"]["temperature"], "hot spot");
+    assert!(hot <= 340.0, "optimum over the limit: {hot} K");
+}
+
+/// `sweep`: points over the limit carry status `over T_max` and the T_out and T_hot columns;
+/// they are results, not failures.
+#[test]
+fn sweep_marks_points_over_the_limit() {
+    let p = study();
+    let out = rxnet(&[
+        "sweep",
+        &p,
+        "--vary",
+        "reactor.heat.coolant.T=300 K:350 K:6",
+    ]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let head: Vec<String> = out
+        .stdout
+        .lines()
+        .next()
+        .expect("a header")
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    let hot_col = head
+        .iter()
+        .position(|h| h == "T_hot [K]")
+        .expect("T_hot column");
+    let status_col = head.iter().position(|h| h == "status").expect("status");
+    let mut over = 0;
+    for line in out.stdout.lines().skip(1) {
+        let f: Vec<&str> = line.split(',').collect();
+        let hot: f64 = f[hot_col].parse().expect("a hot spot");
+        let want = if hot > 380.0 { "over T_max" } else { "ok" };
+        assert_eq!(f[status_col], want, "{line}");
+        over += (want != "ok") as usize;
+    }
+    assert!(over >= 1, "the grid reaches runaway at the warm end");
+}
+
+/// `compare`: an entry over the limit is flagged beside its hot spot and ranked after the
+/// entries within it, whatever its target value.
+#[test]
+fn compare_ranks_entries_over_the_limit_last() {
+    let p = study();
+    let hot = common::temp_study(
+        "over_limit",
+        &std::fs::read_to_string(&p)
+            .unwrap()
+            .replace("coolant: {T: 325 K}", "coolant: {T: 345 K}"),
+    );
+    let out = rxnet(&["compare", &p, hot.p(), "--format", "json"]);
+    let v = out.ok_json();
+    let rows = v["rows"].as_array().or_else(|| v.as_array()).expect("rows");
+    let flags: Vec<bool> = rows
+        .iter()
+        .map(|r| r["over_limit"].as_bool().expect("over_limit"))
+        .collect();
+    assert_eq!(flags, vec![false, true], "{v}");
+    let text = rxnet(&["compare", &p, hot.p()]);
+    assert!(text.stdout.contains("> T_max"), "{}", text.stdout);
+}
+
+/// `size`: the size for a conversion of a non-isothermal tube is found along the same
+/// integration as `run` (T a state), so running at that size gives the conversion.
+#[test]
+fn size_of_a_cooled_tube_reproduces_its_conversion() {
+    let p = study();
+    let s = rxnet(&["size", &p, "--conversion", "0.9", "--format", "json"]).ok_json();
+    let v = num(&s["size"], "size");
+    let run = rxnet(&[
+        "run",
+        &p,
+        "--set",
+        &format!("reactor.volume={v} m3"),
+        "--format",
+        "json",
+    ])
+    .ok_json();
+    let x = num(&run["conversion"], "conversion");
+    assert!((x - 0.9).abs() < 1e-7, "X at the size found: {x}");
+}
+
+/// A polynomial heat capacity used outside the range its coefficients hold over is
+/// extrapolated with a warning naming the species, the temperature and where along the
+/// reactor (the Shomate set of water vapour holds over 500–1700 K in the NIST WebBook, from
+/// memory; here the tube starts at 450 K).
+#[test]
+fn heat_capacity_outside_its_range_is_warned_with_species_and_place() {
+    let yaml = "name: steam heating (demo values)
+phase: gas
+species:
+  H2O: {cp: {shomate: [30.092, 6.832514, 6.793435, -2.53448, 0.082139, -250.881, 223.3967, -241.8264], range: [500 K, 1700 K]}}
+  A: {cp: 50 J/(mol*K)}
+  B: {cp: 50 J/(mol*K)}
+reactions:
+  - {id: r1, stoich: A -> B, rate: {k: 0.05 1/s, dH: -30 kJ/mol}}
+feed: {T: 450 K, P: 2 bar, flows: {H2O: 5 mol/s, A: 1 mol/s}}
+reactor: {type: pfr, volume: 2 m3, heat: adiabatic}
+";
+    let f = common::temp_study("cp_range", yaml);
+    let run = rxnet(&["run", f.p()]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert!(
+        run.stderr
+            .contains("heat capacity of `H2O` is used outside its range 500..1700 K")
+            && run.stderr.contains("T = 450.0 K at V = 0"),
+        "{}",
+        run.stderr
+    );
+    let json = rxnet(&["run", f.p(), "--format", "json"]).ok_json();
+    let w = json["warnings"].as_array().expect("warnings");
+    assert_eq!(w.len(), 1, "{json}");
+}
