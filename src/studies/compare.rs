@@ -46,19 +46,6 @@ impl Kind {
 
 /// The study with its reactor replaced by `kind` (see the module notes).
 pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
-    // Heat exchange is given per reactor volume in a tube and in total for a vessel, with a
-    // coolant of the reactor's kind (a stream along a tube, a jacket ramp in a batch): it does
-    // not carry over to another reactor type. Adiabatic and isothermal studies do.
-    if let Some(e) = net.heat.balance()
-        && e.exchange.is_some()
-        && net.reactor.kind() != kind.name()
-    {
-        return Err(format!(
-            "the study's heat exchange (reactor.heat with U or UA and a coolant) is stated for a {}; it is not carried over to a {}: give a study file for each reactor type, or compare adiabatic or isothermal",
-            net.reactor.kind(),
-            kind.name()
-        ));
-    }
     let mut n = net.clone();
     // Heat exchange moves with the vessel: U·a per reactor volume along a tube is U·A = U·a·V
     // in total for a tank of the same volume (and back); a coolant stream is modelled along
