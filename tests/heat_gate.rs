@@ -198,3 +198,65 @@ reactor: {type: pfr, volume: 2 m3, heat: adiabatic}
     let w = json["warnings"].as_array().expect("warnings");
     assert_eq!(w.len(), 1, "{json}");
 }
+
+/// `compare --heat`: the same study isothermal, adiabatic and as given, side by side. The
+/// adiabatic entry's hot spot is T0 + ΔT_ad times what has reacted of the key in the first
+/// step plus the heat of the second (here nearly all TOL ends as DNT, so T_hot ≈ T0 +
+/// (−ΔH1 − ΔH2) C_TOL0 / c_v; first law, adiabatic; Fogler ch. 11, from memory), and a study
+/// without heat data fails its adiabatic entry with the missing data named.
+#[test]
+fn compare_screens_heat_models_side_by_side() {
+    let p = study();
+    let v = rxnet(&[
+        "compare",
+        &p,
+        "--heat",
+        "isothermal,adiabatic,as-given",
+        "--format",
+        "json",
+    ])
+    .ok_json();
+    let rows = v.as_array().expect("rows");
+    let heat: Vec<&str> = rows.iter().map(|r| r["heat"].as_str().unwrap()).collect();
+    assert_eq!(heat.len(), 3);
+    for h in ["isothermal", "adiabatic", "heat exchange"] {
+        assert!(heat.contains(&h), "{heat:?}");
+    }
+    let adiabatic = rows.iter().find(|r| r["heat"] == "adiabatic").unwrap();
+    // C_TOL0 = 1500 mol/m3, c_v = 3.0 kJ/(kg K) × 1150 kg/m3, ΔH = −120 and −110 kJ/mol.
+    let full = 330.0 + (120e3 + 110e3) * 1500.0 / (3.0e3 * 1150.0);
+    let hot = num(&adiabatic["hot_spot"], "hot spot");
+    let x_dnt = 1.0 - num(&adiabatic["yield_desired"], "yield");
+    let expect = 330.0 + (120e3 + 110e3 * x_dnt) * 1500.0 / (3.0e3 * 1150.0);
+    assert!(
+        (hot - expect).abs() < 1e-6 * expect,
+        "{hot} vs {expect} (all to DNT: {full})"
+    );
+    assert_eq!(adiabatic["over_limit"], true);
+
+    let plain = network("aldehyde_oxidation_pfr.yaml");
+    let out = rxnet(&[
+        "compare",
+        plain.to_str().unwrap(),
+        "--heat",
+        "isothermal,adiabatic",
+        "--format",
+        "json",
+    ]);
+    let v = out.json();
+    let err = v
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["heat"] == "adiabatic")
+        .and_then(|r| r["error"].as_str())
+        .unwrap_or("");
+    assert!(err.contains("heat capacity of `ROH`"), "{v}");
+    let bad = rxnet(&["compare", &p, "--heat", "cooled"]);
+    assert_eq!(bad.code, 2);
+    assert!(
+        bad.stderr.contains("--heat: unknown heat model"),
+        "{}",
+        bad.stderr
+    );
+}

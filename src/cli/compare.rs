@@ -30,6 +30,7 @@ fn wrap(s: &str, width: usize) -> Vec<String> {
 pub fn compare(
     files: &[PathBuf],
     reactors: &[String],
+    heat: &[String],
     rank_by: Option<&str>,
     at_conversion: Option<f64>,
     optimum: Option<&str>,
@@ -71,6 +72,19 @@ pub fn compare(
     if kinds.is_empty() {
         kinds.push(None);
     }
+    let mut heats = Vec::new();
+    for h in heat {
+        match compare::HeatChoice::parse(h) {
+            Ok(c) => heats.push(c),
+            Err(m) => {
+                eprintln!("error: --heat: {m}");
+                return EXIT_INVALID;
+            }
+        }
+    }
+    if heats.is_empty() {
+        heats.push(compare::HeatChoice::AsGiven);
+    }
     let opts = rxnet::solve::SolveOptions {
         steady_state,
         ..solve_opts(rtol)
@@ -100,14 +114,17 @@ pub fn compare(
             optimum,
             min_conversion,
         };
-        for k in &kinds {
-            rows.push(compare::evaluate(
-                &f.display().to_string(),
-                &net,
-                *k,
-                &screen,
-                &opts,
-            ));
+        for h in &heats {
+            let net = h.apply(&net);
+            for k in &kinds {
+                rows.push(compare::evaluate(
+                    &f.display().to_string(),
+                    &net,
+                    *k,
+                    &screen,
+                    &opts,
+                ));
+            }
         }
     }
     compare::rank(&mut rows);
@@ -174,6 +191,9 @@ fn table(rows: &[compare::CompareRow], optimum: Option<&str>, resized: bool) -> 
             rows.iter().map(|r| r.reactor.into()).collect(),
         ),
     ];
+    if rows.iter().any(|r| r.heat != "isothermal") {
+        cols.push(("heat".into(), rows.iter().map(|r| r.heat.into()).collect()));
+    }
     if any_time {
         cols.push((
             "τ or t [s]".into(),

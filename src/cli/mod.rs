@@ -123,6 +123,10 @@ enum Command {
         /// Reactor types to screen each study in, e.g. pfr,cstr,batch (default: as in each file).
         #[arg(long, value_delimiter = ',')]
         reactors: Vec<String>,
+        /// Heat models to screen each study with: isothermal, adiabatic, as-given (default: as
+        /// given in each file), e.g. isothermal,adiabatic,as-given
+        #[arg(long, value_delimiter = ',', value_name = "MODELS")]
+        heat: Vec<String>,
         /// Rank by this target (default: yield of the desired product).
         #[arg(long, value_name = "TARGET")]
         rank_by: Option<String>,
@@ -234,6 +238,7 @@ pub fn main() -> i32 {
         Command::Compare {
             files,
             reactors,
+            heat,
             rank_by,
             at_conversion,
             optimum,
@@ -243,6 +248,7 @@ pub fn main() -> i32 {
         } => compare::compare(
             &files,
             &reactors,
+            &heat,
             rank_by.as_deref(),
             at_conversion,
             optimum.as_deref(),

@@ -38,6 +38,7 @@
 mod balance;
 mod energy;
 mod ergun;
+mod nonisothermal;
 mod state;
 
 pub use balance::Balance;

@@ -11,7 +11,7 @@ use super::conversion::size_for_conversion;
 use super::optimize::optimize_size;
 use super::study::StudyError;
 use super::target::Target;
-use crate::model::{BatchMode, Network, Phase, Reactor};
+use crate::model::{BatchMode, EnergyBalance, Heat, Network, Phase, Reactor};
 use crate::solve::{self, SolveOptions};
 
 /// A reactor type to screen.
@@ -45,6 +45,48 @@ impl Kind {
 }
 
 /// The study with its reactor replaced by `kind` (see the module notes).
+/// The heat model a screen runs a study with (`--heat`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum HeatChoice {
+    /// Held at the feed temperature.
+    Isothermal,
+    /// No heat exchange (the study's mixture heat capacity, if any, is kept).
+    Adiabatic,
+    /// As the study file says.
+    AsGiven,
+}
+
+impl HeatChoice {
+    pub fn parse(s: &str) -> Result<HeatChoice, String> {
+        match s.trim() {
+            "isothermal" => Ok(HeatChoice::Isothermal),
+            "adiabatic" => Ok(HeatChoice::Adiabatic),
+            "as-given" => Ok(HeatChoice::AsGiven),
+            other => Err(format!(
+                "unknown heat model `{other}`: use isothermal, adiabatic or as-given"
+            )),
+        }
+    }
+
+    /// The study with this heat model. An adiabatic screen of a study without heat
+    /// capacities or heats of reaction fails at its entry with the missing data named.
+    pub fn apply(self, net: &Network) -> Network {
+        let mut n = net.clone();
+        match self {
+            HeatChoice::Isothermal => n.heat = Heat::Isothermal,
+            HeatChoice::Adiabatic => {
+                let mixture_cp = net.heat.balance().and_then(|e| e.mixture_cp);
+                n.heat = Heat::Balance(EnergyBalance {
+                    exchange: None,
+                    mixture_cp,
+                });
+            }
+            HeatChoice::AsGiven => {}
+        }
+        n
+    }
+}
+
 pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
     let mut n = net.clone();
     // Heat exchange moves with the vessel: U·a per reactor volume along a tube is U·A = U·a·V
@@ -158,6 +200,8 @@ pub struct CompareRow {
     /// temperature) exceeds the study's T_max; an entry over the limit ranks after the others.
     pub hot_spot: Option<f64>,
     pub over_limit: bool,
+    /// `isothermal`, `adiabatic` or `heat exchange`.
+    pub heat: &'static str,
     pub error: Option<String>,
 }
 
@@ -211,6 +255,7 @@ pub fn evaluate(
         optimum_note: None,
         hot_spot: None,
         over_limit: false,
+        heat: net.heat.name(),
         error: None,
     };
     let result = (|| -> Result<(), String> {

@@ -1,0 +1,243 @@
+//! The balance equations of one vessel with temperature as a state: the right-hand side and
+//! Jacobian of [`Balance`] when the study has an energy balance ([`super::energy`] holds the
+//! equations and the data; this file evaluates them).
+
+use super::balance::{Balance, Mixture};
+use super::energy::Energy;
+use crate::units::GAS_CONSTANT;
+
+impl Balance {
+    /// (κ, σ, S) at state y with the local temperature (see the module notes).
+    pub(super) fn scales_at(&self, e: &Energy, y: &[f64]) -> (f64, f64, f64) {
+        let s: f64 = y[..self.n_species].iter().sum();
+        let t = self.temperature_of(y);
+        let theta = if e.gas_scaling { e.t0 / t } else { 1.0 };
+        match self.mixture {
+            Mixture::Fixed { volume, sigma } => (1.0 / volume, sigma, s),
+            Mixture::GasFlow { c_tot } => (c_tot * theta * self.pressure_ratio(y) / s, 1.0, s),
+            Mixture::GasConstantPressure { c_tot } => (c_tot * theta / s, s / (c_tot * theta), s),
+        }
+    }
+
+    /// The coolant temperature at x and state y.
+    fn coolant_temperature(&self, e: &Energy, x: f64, y: &[f64]) -> f64 {
+        self.coolant_index.map_or_else(|| e.coolant_at(x), |k| y[k])
+    }
+
+    /// dy/dx with the energy balance (module notes).
+    pub(super) fn rhs_energy(&self, e: &Energy, x: f64, y: &[f64], dydx: &mut [f64]) {
+        let n = self.n_species;
+        let ti = self.t_index.expect("an energy balance has T in its state");
+        let t = y[ti];
+        let (kappa, sigma, s) = self.scales_at(e, y);
+        let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
+        let mut rates = vec![0.0; self.rates.len()];
+        self.rates.rates_at(t, &c, &mut rates);
+        dydx.iter_mut().for_each(|v| *v = 0.0);
+        // Σ_i σ r_i h_i, then the species' part of ΔE through dy/dx.
+        let mut with_offset = 0.0;
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
+            let r = sigma * rates[i];
+            with_offset += r * e.offset[i];
+            for &(j, v) in nu {
+                dydx[j] += v * r;
+            }
+        }
+        let urt = e.u * GAS_CONSTANT * t;
+        let mut release = -with_offset;
+        for (j, d) in dydx[..n].iter().enumerate() {
+            if *d != 0.0 {
+                release -= (e.h(j, t) - urt) * d;
+            }
+        }
+        let ta = self.coolant_temperature(e, x, y);
+        let (cap, _) = e.capacity(&y[..n], t);
+        dydx[ti] = (e.ua * (ta - t) + release) / cap;
+        if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
+            let sign = if counter { -1.0 } else { 1.0 };
+            dydx[k] = sign * e.ua * (t - ta) / capacity;
+        }
+        if let Some(alpha) = self.alpha {
+            let p = y[n];
+            dydx[n] = -alpha / (2.0 * p) * (s / self.total0) * (t / e.t0);
+        }
+    }
+
+    /// ∂(dy/dx)/∂y with the energy balance, every structural entry emitted.
+    pub(super) fn jacobian_energy(
+        &self,
+        e: &Energy,
+        x: f64,
+        y: &[f64],
+        out: &mut Vec<(usize, usize, f64)>,
+    ) {
+        let n = self.n_species;
+        let ti = self.t_index.expect("an energy balance has T in its state");
+        let t = y[ti];
+        let p = self.pressure_ratio(y);
+        let (kappa, sigma, s) = self.scales_at(e, y);
+        let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
+        // Uniform-in-k derivatives of κ and σ, and their T derivatives.
+        let (dkappa, dsigma) = match self.mixture {
+            Mixture::Fixed { .. } => (0.0, 0.0),
+            Mixture::GasFlow { .. } => (-kappa / s, 0.0),
+            Mixture::GasConstantPressure { .. } => (-kappa / s, sigma / s),
+        };
+        let dkappa_dt = if e.gas_scaling { -kappa / t } else { 0.0 };
+        let dsigma_dt = if e.sigma_scaling { sigma / t } else { 0.0 };
+        let mut at = Vec::new();
+        self.rates.constants(t, &mut at);
+        let urt = e.u * GAS_CONSTANT * t;
+        let ur = e.u * GAS_CONSTANT;
+        let mut uniform = vec![0.0; n];
+        let mut col_t = vec![0.0; n];
+        let mut col_p = vec![0.0; n];
+        let mut energy_row = vec![0.0; n];
+        let mut energy_uniform = 0.0;
+        let (mut release, mut release_dt, mut release_dp) = (0.0, 0.0, 0.0);
+        let mut grad = Vec::new();
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
+            let mut dr_dt = 0.0;
+            let r = self
+                .rates
+                .eval_at(i, &at[i], &c, Some(&mut grad), Some(&mut dr_dt));
+            let a: f64 = grad.iter().map(|&(m, g)| g * y[m]).sum();
+            // Total ∂r/∂T: explicit, and through κ(T).
+            let dr_dt = dr_dt + a * dkappa_dt;
+            let mut de = e.offset[i];
+            let mut de_dt = 0.0;
+            for &(j, v) in nu {
+                de += v * (e.h(j, t) - urt);
+                de_dt += v * (e.cp_at(j, t) - ur);
+                for &(k, g) in &grad {
+                    out.push((j, k, sigma * v * g * kappa));
+                }
+                uniform[j] += sigma * v * a * dkappa + dsigma * v * r;
+                col_t[j] += v * (sigma * dr_dt + dsigma_dt * r);
+                col_p[j] += sigma * v * a * kappa / p;
+            }
+            release -= sigma * r * de;
+            for &(k, g) in &grad {
+                energy_row[k] -= de * sigma * g * kappa;
+            }
+            energy_uniform -= de * (sigma * a * dkappa + dsigma * r);
+            release_dt -= de * (sigma * dr_dt + dsigma_dt * r) + sigma * r * de_dt;
+            release_dp -= de * sigma * a * kappa / p;
+        }
+        let dense = dkappa != 0.0 || dsigma != 0.0;
+        for &j in &self.reactive {
+            if dense {
+                for k in 0..n {
+                    out.push((j, k, uniform[j]));
+                }
+            }
+            out.push((j, ti, col_t[j]));
+        }
+        let ta = self.coolant_temperature(e, x, y);
+        let (cap, dcap_dt) = e.capacity(&y[..n], t);
+        let f_t = (e.ua * (ta - t) + release) / cap;
+        for (k, row) in energy_row.iter().enumerate() {
+            out.push((
+                ti,
+                k,
+                (row + energy_uniform - f_t * e.capacity_slope(k, t)) / cap,
+            ));
+        }
+        out.push((ti, ti, (-e.ua + release_dt - f_t * dcap_dt) / cap));
+        if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
+            let sign = if counter { -1.0 } else { 1.0 };
+            out.push((ti, k, e.ua / cap));
+            out.push((k, ti, sign * e.ua / capacity));
+            out.push((k, k, -sign * e.ua / capacity));
+        }
+        if let Some(alpha) = self.alpha {
+            for &j in &self.reactive {
+                out.push((j, n, col_p[j]));
+            }
+            out.push((ti, n, release_dp / cap));
+            // dp/dW = −α S T / (2 p S0 T0).
+            let f_p = -alpha / (2.0 * p) * (s / self.total0) * (t / e.t0);
+            for k in 0..n {
+                out.push((n, k, f_p / s));
+            }
+            out.push((n, n, -f_p / p));
+            out.push((n, ti, f_p / t));
+        }
+    }
+}
+
+impl Balance {
+    /// The heat the reactions release per unit of reactor size at state y (species, then T),
+    /// q = −σ Σ_i r_i ΔE_i(T) (W/m3 in a flow reactor: V q is the CSTR's heat generated G);
+    /// with `grad` (length n + 1), also ∂q/∂y_k of the species and ∂q/∂T in the last entry, by
+    /// the same chain rule as the energy row of the Jacobian. For reactors without a pressure
+    /// state (CSTR, batch); `None` when the balance has no energy balance.
+    pub(crate) fn heat_release(&self, y: &[f64], grad: Option<&mut [f64]>) -> Option<f64> {
+        let e = self.energy.as_ref()?;
+        let n = self.n_species;
+        let t = self.temperature_of(y);
+        let (kappa, sigma, s) = self.scales_at(e, y);
+        let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
+        let (dkappa, dsigma) = match self.mixture {
+            Mixture::Fixed { .. } => (0.0, 0.0),
+            Mixture::GasFlow { .. } => (-kappa / s, 0.0),
+            Mixture::GasConstantPressure { .. } => (-kappa / s, sigma / s),
+        };
+        let dkappa_dt = if e.gas_scaling { -kappa / t } else { 0.0 };
+        let dsigma_dt = if e.sigma_scaling { sigma / t } else { 0.0 };
+        let mut at = Vec::new();
+        self.rates.constants(t, &mut at);
+        let urt = e.u * GAS_CONSTANT * t;
+        let ur = e.u * GAS_CONSTANT;
+        let mut q = 0.0;
+        let mut rgrad = Vec::new();
+        let mut out = grad;
+        if let Some(g) = out.as_deref_mut() {
+            g.iter_mut().for_each(|v| *v = 0.0);
+        }
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
+            let mut de = e.offset[i];
+            let mut de_dt = 0.0;
+            for &(j, v) in nu {
+                de += v * (e.h(j, t) - urt);
+                de_dt += v * (e.cp_at(j, t) - ur);
+            }
+            match out.as_deref_mut() {
+                None => q -= sigma * self.rates.eval_at(i, &at[i], &c, None, None) * de,
+                Some(g) => {
+                    let mut dr_dt = 0.0;
+                    let r = self
+                        .rates
+                        .eval_at(i, &at[i], &c, Some(&mut rgrad), Some(&mut dr_dt));
+                    let a: f64 = rgrad.iter().map(|&(m, gm)| gm * y[m]).sum();
+                    let dr_dt = dr_dt + a * dkappa_dt;
+                    q -= sigma * r * de;
+                    for &(k, gk) in &rgrad {
+                        g[k] -= de * sigma * gk * kappa;
+                    }
+                    let uniform = de * (sigma * a * dkappa + dsigma * r);
+                    for gk in g[..n].iter_mut() {
+                        *gk -= uniform;
+                    }
+                    g[n] -= de * (sigma * dr_dt + dsigma_dt * r) + sigma * r * de_dt;
+                }
+            }
+        }
+        Some(q)
+    }
+}
