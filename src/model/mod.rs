@@ -8,6 +8,7 @@
 pub mod equation;
 mod file;
 pub mod formula;
+pub mod heat_capacity;
 mod load;
 pub mod locate;
 pub mod solver_settings;
@@ -35,7 +36,7 @@ pub struct Species {
     /// Molar mass in kg/mol, where given (or computed from the formula); needed by the Ergun equation.
     pub molar_mass: Option<f64>,
     /// Heat capacity, enthalpy of formation and entropy, where given (energy balances, K(T)).
-    pub thermo: crate::thermo::SpeciesThermo,
+    pub thermo: heat_capacity::SpeciesThermo,
 }
 
 /// A species and its coefficient on one side of an equation, as written.

@@ -400,7 +400,7 @@ fn require_data(
                     ..
                 }
             )
-            && let Some(crate::thermo::HeatCapacity::Constant(cp)) = s.thermo.cp
+            && let Some(crate::model::heat_capacity::HeatCapacity::Constant(cp)) = s.thermo.cp
             && cp <= crate::units::GAS_CONSTANT
         {
             return Err(cx.err(

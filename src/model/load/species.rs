@@ -7,7 +7,7 @@ use crate::model::Species;
 use crate::model::equation::{bad_name_message, valid_name};
 use crate::model::file::{RawCp, RawCpPolynomial, RawQty, RawSpecies};
 use crate::model::formula::Formula;
-use crate::thermo::{HeatCapacity, SpeciesThermo, T_STANDARD};
+use crate::model::heat_capacity::{HeatCapacity, SpeciesThermo, T_STANDARD};
 use crate::units::Dim;
 use indexmap::IndexMap;
 
