@@ -255,6 +255,40 @@ fn plotted_species(net: &Network, a: &RunArgs) -> Result<Vec<bool>, String> {
 /// The species profile of a run as SVG, with the maximum of the desired product marked when it
 /// lies inside the reactor.
 fn profile_plot(net: &Network, sim: &Simulation, drawn: &[bool]) -> Result<String, String> {
+    // A CSTR with an energy balance: the heat generated and removed against T, states marked.
+    if let Some((st, h)) = sim
+        .steady
+        .as_ref()
+        .and_then(|st| st.heat.as_ref().map(|h| (st, h)))
+    {
+        let marks: Vec<(f64, f64, String)> = st
+            .states
+            .iter()
+            .enumerate()
+            .filter_map(|(k, s)| {
+                let t = s.temperature?;
+                let q = interpolate(&h.curves.temperature, &h.curves.removed, t);
+                Some((
+                    t,
+                    q,
+                    format!(
+                        "{}: T = {} K, X = {}, {}",
+                        k + 1,
+                        num(t),
+                        num(s.conversion),
+                        if s.stable { "stable" } else { "unstable" }
+                    ),
+                ))
+            })
+            .collect();
+        return plot::heat_balance_svg(
+            &net.name,
+            &h.curves.temperature,
+            &h.curves.generated,
+            &h.curves.removed,
+            &marks,
+        );
+    }
     let batch = net.reactor.is_batch();
     let unit = if batch { "mol" } else { "mol/s" };
     let series: Vec<(String, Vec<f64>)> = net
@@ -304,4 +338,16 @@ fn profile_plot(net: &Network, sim: &Simulation, drawn: &[bool]) -> Result<Strin
         series,
         mark,
     })
+}
+
+/// Linear interpolation of y(x) at `at` on ascending x (the end values outside).
+fn interpolate(x: &[f64], y: &[f64], at: f64) -> f64 {
+    match x.iter().position(|v| *v >= at) {
+        None => *y.last().unwrap_or(&f64::NAN),
+        Some(0) => y[0],
+        Some(k) => {
+            let w = (at - x[k - 1]) / (x[k] - x[k - 1]);
+            y[k - 1] + w * (y[k] - y[k - 1])
+        }
+    }
 }

@@ -228,4 +228,41 @@ impl Energy {
             (t < lo || t > hi).then_some((j, (lo, hi)))
         })
     }
+
+    /// UA of the wall (W/K for a CSTR or batch; per unit size for a tube); 0 when adiabatic.
+    pub(crate) fn ua(&self) -> f64 {
+        self.ua
+    }
+
+    /// The coolant temperature of a constant-temperature coolant (the feed temperature when
+    /// there is none, where UA = 0 makes it irrelevant).
+    pub(crate) fn constant_coolant(&self) -> Option<f64> {
+        match self.coolant {
+            Some(Coolant::Constant { temperature }) => Some(temperature),
+            None => Some(self.t0),
+            _ => None,
+        }
+    }
+
+    /// The sensible heat taking the feed F_0 from T0 to T, Σ_j F_j0 ∫_{T0}^{T} Cp_j dT (or
+    /// c_v v0 (T − T0) with a mixture heat capacity), W, and its derivative in T, W/K.
+    pub(crate) fn feed_sensible(&self, f0: &[f64], t: f64) -> (f64, f64) {
+        if let Some(m) = self.mixture {
+            return (m * (t - self.t0), m);
+        }
+        let mut q = 0.0;
+        let mut dq = 0.0;
+        for (j, f) in f0.iter().enumerate() {
+            if *f != 0.0 {
+                q += f * (self.h(j, t) - self.h(j, self.t0));
+                dq += f * self.cp_at(j, t);
+            }
+        }
+        (q, dq)
+    }
+
+    /// Σ_j y_j Cp_j(T) (or the mixture's heat capacity rate), for the holdup of a CSTR.
+    pub(crate) fn flow_capacity(&self, y: &[f64], t: f64) -> f64 {
+        self.capacity(y, t).0
+    }
 }

@@ -175,3 +175,69 @@ impl Balance {
         }
     }
 }
+
+impl Balance {
+    /// The heat the reactions release per unit of reactor size at state y (species, then T),
+    /// q = −σ Σ_i r_i ΔE_i(T) (W/m3 in a flow reactor: V q is the CSTR's heat generated G);
+    /// with `grad` (length n + 1), also ∂q/∂y_k of the species and ∂q/∂T in the last entry, by
+    /// the same chain rule as the energy row of the Jacobian. For reactors without a pressure
+    /// state (CSTR, batch); `None` when the balance has no energy balance.
+    pub(crate) fn heat_release(&self, y: &[f64], grad: Option<&mut [f64]>) -> Option<f64> {
+        let e = self.energy.as_ref()?;
+        let n = self.n_species;
+        let t = self.temperature_of(y);
+        let (kappa, sigma, s) = self.scales_at(e, y);
+        let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
+        let (dkappa, dsigma) = match self.mixture {
+            Mixture::Fixed { .. } => (0.0, 0.0),
+            Mixture::GasFlow { .. } => (-kappa / s, 0.0),
+            Mixture::GasConstantPressure { .. } => (-kappa / s, sigma / s),
+        };
+        let dkappa_dt = if e.gas_scaling { -kappa / t } else { 0.0 };
+        let dsigma_dt = if e.sigma_scaling { sigma / t } else { 0.0 };
+        let mut at = Vec::new();
+        self.rates.constants(t, &mut at);
+        let urt = e.u * GAS_CONSTANT * t;
+        let ur = e.u * GAS_CONSTANT;
+        let mut q = 0.0;
+        let mut rgrad = Vec::new();
+        let mut out = grad;
+        if let Some(g) = out.as_deref_mut() {
+            g.iter_mut().for_each(|v| *v = 0.0);
+        }
+        for (i, nu) in self
+            .nu_starts
+            .windows(2)
+            .map(|w| &self.nu[w[0]..w[1]])
+            .enumerate()
+        {
+            let mut de = e.offset[i];
+            let mut de_dt = 0.0;
+            for &(j, v) in nu {
+                de += v * (e.h(j, t) - urt);
+                de_dt += v * (e.cp_at(j, t) - ur);
+            }
+            match out.as_deref_mut() {
+                None => q -= sigma * self.rates.eval_at(i, &at[i], &c, None, None) * de,
+                Some(g) => {
+                    let mut dr_dt = 0.0;
+                    let r = self
+                        .rates
+                        .eval_at(i, &at[i], &c, Some(&mut rgrad), Some(&mut dr_dt));
+                    let a: f64 = rgrad.iter().map(|&(m, gm)| gm * y[m]).sum();
+                    let dr_dt = dr_dt + a * dkappa_dt;
+                    q -= sigma * r * de;
+                    for &(k, gk) in &rgrad {
+                        g[k] -= de * sigma * gk * kappa;
+                    }
+                    let uniform = de * (sigma * a * dkappa + dsigma * r);
+                    for gk in g[..n].iter_mut() {
+                        *gk -= uniform;
+                    }
+                    g[n] -= de * (sigma * dr_dt + dsigma_dt * r) + sigma * r * de_dt;
+                }
+            }
+        }
+        Some(q)
+    }
+}

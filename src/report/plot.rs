@@ -47,6 +47,48 @@ pub fn line_svg(p: &LinePlot) -> Result<String, String> {
     stacked_svg(std::slice::from_ref(p))
 }
 
+/// A line plot with further marked points (x, y, label) besides `p.mark`.
+pub fn line_svg_marked(p: &LinePlot, marks: &[(f64, f64, String)]) -> Result<String, String> {
+    let mut out = String::new();
+    {
+        let root = SVGBackend::with_string(&mut out, (900, 560)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| e.to_string())?;
+        draw_lines(&root, p, marks)?;
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(out)
+}
+
+/// The heat generated G(T) and removed R(T) by a CSTR, kW against the reactor temperature, with
+/// its steady states (the crossings) marked `label`.
+pub fn heat_balance_svg(
+    title: &str,
+    t: &[f64],
+    generated: &[f64],
+    removed: &[f64],
+    states: &[(f64, f64, String)],
+) -> Result<String, String> {
+    let kw = |v: &[f64]| v.iter().map(|q| q / 1e3).collect::<Vec<f64>>();
+    let marks: Vec<(f64, f64, String)> = states
+        .iter()
+        .map(|(x, q, l)| (*x, q / 1e3, l.clone()))
+        .collect();
+    line_svg_marked(
+        &LinePlot {
+            title,
+            x_label: "reactor temperature T [K]",
+            y_label: "heat rate [kW]",
+            x: t,
+            series: vec![
+                ("heat generated G(T)".to_string(), kw(generated)),
+                ("heat removed R(T)".to_string(), kw(removed)),
+            ],
+            mark: None,
+        },
+        &marks,
+    )
+}
+
 /// Draw line plots one above the other (sharing the width) into an SVG string: quantities of
 /// different units against the same input.
 pub fn stacked_svg(plots: &[LinePlot]) -> Result<String, String> {
@@ -56,7 +98,7 @@ pub fn stacked_svg(plots: &[LinePlot]) -> Result<String, String> {
         let root = SVGBackend::with_string(&mut out, (900, height)).into_drawing_area();
         root.fill(&WHITE).map_err(|e| e.to_string())?;
         for (area, p) in root.split_evenly((plots.len().max(1), 1)).iter().zip(plots) {
-            draw_lines(area, p)?;
+            draw_lines(area, p, &[])?;
         }
         root.present().map_err(|e| e.to_string())?;
     }
@@ -66,6 +108,7 @@ pub fn stacked_svg(plots: &[LinePlot]) -> Result<String, String> {
 fn draw_lines<DB: DrawingBackend>(
     root: &DrawingArea<DB, plotters::coord::Shift>,
     p: &LinePlot,
+    marks: &[(f64, f64, String)],
 ) -> Result<(), String>
 where
     DB::ErrorType: 'static,
@@ -108,7 +151,7 @@ where
                 .map_err(|e| e.to_string())?;
         }
     }
-    if let Some((mx, my, label)) = &p.mark {
+    for (mx, my, label) in p.mark.iter().chain(marks) {
         chart
             .draw_series(std::iter::once(Circle::new(
                 (*mx, *my),

@@ -120,7 +120,60 @@ pub struct SteadyStateEntry {
     pub stable: bool,
     /// Largest real part of the eigenvalues of the transient CSTR's Jacobian, 1/s.
     pub max_eigenvalue_real_per_s: f64,
+    /// Reactor temperature, K (a CSTR with an energy balance).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub temperature: Option<f64>,
     pub outlet: IndexMap<String, f64>,
+}
+
+/// The ignition and extinction points of a CSTR along one parameter (K).
+#[derive(Debug, Clone, Serialize)]
+pub struct TurningPointsReport {
+    /// The parameter's value at the ignition point of lowest reactor temperature (where the
+    /// cold branch ends), K; null when the steady-state curve has none in the scanned window.
+    pub ignition: Option<f64>,
+    /// Its value at the extinction point of highest reactor temperature (where the hot branch
+    /// ends), K; null when there is none.
+    pub extinction: Option<f64>,
+    /// Every turning point found, in order of rising reactor temperature.
+    pub points: Vec<crate::solve::cstr_heat::TurningPoint>,
+}
+
+/// The ignition and extinction points of a search, keyed `feed_T` and `coolant_T`.
+fn turning_points_report(
+    all: &[crate::solve::cstr_heat::TurningPoint],
+) -> IndexMap<&'static str, TurningPointsReport> {
+    let mut out = IndexMap::new();
+    for (key, parameter) in [
+        ("feed_T", "feed temperature"),
+        ("coolant_T", "coolant temperature"),
+    ] {
+        let mut points: Vec<_> = all
+            .iter()
+            .filter(|p| p.parameter == parameter)
+            .cloned()
+            .collect();
+        if points.is_empty() && key == "coolant_T" {
+            continue;
+        }
+        points.sort_by(|a, b| a.reactor_temperature_k.total_cmp(&b.reactor_temperature_k));
+        out.insert(
+            key,
+            TurningPointsReport {
+                ignition: points
+                    .iter()
+                    .find(|p| p.kind == "ignition")
+                    .map(|p| p.value_k),
+                extinction: points
+                    .iter()
+                    .rev()
+                    .find(|p| p.kind == "extinction")
+                    .map(|p| p.value_k),
+                points,
+            },
+        );
+    }
+    out
 }
 
 /// The steady states of a CSTR run.
@@ -134,6 +187,14 @@ pub struct SteadyStatesReport {
     pub states: Vec<SteadyStateEntry>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
+    /// With an energy balance: the temperatures scanned for states, K.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub scan_window_k: Option<(f64, f64)>,
+    /// With an energy balance: the ignition and extinction points along the feed and coolant
+    /// temperatures (K), where the steady-state curve has them in the scanned range.
+    /// Keyed by the parameter, `feed_T` and `coolant_T` (the latter with heat exchange only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub turning_points: Option<IndexMap<&'static str, TurningPointsReport>>,
 }
 
 /// One solution of a counter-current coolant problem (K, and V m3 or W kg).
@@ -401,10 +462,16 @@ pub fn build(
                     conversion: s.conversion,
                     stable: s.stable,
                     max_eigenvalue_real_per_s: s.max_eigenvalue_real,
+                    temperature: s.temperature,
                     outlet: names(&s.flows),
                 })
                 .collect(),
             note: st.note.clone(),
+            scan_window_k: st.heat.as_ref().map(|h| h.window_k),
+            turning_points: st
+                .heat
+                .as_ref()
+                .map(|h| turning_points_report(&h.turning_points)),
         }),
         coolant_solutions: sim
             .counter_current
@@ -598,19 +665,24 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         );
     }
     if let Some(st) = &r.steady_states
-        && st.count > 1
+        && (st.count > 1 || st.scan_window_k.is_some())
     {
         let _ = writeln!(
             o,
-            "\n  {} steady states (conversion of {}; stable when every eigenvalue of the transient has a negative real part):",
-            st.count, r.key
+            "\n  {} steady state{} (conversion of {}; stable when every eigenvalue of the transient has a negative real part):",
+            st.count,
+            if st.count == 1 { "" } else { "s" },
+            r.key
         );
         for e in &st.states {
             let _ = writeln!(
                 o,
-                "    {}. X = {}  {} (largest eigenvalue real part {:.3e} 1/s){}",
+                "    {}. X = {}{}  {} (largest eigenvalue real part {:.3e} 1/s){}",
                 e.number,
                 num(e.conversion),
+                e.temperature
+                    .map(|t| format!(", T = {} K", num(t)))
+                    .unwrap_or_default(),
                 if e.stable { "stable  " } else { "unstable" },
                 e.max_eigenvalue_real_per_s,
                 if e.number == st.shown {
@@ -625,6 +697,35 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
             "  this report shows steady state {} (choice `{}`; pick another with --steady-state lowest|highest|N or solver.steady_state)",
             st.shown, st.choice
         );
+        if let Some((lo, hi)) = st.scan_window_k {
+            let _ = writeln!(
+                o,
+                "  states sought between T = {} K and {} K (heat generated against heat removed)",
+                num(lo),
+                num(hi)
+            );
+        }
+        if let Some(tp) = st
+            .turning_points
+            .as_ref()
+            .filter(|t| t.values().any(|p| !p.points.is_empty()))
+        {
+            let _ = writeln!(
+                o,
+                "  ignition and extinction (turning points of the steady state against a temperature; the others held):"
+            );
+            for p in tp.values().flat_map(|t| &t.points) {
+                let _ = writeln!(
+                    o,
+                    "    {} at {} {} K (reactor T = {} K, X = {})",
+                    p.kind,
+                    p.parameter,
+                    num(p.value_k),
+                    num(p.reactor_temperature_k),
+                    num(p.conversion)
+                );
+            }
+        }
     }
     if let Some(note) = r.steady_states.as_ref().and_then(|s| s.note.as_ref()) {
         let _ = writeln!(o, "\n  note: {note}");

@@ -2,6 +2,7 @@
 //! steady-state Newton solve (CSTR). A failed solve is an error that says where and why, never
 //! a result.
 
+pub mod cstr_heat;
 pub mod equations;
 pub mod hotspot;
 pub mod krylov;
@@ -143,6 +144,9 @@ pub struct CstrSteadyStates {
     pub choice: String,
     /// Why the search for further states was not made or not finished, if so.
     pub note: Option<String>,
+    /// With an energy balance: the temperature search, its heat curves and the ignition and
+    /// extinction points.
+    pub heat: Option<cstr_heat::HeatSearch>,
 }
 
 impl Simulation {
@@ -341,21 +345,66 @@ pub fn simulate_with(
         atol,
         ..Default::default()
     };
-    if balance.has_energy() && matches!(net.reactor, Reactor::Cstr { .. }) {
-        return Err(SolveError::Setup(
-            "the non-isothermal CSTR is solved by the steady-state search of the energy balance, not yet available in this build".into(),
-        ));
-    }
     let counter = balance
         .energy()
         .and_then(|e| e.coolant_stream())
         .is_some_and(|c| c.2);
-    let sim = if let Reactor::Cstr { volume } = net.reactor {
+    let sim = if let Reactor::Cstr { volume } = net.reactor
+        && balance.has_energy()
+    {
+        stats.method = "temperature scan of the heat generated and removed, Brent's method, Newton on (F, T) with the analytic Jacobian";
+        let tol = cstr_tolerance(rtol, atol, total);
+        let (all, search, mut warnings) = cstr_heat::find_all(net, balance, volume, tol)?;
+        let choice = opts
+            .steady_state
+            .or(net.solver.steady_state)
+            .unwrap_or_default();
+        let shown = all.pick(choice).map_err(SolveError::SteadyStateChoice)?;
+        let st = &all.states[shown];
+        // A hotter state the vessel can ignite to (a disturbance, a start-up) over the process
+        // limit is named even when the state shown is below it.
+        if let Some(t_max) = net.t_max {
+            for (k, s) in all.states.iter().enumerate() {
+                if let Some(t) = s.temperature
+                    && k != shown
+                    && t > t_max
+                {
+                    warnings.push(format!(
+                        "steady state {} (T = {t:.2} K, X = {:.4}) is above T_max = {t_max} K: the CSTR can ignite to it",
+                        k + 1,
+                        s.conversion
+                    ));
+                }
+            }
+        }
+        stats.newton_iterations = all.stats.iterations;
+        stats.residual = Some(st.residual);
+        stats.newton_step = Some(st.newton_step);
+        Simulation {
+            x_name,
+            x_unit,
+            size,
+            x: vec![volume],
+            states: vec![st.flows.clone()],
+            pressure: None,
+            temperature: Some(vec![st.temperature.unwrap_or(net.feed.temperature)]),
+            coolant: None,
+            temperature_range: None,
+            cooling_failure: None,
+            counter_current: None,
+            warnings,
+            stats,
+            steady: Some(CstrSteadyStates {
+                shown,
+                choice: choice.to_string(),
+                note: all.note,
+                states: all.states,
+                heat: Some(search),
+            }),
+        }
+    } else if let Reactor::Cstr { volume } = net.reactor {
         stats.method = "damped Newton on the extents (analytic Jacobian)";
-        // Residual tolerance: far below what the ODE tolerances ask of a flow reactor.
-        let tol = (1e-3 * rtol * total)
-            .max(1e-14 * total)
-            .min(atol.max(1e-14 * total));
+        let tol = cstr_tolerance(rtol, atol, total);
         let all = steady::find_all(net, balance, volume, tol)?;
         let choice = opts
             .steady_state
@@ -386,6 +435,7 @@ pub fn simulate_with(
                 choice: choice.to_string(),
                 note: all.note,
                 states: all.states,
+                heat: None,
             }),
         }
     } else {
@@ -532,6 +582,14 @@ pub fn simulate_with(
     Ok(sim)
 }
 
+/// The residual tolerance of a CSTR solve, mol/s: far below what the ODE tolerances ask of a
+/// flow reactor.
+fn cstr_tolerance(rtol: f64, atol: f64, total: f64) -> f64 {
+    (1e-3 * rtol * total)
+        .max(1e-14 * total)
+        .min(atol.max(1e-14 * total))
+}
+
 /// One warning per species whose heat-capacity data are used outside their range along the
 /// profile: the furthest temperature reached beyond the range and where.
 fn range_warnings(
@@ -579,7 +637,11 @@ pub fn cstr_outlet(
     tol: f64,
     choice: Option<SteadyStateChoice>,
 ) -> Result<Vec<f64>, SolveError> {
-    let all = steady::find_all(net, balance, v, tol)?;
+    let all = if balance.has_energy() {
+        cstr_heat::find_all(net, balance, v, tol)?.0
+    } else {
+        steady::find_all(net, balance, v, tol)?
+    };
     let choice = choice.or(net.solver.steady_state).unwrap_or_default();
     let k = all.pick(choice).map_err(SolveError::SteadyStateChoice)?;
     Ok(all.states[k].flows.clone())

@@ -45,6 +45,10 @@ pub struct SteadyState {
     /// The largest |ΔF_j| one more Newton step would make, mol/s: the distance to the exact
     /// state to first order (small even where the residual cannot be, at V k ~ 1e300).
     pub newton_step: f64,
+    /// The reactor temperature, K, when the CSTR has an energy balance
+    /// ([`super::cstr_heat`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub temperature: Option<f64>,
 }
 
 /// Every steady state found, in order of rising conversion of the key.
@@ -124,6 +128,7 @@ pub fn find_all(
                 max_eigenvalue_real: growth,
                 residual: g.iter().fold(0.0, |m: f64, v| m.max(v.abs())),
                 newton_step: newton::step_size(&e, volume, &e.extents_of(&f)),
+                temperature: None,
                 flows: f,
             }
         })

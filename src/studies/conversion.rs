@@ -56,6 +56,7 @@ fn limit_reason(net: &Network, y: &[f64]) -> String {
 /// ln V to 1e-14; settled when a tenfold V changes X by less than 1e-10, X_eq then extrapolated
 /// from the 1/V tail, X_eq ≈ X(10V) + (X(10V) − X(V))/9.
 pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, StudyError> {
+    refuse_heat_cstr(net, "the volume that reaches a conversion")?;
     let b = Balance::new(net).map_err(StudyError::Invalid)?;
     if solve::shooting::is_counter_current(&b) {
         return Err(StudyError::Invalid(solve::shooting::size_study_refusal(
@@ -162,6 +163,21 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
             "conversion {x} is not reached below {xn} = {from:.3e} {xu} and the conversion has not settled"
         )))
     }
+}
+
+/// Refuse a search over the volume of a CSTR with an energy balance (`what` names it). Its
+/// conversion is not monotone in V and jumps where a steady state ignites or is extinguished,
+/// and each volume needs the whole temperature search of [`crate::solve::cstr_heat`]: the
+/// bisection and continuation in V here assume an isothermal CSTR and could return a size on a
+/// branch the vessel does not hold. Runs at chosen volumes (`run`, `sweep` over
+/// reactor.volume) list every steady state instead.
+pub fn refuse_heat_cstr(net: &Network, what: &str) -> Result<(), StudyError> {
+    if matches!(net.reactor, Reactor::Cstr { .. }) && net.heat.balance().is_some() {
+        return Err(StudyError::Invalid(format!(
+            "{what} is not searched for a CSTR with an energy balance (reactor.heat): its conversion is not monotone in the volume and jumps at ignition and extinction, so a search over V could land on a branch the vessel does not hold; run it at chosen volumes instead (`rxnet sweep` over reactor.volume, or `rxnet run --set reactor.volume=...`, which list every steady state)"
+        )));
+    }
+    Ok(())
 }
 
 /// The size at which the key conversion reaches `x`; an `Infeasible` error naming the largest

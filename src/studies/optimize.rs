@@ -159,6 +159,7 @@ pub fn optimize_size(
     if net.feed.amounts[net.key] <= 0.0 {
         return Err(StudyError::Invalid("the key reactant is not fed".into()));
     }
+    super::conversion::refuse_heat_cstr(net, "the optimum volume")?;
     let min_conversion = min_conversion.filter(|x| *x > 0.0);
     let lo_open = lo == 0.0;
     let lo_eff = if lo_open { ZERO_SIZE * hi } else { lo };
