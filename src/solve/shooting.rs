@@ -52,7 +52,7 @@
 //! trial whose integration fails outright has no sign: the scan counts it, and a sign change
 //! across it is not looked for (the note says how many trials failed).
 
-use super::hotspot::{HotSpot, hot_spot_of_steps};
+use super::hotspot::HotSpot;
 use super::ode::{self, OdeOptions, Output};
 use super::{Adapter, SolveError};
 use crate::model::Network;
@@ -305,10 +305,16 @@ pub fn solve(
     let fa0 = net.feed.amounts[key];
     let mut solutions = Vec::with_capacity(roots.len());
     for &theta in &roots {
-        let sol = ode::integrate(&Adapter(balance), &start(theta), size, &Output::Steps, o)
-            .map_err(|source| super::study_error(net, size, source))?;
-        let hot_spot = hot_spot_of_steps(balance, &sol.x, &sol.y, o)
-            .map_err(|source| super::study_error(net, size, source))?;
+        let (sol, extremes) = ode::integrate_watching(
+            &Adapter(balance),
+            &start(theta),
+            size,
+            &Output::End,
+            o,
+            &[vec![(ti, 1.0)]],
+        )
+        .map_err(|source| super::study_error(net, size, source))?;
+        let hot_spot = HotSpot::of(&extremes[0], size);
         let end = sol.y.last().expect("end point");
         solutions.push(CoolantSolution {
             coolant_outlet_temperature: theta,

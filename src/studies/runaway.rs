@@ -31,7 +31,7 @@ use super::evaluate::{Findings, evaluate_study};
 use super::study::{Study, StudyError, Variable};
 use crate::model::Reactor;
 use crate::reactor::Balance;
-use crate::solve::hotspot::{HotSpot, hot_spot_of_steps};
+use crate::solve::hotspot::HotSpot;
 use crate::solve::{self, Points, SolveOptions};
 
 /// Most scan points.
@@ -113,14 +113,15 @@ fn hot_spot_at(
     opts: &SolveOptions,
     base: Option<&Findings>,
 ) -> Result<HotSpot, String> {
-    let (net, ev) =
+    let (_, ev) =
         evaluate_study(study, &input.sets(phi), opts, base).map_err(|e| e.to_string())?;
-    let p0 = net.feed.pressure;
-    let ys: Vec<Vec<f64>> = (0..ev.sim.x.len())
-        .map(|k| ev.sim.model_state(k, p0))
-        .collect();
-    let o = solve::ode_options(&net, &ev.balance, opts);
-    hot_spot_of_steps(&ev.balance, &ev.sim.x, &ys, &o).map_err(|e| format!("hot spot: {e}"))
+    // The hot spot located between the integrator's steps by the solve itself.
+    let range = ev
+        .sim
+        .temperature_range
+        .as_ref()
+        .ok_or("the solve gave no temperature profile (an energy balance is needed)")?;
+    Ok(HotSpot::of(range, ev.sim.size))
 }
 
 /// Check that the study suits a runaway scan: the path loads at both bounds, the reactor is a
@@ -178,7 +179,7 @@ pub fn run(
         (step_fraction * scale).min(0.25 * spacing)
     };
     let opts = SolveOptions {
-        points: Points::Steps,
+        points: Points::End,
         ..opts.clone()
     };
     let at = |phi: f64| -> Result<RunawayValues, String> {
