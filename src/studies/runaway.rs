@@ -113,8 +113,7 @@ fn hot_spot_at(
     opts: &SolveOptions,
     base: Option<&Findings>,
 ) -> Result<HotSpot, String> {
-    let (_, ev) =
-        evaluate_study(study, &input.sets(phi), opts, base).map_err(|e| e.to_string())?;
+    let (_, ev) = evaluate_study(study, &input.sets(phi), opts, base).map_err(|e| e.to_string())?;
     // The hot spot located between the integrator's steps by the solve itself.
     let range = ev
         .sim
