@@ -6,7 +6,7 @@
 
 mod common;
 
-use common::{Agreement, check_json, line_of, num, run_study};
+use common::{Agreement, check_json, line_of, num, run_study, rxnet};
 use rxnet::load_str;
 use rxnet::thermo::{EnthalpySource, KSource, ReactionThermo};
 
@@ -545,4 +545,47 @@ fn equilibrium_constants_from_species_satisfy_wegscheider_by_construction() {
         let s = a.ln_k(t).unwrap() + b.ln_k(t).unwrap();
         assert!(s.abs() < 1e-12, "{t}: {s}");
     }
+}
+
+/// A reversible shift written without `K_eq` takes K_c(T) from its species (ΔG° of the NIST
+/// Shomate data above): an isothermal PFR long enough to reach equilibrium at 1000 K leaves
+/// C_CO2 C_H2 / (C_CO C_H2O) = K(1000 K), within 2 % of the NIST-JANAF value (the tables'
+/// log10 Kf above, from memory), and equal to the species' K to the solver's tolerance; the
+/// load records where K came from.
+#[test]
+fn reversible_shift_without_k_eq_reaches_the_species_equilibrium() {
+    let reversible =
+        "{id: shift, stoich: CO + H2O <=> CO2 + H2, rate: {k: 10 m3/(mol*s), T_ref: 1000 K}}";
+    let text = shift_study(1000.0, reversible).replace("volume: 1 L", "volume: 100 m3");
+    let net = load_str(&text, "shift.yaml", &[]).expect("loads without K_eq");
+    assert!(
+        net.notes
+            .iter()
+            .any(|n| n.contains("from its species' H_f and S")),
+        "{:?}",
+        net.notes
+    );
+    let k_species = ReactionThermo::new(&net, 0).ln_k(1000.0).unwrap().exp();
+    let f = common::temp_study("shift_species_k", &text);
+    let run = rxnet(&["run", f.p(), "--format", "json"]).ok_json();
+    let out = &run["outlet"];
+    let q = num(&out["CO2"], "CO2") * num(&out["H2"], "H2")
+        / (num(&out["CO"], "CO") * num(&out["H2O"], "H2O"));
+    assert!(
+        (q / k_species - 1.0).abs() < 1e-6,
+        "Q = {q}, K = {k_species}"
+    );
+    let k_janaf = 10f64.powf(20.679 - 10.461 - 10.060);
+    assert!((q / k_janaf - 1.0).abs() < 0.02, "Q = {q}, JANAF {k_janaf}");
+
+    // Without the species data (no Shomate H and S) the reaction needs its K_eq.
+    let bare = "name: t\nphase: gas\nspecies: {CO: {}, H2O: {}, CO2: {}, H2: {}}\nreactions:\n  - {id: shift, stoich: CO + H2O <=> CO2 + H2, rate: {k: 1 m3/(mol*s)}}\nfeed: {T: 1000 K, P: 1 bar, flows: {CO: 1 mol/s, H2O: 1 mol/s}}\nreactor: {type: pfr, volume: 1 L}\n";
+    let f = common::temp_study("shift_no_k", bare);
+    let run = rxnet(&["check", f.p()]);
+    assert_eq!(run.code, 2, "{}", run.stderr);
+    assert!(
+        run.stderr.contains("needs `K_eq`") && run.stderr.contains("missing for `CO`"),
+        "{}",
+        run.stderr
+    );
 }

@@ -87,6 +87,9 @@ pub struct Equilibrium {
     /// Concentration-based K_c at T_ref, SI units (mol/m3)^Σν (a K_p given in partial
     /// pressures is already converted with (R T)^(−Σν) at the feed temperature).
     pub k_ref: f64,
+    /// No `K_eq` was written: K_c(T) follows from the species' H_f and S (ΔG° = −RT ln K°),
+    /// and `k_ref` is its value at T_ref.
+    pub from_species: bool,
 }
 
 /// A rate law, in SI, at a reference temperature.

@@ -58,6 +58,10 @@ pub struct ReactionThermo {
     terms: Vec<(usize, f64, HeatCapacity)>,
     /// c in ΔH(T) = c + Σ ν_j Hs_j(T), J/mol.
     dh0: Option<f64>,
+    /// c of the ΔH that ln K(T) is built on, when it is not `dh0`: K taken from the species
+    /// (no `K_eq` written) uses the species' ΔH even where the reaction gives its own `dH`
+    /// for the energy balance.
+    k_dh0: Option<f64>,
     dh_source: Option<EnthalpySource>,
     /// L in ln K(T) = L − ΔH(T)/(R T) + Σ ν_j Ss_j(T)/R + n ln(P°/(R T)).
     lk0: Option<f64>,
@@ -166,6 +170,7 @@ impl ReactionThermo {
         let mut out = ReactionThermo {
             terms: species.terms.clone(),
             dh0: None,
+            k_dh0: None,
             dh_source: None,
             lk0: None,
             k_source: None,
@@ -178,7 +183,7 @@ impl ReactionThermo {
             out.dh0 = species.dh0;
             out.dh_source = species.dh_source;
         }
-        if let Some(eq) = &r.rate.equilibrium {
+        if let Some(eq) = r.rate.equilibrium.as_ref().filter(|e| !e.from_species) {
             let t0 = r.rate.t_ref;
             // ln K(T0) = L − ΔH(T0)/(R T0) + Σ ν Ss(T0)/R.
             out.lk0 = Some(match out.dh(t0) {
@@ -188,10 +193,16 @@ impl ReactionThermo {
                 None => eq.k_ref.ln(),
             });
             out.k_source = Some(KSource::Given);
-        } else if species.lk0.is_some() && out.dh_source == species.dh_source {
+        } else if species.lk0.is_some()
+            && (out.dh_source == species.dh_source
+                || r.rate.equilibrium.as_ref().is_some_and(|e| e.from_species))
+        {
             out.lk0 = species.lk0;
             out.k_source = species.k_source;
             out.gas_nu = species.gas_nu;
+            if out.dh0 != species.dh0 {
+                out.k_dh0 = species.dh0;
+            }
         }
         out
     }
@@ -204,6 +215,7 @@ impl ReactionThermo {
         let mut out = ReactionThermo {
             terms: cp_terms(net, i),
             dh0: None,
+            k_dh0: None,
             dh_source: None,
             lk0: None,
             k_source: None,
@@ -266,6 +278,11 @@ impl ReactionThermo {
         self.terms.iter().map(|(_, nu, cp)| nu * cp.cp(t)).sum()
     }
 
+    /// The ΔH(T) that ln K(T) is built on (see `k_dh0`).
+    fn k_dh(&self, t: f64) -> Option<f64> {
+        Some(self.k_dh0.or(self.dh0)? + self.sum_hs(t))
+    }
+
     /// Whether ΔCp is taken into account (every species the reaction changes has Cp).
     pub fn includes_dcp(&self) -> bool {
         !self.terms.is_empty()
@@ -275,7 +292,7 @@ impl ReactionThermo {
     /// H_f and S are given. With `K_eq` and no ΔH at all, K is constant.
     pub fn ln_k(&self, t: f64) -> Option<f64> {
         let l = self.lk0?;
-        let Some(dh) = self.dh(t) else {
+        let Some(dh) = self.k_dh(t) else {
             return Some(l);
         };
         Some(
@@ -289,14 +306,14 @@ impl ReactionThermo {
     /// for K_c of a gas from species data it carries the −Σν/T of (P°/(R T))^Σν as well.
     pub fn d_ln_k_dt(&self, t: f64) -> Option<f64> {
         self.lk0?;
-        let dh = self.dh(t).unwrap_or(0.0);
+        let dh = self.k_dh(t).unwrap_or(0.0);
         Some(dh / (GAS_CONSTANT * t * t) - self.gas_nu / t)
     }
 
     /// ln K(T) as coefficients for a fast evaluation ([`LnKForm`]), `None` without a K.
     pub fn ln_k_form(&self) -> Option<LnKForm> {
         let l = self.lk0?;
-        Some(match self.dh0 {
+        Some(match self.k_dh0.or(self.dh0) {
             None => LnKForm {
                 l,
                 c: 0.0,

@@ -569,7 +569,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     )?;
     debug_assert_eq!(feed.amounts.len(), ns);
 
-    Ok(Network {
+    let mut net = Network {
         name: raw.name.unwrap_or_else(|| "unnamed study".to_string()),
         source: cx.file.clone(),
         phase,
@@ -583,8 +583,67 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         solver,
         heat,
         t_max,
-        notes: cx.notes.take(),
-    })
+        notes: Vec::new(),
+    };
+    equilibrium_from_species(&mut net, cx)?;
+    net.notes = cx.notes.take();
+    Ok(net)
+}
+
+/// A reversible reaction written without `K_eq` takes K_c(T) from its species' H_f and S
+/// (ΔG° = ΔH° − T ΔS° = −R T ln K°; `crate::thermo::ReactionThermo`); its value at T_ref is
+/// recorded, and a reaction whose species lack the data is refused, naming what is missing.
+fn equilibrium_from_species(net: &mut Network, cx: &Cx) -> Result<(), LoadError> {
+    for i in 0..net.reactions.len() {
+        let r = &net.reactions[i];
+        if !r.rate.equilibrium.as_ref().is_some_and(|e| e.from_species) {
+            continue;
+        }
+        let missing: Vec<String> = r
+            .net
+            .iter()
+            .filter(|&&(j, _)| {
+                let t = &net.species[j].thermo;
+                t.h_f.is_none() || t.s.is_none()
+            })
+            .map(|&(j, _)| format!("`{}`", net.species[j].name))
+            .collect();
+        let ln_k = crate::thermo::ReactionThermo::from_species(net, i).ln_k(r.rate.t_ref);
+        match ln_k {
+            Some(l) if missing.is_empty() && l.is_finite() => {
+                let eq = net.reactions[i]
+                    .rate
+                    .equilibrium
+                    .as_mut()
+                    .expect("checked above");
+                eq.k_ref = l.exp();
+                cx.note(
+                    &format!("reactions[{i}]"),
+                    &format!(
+                        "K_eq of `{}` from its species' H_f and S: K_c = {} (SI) at T_ref = {} K",
+                        net.reactions[i].id,
+                        messages::significant(l.exp()),
+                        messages::significant(net.reactions[i].rate.t_ref)
+                    ),
+                );
+            }
+            _ => {
+                return Err(cx.err(
+                    &format!("reactions[{i}].rate"),
+                    &format!(
+                        "a reversible reaction (`<=>`) needs `K_eq`, its concentration-based equilibrium constant, or H_f and S of every species it changes{}",
+                        if missing.is_empty() {
+                            String::new()
+                        } else {
+                            format!(" (missing for {})", missing.join(", "))
+                        }
+                    ),
+                    Some("e.g. `K_eq: 4.5`, or `H_f: -110.5 kJ/mol` and `S: 197.7 J/(mol*K)` under each species".into()),
+                ));
+            }
+        }
+    }
+    Ok(())
 }
 
 #[cfg(test)]

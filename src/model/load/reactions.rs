@@ -252,15 +252,13 @@ pub(super) fn build_reaction(
                 &format!("{fr}.K_eq"),
                 "K_eq is given for a one-way reaction",
                 Some("write the equation with `<=>` to make it reversible, or drop K_eq".into()),
-            ))
+            ));
         }
-        (None, true) => {
-            return Err(cx.err(
-                &fr,
-                "a reversible reaction (`<=>`) needs `K_eq`, its concentration-based equilibrium constant",
-                None,
-            ))
-        }
+        // No K_eq: from the species' H_f and S, once the network is built (load/mod.rs).
+        (None, true) => Some(Equilibrium {
+            k_ref: f64::NAN,
+            from_species: true,
+        }),
         (None, false) => None,
         (Some(q), true) => {
             // K_c = Π C_j^ν_j at equilibrium  =>  [K_c] = (mol/m3)^Σν;
@@ -269,13 +267,21 @@ pub(super) fn build_reaction(
             let (want, ex, what) = if pressures {
                 (
                     Dim::pressure().powf(sum_nu),
-                    if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 bar^{sum_nu}") },
+                    if sum_nu.abs() < 1e-12 {
+                        "12".to_string()
+                    } else {
+                        format!("12 bar^{sum_nu}")
+                    },
                     format!("a partial-pressure equilibrium constant K_p with Σν = {sum_nu}"),
                 )
             } else {
                 (
                     conc().powf(sum_nu),
-                    if sum_nu.abs() < 1e-12 { "12".to_string() } else { format!("12 (mol/L)^{sum_nu}") },
+                    if sum_nu.abs() < 1e-12 {
+                        "12".to_string()
+                    } else {
+                        format!("12 (mol/L)^{sum_nu}")
+                    },
                     format!("a concentration equilibrium constant with Σν = {sum_nu}"),
                 )
             };
@@ -283,10 +289,19 @@ pub(super) fn build_reaction(
             if pressures {
                 k *= rt.powf(-sum_nu);
                 if sum_nu.abs() > 1e-12 {
-                    pressure_note(&f, q, &format!("K_c = K_p (R T)^{}", -sum_nu), k, conc().powf(sum_nu));
+                    pressure_note(
+                        &f,
+                        q,
+                        &format!("K_c = K_p (R T)^{}", -sum_nu),
+                        k,
+                        conc().powf(sum_nu),
+                    );
                 }
             }
-            Some(Equilibrium { k_ref: cx.positive(&f, k, "K_eq")? })
+            Some(Equilibrium {
+                k_ref: cx.positive(&f, k, "K_eq")?,
+                from_species: false,
+            })
         }
     };
     let form = match law {
