@@ -238,14 +238,6 @@ impl Balance {
         self.rhs_at(0.0, y, dydx)
     }
 
-    /// Whether dy/dx depends on x itself (a batch jacket ramp).
-    pub fn is_autonomous(&self) -> bool {
-        !matches!(
-            self.energy.as_ref().and_then(|e| e.coolant.as_ref()),
-            Some(crate::model::Coolant::Ramp { .. })
-        ) || self.energy.as_ref().is_some_and(|e| e.ua == 0.0)
-    }
-
     /// dy/dx at x and state y.
     pub fn rhs_at(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
         if let Some(e) = &self.energy {
