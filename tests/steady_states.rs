@@ -394,3 +394,50 @@ fn rxnet_size(study: &str, x: f64, extra: &[&str]) -> serde_json::Value {
     args.extend_from_slice(&["--format", "json"]);
     size_run(study, x, &args).ok_json()
 }
+
+/// A generated network (found by the property tests) whose Newton solve from the feed lands on
+/// a root of the balances with A2 = −0.30 mol/s: a root, not a state of the vessel. The
+/// physical steady state found by the continuation from the feed is reported instead: every
+/// flow non-negative and F0 − F + V Σ_i ν_ij r_i(F) = 0 to 1e-9 of the feed (the CSTR balance;
+/// Levenspiel ch. 5, from memory).
+#[test]
+fn a_root_with_a_negative_flow_is_not_reported() {
+    let yaml = "name: generated oligomer network (demo values)
+phase: liquid
+species:
+  A1: {formula: C2H4}
+  A2: {formula: C4H8}
+  A3: {formula: C6H12}
+  A4: {formula: C8H16}
+  I1: {formula: C2H4}
+reactions:
+  - {id: r0, stoich: A2 + A2 -> A4, rate: {k: 1.7086610615149352e-6 m3/(mol*s)}}
+  - {id: r1, stoich: A1 + A1 -> A2, rate: {k: 5.731692721537704e-6 m3/(mol*s)}}
+  - {id: r2, stoich: A1 + A3 -> A4, rate: {k: 5.600028252658941e-6 m3/(mol*s)}}
+  - {id: r3, stoich: A1 -> I1, rate: {k: 7.283727676745393e-3 1/s}}
+feed:
+  T: 330 K
+  volumetric: 1 L/s
+  flows: {A1: 6.347562985335555e-1 mol/s, A3: 1.4671984313268587e0 mol/s}
+reactor:
+  type: cstr
+  volume: 1 m3
+key: A1
+";
+    let net = rxnet::load_str(yaml, "negative_root.yaml", &[]).expect("loads");
+    let sim = rxnet::solve::simulate(&net, &rxnet::solve::SolveOptions::default())
+        .expect("the physical steady state");
+    let f = sim.outlet();
+    assert!(f.iter().all(|v| *v >= 0.0), "{f:?}");
+    let b = rxnet::reactor::Balance::new(&net).unwrap();
+    let mut d = vec![0.0; f.len()];
+    b.rhs(f, &mut d);
+    let total = net.feed.total();
+    for ((f0, f), g) in net.feed.amounts.iter().zip(f).zip(&d) {
+        assert!(
+            (f0 - f + 1.0 * g).abs() < 1e-9 * total,
+            "residual {}",
+            f0 - f + g
+        );
+    }
+}

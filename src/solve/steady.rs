@@ -106,6 +106,15 @@ pub fn find_all(
             }
         }
     }
+    // A root of the balances with a species below zero (a quadratic system has such roots; the
+    // Newton solve from the feed can land on one) is not a state of the vessel: drop it when a
+    // physical one was found too. With none physical, the solver's negative-amount guard
+    // refuses the result with its message.
+    let limit = super::NEGATIVE_FRACTION * net.feed.total();
+    let physical = |f: &Vec<f64>| f.iter().all(|v| *v >= -limit);
+    if found.iter().any(physical) {
+        found.retain(physical);
+    }
     if found.is_empty() {
         return Err(first_err.unwrap_or(NewtonError::NoConvergence {
             residual: f64::NAN,
