@@ -68,6 +68,40 @@ impl Balance {
         }
     }
 
+    /// κ, σ and S at state y with their derivatives: uniform in the species (∂κ/∂y_k,
+    /// ∂σ/∂y_k) and in T (through T0/T for a gas) — the chain rule shared by the Jacobian and
+    /// the CSTR's heat release.
+    fn scale_slopes(&self, e: &Energy, y: &[f64]) -> ScaleSlopes {
+        let t = self.temperature_of(y);
+        let (kappa, sigma, s) = self.scales_at(e, y);
+        let (dkappa, dsigma) = match self.mixture {
+            Mixture::Fixed { .. } => (0.0, 0.0),
+            Mixture::GasFlow { .. } => (-kappa / s, 0.0),
+            Mixture::GasConstantPressure { .. } => (-kappa / s, sigma / s),
+        };
+        ScaleSlopes {
+            kappa,
+            sigma,
+            s,
+            dkappa,
+            dsigma,
+            dkappa_dt: if e.gas_scaling { -kappa / t } else { 0.0 },
+            dsigma_dt: if e.sigma_scaling { sigma / t } else { 0.0 },
+        }
+    }
+
+    /// ΔE_i(T) of reaction i with net coefficients `nu`, and dΔE_i/dT = ΔCp_i − u R Σν.
+    fn reaction_energy(&self, e: &Energy, i: usize, nu: &[(usize, f64)], t: f64) -> (f64, f64) {
+        let ur = e.u * GAS_CONSTANT;
+        let mut de = e.offset[i];
+        let mut de_dt = 0.0;
+        for &(j, v) in nu {
+            de += v * (e.h(j, t) - ur * t);
+            de_dt += v * (e.cp_at(j, t) - ur);
+        }
+        (de, de_dt)
+    }
+
     /// ∂(dy/dx)/∂y with the energy balance, every structural entry emitted.
     pub(super) fn jacobian_energy(
         &self,
@@ -80,20 +114,18 @@ impl Balance {
         let ti = self.t_index.expect("an energy balance has T in its state");
         let t = y[ti];
         let p = self.pressure_ratio(y);
-        let (kappa, sigma, s) = self.scales_at(e, y);
+        let ScaleSlopes {
+            kappa,
+            sigma,
+            s,
+            dkappa,
+            dsigma,
+            dkappa_dt,
+            dsigma_dt,
+        } = self.scale_slopes(e, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
-        // Uniform-in-k derivatives of κ and σ, and their T derivatives.
-        let (dkappa, dsigma) = match self.mixture {
-            Mixture::Fixed { .. } => (0.0, 0.0),
-            Mixture::GasFlow { .. } => (-kappa / s, 0.0),
-            Mixture::GasConstantPressure { .. } => (-kappa / s, sigma / s),
-        };
-        let dkappa_dt = if e.gas_scaling { -kappa / t } else { 0.0 };
-        let dsigma_dt = if e.sigma_scaling { sigma / t } else { 0.0 };
         let mut at = Vec::new();
         self.rates.constants(t, &mut at);
-        let urt = e.u * GAS_CONSTANT * t;
-        let ur = e.u * GAS_CONSTANT;
         let mut uniform = vec![0.0; n];
         let mut col_t = vec![0.0; n];
         let mut col_p = vec![0.0; n];
@@ -114,11 +146,8 @@ impl Balance {
             let a: f64 = grad.iter().map(|&(m, g)| g * y[m]).sum();
             // Total ∂r/∂T: explicit, and through κ(T).
             let dr_dt = dr_dt + a * dkappa_dt;
-            let mut de = e.offset[i];
-            let mut de_dt = 0.0;
+            let (de, de_dt) = self.reaction_energy(e, i, nu, t);
             for &(j, v) in nu {
-                de += v * (e.h(j, t) - urt);
-                de_dt += v * (e.cp_at(j, t) - ur);
                 for &(k, g) in &grad {
                     out.push((j, k, sigma * v * g * kappa));
                 }
@@ -186,19 +215,18 @@ impl Balance {
         let e = self.energy.as_ref()?;
         let n = self.n_species;
         let t = self.temperature_of(y);
-        let (kappa, sigma, s) = self.scales_at(e, y);
+        let ScaleSlopes {
+            kappa,
+            sigma,
+            dkappa,
+            dsigma,
+            dkappa_dt,
+            dsigma_dt,
+            ..
+        } = self.scale_slopes(e, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
-        let (dkappa, dsigma) = match self.mixture {
-            Mixture::Fixed { .. } => (0.0, 0.0),
-            Mixture::GasFlow { .. } => (-kappa / s, 0.0),
-            Mixture::GasConstantPressure { .. } => (-kappa / s, sigma / s),
-        };
-        let dkappa_dt = if e.gas_scaling { -kappa / t } else { 0.0 };
-        let dsigma_dt = if e.sigma_scaling { sigma / t } else { 0.0 };
         let mut at = Vec::new();
         self.rates.constants(t, &mut at);
-        let urt = e.u * GAS_CONSTANT * t;
-        let ur = e.u * GAS_CONSTANT;
         let mut q = 0.0;
         let mut rgrad = Vec::new();
         let mut out = grad;
@@ -211,12 +239,7 @@ impl Balance {
             .map(|w| &self.nu[w[0]..w[1]])
             .enumerate()
         {
-            let mut de = e.offset[i];
-            let mut de_dt = 0.0;
-            for &(j, v) in nu {
-                de += v * (e.h(j, t) - urt);
-                de_dt += v * (e.cp_at(j, t) - ur);
-            }
+            let (de, de_dt) = self.reaction_energy(e, i, nu, t);
             match out.as_deref_mut() {
                 None => q -= sigma * self.rates.eval_at(i, &at[i], &c, None, None) * de,
                 Some(g) => {
@@ -240,4 +263,16 @@ impl Balance {
         }
         Some(q)
     }
+}
+
+/// κ, σ and S with their uniform derivatives in the species and in T
+/// ([`Balance::scale_slopes`]).
+struct ScaleSlopes {
+    kappa: f64,
+    sigma: f64,
+    s: f64,
+    dkappa: f64,
+    dsigma: f64,
+    dkappa_dt: f64,
+    dsigma_dt: f64,
 }
