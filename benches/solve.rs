@@ -249,7 +249,7 @@ fn bench_rhs(c: &mut Criterion) {
             );
         }
         let mut rates = Vec::new();
-        bal.reaction_rates(&y, &mut rates);
+        bal.reaction_rates(0.0, &y, &mut rates);
         let id = format!("{n}x{r}");
         g.bench_function(BenchmarkId::new(&id, "Balance::rhs"), |b| {
             b.iter(|| bal.rhs(black_box(&y), &mut d1))

@@ -101,6 +101,7 @@ pub fn formed(delta: f64, total: f64) -> f64 {
 /// why not defined). `made` = F_j − F_j0, `consumed` = F_A0 − F_A, both already through [`formed`].
 pub fn yield_value(
     net: &Network,
+    fed_key: f64,
     j: usize,
     made: f64,
     consumed: f64,
@@ -108,7 +109,7 @@ pub fn yield_value(
 ) -> (Option<f64>, Option<f64>, Option<String>) {
     let key = &net.species[net.key].name;
     let name = &net.species[j].name;
-    let fed = net.feed.amounts[net.key];
+    let fed = fed_key;
     if made < 0.0 {
         let why = format!("`{name}` is fed and net consumed");
         return (None, None, Some(why));
@@ -152,9 +153,17 @@ pub fn selectivity_value(
 
 /// Metrics of an outlet state against the feed.
 pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
-    let f0 = &net.feed.amounts;
+    compute_against(net, &net.feed.amounts, outlet)
+}
+
+/// Metrics of what left (`outlet`: the outlet with whatever left by side routes, a membrane's
+/// permeate or a withdrawal) against everything fed (`fed`: the feed with every side feed,
+/// join, distributed feed and dosing), per species. A contacting pattern is judged on what it
+/// was given and what it gave: conversion of the key is (fed − left)/fed.
+pub fn compute_against(net: &Network, fed: &[f64], outlet: &[f64]) -> Metrics {
+    let f0 = fed;
     let a = net.key;
-    let total = net.feed.total();
+    let total: f64 = fed.iter().sum();
     let consumed = f0[a] - outlet[a];
     let conversion = if f0[a] > 0.0 {
         consumed / f0[a]
@@ -170,7 +179,8 @@ pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
                 Some((i, k)) => (format!("stoichiometric ({})", net.reactions[i].id), k),
                 None => ("molar".to_string(), 1.0),
             };
-            let (on_key, on_feed, not_defined) = yield_value(net, j, made, consumed_net, factor);
+            let (on_key, on_feed, not_defined) =
+                yield_value(net, f0[a], j, made, consumed_net, factor);
             Yield {
                 species: net.species[j].name.clone(),
                 on_key,
@@ -209,12 +219,18 @@ pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
         yields,
         desired,
         selectivity,
-        element_closure: element_closure(net, outlet),
+        element_closure: element_closure_against(net, f0, outlet),
     }
 }
 
 /// Element balance closure of a state against the feed.
 pub fn element_closure(net: &Network, state: &[f64]) -> Vec<Closure> {
+    element_closure_against(net, &net.feed.amounts, state)
+}
+
+/// Element closure of `state` against `fed` (the feed with whatever entered by side routes;
+/// `state` with whatever left by them).
+pub fn element_closure_against(net: &Network, fed: &[f64], state: &[f64]) -> Vec<Closure> {
     if net.species.iter().any(|s| s.formula.is_none()) {
         return vec![];
     }
@@ -238,9 +254,7 @@ pub fn element_closure(net: &Network, state: &[f64]) -> Vec<Closure> {
                     .copied()
                     .unwrap_or(0.0)
             };
-            let inn: f64 = (0..state.len())
-                .map(|j| count(j) * net.feed.amounts[j])
-                .sum();
+            let inn: f64 = (0..state.len()).map(|j| count(j) * fed[j]).sum();
             let out: f64 = (0..state.len()).map(|j| count(j) * state[j]).sum();
             let scale = inn.abs().max(1e-300);
             Closure {
@@ -257,11 +271,12 @@ pub fn element_closure(net: &Network, state: &[f64]) -> Vec<Closure> {
 pub fn instantaneous_selectivity(
     net: &Network,
     balance: &crate::reactor::Balance,
+    x: f64,
     y: &[f64],
 ) -> Vec<Selectivity> {
     let Some(d) = net.desired else { return vec![] };
     let mut r = Vec::new();
-    balance.reaction_rates(y, &mut r);
+    balance.reaction_rates(x, y, &mut r);
     let formation = |j: usize| -> f64 {
         net.reactions
             .iter()

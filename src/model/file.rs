@@ -47,7 +47,10 @@ pub struct RawStudy {
     pub species: IndexMap<String, Option<RawSpecies>>,
     pub reactions: Vec<RawReaction>,
     pub feed: RawFeed,
-    pub reactor: RawReactor,
+    /// One vessel; exactly one of `reactor` and `train` is given.
+    pub reactor: Option<RawReactor>,
+    /// Vessels in series, each a reactor map with an `id`.
+    pub train: Option<Vec<RawReactor>>,
     pub key: Option<String>,
     pub desired: Option<String>,
     pub solver: Option<RawSolver>,
@@ -233,6 +236,168 @@ pub struct RawReactor {
     pub heat: Option<RawHeat>,
     #[serde(rename = "T_max")]
     pub t_max: Option<RawQty>,
+    /// A unit of a train: its name, addressable as `train.<id>` by `--set`.
+    pub id: Option<String>,
+    /// A unit of a train: a feed joining the stream just before the unit.
+    pub join: Option<RawStream>,
+    /// A unit of a train: the fraction of its inlet that goes around it.
+    pub bypass: Option<f64>,
+    /// Tubes: streams injected at points along the length.
+    pub side_feeds: Option<Vec<RawSideFeed>>,
+    /// Tubes: streams spread over a stretch of the length.
+    pub distributed_feeds: Option<Vec<RawDistributedFeed>>,
+    /// Tubes: species crossing the wall.
+    pub membrane: Option<Vec<RawPermeation>>,
+    /// Batch: dosing streams (semibatch).
+    pub dosing: Option<Vec<RawDosing>>,
+    /// Batch: continuous withdrawal of the contents.
+    pub withdrawal: Option<RawWithdrawal>,
+    /// Tubes: the recycle ratio R.
+    pub recycle: Option<f64>,
+}
+
+/// A stream other than the feed (a join, a side feed, a distributed feed): flows, or
+/// concentrations with the volumetric flow; temperature and pressure default to the feed's.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct RawStream {
+    #[serde(rename = "T")]
+    pub t: Option<RawQty>,
+    #[serde(rename = "P")]
+    pub p: Option<RawQty>,
+    pub flows: Option<IndexMap<String, RawQty>>,
+    pub concentrations: Option<IndexMap<String, RawQty>>,
+    pub volumetric: Option<RawQty>,
+}
+
+/// `side_feeds: [{at: 0.4 m3, flows: {...}, volumetric: ..., T: ...}]`.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct RawSideFeed {
+    pub at: RawQty,
+    #[serde(rename = "T")]
+    pub t: Option<RawQty>,
+    #[serde(rename = "P")]
+    pub p: Option<RawQty>,
+    pub flows: Option<IndexMap<String, RawQty>>,
+    pub concentrations: Option<IndexMap<String, RawQty>>,
+    pub volumetric: Option<RawQty>,
+}
+
+impl RawSideFeed {
+    /// The stream part (everything but `at`).
+    pub fn stream(&self) -> RawStream {
+        RawStream {
+            t: self.t.clone(),
+            p: self.p.clone(),
+            flows: self.flows.clone(),
+            concentrations: self.concentrations.clone(),
+            volumetric: self.volumetric.clone(),
+        }
+    }
+}
+
+/// `distributed_feeds: [{from: 0 m3, to: 1 m3, flows: {...}, volumetric: ..., shape: [[x, w], ...]}]`.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct RawDistributedFeed {
+    pub from: Option<RawQty>,
+    pub to: Option<RawQty>,
+    /// Relative intensity along the stretch: points [x, weight], linear between.
+    pub shape: Option<Vec<(RawQty, f64)>>,
+    #[serde(rename = "T")]
+    pub t: Option<RawQty>,
+    #[serde(rename = "P")]
+    pub p: Option<RawQty>,
+    pub flows: Option<IndexMap<String, RawQty>>,
+    pub concentrations: Option<IndexMap<String, RawQty>>,
+    pub volumetric: Option<RawQty>,
+}
+
+impl RawDistributedFeed {
+    /// The stream part (the whole stream over the stretch).
+    pub fn stream(&self) -> RawStream {
+        RawStream {
+            t: self.t.clone(),
+            p: self.p.clone(),
+            flows: self.flows.clone(),
+            concentrations: self.concentrations.clone(),
+            volumetric: self.volumetric.clone(),
+        }
+    }
+}
+
+/// `membrane: [{species: H2, coefficient: 0.8 1/s, sweep: 0 mol/m3}]`.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct RawPermeation {
+    pub species: String,
+    pub coefficient: RawQty,
+    pub sweep: Option<RawQty>,
+}
+
+/// `dosing: [{concentrations: {...}, rate: 2 L/min, from: 0 s, to: 1 h, T: ...}]`, or a rate
+/// profile `rate: [[0 h, 2 L/min], [1 h, 1 L/min]]`.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct RawDosing {
+    #[serde(rename = "T")]
+    pub t: Option<RawQty>,
+    pub concentrations: Option<IndexMap<String, RawQty>>,
+    pub rate: Option<RawVolumetricRate>,
+    pub from: Option<RawQty>,
+    pub to: Option<RawQty>,
+}
+
+/// A volumetric rate: one quantity (`2 L/min`, constant over the window), or points
+/// `[[0 h, 2 L/min], [1 h, 1 L/min]]`, linear between.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RawVolumetricRate {
+    Constant(RawQty),
+    Profile(Vec<(RawQty, RawQty)>),
+}
+
+impl<'de> Deserialize<'de> for RawVolumetricRate {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> Visitor<'de> for V {
+            type Value = RawVolumetricRate;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str(
+                    "a volumetric rate such as \"2 L/min\", or points [[0 h, 2 L/min], [1 h, 1 L/min]]",
+                )
+            }
+            fn visit_f64<E: de::Error>(self, v: f64) -> Result<RawVolumetricRate, E> {
+                Ok(RawVolumetricRate::Constant(RawQty::Number(v)))
+            }
+            fn visit_i64<E: de::Error>(self, v: i64) -> Result<RawVolumetricRate, E> {
+                Ok(RawVolumetricRate::Constant(RawQty::Number(v as f64)))
+            }
+            fn visit_u64<E: de::Error>(self, v: u64) -> Result<RawVolumetricRate, E> {
+                Ok(RawVolumetricRate::Constant(RawQty::Number(v as f64)))
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<RawVolumetricRate, E> {
+                Ok(RawVolumetricRate::Constant(RawQty::Text(v.to_string())))
+            }
+            fn visit_seq<A: de::SeqAccess<'de>>(
+                self,
+                seq: A,
+            ) -> Result<RawVolumetricRate, A::Error> {
+                Vec::<(RawQty, RawQty)>::deserialize(de::value::SeqAccessDeserializer::new(seq))
+                    .map(RawVolumetricRate::Profile)
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+/// `withdrawal: {rate: 1 L/min, from: 1 h, to: 2 h}`.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct RawWithdrawal {
+    pub rate: RawVolumetricRate,
+    pub from: Option<RawQty>,
+    pub to: Option<RawQty>,
 }
 
 /// `reactor.heat`: a word (`isothermal`, `adiabatic`) or the map of the heat exchange.

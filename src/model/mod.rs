@@ -5,6 +5,7 @@
 //! dimensions match its law, the feed is non-negative and not empty. Later stages rely on it
 //! and do not re-check.
 
+pub mod contacting;
 pub mod equation;
 mod file;
 pub mod formula;
@@ -14,6 +15,9 @@ pub mod locate;
 pub mod solver_settings;
 pub mod source;
 
+pub use contacting::{
+    Contacting, DistributedFeed, Dosing, Permeation, Schedule, SideFeed, Train, Unit, Withdrawal,
+};
 pub use load::{LoadError, Override, ParsedStudy, load_file, load_str, read_text};
 
 use formula::Formula;
@@ -358,6 +362,12 @@ pub struct Network {
     pub heat: Heat,
     /// A temperature the process must not exceed (`reactor.T_max`, K), if given.
     pub t_max: Option<f64>,
+    /// What else enters or leaves the vessel (side feeds, dosing, membrane, recycle); empty
+    /// for a plain vessel.
+    pub contacting: Contacting,
+    /// Vessels in series (`train` in the file). When present, `reactor`, `heat` and
+    /// `contacting` above are its first unit's, and the evaluation runs the whole train.
+    pub train: Option<Train>,
     /// Conversions made on loading that change what the user wrote beyond a unit factor (a
     /// gauge pressure made absolute, a rate constant on a species basis or in partial
     /// pressures put on the reaction and concentration basis), each as a sentence naming the

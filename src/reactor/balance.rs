@@ -13,8 +13,10 @@ use crate::units::GAS_CONSTANT;
 /// How concentrations follow from the state, and how the rates are scaled.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(super) enum Mixture {
-    /// C = y / v (v constant), rates scaled by σ.
-    Fixed { volume: f64, sigma: f64 },
+    /// C = y / v(x), rates scaled by σ = v(x) for a batch (y in mol) and by 1 for a flow
+    /// reactor (y in mol/s). v(x) is the inlet volumetric flow or the charged volume, grown by
+    /// whatever a dosing or a distributed feed adds along x ([`Balance::fixed_volume`]).
+    Fixed { volume: f64, batch: bool },
     /// C = c_tot p y / S (ideal gas at T0), σ = 1 (flow reactors).
     GasFlow { c_tot: f64 },
     /// C = c_tot y / S, σ = S / c_tot (constant-pressure gas batch).
@@ -47,6 +49,10 @@ pub struct Balance {
     pub(super) reactive: Vec<usize>,
     /// What each state entry is: the species, then p = P/P0 when the pressure drop is modelled.
     layout: StateLayout,
+    /// A liquid's volume (batch) or volumetric flow (tube) grows along x by ∫ q dx over these
+    /// schedules (net volumetric inflow per unit of x: dosing less withdrawal, or a feed
+    /// distributed along the tube); empty for a plain vessel.
+    pub(super) growth: Vec<crate::model::Schedule>,
 }
 
 /// Networks with at most this many species keep their concentrations on the stack in
@@ -66,7 +72,7 @@ impl Balance {
         } else {
             Mixture::Fixed {
                 volume: feed.volumetric,
-                sigma: 1.0,
+                batch: false,
             }
         };
         let (mixture, alpha) = match &net.reactor {
@@ -86,7 +92,7 @@ impl Balance {
                     (true, BatchMode::ConstantPressure) => Mixture::GasConstantPressure { c_tot },
                     _ => Mixture::Fixed {
                         volume: feed.volumetric,
-                        sigma: feed.volumetric,
+                        batch: true,
                     },
                 },
                 None,
@@ -127,6 +133,7 @@ impl Balance {
             temperature: feed.temperature,
             alpha,
             total0: feed.total(),
+            growth: Vec::new(),
         })
     }
 
@@ -203,30 +210,53 @@ impl Balance {
         }
     }
 
-    /// (κ, σ, S) at state y.
-    pub(super) fn scales(&self, y: &[f64]) -> (f64, f64, f64) {
+    /// The liquid's volume (batch, m3) or volumetric flow (flow reactor, m3/s) at x: the
+    /// charge or inlet flow plus ∫_0^x q dx of every growth schedule.
+    pub fn fixed_volume(&self, x: f64) -> f64 {
+        let Mixture::Fixed { volume, .. } = self.mixture else {
+            return f64::NAN;
+        };
+        volume + self.growth.iter().map(|g| g.integral(0.0, x)).sum::<f64>()
+    }
+
+    /// (κ, σ) of a liquid at x: κ = 1/v(x), σ = v(x) for a batch and 1 for a flow reactor.
+    #[inline]
+    pub(super) fn fixed_scales(&self, x: f64, volume: f64, batch: bool) -> (f64, f64) {
+        let v = if self.growth.is_empty() {
+            volume
+        } else {
+            self.fixed_volume(x)
+        };
+        (1.0 / v, if batch { v } else { 1.0 })
+    }
+
+    /// (κ, σ, S) at x and state y.
+    pub(super) fn scales(&self, x: f64, y: &[f64]) -> (f64, f64, f64) {
         if let Some(e) = &self.energy {
-            return self.scales_at(e, y);
+            return self.scales_at(e, x, y);
         }
         let s: f64 = y[..self.n_species].iter().sum();
         match self.mixture {
-            Mixture::Fixed { volume, sigma } => (1.0 / volume, sigma, s),
+            Mixture::Fixed { volume, batch } => {
+                let (k, sg) = self.fixed_scales(x, volume, batch);
+                (k, sg, s)
+            }
             Mixture::GasFlow { c_tot } => (c_tot * self.pressure_ratio(y) / s, 1.0, s),
             Mixture::GasConstantPressure { c_tot } => (c_tot / s, s / c_tot, s),
         }
     }
 
-    /// Concentrations C_j (mol/m3) at state y.
-    pub fn concentrations(&self, y: &[f64], c: &mut Vec<f64>) {
-        let (kappa, _, _) = self.scales(y);
+    /// Concentrations C_j (mol/m3) at x and state y.
+    pub fn concentrations(&self, x: f64, y: &[f64], c: &mut Vec<f64>) {
+        let (kappa, _, _) = self.scales(x, y);
         c.clear();
         c.extend(y[..self.n_species].iter().map(|v| kappa * v));
     }
 
-    /// Rates r_i at state y.
-    pub fn reaction_rates(&self, y: &[f64], r: &mut Vec<f64>) {
+    /// Rates r_i at x and state y.
+    pub fn reaction_rates(&self, x: f64, y: &[f64], r: &mut Vec<f64>) {
         let mut c = Vec::with_capacity(self.n_species);
-        self.concentrations(y, &mut c);
+        self.concentrations(x, y, &mut c);
         let t = self.temperature_of(y);
         r.clear();
         r.extend((0..self.rates.len()).map(|i| self.rates.eval(i, t, &c, None)));
@@ -243,7 +273,7 @@ impl Balance {
         if let Some(e) = &self.energy {
             return self.rhs_energy(e, x, y, dydx);
         }
-        let (kappa, sigma, s) = self.scales(y);
+        let (kappa, sigma, s) = self.scales(x, y);
         // C on the stack for small networks (no allocation per call), on the heap beyond.
         let mut small = [0.0; SMALL_NETWORK];
         let mut large = Vec::new();
@@ -285,7 +315,7 @@ impl Balance {
             return self.jacobian_energy(e, x, y, out);
         }
         let n = self.n_species;
-        let (kappa, sigma, s) = self.scales(y);
+        let (kappa, sigma, s) = self.scales(x, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
         // ∂κ/∂y_k (uniform in k) and ∂σ/∂y_k (uniform in k).
         let (dkappa, dsigma) = match self.mixture {

@@ -8,12 +8,15 @@ use crate::units::GAS_CONSTANT;
 
 impl Balance {
     /// (κ, σ, S) at state y with the local temperature (see the module notes).
-    pub(super) fn scales_at(&self, e: &Energy, y: &[f64]) -> (f64, f64, f64) {
+    pub(super) fn scales_at(&self, e: &Energy, x: f64, y: &[f64]) -> (f64, f64, f64) {
         let s: f64 = y[..self.n_species].iter().sum();
         let t = self.temperature_of(y);
         let theta = if e.gas_scaling { e.t0 / t } else { 1.0 };
         match self.mixture {
-            Mixture::Fixed { volume, sigma } => (1.0 / volume, sigma, s),
+            Mixture::Fixed { volume, batch } => {
+                let (k, sg) = self.fixed_scales(x, volume, batch);
+                (k, sg, s)
+            }
             Mixture::GasFlow { c_tot } => (c_tot * theta * self.pressure_ratio(y) / s, 1.0, s),
             Mixture::GasConstantPressure { c_tot } => (c_tot * theta / s, s / (c_tot * theta), s),
         }
@@ -29,7 +32,7 @@ impl Balance {
         let n = self.n_species;
         let ti = self.t_index.expect("an energy balance has T in its state");
         let t = y[ti];
-        let (kappa, sigma, s) = self.scales_at(e, y);
+        let (kappa, sigma, s) = self.scales_at(e, x, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
         let mut rates = vec![0.0; self.rates.len()];
         self.rates.rates_at(t, &c, &mut rates);
@@ -71,9 +74,9 @@ impl Balance {
     /// κ, σ and S at state y with their derivatives: uniform in the species (∂κ/∂y_k,
     /// ∂σ/∂y_k) and in T (through T0/T for a gas) — the chain rule shared by the Jacobian and
     /// the CSTR's heat release.
-    fn scale_slopes(&self, e: &Energy, y: &[f64]) -> ScaleSlopes {
+    fn scale_slopes(&self, e: &Energy, x: f64, y: &[f64]) -> ScaleSlopes {
         let t = self.temperature_of(y);
-        let (kappa, sigma, s) = self.scales_at(e, y);
+        let (kappa, sigma, s) = self.scales_at(e, x, y);
         let (dkappa, dsigma) = match self.mixture {
             Mixture::Fixed { .. } => (0.0, 0.0),
             Mixture::GasFlow { .. } => (-kappa / s, 0.0),
@@ -122,7 +125,7 @@ impl Balance {
             dsigma,
             dkappa_dt,
             dsigma_dt,
-        } = self.scale_slopes(e, y);
+        } = self.scale_slopes(e, x, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
         let mut at = Vec::new();
         self.rates.constants(t, &mut at);
@@ -223,7 +226,7 @@ impl Balance {
             dkappa_dt,
             dsigma_dt,
             ..
-        } = self.scale_slopes(e, y);
+        } = self.scale_slopes(e, 0.0, y);
         let c: Vec<f64> = y[..n].iter().map(|v| kappa * v).collect();
         let mut at = Vec::new();
         self.rates.constants(t, &mut at);

@@ -355,7 +355,7 @@ pub fn build(
     let last = sim.x.len() - 1;
     let y = sim.model_state(last, net.feed.pressure);
     let mut c = Vec::new();
-    balance.concentrations(&y, &mut c);
+    balance.concentrations(sim.x[last], &y, &mut c);
     let (p_varies, v_varies) = varying(net, sim);
     let batch = net.reactor.is_batch();
     let profile = with_profile.then(|| {
@@ -367,6 +367,7 @@ pub fn build(
                 let inst = metrics::instantaneous_selectivity(
                     net,
                     balance,
+                    *x,
                     &sim.model_state(k, net.feed.pressure),
                 );
                 ProfilePoint {
@@ -1021,6 +1022,7 @@ pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String
             let inst = metrics::instantaneous_selectivity(
                 net,
                 balance,
+                sim.x[k],
                 &sim.model_state(k, net.feed.pressure),
             );
             for s in &inst {

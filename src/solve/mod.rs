@@ -131,6 +131,23 @@ pub struct Simulation {
     /// A counter-current coolant: every solution of the boundary-value problem and which one
     /// the profile shows.
     pub counter_current: Option<shooting::CounterCurrent>,
+    /// What entered and left by routes other than the inlet and the outlet (side and
+    /// distributed feeds, dosing, the wall, withdrawal), cumulative to each profile point;
+    /// `None` for a plain vessel.
+    pub exchanged: Option<Exchanged>,
+}
+
+/// The species that entered and left a vessel by side routes, cumulative from the inlet (or
+/// the start of a batch) to each profile point: mol/s along a tube, mol over a batch's time.
+/// With them every profile point closes its element balance:
+/// feed + entered = state + left + Σ_i ν_i ξ_i.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Exchanged {
+    /// Per profile point, per species: entered through side feeds, a distributed feed, dosing
+    /// or the wall (a species fed through a membrane).
+    pub entered: Vec<Vec<f64>>,
+    /// Per profile point, per species: left through the wall (permeate) or by withdrawal.
+    pub left: Vec<Vec<f64>>,
 }
 
 /// The steady states of a CSTR solve.
@@ -392,6 +409,7 @@ pub fn simulate_with(
             temperature_range: None,
             cooling_failure: None,
             counter_current: None,
+            exchanged: None,
             warnings,
             stats,
             steady: Some(CstrSteadyStates {
@@ -430,6 +448,7 @@ pub fn simulate_with(
             warnings: Vec::new(),
             stats,
             counter_current: None,
+            exchanged: None,
             steady: Some(CstrSteadyStates {
                 shown,
                 choice: choice.to_string(),
@@ -563,6 +582,7 @@ pub fn simulate_with(
             stats,
             steady: None,
             counter_current,
+            exchanged: None,
         }
     };
     let limit = negative_limit(total);

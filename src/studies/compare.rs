@@ -275,7 +275,7 @@ pub fn evaluate(
         row.space_time_s = time_scale(&n, n.size());
         // Through the evaluation gate: the same checks as `run` for each entry.
         let ev = super::evaluate::evaluate(&n, opts, false).map_err(|e| e.to_string())?;
-        let out = ev.sim.outlet();
+        let (fed, out) = (&ev.fed, &ev.left[..]);
         let m = &ev.metrics;
         row.conversion = Some(m.conversion);
         row.hot_spot = ev.heat.as_ref().map(|h| h.hot_spot.temperature);
@@ -287,13 +287,13 @@ pub fn evaluate(
                 .find(|y| y.species == n.species[d].name)
                 .and_then(|y| y.on_key);
             if !super::target::others(&n, d).is_empty() {
-                row.selectivity_over_all = Target::SelectivityAll(d).value(&n, out);
+                row.selectivity_over_all = Target::SelectivityAll(d).value_against(&n, fed, out);
             }
         }
         let t = Target::parse(screen.rank_by, &n)?;
         row.rank_value = match t {
-            Target::Amount(j) => Some(out[j] / n.feed.amounts[n.key]),
-            _ => t.value(&n, out),
+            Target::Amount(j) => Some(out[j] / fed[n.key]),
+            _ => t.value_against(&n, fed, out),
         };
         if let Some(o) = screen.optimum {
             let t = Target::parse(o, &n)?;

@@ -35,6 +35,12 @@ pub struct Evaluation {
     pub warnings: Vec<String>,
     /// The temperatures of a run with an energy balance (hot spot, margin to T_max, ...).
     pub heat: Option<crate::safety::HeatFigures>,
+    /// Everything fed, per species: the feed with what entered by side routes (side feeds,
+    /// joins, distributed feeds, dosing, the wall). The design studies judge targets on it.
+    pub fed: Vec<f64>,
+    /// Everything that left, per species: the outlet with what left by side routes (permeate,
+    /// withdrawal).
+    pub left: Vec<f64>,
 }
 
 /// Why an evaluation produced no result.
@@ -115,15 +121,34 @@ fn finish(
         return Err(EvalError::Findings(findings.errors));
     }
     let (balance, sim) = solved?;
-    let metrics = metrics::compute(net, sim.outlet());
+    let (fed, left) = totals(net, &sim);
+    let metrics = metrics::compute_against(net, &fed, &left);
     let heat = crate::safety::HeatFigures::of(net, &balance, &sim);
     Ok(Evaluation {
         heat,
+        fed,
+        left,
         balance,
         sim,
         metrics,
         warnings: findings.warnings,
     })
+}
+
+/// Everything fed (the feed with what entered by side routes) and everything that left (the
+/// outlet with what left by side routes: permeate, withdrawal), per species, for the metrics.
+pub fn totals(net: &Network, sim: &Simulation) -> (Vec<f64>, Vec<f64>) {
+    let mut fed = net.feed.amounts.clone();
+    let mut left = sim.outlet().to_vec();
+    if let Some(ex) = &sim.exchanged {
+        if let Some(e) = ex.entered.last() {
+            fed.iter_mut().zip(e).for_each(|(f, e)| *f += e);
+        }
+        if let Some(l) = ex.left.last() {
+            left.iter_mut().zip(l).for_each(|(o, l)| *o += l);
+        }
+    }
+    (fed, left)
 }
 
 /// Evaluate a loaded network through the gate. With `check_beside`, the consistency check runs

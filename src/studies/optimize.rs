@@ -529,7 +529,6 @@ fn evaluate(
         Ok(ev) => ev,
         Err(_) => return Ok(Err(NoValue::Other)),
     };
-    let out = ev.sim.outlet();
     if let Some(xmin) = min_conversion
         && ev.metrics.conversion < xmin
     {
@@ -539,7 +538,9 @@ fn evaluate(
     if ev.heat.as_ref().is_some_and(|h| h.exceeds_limit()) {
         return Ok(Err(NoValue::OverTemperatureLimit));
     }
-    Ok(target.value(&net, out).ok_or(NoValue::Other))
+    Ok(target
+        .value_against(&net, &ev.fed, &ev.left)
+        .ok_or(NoValue::Other))
 }
 
 /// Maximise the target over general inputs within their bounds.

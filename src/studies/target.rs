@@ -158,20 +158,26 @@ impl Target {
 
     /// The value at a state (None where a ratio is undefined: nothing consumed or formed).
     pub fn value(&self, net: &Network, y: &[f64]) -> Option<f64> {
-        let f0 = &net.feed.amounts;
+        self.value_against(net, &net.feed.amounts, y)
+    }
+
+    /// The value of what left (`y`: outlet with side routes out) against everything fed
+    /// (`f0`: feed with side feeds, joins, dosing), as [`crate::metrics::compute_against`].
+    pub fn value_against(&self, net: &Network, f0: &[f64], y: &[f64]) -> Option<f64> {
         let a = net.key;
+        let feed_total: f64 = f0.iter().sum();
         match *self {
             Target::Amount(j) => Some(y[j]),
             Target::Conversion => (f0[a] > 0.0).then(|| (f0[a] - y[a]) / f0[a]),
             // The metrics' rules: None wherever `run` reports the figure as not defined.
             Target::Yield(j) => {
-                let total = net.feed.total();
+                let total = feed_total;
                 let made = crate::metrics::formed(y[j] - f0[j], total);
                 let consumed = crate::metrics::formed(f0[a] - y[a], total);
-                crate::metrics::yield_value(net, j, made, consumed, Self::factor(net, j)).0
+                crate::metrics::yield_value(net, f0[a], j, made, consumed, Self::factor(net, j)).0
             }
             Target::Selectivity(d, u) => {
-                let total = net.feed.total();
+                let total = feed_total;
                 crate::metrics::selectivity_value(
                     &net.species[d].name,
                     &net.species[u].name,
@@ -181,7 +187,7 @@ impl Target {
                 .0
             }
             Target::SelectivityAll(d) => {
-                let total = net.feed.total();
+                let total = feed_total;
                 let mu: f64 = others(net, d).iter().map(|&u| y[u] - f0[u]).sum();
                 crate::metrics::selectivity_value(
                     &net.species[d].name,

@@ -16,6 +16,7 @@ fn watts_per_kelvin() -> Dim {
 /// enthalpy for every reaction).
 pub(super) fn build_heat(
     r: &RawReactor,
+    at: &str,
     reactor: &Reactor,
     phase: Phase,
     species: &[Species],
@@ -27,13 +28,13 @@ pub(super) fn build_heat(
         None => None,
         Some(q) => {
             let v = cx.qty(
-                "reactor.T_max",
+                &format!("{at}.T_max"),
                 q,
                 Dim::TEMPERATURE,
                 "a temperature",
                 "450 K",
             )?;
-            Some(cx.positive("reactor.T_max", v, "the absolute temperature")?)
+            Some(cx.positive(&format!("{at}.T_max"), v, "the absolute temperature")?)
         }
     };
     let heat = match &r.heat {
@@ -46,7 +47,7 @@ pub(super) fn build_heat(
             }),
             other => {
                 return Err(cx.err(
-                    "reactor.heat",
+                    &format!("{at}.heat"),
                     &format!("unknown heat model `{other}`"),
                     Some(
                         "write `isothermal`, `adiabatic`, or a map with the heat exchange, e.g. {U: 300 W/(m2*K), area: 40 m2/m3, coolant: {T: 300 K}}"
@@ -55,16 +56,17 @@ pub(super) fn build_heat(
                 ));
             }
         },
-        Some(RawHeat::Map(m)) => Heat::Balance(build_balance(m, reactor, phase, cx)?),
+        Some(RawHeat::Map(m)) => Heat::Balance(build_balance(m, at, reactor, phase, cx)?),
     };
     if let Heat::Balance(e) = &heat {
-        require_data(e, phase, reactor, species, reactions, feed, cx)?;
+        require_data(e, at, phase, reactor, species, reactions, feed, cx)?;
     }
     Ok((heat, t_max))
 }
 
 fn build_balance(
     m: &RawHeatMap,
+    at: &str,
     reactor: &Reactor,
     phase: Phase,
     cx: &Cx,
@@ -89,35 +91,35 @@ fn build_balance(
         let ua = match (&m.u, &m.area, &m.ua) {
             (Some(u), Some(a), None) => {
                 let u = cx.qty(
-                    "reactor.heat.U",
+                    &format!("{at}.heat.U"),
                     u,
                     watts_per_kelvin().div(Dim::LENGTH.powf(2.0)),
                     "an overall heat-transfer coefficient",
                     "300 W/(m2*K)",
                 )?;
-                let u = cx.positive("reactor.heat.U", u, "U")?;
+                let u = cx.positive(&format!("{at}.heat.U"), u, "U")?;
                 let a = cx.qty(
-                    "reactor.heat.area",
+                    &format!("{at}.heat.area"),
                     a,
                     Dim::LENGTH.powf(2.0).div(size_dim),
                     &format!("the exchange area {per} of a {kind}"),
                     area_ex,
                 )?;
-                u * cx.positive("reactor.heat.area", a, "the exchange area")?
+                u * cx.positive(&format!("{at}.heat.area"), a, "the exchange area")?
             }
             (None, None, Some(ua)) => {
                 let v = cx.qty(
-                    "reactor.heat.UA",
+                    &format!("{at}.heat.UA"),
                     ua,
                     watts_per_kelvin().div(size_dim),
                     &format!("U times the exchange area {per} of a {kind}"),
                     ua_ex,
                 )?;
-                cx.positive("reactor.heat.UA", v, "UA")?
+                cx.positive(&format!("{at}.heat.UA"), v, "UA")?
             }
             (Some(_), None, None) | (None, Some(_), None) => {
                 return Err(cx.err(
-                    "reactor.heat",
+                    &format!("{at}.heat"),
                     "heat exchange needs both `U` and `area`",
                     Some(format!(
                         "e.g. `U: 300 W/(m2*K)` and `area: {area_ex}`, or the product `UA: {ua_ex}`"
@@ -126,14 +128,14 @@ fn build_balance(
             }
             (None, None, None) => {
                 return Err(cx.err(
-                    "reactor.heat",
+                    &format!("{at}.heat"),
                     "a coolant is given but no heat-transfer coefficient",
                     Some(format!("add `U: 300 W/(m2*K)` and `area: {area_ex}`, or `UA: {ua_ex}`; drop `coolant` for an adiabatic reactor")),
                 ));
             }
             _ => {
                 return Err(cx.err(
-                    "reactor.heat.UA",
+                    &format!("{at}.heat.UA"),
                     "give either `U` with `area`, or their product `UA`, not both",
                     None,
                 ));
@@ -141,7 +143,7 @@ fn build_balance(
         };
         let Some(c) = &m.coolant else {
             return Err(cx.err(
-                "reactor.heat",
+                &format!("{at}.heat"),
                 "heat exchange needs the `coolant`",
                 Some(if tube {
                     "e.g. `coolant: {T: 300 K}` (constant temperature) or `coolant: {T_in: 300 K, mass_flow: 2 kg/s, cp: 4.18 kJ/(kg*K), direction: counter_current}`".into()
@@ -152,7 +154,7 @@ fn build_balance(
         };
         Exchange {
             ua,
-            coolant: build_coolant(c, reactor, cx)?,
+            coolant: build_coolant(c, at, reactor, cx)?,
         }
         .into()
     };
@@ -160,13 +162,13 @@ fn build_balance(
         (None, None) => None,
         (None, Some(_)) => {
             return Err(cx.err(
-                "reactor.heat.density",
+                &format!("{at}.heat.density"),
                 "`density` is used only with a mixture heat capacity per mass",
                 Some("add `mixture_cp: 3.9 kJ/(kg*K)`, or drop `density`".into()),
             ));
         }
         (Some(q), density) => {
-            let f = "reactor.heat.mixture_cp";
+            let f = &format!("{at}.heat.mixture_cp");
             if phase == Phase::Gas {
                 return Err(cx.err(
                     f,
@@ -181,7 +183,7 @@ fn build_balance(
             if dim.approx_eq(per_volume) {
                 if density.is_some() {
                     return Err(cx.err(
-                        "reactor.heat.density",
+                        &format!("{at}.heat.density"),
                         "the mixture heat capacity is already per volume; `density` is not used",
                         None,
                     ));
@@ -196,13 +198,13 @@ fn build_balance(
                     ));
                 };
                 let rho = cx.qty(
-                    "reactor.heat.density",
+                    &format!("{at}.heat.density"),
                     d,
                     Dim::MASS.div(Dim::volume()),
                     "a density",
                     "950 kg/m3",
                 )?;
-                Some(v * cx.positive("reactor.heat.density", rho, "the density")?)
+                Some(v * cx.positive(&format!("{at}.heat.density"), rho, "the density")?)
             } else {
                 return Err(cx.wrong_dimensions(
                     f,
@@ -222,9 +224,14 @@ fn build_balance(
     })
 }
 
-fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, LoadError> {
+fn build_coolant(
+    c: &RawCoolant,
+    at: &str,
+    reactor: &Reactor,
+    cx: &Cx,
+) -> Result<Coolant, LoadError> {
     let temp = |k: &str, q: &RawQty| -> Result<f64, LoadError> {
-        let f = format!("reactor.heat.coolant.{k}");
+        let f = format!("{at}.heat.coolant.{k}");
         let v = cx.qty(&f, q, Dim::TEMPERATURE, "a temperature", "300 K")?;
         cx.positive(&f, v, "the absolute temperature")
     };
@@ -234,7 +241,7 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
     if stream {
         if !tube {
             return Err(cx.err(
-                "reactor.heat.coolant",
+                &format!("{at}.heat.coolant"),
                 &format!(
                     "a coolant stream along the wall is modelled for a tube (pfr, pbr); a {} takes a coolant temperature",
                     reactor.kind()
@@ -244,40 +251,53 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
         }
         if c.t.is_some() || c.ramp.is_some() || c.t_final.is_some() {
             return Err(cx.err(
-                "reactor.heat.coolant",
+                &format!("{at}.heat.coolant"),
                 "give either a coolant temperature `T` or a coolant stream (`T_in`, `mass_flow`, `cp`, `direction`), not both",
                 None,
             ));
         }
-        fn need<'a>(cx: &Cx, k: &str, q: &'a Option<RawQty>) -> Result<&'a RawQty, LoadError> {
+        fn need<'a>(
+            cx: &Cx,
+            at: &str,
+            k: &str,
+            q: &'a Option<RawQty>,
+        ) -> Result<&'a RawQty, LoadError> {
             q.as_ref().ok_or_else(|| {
                 cx.err(
-                    "reactor.heat.coolant",
+                    &format!("{at}.heat.coolant"),
                     &format!("a coolant stream needs `{k}`"),
                     Some("e.g. `coolant: {T_in: 300 K, mass_flow: 2 kg/s, cp: 4.18 kJ/(kg*K), direction: counter_current}`".into()),
                 )
             })
         }
-        let inlet = temp("T_in", need(cx, "T_in", &c.t_in)?)?;
+        let inlet = temp("T_in", need(cx, at, "T_in", &c.t_in)?)?;
         let m = cx.qty(
-            "reactor.heat.coolant.mass_flow",
-            need(cx, "mass_flow", &c.mass_flow)?,
+            &format!("{at}.heat.coolant.mass_flow"),
+            need(cx, at, "mass_flow", &c.mass_flow)?,
             Dim::MASS.div(Dim::TIME),
             "a mass flow",
             "2 kg/s",
         )?;
-        let m = cx.positive("reactor.heat.coolant.mass_flow", m, "the coolant mass flow")?;
+        let m = cx.positive(
+            &format!("{at}.heat.coolant.mass_flow"),
+            m,
+            "the coolant mass flow",
+        )?;
         let cp = cx.qty(
-            "reactor.heat.coolant.cp",
-            need(cx, "cp", &c.cp)?,
+            &format!("{at}.heat.coolant.cp"),
+            need(cx, at, "cp", &c.cp)?,
             Dim::energy().div(Dim::MASS).div(Dim::TEMPERATURE),
             "a heat capacity per mass",
             "4.18 kJ/(kg*K)",
         )?;
-        let cp = cx.positive("reactor.heat.coolant.cp", cp, "the coolant heat capacity")?;
+        let cp = cx.positive(
+            &format!("{at}.heat.coolant.cp"),
+            cp,
+            "the coolant heat capacity",
+        )?;
         let Some(direction) = c.direction else {
             return Err(cx.err(
-                "reactor.heat.coolant",
+                &format!("{at}.heat.coolant"),
                 "a coolant stream needs its `direction`: `co_current` or `counter_current`",
                 None,
             ));
@@ -290,7 +310,7 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
     }
     let Some(t) = &c.t else {
         return Err(cx.err(
-            "reactor.heat.coolant",
+            &format!("{at}.heat.coolant"),
             "the coolant needs its temperature `T`",
             Some("e.g. `coolant: {T: 300 K}`".into()),
         ));
@@ -301,13 +321,13 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
         (Some(ramp), end) => {
             if !reactor.is_batch() {
                 return Err(cx.err(
-                    "reactor.heat.coolant.ramp",
+                    &format!("{at}.heat.coolant.ramp"),
                     "a temperature ramp is modelled for a batch jacket",
                     None,
                 ));
             }
             let rate = cx.qty(
-                "reactor.heat.coolant.ramp",
+                &format!("{at}.heat.coolant.ramp"),
                 ramp,
                 Dim::TEMPERATURE.div(Dim::TIME),
                 "a rate of temperature change",
@@ -315,7 +335,7 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
             )?;
             let Some(end) = end else {
                 return Err(cx.err(
-                    "reactor.heat.coolant",
+                    &format!("{at}.heat.coolant"),
                     "a ramp needs the temperature it stops at, `T_final`",
                     Some("e.g. `T_final: 340 K`".into()),
                 ));
@@ -323,7 +343,7 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
             let end = temp("T_final", end)?;
             if rate == 0.0 || (end - start) * rate < 0.0 {
                 return Err(cx.err(
-                    "reactor.heat.coolant.ramp",
+                    &format!("{at}.heat.coolant.ramp"),
                     &format!(
                         "a ramp of {} K/s never takes the jacket from {} K to T_final = {} K",
                         significant(rate),
@@ -336,7 +356,7 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
             Ok(Coolant::Ramp { start, rate, end })
         }
         (None, Some(_)) => Err(cx.err(
-            "reactor.heat.coolant.T_final",
+            &format!("{at}.heat.coolant.T_final"),
             "`T_final` ends a jacket ramp; give the `ramp` too (e.g. `ramp: 0.5 K/min`)",
             None,
         )),
@@ -347,6 +367,7 @@ fn build_coolant(c: &RawCoolant, reactor: &Reactor, cx: &Cx) -> Result<Coolant, 
 /// (unless a mixture heat capacity stands in for them).
 fn require_data(
     e: &EnergyBalance,
+    at: &str,
     phase: Phase,
     reactor: &Reactor,
     species: &[Species],
@@ -358,7 +379,7 @@ fn require_data(
         let from_species = r.net.iter().all(|&(j, _)| species[j].thermo.h_f.is_some());
         if r.dh.is_none() && !from_species {
             return Err(cx.err(
-                "reactor.heat",
+                &format!("{at}.heat"),
                 &format!(
                     "an energy balance needs the heat of reaction of `{}` ({})",
                     r.id, r.equation
@@ -379,12 +400,12 @@ fn require_data(
     for (j, s) in species.iter().enumerate() {
         if (feed.amounts[j] > 0.0 || made.contains(&j)) && s.thermo.cp.is_none() {
             let liquid = if phase == Phase::Liquid {
-                ", or a mixture heat capacity `reactor.heat.mixture_cp` (e.g. `3.9 kJ/(kg*K)` with `density`)"
+                ", or a mixture heat capacity `heat.mixture_cp` (e.g. `3.9 kJ/(kg*K)` with `density`)"
             } else {
                 ""
             };
             return Err(cx.err(
-                "reactor.heat",
+                &format!("{at}.heat"),
                 &format!("an energy balance needs the heat capacity of `{}`", s.name),
                 Some(format!(
                     "give `species.{}.cp` (e.g. `cp: 75 J/(mol*K)`){liquid}",

@@ -8,6 +8,8 @@
 //! [`feed`], [`reactions`] and [`solver`]. [`messages`] holds the wording of errors and the
 //! "did you mean" suggestions.
 
+mod contacting;
+mod dosing;
 mod feed;
 mod heat;
 mod messages;
@@ -15,6 +17,7 @@ mod reactions;
 mod reactor;
 mod solver;
 mod species;
+mod walls;
 
 pub(crate) use messages::closest;
 
@@ -23,11 +26,9 @@ use super::locate::{Locator, Position};
 use super::*;
 use crate::units::{Dim, describe, dimension_mismatch, gauge_note, parse_quantity, unit_text};
 use feed::build_feed;
-use heat::build_heat;
 use indexmap::IndexMap;
 use messages::{serde_path, significant, strip_location, unknown_field_hint, yaml_wording};
 use reactions::{build_reaction, default_key};
-use reactor::build_reactor;
 use solver::build_solver;
 use species::build_species;
 use std::fmt;
@@ -482,8 +483,10 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         }
     };
 
-    // --- reactor (needed first: it fixes the rate basis)
-    let reactor = build_reactor(&raw.reactor, phase, cx)?;
+    // --- reactor (needed first: it fixes the rate basis); a train's units in order
+    let vessels = contacting::vessels(&raw, cx)?;
+    let reactors = contacting::build_reactors(&vessels, phase, cx)?;
+    let reactor = reactors[0].clone();
     let basis = if matches!(reactor, Reactor::Pbr { .. }) {
         RateBasis::CatalystMass
     } else {
@@ -491,7 +494,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     };
 
     // --- feed (temperature needed as the default T_ref)
-    let feed = build_feed(&raw.feed, phase, &reactor, &index, &species, cx)?;
+    let feed = build_feed(&raw.feed, "feed", phase, &reactor, &index, &species, cx)?;
     if let Reactor::Pbr {
         pressure_drop: Some(PressureDrop::Ergun { .. }),
         ..
@@ -558,13 +561,16 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         None => None,
     };
     let solver = build_solver(raw.solver.as_ref(), &reactor, feed.total(), cx)?;
-    let (heat, t_max) = build_heat(
-        &raw.reactor,
-        &reactor,
-        phase,
-        &species,
+    let (heat, t_max, contacting, train) = contacting::build_vessels(
+        &vessels,
+        &reactors,
+        &contacting::StreamContext {
+            phase,
+            feed: &feed,
+            index: &index,
+            species: &species,
+        },
         &reactions,
-        &feed,
         cx,
     )?;
     debug_assert_eq!(feed.amounts.len(), ns);
@@ -583,6 +589,8 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
         solver,
         heat,
         t_max,
+        contacting,
+        train,
         notes: Vec::new(),
     };
     equilibrium_from_species(&mut net, cx)?;

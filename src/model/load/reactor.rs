@@ -6,7 +6,12 @@ use crate::model::file::*;
 use crate::model::*;
 use crate::units::Dim;
 
-pub(super) fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Reactor, LoadError> {
+pub(super) fn build_reactor(
+    r: &RawReactor,
+    at: &str,
+    phase: Phase,
+    cx: &Cx,
+) -> Result<Reactor, LoadError> {
     let kind = match r.kind {
         RawReactorType::Pfr => "pfr",
         RawReactorType::Pbr => "pbr",
@@ -15,7 +20,7 @@ pub(super) fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Rea
     };
     let not_for = |field: &str, what: &str| {
         cx.err(
-            &format!("reactor.{field}"),
+            &format!("{at}.{field}"),
             &format!("`{field}` does not apply to a {kind} reactor"),
             Some(what.to_string()),
         )
@@ -26,10 +31,10 @@ pub(super) fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Rea
                 what: &str,
                 ex: &str|
      -> Result<f64, LoadError> {
-        let f = format!("reactor.{field}");
+        let f = format!("{at}.{field}");
         match q {
             None => Err(cx.err(
-                "reactor",
+                at,
                 &format!("a {kind} reactor needs `{field}` ({what})"),
                 Some(format!("e.g. `{field}: {ex}`")),
             )),
@@ -95,7 +100,7 @@ pub(super) fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Rea
             )?;
             let pressure_drop = match &r.pressure_drop {
                 None => None,
-                Some(pd) => Some(build_pressure_drop(pd, phase, cx)?),
+                Some(pd) => Some(build_pressure_drop(pd, at, phase, cx)?),
             };
             Reactor::Pbr {
                 catalyst,
@@ -109,7 +114,7 @@ pub(super) fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Rea
             };
             if mode == BatchMode::ConstantPressure && phase == Phase::Liquid {
                 return Err(cx.err(
-                    "reactor.mode",
+                    &format!("{at}.mode"),
                     "constant_pressure batch operation is modelled for an ideal gas; a liquid batch has constant volume",
                     Some("drop `mode`, or set `phase: gas`".into()),
                 ));
@@ -127,13 +132,14 @@ pub(super) fn build_reactor(r: &RawReactor, phase: Phase, cx: &Cx) -> Result<Rea
 
 fn build_pressure_drop(
     pd: &RawPressureDrop,
+    at: &str,
     phase: Phase,
     cx: &Cx,
 ) -> Result<PressureDrop, LoadError> {
-    let f = |k: &str| format!("reactor.pressure_drop.{k}");
+    let f = |k: &str| format!("{at}.pressure_drop.{k}");
     if phase == Phase::Liquid {
         return Err(cx.err(
-            "reactor.pressure_drop",
+            &format!("{at}.pressure_drop"),
             "pressure drop is modelled for a gas-phase packed bed (ideal gas); a liquid's rates do not depend on pressure here",
             Some("drop `pressure_drop`, or set `phase: gas`".into()),
         ));
@@ -146,7 +152,7 @@ fn build_pressure_drop(
     if let Some(a) = &pd.alpha {
         if ergun_given {
             return Err(cx.err(
-                "reactor.pressure_drop",
+                &format!("{at}.pressure_drop"),
                 "give either the lumped bed constant `alpha` or the bed properties for the Ergun equation, not both",
                 None,
             ));
@@ -167,7 +173,7 @@ fn build_pressure_drop(
         |k: &str, q: &Option<RawQty>, want: Dim, what: &str, ex: &str| -> Result<f64, LoadError> {
             match q {
                 None => Err(cx.err(
-                    "reactor.pressure_drop",
+                    &format!("{at}.pressure_drop"),
                     &format!("the Ergun equation needs `{k}` ({what})"),
                     Some(format!(
                         "e.g. `{k}: {ex}`, or give the lumped constant `alpha: 0.002 1/kg`"
@@ -210,7 +216,7 @@ fn build_pressure_drop(
     let void_fraction =
         match pd.void_fraction {
             None => return Err(cx.err(
-                "reactor.pressure_drop",
+                &format!("{at}.pressure_drop"),
                 "the Ergun equation needs `void_fraction` (bed porosity, a number between 0 and 1)",
                 None,
             )),
