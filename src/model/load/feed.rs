@@ -12,6 +12,7 @@ use indexmap::IndexMap;
 /// Relative mismatch allowed between a gas charge's total concentration and P/(R T).
 const IDEAL_GAS_CONSISTENCY: f64 = 0.01;
 
+#[allow(clippy::too_many_arguments)]
 pub(super) fn build_feed(
     f: &RawFeed,
     at: &str,

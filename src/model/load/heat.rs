@@ -14,6 +14,7 @@ fn watts_per_kelvin() -> Dim {
 /// A reactor's heat model and temperature limit, after the species, feed and reactions are
 /// known (an energy balance needs a heat capacity for every species that is fed or made and an
 /// enthalpy for every reaction).
+#[allow(clippy::too_many_arguments)]
 pub(super) fn build_heat(
     r: &RawReactor,
     at: &str,
