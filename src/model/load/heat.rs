@@ -366,6 +366,7 @@ fn build_coolant(
 
 /// An energy balance needs ΔH of every reaction and Cp of every species that is fed or made
 /// (unless a mixture heat capacity stands in for them).
+#[allow(clippy::too_many_arguments)]
 fn require_data(
     e: &EnergyBalance,
     at: &str,
