@@ -116,6 +116,41 @@ impl HeatFigures {
 
     /// Whether the process limit T_max is exceeded (by the hot spot, or for a batch by the
     /// cooling-failure temperature: that is the one a loss of cooling would reach).
+    /// The figures of a train: each unit's with an energy balance, gathered on the train's
+    /// coordinate (the hottest and coldest point of any unit, the train's outlet temperature,
+    /// the last unit's coolant outlet) with ΔT_ad of the train's feed from the first such
+    /// unit's energy balance.
+    pub fn of_train(net: &Network, run: &crate::solve::train::TrainRun) -> Option<HeatFigures> {
+        let mut all =
+            run.units.iter().flat_map(|u| &u.pieces).filter_map(|p| {
+                HeatFigures::of(&p.network, &p.balance, &p.sim).map(|h| (p.offset, h))
+            });
+        let (offset, mut out) = all.next()?;
+        out.hot_spot.at += offset;
+        out.cold_spot.at += offset;
+        out.inlet_temperature = net.feed.temperature;
+        for (offset, h) in all {
+            if h.hot_spot.temperature > out.hot_spot.temperature {
+                out.hot_spot = Located {
+                    temperature: h.hot_spot.temperature,
+                    at: h.hot_spot.at + offset,
+                };
+            }
+            if h.cold_spot.temperature < out.cold_spot.temperature {
+                out.cold_spot = Located {
+                    temperature: h.cold_spot.temperature,
+                    at: h.cold_spot.at + offset,
+                };
+            }
+            if h.coolant_outlet.is_some() {
+                out.coolant_outlet = h.coolant_outlet;
+            }
+        }
+        out.outlet_temperature = run.outlet.temperature;
+        out.margin = net.t_max.map(|m| m - out.hot_spot.temperature);
+        Some(out)
+    }
+
     pub fn exceeds_limit(&self) -> bool {
         self.t_max.is_some_and(|m| {
             self.hot_spot.temperature > m || self.cooling_failure.is_some_and(|c| c.temperature > m)

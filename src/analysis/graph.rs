@@ -179,7 +179,7 @@ pub fn analyse(net: &Network) -> GraphReport {
         .collect();
 
     // Reachability fixed point from the fed species.
-    let mut present: Vec<bool> = net.feed.amounts.iter().map(|&a| a > 0.0).collect();
+    let mut present: Vec<bool> = net.fed_species();
     let mut runs = vec![false; nr];
     loop {
         let mut changed = false;

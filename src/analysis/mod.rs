@@ -294,12 +294,13 @@ pub fn check(net: &Network) -> Check {
         }
     }
     // Species usage.
+    let entering = net.fed_species();
     for (j, s) in net.species.iter().enumerate() {
         let in_any = net
             .reactions
             .iter()
             .any(|r| r.has_reactant(j) || r.has_product(j));
-        let fed = net.feed.amounts[j] > 0.0;
+        let fed = entering[j];
         if !in_any && !fed {
             add(
                 Severity::Warning,
@@ -336,7 +337,7 @@ pub fn check(net: &Network) -> Check {
             ),
         );
     }
-    if net.feed.amounts[key] <= 0.0 {
+    if !entering[key] {
         add(
             Severity::Error,
             format!(

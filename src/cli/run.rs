@@ -159,8 +159,8 @@ pub fn run(a: &RunArgs) -> i32 {
     for w in &ev.warnings {
         eprintln!("warning: {}: {w}", a.file.display());
     }
-    let (balance, sim, m) = (ev.balance, ev.sim, ev.metrics);
-    let rep = report::run::build(
+    let (balance, sim, m, train) = (ev.balance, ev.sim, ev.metrics, ev.train);
+    let mut rep = report::run::build(
         &net,
         &balance,
         &sim,
@@ -173,9 +173,16 @@ pub fn run(a: &RunArgs) -> i32 {
             RunFormat::Csv => false,
         },
     );
+    if let Some(t) = &train {
+        report::train::set_outlet(&mut rep, &net, t);
+    }
+    let csv = || match &train {
+        Some(t) => report::train::profile_csv(&net, t),
+        None => report::run::profile_csv(&net, &balance, &sim),
+    };
     for (path, file) in outputs {
         let content = if Some(path) == a.profile.as_ref() {
-            Ok(report::run::profile_csv(&net, &balance, &sim))
+            Ok(csv())
         } else {
             profile_plot(&net, &sim, &plotted)
         };
@@ -195,7 +202,7 @@ pub fn run(a: &RunArgs) -> i32 {
             }
             t
         }
-        RunFormat::Csv => report::run::profile_csv(&net, &balance, &sim),
+        RunFormat::Csv => csv(),
         RunFormat::Json => json(&rep),
     };
     // A result that breaks the process limit is a finding: shown, and exit 1.

@@ -165,6 +165,32 @@ pub struct Contacting {
 }
 
 impl Contacting {
+    /// Mark the species that enter by a side route: side, distributed and dosed streams, and
+    /// the wall where the sweep side holds the species.
+    pub fn mark_entering(&self, fed: &mut [bool]) {
+        let mut mark = |amounts: &[f64]| {
+            for (f, a) in fed.iter_mut().zip(amounts) {
+                *f |= *a > 0.0;
+            }
+        };
+        for s in &self.side_feeds {
+            mark(&s.stream.amounts);
+        }
+        for d in &self.distributed {
+            mark(&d.stream.amounts);
+        }
+        for d in &self.dosing {
+            if d.rate.total() > 0.0 {
+                mark(&d.concentrations);
+            }
+        }
+        for p in &self.membrane {
+            if p.sweep > 0.0 {
+                fed[p.species] = true;
+            }
+        }
+    }
+
     /// Whether the vessel is plain (nothing enters or leaves but its inlet and outlet).
     pub fn is_empty(&self) -> bool {
         self.side_feeds.is_empty()

@@ -388,6 +388,27 @@ impl Network {
         reacting
     }
 
+    /// Which species enter the study by any route: the feed, a join before a unit of a train,
+    /// a side, distributed or dosed stream, or the wall. The consistency check reasons from
+    /// these (what can form, whether the key is fed).
+    pub fn fed_species(&self) -> Vec<bool> {
+        let mut fed: Vec<bool> = self.feed.amounts.iter().map(|&a| a > 0.0).collect();
+        match &self.train {
+            Some(t) => {
+                for u in &t.units {
+                    u.contacting.mark_entering(&mut fed);
+                    if let Some(j) = &u.join {
+                        for (f, a) in fed.iter_mut().zip(&j.amounts) {
+                            *f |= *a > 0.0;
+                        }
+                    }
+                }
+            }
+            None => self.contacting.mark_entering(&mut fed),
+        }
+        fed
+    }
+
     /// Index of a species by name.
     pub fn species_index(&self, name: &str) -> Option<usize> {
         self.species.iter().position(|s| s.name == name)

@@ -38,6 +38,7 @@
 mod balance;
 mod energy;
 mod ergun;
+pub mod mixing;
 mod nonisothermal;
 mod state;
 

@@ -5,6 +5,7 @@ use crate::analysis::table::StoichTable;
 use crate::analysis::{Check, Severity};
 pub mod plot;
 pub mod run;
+pub mod train;
 
 use std::fmt::Write;
 

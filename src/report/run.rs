@@ -109,6 +109,10 @@ pub struct RunReport {
     pub warnings: Vec<String>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub profile: Option<Vec<ProfilePoint>>,
+    /// A train (or a vessel with side feeds or a recycle): every unit, in order. The outlet,
+    /// conversion, yields and selectivities above are then the train's, on everything fed.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub units: Option<Vec<super::train::UnitReport>>,
 }
 
 /// One CSTR steady state in the report (SI: mol/s, 1/s).
@@ -500,6 +504,7 @@ pub fn build(
                 notes: cc.notes.clone(),
             }),
         profile,
+        units: None,
     }
 }
 
@@ -595,7 +600,17 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     let _ = writeln!(
         o,
         "{} ({}), {}, {}{}{}",
-        r.reactor.to_uppercase(),
+        match &r.units {
+            Some(u) if u.len() > 1 => format!(
+                "{} units in series ({})",
+                u.len(),
+                u.iter()
+                    .map(|u| format!("{} {}", u.id, u.kind))
+                    .collect::<Vec<_>>()
+                    .join(" -> ")
+            ),
+            _ => r.reactor.to_uppercase(),
+        },
         match r.phase {
             crate::model::Phase::Gas => "gas",
             crate::model::Phase::Liquid => "liquid",
@@ -773,6 +788,15 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         for n in &cc.notes {
             let _ = writeln!(o, "  note: {n}");
         }
+    }
+    if let Some(units) = &r.units {
+        super::train::text(
+            &mut o,
+            units,
+            &r.key,
+            r.desired.as_deref(),
+            if r.size_variable == "W" { "kg" } else { "m3" },
+        );
     }
     if let Some(h) = &r.heat {
         heat_text(&mut o, r, h);

@@ -11,6 +11,7 @@ pub mod ode;
 pub mod shooting;
 pub mod steady;
 pub mod system;
+pub mod train;
 
 use crate::model::{Network, Reactor};
 use crate::reactor::{Balance, Model};
@@ -227,6 +228,15 @@ pub enum SolveError {
     Unphysical(String),
     #[error("counter-current coolant: {0}")]
     BoundaryValue(String),
+    /// A unit of a train failed.
+    #[error("unit `{unit}`: {source}")]
+    Unit {
+        unit: String,
+        source: Box<SolveError>,
+    },
+    /// A recycle loop did not converge.
+    #[error("{0}")]
+    Recycle(String),
     #[error(
         "the pressure in the packed bed falls to zero at W = {w:.6e} kg, before the end of the bed (αW → 1): use less catalyst, a smaller bed constant α or a larger cross-section"
     )]
@@ -332,6 +342,11 @@ fn negative_limit(total: f64) -> f64 {
 
 /// Solve the network's reactor.
 pub fn simulate(net: &Network, opts: &SolveOptions) -> Result<Simulation, SolveError> {
+    if train::is_flowsheet(net) {
+        // Vessels in series, or a stream split or joined: unit by unit; the profile runs
+        // along the whole train (`train::solve` gives every unit too).
+        return train::solve(net, opts).map(|t| t.profile);
+    }
     let balance = Balance::new(net).map_err(SolveError::Setup)?;
     simulate_with(net, &balance, opts)
 }
@@ -342,6 +357,11 @@ pub fn simulate_with(
     balance: &Balance,
     opts: &SolveOptions,
 ) -> Result<Simulation, SolveError> {
+    if train::is_flowsheet(net) {
+        return Err(SolveError::Setup(
+            "this study is a train (or a vessel with side feeds or a recycle): solve it with `simulate` or `train::solve`, which run it unit by unit".into(),
+        ));
+    }
     let balance = &*floored(net, balance, opts);
     let (x_name, x_unit, size) = reactor_axis(net);
     let (rtol, atol) = tolerances(net, opts);

@@ -23,7 +23,7 @@ use crate::analysis::{self, Severity};
 use crate::metrics::{self, Metrics};
 use crate::model::{Network, Override};
 use crate::reactor::Balance;
-use crate::solve::{self, Simulation, SolveError, SolveOptions};
+use crate::solve::{self, Simulation, SolveError, SolveOptions, train::TrainRun};
 
 /// A result that passed the gate.
 #[derive(Debug, Clone)]
@@ -41,6 +41,9 @@ pub struct Evaluation {
     /// Everything that left, per species: the outlet with what left by side routes (permeate,
     /// withdrawal).
     pub left: Vec<f64>,
+    /// A train (or a vessel with side feeds or a recycle): every unit as solved. `balance` is
+    /// then the last stretch's and `sim` the concatenated profile.
+    pub train: Option<TrainRun>,
 }
 
 /// Why an evaluation produced no result.
@@ -100,14 +103,29 @@ pub fn path_affects_check(path: &str) -> bool {
     !(path == "reactor" || path.starts_with("reactor."))
 }
 
-/// Set up the balances and solve: the part of the gate after the check.
-fn solve_network(net: &Network, opts: &SolveOptions) -> Result<(Balance, Simulation), EvalError> {
-    let balance = Balance::new(net).map_err(EvalError::Setup)?;
-    let sim = solve::simulate_with(net, &balance, opts).map_err(|e| match e {
+/// What the solve part of the gate gives: the balance and result of a single vessel, or of a
+/// train with its units.
+type Solved = (Balance, Simulation, Option<TrainRun>);
+
+/// Set up the balances and solve: the part of the gate after the check. A train (or a vessel
+/// whose stream is split or joined) runs unit by unit ([`solve::train`]).
+fn solve_network(net: &Network, opts: &SolveOptions) -> Result<Solved, EvalError> {
+    let failed = |e| match e {
         SolveError::Setup(m) => EvalError::Setup(m),
         e => EvalError::Solve(e),
-    })?;
-    Ok((balance, sim))
+    };
+    if solve::train::is_flowsheet(net) {
+        let run = solve::train::solve(net, opts).map_err(failed)?;
+        let last = run
+            .units
+            .last()
+            .and_then(|u| u.pieces.last())
+            .expect("a train has a unit with a stretch");
+        return Ok((last.balance.clone(), run.profile.clone(), Some(run)));
+    }
+    let balance = Balance::new(net).map_err(EvalError::Setup)?;
+    let sim = solve::simulate_with(net, &balance, opts).map_err(failed)?;
+    Ok((balance, sim, None))
 }
 
 /// The end of the gate: a network with error findings gets no result, whatever the solve
@@ -115,19 +133,23 @@ fn solve_network(net: &Network, opts: &SolveOptions) -> Result<(Balance, Simulat
 fn finish(
     net: &Network,
     findings: Findings,
-    solved: Result<(Balance, Simulation), EvalError>,
+    solved: Result<Solved, EvalError>,
 ) -> Result<Evaluation, EvalError> {
     if !findings.errors.is_empty() {
         return Err(EvalError::Findings(findings.errors));
     }
-    let (balance, sim) = solved?;
+    let (balance, sim, train) = solved?;
     let (fed, left) = totals(net, &sim);
     let metrics = metrics::compute_against(net, &fed, &left);
-    let heat = crate::safety::HeatFigures::of(net, &balance, &sim);
+    let heat = match &train {
+        Some(t) => crate::safety::HeatFigures::of_train(net, t),
+        None => crate::safety::HeatFigures::of(net, &balance, &sim),
+    };
     Ok(Evaluation {
         heat,
         fed,
         left,
+        train,
         balance,
         sim,
         metrics,

@@ -28,9 +28,16 @@ pub(super) fn build_stream(
     sc: &StreamContext,
     cx: &Cx,
 ) -> Result<Feed, LoadError> {
+    // Defaults written as quantities in SI, read back exactly ({:?} is the shortest
+    // round-trip form of an f64).
     let raw = RawFeed {
-        t: s.t.clone().unwrap_or(RawQty::Number(sc.feed.temperature)),
-        p: Some(s.p.clone().unwrap_or(RawQty::Number(sc.feed.pressure))),
+        t: s.t
+            .clone()
+            .unwrap_or_else(|| RawQty::Text(format!("{:?} K", sc.feed.temperature))),
+        p: Some(
+            s.p.clone()
+                .unwrap_or_else(|| RawQty::Text(format!("{:?} Pa", sc.feed.pressure))),
+        ),
         flows: s.flows.clone(),
         amounts: None,
         volumetric: s.volumetric.clone(),

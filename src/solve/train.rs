@@ -1,0 +1,669 @@
+//! Vessels in series and the streams between them, solved unit by unit (sequential-modular):
+//! each unit maps an inlet stream to an outlet stream.
+//!
+//! For one unit of a train (or a single vessel with side feeds or a recycle):
+//!
+//! 1. a `join` stream mixes with the arriving stream ([`crate::reactor::mixing`]);
+//! 2. a `bypass` fraction b goes around the unit;
+//! 3. the vessel runs on the rest: a tube with side feeds runs stretch by stretch, the stream
+//!    mixing with each side feed where it enters (an isothermal tube holds its inlet
+//!    temperature, the side feed's heat removed or added at the wall; a co-current coolant
+//!    carries on from stretch to stretch);
+//! 4. with a recycle ratio R the tube's inlet is the fresh stream plus R/(R+1) of its own outlet,
+//!    a fixed point in the recycle stream found by substitution accelerated by Anderson mixing
+//!    (Anderson, J. ACM 12, 1965; Walker & Ni, SIAM J. Numer. Anal. 49, 2011), and 1/(R+1) of
+//!    the outlet leaves;
+//! 5. the bypass rejoins the outlet.
+//!
+//! The train's profile concatenates the units along one coordinate (V, or W for packed beds):
+//! a tube's points, a tank as its outlet point, and a point wherever a stream joins, splits or
+//! rejoins, each labelled with its unit.
+
+use super::{Exchanged, Simulation, SolveError, SolveOptions, SolveStats, ode::Extreme};
+use crate::model::{Contacting, Coolant, Feed, Heat, Network, Phase, Reactor, Unit};
+use crate::reactor::Balance;
+use crate::reactor::mixing::{mix, scaled};
+use crate::units::GAS_CONSTANT;
+
+/// Most substitutions a recycle loop may take.
+pub const RECYCLE_MAX_ITERATIONS: usize = 200;
+/// Differences Anderson mixing keeps.
+const ANDERSON_DEPTH: usize = 5;
+
+/// One stretch of a vessel (the whole vessel unless side feeds split a tube), solved as a
+/// single vessel.
+#[derive(Debug, Clone)]
+pub struct Piece {
+    /// The stretch as a single-vessel study: its reactor and size, heat, walls, and its inlet
+    /// stream as the feed.
+    pub network: Network,
+    pub balance: Balance,
+    pub sim: Simulation,
+    /// Where the stretch starts on the train's coordinate.
+    pub offset: f64,
+}
+
+/// The recycle loop of a unit, as converged.
+#[derive(Debug, Clone)]
+pub struct RecycleRun {
+    pub ratio: f64,
+    /// Passes through the tube until the recycle stream stopped changing.
+    pub iterations: usize,
+    /// The last change in the recycle stream, relative to the fresh stream's total flow.
+    pub change: f64,
+    /// The recycle stream returned to the inlet.
+    pub stream: Feed,
+}
+
+/// One unit as solved.
+#[derive(Debug, Clone)]
+pub struct UnitRun {
+    pub id: String,
+    pub kind: &'static str,
+    /// The unit's size (V or W, SI).
+    pub size: f64,
+    /// Where it starts on the train's coordinate.
+    pub offset: f64,
+    /// The stream entering (after its join, before the bypass split).
+    pub inlet: Feed,
+    /// The stretches of the vessel, inlet to outlet.
+    pub pieces: Vec<Piece>,
+    /// The stream leaving (after the recycle split and the bypass rejoining).
+    pub outlet: Feed,
+    /// Everything the unit was given, per species: its inlet, side feeds and what entered by
+    /// its walls.
+    pub fed: Vec<f64>,
+    /// Everything it gave: its outlet and what left by its walls.
+    pub left: Vec<f64>,
+    pub bypass: f64,
+    pub recycle: Option<RecycleRun>,
+}
+
+/// A train (or a vessel with side feeds or a recycle) as solved.
+#[derive(Debug, Clone)]
+pub struct TrainRun {
+    pub units: Vec<UnitRun>,
+    /// The concatenated profile; its last state is the train's outlet, and its `exchanged`
+    /// counts every join and side feed (and whatever entered or left by walls) so that the
+    /// metrics judge the train on everything fed.
+    pub profile: Simulation,
+    /// The unit each profile point belongs to (`R1`, or `R1 outlet` after a split or a bypass).
+    pub labels: Vec<String>,
+    /// Where each profile point comes from: (unit, stretch, point of the stretch's profile);
+    /// `None` for the feed and for a unit's outlet after its split or bypass.
+    pub places: Vec<Option<(usize, usize, usize)>>,
+    pub outlet: Feed,
+}
+
+/// Whether the study needs the train solve: vessels in series, or a vessel whose stream is
+/// split or joined (side feeds, recycle).
+pub fn is_flowsheet(net: &Network) -> bool {
+    net.train.is_some() || !net.contacting.side_feeds.is_empty() || net.contacting.recycle.is_some()
+}
+
+/// The units to run: the train's, or the single vessel as one unit.
+fn units_of(net: &Network) -> Vec<Unit> {
+    match &net.train {
+        Some(t) => t.units.clone(),
+        None => vec![Unit {
+            id: net.reactor.kind().to_string(),
+            reactor: net.reactor.clone(),
+            heat: net.heat.clone(),
+            contacting: net.contacting.clone(),
+            join: None,
+            bypass: 0.0,
+        }],
+    }
+}
+
+/// Solve the train of `net` unit by unit.
+pub fn solve(net: &Network, opts: &SolveOptions) -> Result<TrainRun, SolveError> {
+    let units = units_of(net);
+    let mut stream = net.feed.clone();
+    let mut offset = 0.0;
+    let mut runs = Vec::with_capacity(units.len());
+    for u in &units {
+        let run = run_unit(net, u, &stream, offset, opts).map_err(|e| match e {
+            SolveError::Setup(m) => SolveError::Setup(format!("unit `{}`: {m}", u.id)),
+            e => SolveError::Unit {
+                unit: u.id.clone(),
+                source: Box::new(e),
+            },
+        })?;
+        stream = run.outlet.clone();
+        offset += run.size;
+        runs.push(run);
+    }
+    let (profile, labels, places) = concatenate(net, &runs);
+    Ok(TrainRun {
+        units: runs,
+        profile,
+        labels,
+        places,
+        outlet: stream,
+    })
+}
+
+fn size_of(r: &Reactor) -> f64 {
+    match r {
+        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume,
+        Reactor::Pbr { catalyst, .. } => *catalyst,
+        Reactor::Batch { time, .. } => *time,
+    }
+}
+
+fn with_size(r: &Reactor, size: f64) -> Reactor {
+    let mut r = r.clone();
+    match &mut r {
+        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
+        Reactor::Pbr { catalyst, .. } => *catalyst = size,
+        Reactor::Batch { time, .. } => *time = size,
+    }
+    r
+}
+
+fn run_unit(
+    net: &Network,
+    u: &Unit,
+    arriving: &Feed,
+    offset: f64,
+    opts: &SolveOptions,
+) -> Result<UnitRun, SolveError> {
+    let setup = SolveError::Setup;
+    let tube = matches!(u.reactor, Reactor::Pfr { .. } | Reactor::Pbr { .. });
+    let split = !u.contacting.side_feeds.is_empty() || u.contacting.recycle.is_some();
+    if split {
+        if let Reactor::Pbr {
+            pressure_drop: Some(_),
+            ..
+        } = u.reactor
+        {
+            return Err(setup(
+                "side feeds and a recycle are modelled on a bed without pressure drop: the bed constant is defined for the flow at the bed's inlet, which they change"
+                    .into(),
+            ));
+        }
+        if let Some(Coolant::Stream {
+            counter_current: true,
+            ..
+        }) = u
+            .heat
+            .balance()
+            .and_then(|e| e.exchange.as_ref())
+            .map(|x| &x.coolant)
+        {
+            return Err(setup(
+                "a counter-current coolant is solved over the whole tube at once; with side feeds or a recycle use a co-current stream or a coolant at constant T"
+                    .into(),
+            ));
+        }
+    }
+    debug_assert!(
+        tube || !split,
+        "the loader allows side feeds and recycle on tubes only"
+    );
+    let inlet = match &u.join {
+        Some(j) => mix(net, &u.heat, &[arriving, j]).map_err(setup)?,
+        None => arriving.clone(),
+    };
+    let through = scaled(&inlet, 1.0 - u.bypass);
+    let around = scaled(&inlet, u.bypass);
+    let (pieces, product, recycle) = match u.contacting.recycle {
+        Some(ratio) if ratio > 0.0 => {
+            let (pieces, product, run) = recycle_loop(net, u, &through, ratio, offset, opts)?;
+            (pieces, product, Some(run))
+        }
+        _ => {
+            let pieces = run_vessel(net, u, &through, offset, opts)?;
+            let out = outlet_stream(net, pieces.last().expect("a vessel has a stretch"));
+            (pieces, out, None)
+        }
+    };
+    let outlet = if u.bypass > 0.0 {
+        mix(net, &u.heat, &[&product, &around]).map_err(setup)?
+    } else {
+        product
+    };
+    let n = net.species.len();
+    let mut fed = inlet.amounts.clone();
+    let mut left = outlet.amounts.clone();
+    for s in &u.contacting.side_feeds {
+        add(&mut fed, &s.stream.amounts);
+    }
+    for p in &pieces {
+        if let Some(ex) = &p.sim.exchanged {
+            add(&mut fed, ex.entered.last().map_or(&[][..], |v| &v[..n]));
+            add(&mut left, ex.left.last().map_or(&[][..], |v| &v[..n]));
+        }
+    }
+    Ok(UnitRun {
+        id: u.id.clone(),
+        kind: u.reactor.kind(),
+        size: size_of(&u.reactor),
+        offset,
+        inlet,
+        pieces,
+        outlet,
+        fed,
+        left,
+        bypass: u.bypass,
+        recycle,
+    })
+}
+
+fn add(a: &mut [f64], b: &[f64]) {
+    a.iter_mut().zip(b).for_each(|(a, b)| *a += b);
+}
+
+/// The stream leaving a stretch: its outlet flows, temperature and pressure, and the
+/// volumetric flow that follows (a liquid's inlet flow grown by what entered along it; an
+/// ideal gas's from F_T, T and P).
+fn outlet_stream(net: &Network, p: &Piece) -> Feed {
+    let sim = &p.sim;
+    let k = sim.x.len() - 1;
+    let amounts = sim.outlet().to_vec();
+    let temperature = sim.temperature_at(k, p.network.feed.temperature);
+    let pressure = sim
+        .pressure
+        .as_ref()
+        .map_or(p.network.feed.pressure, |pr| pr[k]);
+    let volumetric = match net.phase {
+        Phase::Liquid => p.balance.fixed_volume(sim.size),
+        Phase::Gas => amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / pressure,
+    };
+    Feed {
+        temperature,
+        pressure,
+        amounts,
+        volumetric,
+    }
+}
+
+/// One vessel on `inlet`, stretch by stretch between its side feeds.
+fn run_vessel(
+    net: &Network,
+    u: &Unit,
+    inlet: &Feed,
+    offset: f64,
+    opts: &SolveOptions,
+) -> Result<Vec<Piece>, SolveError> {
+    let size = size_of(&u.reactor);
+    let mut bounds = vec![0.0];
+    bounds.extend(u.contacting.side_feeds.iter().map(|s| s.at));
+    bounds.push(size);
+    let isothermal = u.heat.balance().is_none();
+    let mut stream = inlet.clone();
+    let mut heat = u.heat.clone();
+    let mut pieces: Vec<Piece> = Vec::with_capacity(bounds.len() - 1);
+    for k in 0..bounds.len() - 1 {
+        if k > 0 {
+            let prev = pieces.last().expect("a stretch before");
+            let out = outlet_stream(net, prev);
+            let side = &u.contacting.side_feeds[k - 1].stream;
+            stream = if isothermal {
+                // Held at the tube's temperature: the side feed is brought to it at the wall.
+                let mut s = mix_at(net, &[&out, side], inlet.temperature);
+                s.pressure = out.pressure;
+                s
+            } else {
+                mix(net, &u.heat, &[&out, side]).map_err(SolveError::Setup)?
+            };
+            // A co-current coolant carries on from the stretch before.
+            if let (Some(c), Some(tc)) = (heat_stream_mut(&mut heat), prev.sim.coolant.as_ref()) {
+                *c = *tc.last().expect("a profile has its outlet");
+            }
+        }
+        let (a, b) = (bounds[k], bounds[k + 1]);
+        let mut n = net.clone();
+        n.train = None;
+        n.feed = stream.clone();
+        n.reactor = with_size(&u.reactor, b - a);
+        n.heat = heat.clone();
+        n.contacting = shifted_walls(&u.contacting, a);
+        let balance = Balance::new(&n).map_err(SolveError::Setup)?;
+        let sim = super::simulate_with(&n, &balance, opts)?;
+        pieces.push(Piece {
+            network: n,
+            balance,
+            sim,
+            offset: offset + a,
+        });
+    }
+    Ok(pieces)
+}
+
+/// The coolant stream's inlet temperature, to carry a co-current coolant across a side feed.
+fn heat_stream_mut(heat: &mut Heat) -> Option<&mut f64> {
+    match heat {
+        Heat::Balance(e) => match e.exchange.as_mut().map(|x| &mut x.coolant) {
+            Some(Coolant::Stream { inlet, .. }) => Some(inlet),
+            _ => None,
+        },
+        Heat::Isothermal => None,
+    }
+}
+
+/// Species add at a temperature the vessel holds (an isothermal tube); the volumetric flow
+/// follows (liquid: the sum; gas: F_T R T / P at that temperature).
+fn mix_at(net: &Network, streams: &[&Feed], temperature: f64) -> Feed {
+    let mut amounts = vec![0.0; net.species.len()];
+    for s in streams {
+        add(&mut amounts, &s.amounts);
+    }
+    let pressure = streams[0].pressure;
+    let volumetric = match net.phase {
+        Phase::Liquid => streams.iter().map(|s| s.volumetric).sum(),
+        Phase::Gas => amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / pressure,
+    };
+    Feed {
+        temperature,
+        pressure,
+        amounts,
+        volumetric,
+    }
+}
+
+/// The walls of a stretch starting at `a`: distributed feeds moved to the stretch's own
+/// coordinate (each keeps its per-length intensity), the membrane as it is; side feeds and the
+/// recycle are the train's business.
+fn shifted_walls(c: &Contacting, a: f64) -> Contacting {
+    let mut out = c.clone();
+    out.side_feeds.clear();
+    out.recycle = None;
+    if a != 0.0 {
+        for d in &mut out.distributed {
+            for p in &mut d.shape.points {
+                p.0 -= a;
+            }
+        }
+    }
+    out
+}
+
+/// The recycle loop around a tube: find r with r = R/(R+1) · tube(mix(fresh, r)).
+fn recycle_loop(
+    net: &Network,
+    u: &Unit,
+    fresh: &Feed,
+    ratio: f64,
+    offset: f64,
+    opts: &SolveOptions,
+) -> Result<(Vec<Piece>, Feed, RecycleRun), SolveError> {
+    let n = net.species.len();
+    let isothermal = u.heat.balance().is_none();
+    let scale = fresh.amounts.iter().sum::<f64>().max(f64::MIN_POSITIVE);
+    let t_scale = fresh.temperature;
+    let (rtol, _) = super::tolerances(net, opts);
+    let tol = rtol.max(1e-13);
+    let share = ratio / (ratio + 1.0);
+    // The state of the loop: the recycled flows, then (a liquid) its volumetric flow and (with
+    // an energy balance) its temperature, both scaled to the flows' size.
+    let liquid = net.phase == Phase::Liquid;
+    let v_index = n;
+    let t_index = n + usize::from(liquid);
+    let dim = t_index + usize::from(!isothermal);
+    let v_scale = fresh.volumetric.max(f64::MIN_POSITIVE);
+    let to_stream = |z: &[f64]| -> Feed {
+        let amounts: Vec<f64> = z[..n].iter().map(|v| v.max(0.0)).collect();
+        let temperature = if isothermal {
+            fresh.temperature
+        } else {
+            (z[t_index] / scale * t_scale).max(1.0)
+        };
+        let volumetric = if liquid {
+            (z[v_index] / scale * v_scale).max(0.0)
+        } else {
+            amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / fresh.pressure
+        };
+        Feed {
+            temperature,
+            pressure: fresh.pressure,
+            amounts,
+            volumetric,
+        }
+    };
+    let run = |z: &[f64]| -> Result<(Vec<Piece>, Feed, Vec<f64>), SolveError> {
+        let r = to_stream(z);
+        let tube_in = if isothermal {
+            mix_at(net, &[fresh, &r], fresh.temperature)
+        } else {
+            mix(net, &u.heat, &[fresh, &r]).map_err(SolveError::Setup)?
+        };
+        let pieces = run_vessel(net, u, &tube_in, offset, opts)?;
+        let out = outlet_stream(net, pieces.last().expect("a vessel has a stretch"));
+        let mut g: Vec<f64> = out.amounts.iter().map(|f| f * share).collect();
+        if liquid {
+            g.push(out.volumetric * share / v_scale * scale);
+        }
+        if !isothermal {
+            g.push(out.temperature / t_scale * scale);
+        }
+        Ok((pieces, out, g))
+    };
+    let mut z = vec![0.0; dim];
+    if !isothermal {
+        z[t_index] = scale;
+    }
+    let mut history_z: Vec<Vec<f64>> = Vec::new();
+    let mut history_f: Vec<Vec<f64>> = Vec::new();
+    let mut change = f64::INFINITY;
+    for it in 1..=RECYCLE_MAX_ITERATIONS {
+        let (pieces, out, g) = run(&z)?;
+        let f: Vec<f64> = g.iter().zip(&z).map(|(g, z)| g - z).collect();
+        change = f.iter().fold(0.0f64, |m, v| m.max(v.abs())) / scale;
+        if change <= tol {
+            let product = scaled(&out, 1.0 / (ratio + 1.0));
+            let stream = scaled(&out, share);
+            return Ok((
+                pieces,
+                product,
+                RecycleRun {
+                    ratio,
+                    iterations: it,
+                    change,
+                    stream,
+                },
+            ));
+        }
+        history_z.push(z.clone());
+        history_f.push(f.clone());
+        if history_z.len() > ANDERSON_DEPTH + 1 {
+            history_z.remove(0);
+            history_f.remove(0);
+        }
+        z = anderson(&history_z, &history_f, &g);
+    }
+    Err(SolveError::Recycle(format!(
+        "the recycle around the tube (R = {ratio}) did not converge in {RECYCLE_MAX_ITERATIONS} passes: the recycle stream still changes by {change:.2e} of the fresh flow per pass (tolerance {tol:.1e})"
+    )))
+}
+
+/// One Anderson step: with the last residuals f_k = g(z_k) − z_k, choose γ minimising
+/// ‖f_k − ΔF γ‖ and return g(z_k) − ΔG γ (ΔG = ΔZ + ΔF); plain substitution when there is
+/// no history or the least-squares problem is degenerate.
+fn anderson(zs: &[Vec<f64>], fs: &[Vec<f64>], g: &[f64]) -> Vec<f64> {
+    let m = zs.len() - 1;
+    if m == 0 {
+        return g.to_vec();
+    }
+    let dim = g.len();
+    let last = &fs[m];
+    let df = nalgebra::DMatrix::from_fn(dim, m, |i, k| fs[k + 1][i] - fs[k][i]);
+    let dz = nalgebra::DMatrix::from_fn(dim, m, |i, k| zs[k + 1][i] - zs[k][i]);
+    let rhs = nalgebra::DVector::from_column_slice(last);
+    let Ok(gamma) = df.clone().svd(true, true).solve(&rhs, 1e-12) else {
+        return g.to_vec();
+    };
+    if gamma.iter().any(|v| !v.is_finite()) {
+        return g.to_vec();
+    }
+    let dg = &dz + &df;
+    let step = dg * gamma;
+    g.iter().zip(step.iter()).map(|(g, s)| g - s).collect()
+}
+
+/// The train's profile: the feed at x = 0, then every stretch's points on the cumulative
+/// coordinate (a tank contributes its outlet), and a point after each split or bypass. Joins
+/// and side feeds count as entered from where they join.
+type Places = Vec<Option<(usize, usize, usize)>>;
+
+fn concatenate(net: &Network, runs: &[UnitRun]) -> (Simulation, Vec<String>, Places) {
+    let n = net.species.len();
+    let first = &runs[0].pieces[0];
+    let pieces = || runs.iter().flat_map(|r| &r.pieces);
+    let any_pressure = pieces().any(|p| p.sim.pressure.is_some());
+    let any_energy = pieces().any(|p| p.sim.temperature.is_some());
+    let mut x = vec![0.0];
+    let mut states = vec![net.feed.amounts.clone()];
+    let mut pressure = vec![net.feed.pressure];
+    let mut temperature = vec![net.feed.temperature];
+    let mut labels = vec!["feed".to_string()];
+    let mut places = vec![None];
+    let mut entered_now = vec![0.0; n];
+    let mut left_now = vec![0.0; n];
+    let mut entered = vec![entered_now.clone()];
+    let mut left = vec![left_now.clone()];
+    let mut stats = SolveStats {
+        method: "units in series, each solved as a single vessel; streams mixed by their enthalpy balance; a recycle by Anderson-accelerated substitution",
+        rtol: first.sim.stats.rtol,
+        atol: first.sim.stats.atol,
+        ..Default::default()
+    };
+    let mut range: Option<Extreme> = None;
+    let mut warnings = Vec::new();
+    for (u, run) in runs.iter().enumerate() {
+        if u > 0 {
+            // A join: what the unit's inlet has beyond the unit before's outlet.
+            let joined: Vec<f64> = run
+                .inlet
+                .amounts
+                .iter()
+                .zip(&runs[u - 1].outlet.amounts)
+                .map(|(i, o)| i - o)
+                .collect();
+            add(&mut entered_now, &joined);
+        }
+        for (k, p) in run.pieces.iter().enumerate() {
+            let s = &p.sim;
+            if k > 0 {
+                add(&mut entered_now, &run_side(run, k - 1));
+            }
+            for (i, xi) in s.x.iter().enumerate() {
+                x.push(p.offset + xi);
+                states.push(s.states[i].clone());
+                pressure.push(
+                    s.pressure
+                        .as_ref()
+                        .map_or(p.network.feed.pressure, |v| v[i]),
+                );
+                temperature.push(s.temperature_at(i, p.network.feed.temperature));
+                labels.push(run.id.clone());
+                places.push(Some((u, k, i)));
+                let (mut e, mut l) = (entered_now.clone(), left_now.clone());
+                if let Some(ex) = &s.exchanged {
+                    add(&mut e, &ex.entered[i]);
+                    add(&mut l, &ex.left[i]);
+                }
+                entered.push(e);
+                left.push(l);
+            }
+            if let Some(ex) = &s.exchanged {
+                add(
+                    &mut entered_now,
+                    ex.entered.last().map_or(&[][..], |v| &v[..]),
+                );
+                add(&mut left_now, ex.left.last().map_or(&[][..], |v| &v[..]));
+            }
+            stats.steps += s.stats.steps;
+            stats.rhs_evals += s.stats.rhs_evals;
+            stats.jac_evals += s.stats.jac_evals;
+            stats.lu_factorizations += s.stats.lu_factorizations;
+            stats.linear_solves += s.stats.linear_solves;
+            stats.krylov_iterations += s.stats.krylov_iterations;
+            stats.krylov_fallbacks += s.stats.krylov_fallbacks;
+            stats.newton_iterations += s.stats.newton_iterations;
+            stats.continuation_stages += s.stats.continuation_stages;
+            for (all, one) in [
+                (&mut stats.residual, s.stats.residual),
+                (&mut stats.newton_step, s.stats.newton_step),
+            ] {
+                if let Some(v) = one {
+                    *all = Some(all.map_or(v, |a: f64| a.max(v)));
+                }
+            }
+            if let Some(r) = &s.temperature_range {
+                range = Some(widen(range, r, p.offset));
+            }
+            warnings.extend(s.warnings.iter().map(|w| format!("unit `{}`: {w}", run.id)));
+        }
+        let last = run.pieces.last().expect("a vessel has a stretch");
+        let tube_outlet = last.sim.outlet();
+        if run.recycle.is_some() || run.bypass > 0.0 || tube_outlet != &run.outlet.amounts[..] {
+            x.push(run.offset + run.size);
+            states.push(run.outlet.amounts.clone());
+            pressure.push(run.outlet.pressure);
+            temperature.push(run.outlet.temperature);
+            labels.push(format!("{} outlet", run.id));
+            places.push(None);
+            entered.push(entered_now.clone());
+            left.push(left_now.clone());
+        }
+    }
+    let profile = Simulation {
+        x_name: first.sim.x_name,
+        x_unit: first.sim.x_unit,
+        size: runs.iter().map(|r| r.size).sum(),
+        x,
+        states,
+        pressure: any_pressure.then_some(pressure),
+        temperature: any_energy.then_some(temperature),
+        coolant: None,
+        temperature_range: range,
+        cooling_failure: None,
+        warnings,
+        stats,
+        steady: None,
+        counter_current: None,
+        exchanged: Some(Exchanged { entered, left }),
+    };
+    (profile, labels, places)
+}
+
+/// The extremes so far widened by a stretch's, moved to the train's coordinate.
+fn widen(range: Option<Extreme>, r: &Extreme, offset: f64) -> Extreme {
+    let shifted = Extreme {
+        max: r.max,
+        max_at: r.max_at + offset,
+        min: r.min,
+        min_at: r.min_at + offset,
+    };
+    match range {
+        None => shifted,
+        Some(mut a) => {
+            if shifted.max > a.max {
+                a.max = shifted.max;
+                a.max_at = shifted.max_at;
+            }
+            if shifted.min < a.min {
+                a.min = shifted.min;
+                a.min_at = shifted.min_at;
+            }
+            a
+        }
+    }
+}
+
+/// The side feed entering before stretch `k + 1` of a unit.
+fn run_side(run: &UnitRun, k: usize) -> Vec<f64> {
+    // The side feed is the difference between the stretch's inlet and the stretch before's
+    // outlet (an isothermal tube and a heated one alike: species add).
+    let before = run.pieces[k].sim.outlet();
+    run.pieces[k + 1]
+        .network
+        .feed
+        .amounts
+        .iter()
+        .zip(before)
+        .map(|(i, o)| i - o)
+        .collect()
+}

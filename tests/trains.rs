@@ -1,0 +1,332 @@
+//! Trains of vessels, side feeds along a tube, bypasses, joins and recycle, against closed forms
+//! and scipy reference solutions.
+//!
+//! Every rate constant, feed and size below is an invented test value, not data for any real
+//! process. Each numeric check names the outside source of its expected value. The book cited
+//! as "Levenspiel" is O. Levenspiel, Chemical Reaction Engineering, 3rd ed., Wiley 1999; its
+//! equations are quoted from memory.
+
+mod common;
+
+use common::{rxnet, temp_study};
+use rxnet::solve::{Points, SolveOptions};
+use rxnet::studies::evaluate::{Evaluation, evaluate};
+use rxnet::{Network, load_str};
+use serde_json::Value;
+
+fn load(yaml: &str) -> Network {
+    load_str(yaml, "test", &[]).unwrap_or_else(|e| panic!("test study does not load: {e}\n{yaml}"))
+}
+
+fn tight(points: Points) -> SolveOptions {
+    SolveOptions {
+        rtol: Some(1e-11),
+        points,
+        ..Default::default()
+    }
+}
+
+fn eval(yaml: &str, points: Points) -> (Network, Evaluation) {
+    let net = load(yaml);
+    let ev = evaluate(&net, &tight(points), false)
+        .unwrap_or_else(|e| panic!("evaluation failed: {e}\n{yaml}"));
+    (net, ev)
+}
+
+const K: f64 = 0.01; // 1/s, test value
+const V0: f64 = 1e-3; // m3/s
+const CA0: f64 = 1000.0; // mol/m3
+
+/// A first-order A -> B in liquid, fed at 1 L/s with 1 mol/L of A, through `vessels` (YAML of
+/// a `reactor:` or `train:` entry).
+fn first_order(vessels: &str) -> String {
+    format!(
+        "name: first order (test values)
+phase: liquid
+species: {{A: {{formula: C2H4O}}, B: {{formula: C2H4O}}}}
+reactions:
+  - {{id: r1, stoich: A -> B, rate: {{k: {K} 1/s}}}}
+feed: {{T: 300 K, volumetric: 1 L/s, concentrations: {{A: 1 mol/L}}}}
+{vessels}
+"
+    )
+}
+
+fn cascade(n: usize, total: f64) -> String {
+    let units: Vec<String> = (1..=n)
+        .map(|k| {
+            format!(
+                "  - {{id: R{k}, type: cstr, volume: {} m3}}",
+                total / n as f64
+            )
+        })
+        .collect();
+    first_order(&format!("train:\n{}", units.join("\n")))
+}
+
+fn conversion(ev: &Evaluation) -> f64 {
+    ev.metrics.conversion
+}
+
+/// N equal CSTRs in series, first order: X = 1 − (1 + kτ/N)^−N with τ the total space time
+/// (Levenspiel ch. 6, eq. for tanks in series).
+#[test]
+fn a_cascade_of_equal_tanks_matches_the_closed_form() {
+    let total = 0.3; // m3, τ = 300 s, kτ = 3
+    let tau = total / V0;
+    for n in [1usize, 2, 3, 5, 10] {
+        let (_, ev) = eval(&cascade(n, total), Points::End);
+        let exact = 1.0 - (1.0 + K * tau / n as f64).powi(-(n as i32));
+        let x = conversion(&ev);
+        assert!(
+            (x - exact).abs() <= 1e-9 * exact,
+            "N = {n}: X = {x}, closed form {exact}"
+        );
+        // Each unit's own conversion is kτ_i/(1 + kτ_i) on what it was given.
+        let t = ev.train.as_ref().expect("a train");
+        assert_eq!(t.units.len(), n);
+        let ti = tau / n as f64;
+        for u in &t.units {
+            let xi = (u.fed[0] - u.left[0]) / u.fed[0];
+            assert!((xi - K * ti / (1.0 + K * ti)).abs() < 1e-9, "unit {}", u.id);
+        }
+    }
+}
+
+/// As N grows the cascade approaches the PFR, X_PFR = 1 − e^{−kτ} (Levenspiel ch. 6), from
+/// below, with X_PFR − X_N = e^{−a} a²/(2N) + O(1/N²), a = kτ (expansion of
+/// (1 + a/N)^{−N} = e^{−a}(1 + a²/(2N) + ...), from memory).
+#[test]
+fn fifty_tanks_approach_the_plug_flow_tube_at_the_expected_order() {
+    let total = 0.3;
+    let a = K * total / V0;
+    let x_pfr = 1.0 - (-a).exp();
+    let (_, tube) = eval(
+        &first_order(&format!("reactor: {{type: pfr, volume: {total} m3}}")),
+        Points::End,
+    );
+    assert!((conversion(&tube) - x_pfr).abs() < 1e-9);
+    let (_, ev) = eval(&cascade(50, total), Points::End);
+    let gap = x_pfr - conversion(&ev);
+    let leading = (-a).exp() * a * a / (2.0 * 50.0);
+    assert!(gap > 0.0, "the cascade stays below the tube");
+    assert!(
+        (gap - leading).abs() < 0.1 * leading,
+        "gap {gap} against the leading term {leading}"
+    );
+}
+
+/// Recycle PFR, first order, liquid: kτ/(R+1) = ln[(C_A0 + R C_Af)/((R+1) C_Af)] with τ = V/v0 of
+/// the fresh feed (Levenspiel ch. 6, recycle reactor); R → 0 is the PFR and R → ∞ the CSTR.
+#[test]
+fn a_recycle_tube_matches_the_closed_form_and_its_limits() {
+    let volume = 0.2; // m3
+    let tau = volume / V0;
+    let solve_closed = |r: f64| -> f64 {
+        // Bisection on the closed form in C_Af (monotone), to 1e-15 relative.
+        let g = |c: f64| ((CA0 + r * c) / ((r + 1.0) * c)).ln() - K * tau / (r + 1.0);
+        let (mut lo, mut hi) = (1e-9 * CA0, CA0);
+        for _ in 0..200 {
+            let mid = 0.5 * (lo + hi);
+            if g(mid) > 0.0 { lo = mid } else { hi = mid }
+        }
+        0.5 * (lo + hi)
+    };
+    for r in [0.5, 3.0, 20.0] {
+        let (_, ev) = eval(
+            &first_order(&format!(
+                "reactor: {{type: pfr, volume: {volume} m3, recycle: {r}}}"
+            )),
+            Points::End,
+        );
+        let ca = ev.left[0] / V0;
+        let exact = solve_closed(r);
+        assert!(
+            (ca - exact).abs() <= 1e-8 * exact,
+            "R = {r}: C_Af = {ca}, closed form {exact}"
+        );
+        let rec = ev.train.as_ref().unwrap().units[0]
+            .recycle
+            .as_ref()
+            .unwrap();
+        assert!(rec.change <= 1e-10, "converged: {}", rec.change);
+    }
+    // R = 0: the plug-flow tube; R large: the CSTR, X = kτ/(1 + kτ) (Levenspiel ch. 5).
+    let (_, ev) = eval(
+        &first_order(&format!(
+            "reactor: {{type: pfr, volume: {volume} m3, recycle: 0}}"
+        )),
+        Points::End,
+    );
+    assert!((conversion(&ev) - (1.0 - (-K * tau).exp())).abs() < 1e-9);
+    let (_, ev) = eval(
+        &first_order(&format!(
+            "reactor: {{type: pfr, volume: {volume} m3, recycle: 1000}}"
+        )),
+        Points::End,
+    );
+    let x_cstr = K * tau / (1.0 + K * tau);
+    assert!(
+        (conversion(&ev) - x_cstr).abs() < 1e-3,
+        "{} vs {x_cstr}",
+        conversion(&ev)
+    );
+}
+
+/// A bypass around a tank and a stream joining before it, first order, liquid:
+/// the tank sees (1 − b)(v + v_j) at τ' = V/((1 − b)(v + v_j)), X' = kτ'/(1 + kτ'), and the
+/// outlet is (1 − b) F_in (1 − X') + b F_in (mixing and splitting of streams, common practice;
+/// the tank by Levenspiel ch. 5).
+#[test]
+fn a_bypass_and_a_join_follow_the_stream_balances() {
+    let (b, v2) = (0.2, 0.1); // bypass fraction, m3
+    let yaml = first_order(&format!(
+        "train:
+  - {{id: R1, type: cstr, volume: 0.1 m3}}
+  - {{id: R2, type: cstr, volume: {v2} m3, bypass: {b}, join: {{concentrations: {{A: 0.5 mol/L}}, volumetric: 0.5 L/s}}}}"
+    ));
+    let (_, ev) = eval(&yaml, Points::End);
+    let x1 = K * 100.0 / (1.0 + K * 100.0);
+    let fa_in = CA0 * V0 * (1.0 - x1) + 500.0 * 0.5e-3;
+    let v_in = V0 + 0.5e-3;
+    let tau = v2 / ((1.0 - b) * v_in);
+    let x2 = K * tau / (1.0 + K * tau);
+    let expect = (1.0 - b) * fa_in * (1.0 - x2) + b * fa_in;
+    assert!(
+        (ev.left[0] - expect).abs() < 1e-10 * expect,
+        "{} vs {expect}",
+        ev.left[0]
+    );
+    // Everything fed counts: the feed and the join.
+    assert!((ev.fed[0] - (CA0 * V0 + 250.0 * 1e-3)).abs() < 1e-12);
+    let x = (ev.fed[0] - ev.left[0]) / ev.fed[0];
+    assert!((ev.metrics.conversion - x).abs() < 1e-12);
+    let t = ev.train.as_ref().unwrap();
+    assert!((t.outlet.volumetric - v_in).abs() < 1e-15);
+}
+
+fn fixture() -> Value {
+    serde_json::from_str(include_str!("reference/side_feeds.json")).expect("fixture parses")
+}
+
+/// Side feeds along a tube against scipy solve_ivp (Radau, rtol 1e-11), stretch by stretch:
+/// tests/reference/side_feeds.py. The element balance closes at every profile point once the
+/// side feeds that entered before it are counted (atom conservation, common practice).
+#[test]
+fn side_feeds_match_the_scipy_reference_and_close_the_element_balance() {
+    for case in fixture()["cases"].as_array().unwrap() {
+        let name = case["name"].as_str().unwrap();
+        let (net, ev) = eval(case["study"].as_str().unwrap(), Points::Even(11));
+        let expect: Vec<f64> = case["outlet"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|v| v.as_f64().unwrap())
+            .collect();
+        let n = net.species.len();
+        let out = ev.sim.outlet();
+        for j in 0..n {
+            let scale = expect[..n].iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            assert!(
+                (out[j] - expect[j]).abs() <= 1e-8 * scale,
+                "{name}: {} = {} vs scipy {}",
+                net.species[j].name,
+                out[j],
+                expect[j]
+            );
+        }
+        if expect.len() > n {
+            let t = ev
+                .heat
+                .as_ref()
+                .expect("an energy balance")
+                .outlet_temperature;
+            assert!(
+                (t - expect[n]).abs() < 1e-7,
+                "{name}: T = {t} vs scipy {}",
+                expect[n]
+            );
+        }
+        // Element closure at every point of the profile with the side feeds counted.
+        if net.species.iter().all(|s| s.formula.is_some()) {
+            let ex = ev.sim.exchanged.as_ref().expect("side routes recorded");
+            for (k, y) in ev.sim.states.iter().enumerate() {
+                let fed: Vec<f64> = net
+                    .feed
+                    .amounts
+                    .iter()
+                    .zip(&ex.entered[k])
+                    .map(|(f, e)| f + e)
+                    .collect();
+                for c in rxnet::metrics::element_closure_against(&net, &fed, y) {
+                    assert!(
+                        c.relative < 1e-9,
+                        "{name}: point {k}, {} off by {}",
+                        c.element,
+                        c.relative
+                    );
+                }
+            }
+        }
+    }
+}
+
+/// Splitting B between the inlet and side feeds keeps it low along the tube and raises the
+/// yield of the intermediate R of A + B -> R -> (with B) S over feeding all B at the inlet
+/// (the selectivity argument for series-parallel reactions, Levenspiel ch. 8).
+#[test]
+fn side_feeding_the_second_reactant_raises_the_intermediate_yield() {
+    let case = &fixture()["cases"][0];
+    let study = case["study"].as_str().unwrap();
+    let (net, split) = eval(study, Points::End);
+    // The same total B at the inlet: 0.4 + 3 × 0.4 mol/s in 1 + 3 × 0.4 L/s.
+    let lumped = study
+        .replace(
+            "concentrations: {A: 1000.0 mol/m3, B: 400.0 mol/m3}",
+            "concentrations: {A: 454.54545454545456 mol/m3, B: 727.2727272727273 mol/m3}",
+        )
+        .replace("volumetric: 0.001 m3/s", "volumetric: 0.0022 m3/s");
+    let lumped = lumped.split("  side_feeds").next().unwrap().to_string();
+    let (_, all_in) = eval(&lumped, Points::End);
+    assert!((all_in.fed[1] - split.fed[1]).abs() < 1e-9, "same B fed");
+    let r = net.species_index("R").unwrap();
+    let y = |ev: &Evaluation| ev.left[r] / ev.fed[0];
+    assert!(
+        y(&split) > y(&all_in),
+        "split {} vs all at the inlet {}",
+        y(&split),
+        y(&all_in)
+    );
+}
+
+/// The profile runs along the train with a unit column, the run report lists every unit, and
+/// JSON carries them.
+#[test]
+fn run_reports_every_unit_and_a_labelled_profile() {
+    let file = temp_study("trains", &cascade(3, 0.3));
+    let p = file.p();
+    let r = rxnet(&["run", p]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(
+        r.stdout
+            .contains("3 units in series (R1 cstr -> R2 cstr -> R3 cstr)"),
+        "{}",
+        r.stdout
+    );
+    for id in ["R1", "R2", "R3"] {
+        assert!(
+            r.stdout.lines().any(|l| l.trim_start().starts_with(id)),
+            "{}",
+            r.stdout
+        );
+    }
+    let j = rxnet(&["run", p, "--format", "json"]).ok_json();
+    let units = j["units"].as_array().unwrap();
+    assert_eq!(units.len(), 3);
+    assert!((units[1]["conversion"].as_f64().unwrap() - 0.5).abs() < 1e-9);
+    let csv = rxnet(&["run", p, "--format", "csv"]).stdout;
+    let lines: Vec<&str> = csv.lines().collect();
+    assert_eq!(lines[0], "unit,V [m3],A [mol/s],B [mol/s]");
+    assert!(lines[1].starts_with("feed,0"));
+    assert!(lines[4].starts_with("R3,3.0"), "{csv}");
+}
