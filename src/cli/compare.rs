@@ -114,9 +114,17 @@ pub fn compare(
             optimum,
             min_conversion,
         };
+        // A study whose contacting pattern is its own (a train with joins, side feeds, a
+        // membrane, dosing, a recycle) is screened as itself beside the reactor types.
+        let own = [None];
+        let kinds_here: &[Option<Kind>] = if compare::fixed_pattern(&net) {
+            &own
+        } else {
+            &kinds
+        };
         for h in &heats {
             let net = h.apply(&net);
-            for k in &kinds {
+            for k in kinds_here {
                 rows.push(compare::evaluate(
                     &f.display().to_string(),
                     &net,
@@ -188,7 +196,7 @@ fn table(rows: &[compare::CompareRow], optimum: Option<&str>, resized: bool) -> 
         ),
         (
             "type".into(),
-            rows.iter().map(|r| r.reactor.into()).collect(),
+            rows.iter().map(|r| r.reactor.clone()).collect(),
         ),
     ];
     if rows.iter().any(|r| r.heat != "isothermal") {

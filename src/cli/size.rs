@@ -108,22 +108,27 @@ pub fn size(a: &SizeArgs) -> i32 {
     let sized = net.with_size(s);
     // The sized study through the evaluation gate: the same checks as `run`; only the size
     // changed, which the consistency check does not read, so its findings are reused.
-    let (balance, sim, m) = match rxnet::studies::evaluate::evaluate_with(&sized, &findings, &opts)
-    {
-        Ok(ev) => (ev.balance, ev.sim, ev.metrics),
-        Err(e) => {
-            eprintln!("error: {file}: at the size found: {e}");
-            return if e.is_invalid_input() {
-                EXIT_INVALID
-            } else {
-                EXIT_FINDINGS
-            };
-        }
-    };
+    let (balance, sim, m, train) =
+        match rxnet::studies::evaluate::evaluate_with(&sized, &findings, &opts) {
+            Ok(ev) => (ev.balance, ev.sim, ev.metrics, ev.train),
+            Err(e) => {
+                eprintln!("error: {file}: at the size found: {e}");
+                return if e.is_invalid_input() {
+                    EXIT_INVALID
+                } else {
+                    EXIT_FINDINGS
+                };
+            }
+        };
     rep.reachable = true;
     rep.size = Some(s);
     rep.space_time_s = flow.then(|| s / net.feed.volumetric);
-    rep.run = Some(report::run::build(&sized, &balance, &sim, &m, false));
+    let mut run = report::run::build(&sized, &balance, &sim, &m, false);
+    if let Some(t) = &train {
+        // A train: the total size, every unit scaled in proportion; each unit is listed.
+        report::train::set_outlet(&mut run, &sized, t);
+    }
+    rep.run = Some(run);
     let text = if a.format == Format::Json {
         json(&rep)
     } else {
@@ -138,7 +143,16 @@ pub fn size(a: &SizeArgs) -> i32 {
             "s" if s >= 120.0 => format!(" ({} min)", num(s / 60.0)),
             _ => String::new(),
         };
-        let _ = writeln!(o, "  {xn} = {} {xu}{extra}", num(s));
+        let _ = writeln!(
+            o,
+            "  {xn} = {} {xu}{extra}{}",
+            num(s),
+            if train.is_some() && sized.train.is_some() {
+                " in total, every unit scaled in proportion"
+            } else {
+                ""
+            }
+        );
         if let Some(t) = rep.space_time_s {
             let _ = writeln!(o, "  space time τ = V/v0 = {} s", num(t));
         }

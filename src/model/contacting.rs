@@ -191,6 +191,22 @@ impl Contacting {
         }
     }
 
+    /// Move the positions along a tube (side feeds, distributed feeds' shapes) with its
+    /// length scaled by `factor`: each keeps its fraction of the way along.
+    pub fn scale_positions(&mut self, factor: f64) {
+        for s in &mut self.side_feeds {
+            s.at *= factor;
+        }
+        for d in &mut self.distributed {
+            for p in &mut d.shape.points {
+                p.0 *= factor;
+                // The shape is an intensity per unit of x: stretched by `factor`, it keeps its
+                // total by dividing the intensity.
+                p.1 /= factor;
+            }
+        }
+    }
+
     /// Whether the vessel is plain (nothing enters or leaves but its inlet and outlet).
     pub fn is_empty(&self) -> bool {
         self.side_feeds.is_empty()

@@ -388,6 +388,14 @@ impl Network {
         reacting
     }
 
+    /// Every vessel's reactor and heat model: a train's units in order, or the one vessel.
+    pub fn vessels(&self) -> Vec<(&Reactor, &Heat)> {
+        match &self.train {
+            Some(t) => t.units.iter().map(|u| (&u.reactor, &u.heat)).collect(),
+            None => vec![(&self.reactor, &self.heat)],
+        }
+    }
+
     /// Which species enter the study by any route: the feed, a join before a unit of a train,
     /// a side, distributed or dosed stream, or the wall. The consistency check reasons from
     /// these (what can form, whether the key is fed).
@@ -429,6 +437,23 @@ impl Network {
     }
 }
 
+/// The size of one vessel (V, W or batch time, SI).
+fn size_of(r: &Reactor) -> f64 {
+    match r {
+        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume,
+        Reactor::Pbr { catalyst, .. } => *catalyst,
+        Reactor::Batch { time, .. } => *time,
+    }
+}
+
+fn set_size(r: &mut Reactor, size: f64) {
+    match r {
+        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
+        Reactor::Pbr { catalyst, .. } => *catalyst = size,
+        Reactor::Batch { time, .. } => *time = size,
+    }
+}
+
 /// The name in `names` closest to `name` (at most two edits, or equal ignoring case), for
 /// "did you mean" hints.
 pub fn closest_name<'a>(name: &str, names: &[&'a str]) -> Option<&'a str> {
@@ -445,8 +470,11 @@ impl Network {
         }
     }
 
-    /// The reactor size (V, W or batch time, SI).
+    /// The reactor size (V, W or batch time, SI); a train's total size.
     pub fn size(&self) -> f64 {
+        if let Some(t) = &self.train {
+            return t.units.iter().map(|u| size_of(&u.reactor)).sum();
+        }
         match self.reactor {
             Reactor::Pfr { volume } | Reactor::Cstr { volume } => volume,
             Reactor::Pbr { catalyst, .. } => catalyst,
@@ -454,9 +482,29 @@ impl Network {
         }
     }
 
-    /// The same study with another reactor size (V, W or batch time, SI, positive).
+    /// The same study with another reactor size (V, W or batch time, SI, positive). A train
+    /// keeps its proportions: every unit (with the positions of its side feeds and
+    /// distributed feeds) is scaled so that the total is `size`.
     pub fn with_size(&self, size: f64) -> Network {
         let mut n = self.clone();
+        if let Some(t) = &mut n.train {
+            let factor = size / self.size();
+            for u in &mut t.units {
+                let s = size_of(&u.reactor) * factor;
+                set_size(&mut u.reactor, s);
+                u.contacting.scale_positions(factor);
+            }
+            let first = t.units[0].clone();
+            n.reactor = first.reactor;
+            n.contacting = first.contacting;
+            return n;
+        }
+        // Side feeds keep their fraction of the way along (a tube with side feeds is searched
+        // by scaling, as a train is; a distributed feed stays where the file puts it).
+        let factor = size / self.size();
+        for s in &mut n.contacting.side_feeds {
+            s.at *= factor;
+        }
         match &mut n.reactor {
             Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
             Reactor::Pbr { catalyst, .. } => *catalyst = size,

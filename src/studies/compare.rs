@@ -20,15 +20,21 @@ pub enum Kind {
     Pfr,
     Cstr,
     Batch,
+    /// N equal CSTRs in series of the same total volume.
+    Cascade(usize),
 }
 
+/// Most tanks a `cascade:N` screen may have.
+pub const MAX_CASCADE: usize = 200;
+
 impl Kind {
-    /// The reactor type's name, as `Reactor::kind` gives it.
-    pub fn name(self) -> &'static str {
+    /// The reactor type's name, as `Reactor::kind` gives it (`cascade:N` for tanks in series).
+    pub fn name(self) -> String {
         match self {
-            Kind::Pfr => "pfr",
-            Kind::Cstr => "cstr",
-            Kind::Batch => "batch",
+            Kind::Pfr => "pfr".into(),
+            Kind::Cstr => "cstr".into(),
+            Kind::Batch => "batch".into(),
+            Kind::Cascade(n) => format!("cascade:{n}"),
         }
     }
 
@@ -37,11 +43,142 @@ impl Kind {
             "pfr" => Ok(Kind::Pfr),
             "cstr" => Ok(Kind::Cstr),
             "batch" => Ok(Kind::Batch),
-            other => Err(format!(
-                "`{other}` is not a reactor type to screen (pfr, cstr, batch)"
-            )),
+            other => match other
+                .strip_prefix("cascade:")
+                .map(|n| n.trim().parse::<usize>())
+            {
+                Some(Ok(n)) if (2..=MAX_CASCADE).contains(&n) => Ok(Kind::Cascade(n)),
+                Some(_) => Err(format!(
+                    "`{other}`: a cascade is `cascade:N` with N from 2 to {MAX_CASCADE} equal tanks"
+                )),
+                None => Err(format!(
+                    "`{other}` is not a reactor type to screen (pfr, cstr, batch, cascade:N)"
+                )),
+            },
         }
     }
+}
+
+/// What a study's row is called: its reactor type, a train's units joined by `+`, with the
+/// contacting pattern of a vessel (`pfr+side feeds`, `batch+dosing`, ...).
+pub fn label(net: &Network) -> String {
+    if let Some(t) = &net.train {
+        let kinds: Vec<&str> = t.units.iter().map(|u| u.reactor.kind()).collect();
+        if kinds.iter().all(|k| *k == "cstr") {
+            return format!("cascade:{}", kinds.len());
+        }
+        // Runs of one type compressed: `cstr*2+pfr`.
+        let mut parts: Vec<(&str, usize)> = Vec::new();
+        for k in kinds {
+            match parts.last_mut() {
+                Some((last, n)) if *last == k => *n += 1,
+                _ => parts.push((k, 1)),
+            }
+        }
+        return parts
+            .iter()
+            .map(|(k, n)| {
+                if *n > 1 {
+                    format!("{k}*{n}")
+                } else {
+                    k.to_string()
+                }
+            })
+            .collect::<Vec<_>>()
+            .join("+");
+    }
+    let c = &net.contacting;
+    let mut s = net.reactor.kind().to_string();
+    for (on, what) in [
+        (!c.side_feeds.is_empty(), "side feeds"),
+        (!c.distributed.is_empty(), "distributed feed"),
+        (!c.membrane.is_empty(), "membrane"),
+        (!c.dosing.is_empty(), "dosing"),
+        (c.withdrawal.is_some(), "withdrawal"),
+        (c.recycle.is_some(), "recycle"),
+    ] {
+        if on {
+            s.push('+');
+            s.push_str(what);
+        }
+    }
+    s
+}
+
+/// Whether the study's contacting pattern is its own (a train with joins or bypasses, a vessel
+/// with side, distributed or dosed streams, a membrane or a recycle): it is screened as itself,
+/// beside the reactor types, not converted to them.
+pub fn fixed_pattern(net: &Network) -> bool {
+    !net.contacting.is_empty()
+        || net.train.as_ref().is_some_and(|t| {
+            t.units
+                .iter()
+                .any(|u| u.join.is_some() || u.bypass > 0.0 || !u.contacting.is_empty())
+        })
+}
+
+/// A plain train (units in series, nothing joining or bypassing) as one vessel of its total
+/// size with the first unit's heat model; refused when the units' heat models differ.
+fn as_single_vessel(net: &Network) -> Result<Network, String> {
+    let Some(t) = &net.train else {
+        return Ok(net.clone());
+    };
+    if fixed_pattern(net) {
+        return Err(
+            "a train with joins, bypasses or side streams is screened only as itself".into(),
+        );
+    }
+    let first = &t.units[0];
+    if t.units.iter().any(|u| u.heat != first.heat) {
+        return Err(
+            "the train's units have different heat models: it is screened only as itself".into(),
+        );
+    }
+    let mut n = net.clone();
+    n.train = None;
+    n.heat = first.heat.clone();
+    let total = net.size();
+    n.reactor = first.reactor.clone();
+    // Every unit has the same heat model: the tanks' U·A add up; a tube's U·a per volume stays.
+    if let Some(x) = n.heat_exchange_mut()
+        && matches!(first.reactor, Reactor::Cstr { .. })
+    {
+        x.ua *= t.units.len() as f64;
+    }
+    Ok(n.with_size(total))
+}
+
+/// A single flow vessel as N equal tanks in series of the same total volume; heat exchange
+/// moves with the volume (U·a per volume of a tube to U·A = U·a V/N per tank; a tank's U·A
+/// split N ways).
+fn as_cascade(net: &Network, n_tanks: usize) -> Result<Network, String> {
+    let tank = as_reactor(net, Kind::Cstr)?;
+    let Reactor::Cstr { volume } = tank.reactor else {
+        unreachable!("as_reactor(Cstr) gives a CSTR")
+    };
+    let mut heat = tank.heat.clone();
+    if let Heat::Balance(e) = &mut heat
+        && let Some(x) = e.exchange.as_mut()
+    {
+        x.ua /= n_tanks as f64;
+    }
+    let units = (1..=n_tanks)
+        .map(|k| crate::model::Unit {
+            id: format!("T{k}"),
+            reactor: Reactor::Cstr {
+                volume: volume / n_tanks as f64,
+            },
+            heat: heat.clone(),
+            contacting: Default::default(),
+            join: None,
+            bypass: 0.0,
+        })
+        .collect::<Vec<_>>();
+    let mut out = tank;
+    out.reactor = units[0].reactor.clone();
+    out.heat = heat;
+    out.train = Some(crate::model::Train { units });
+    Ok(out)
 }
 
 /// The study with its reactor replaced by `kind` (see the module notes).
@@ -72,22 +209,38 @@ impl HeatChoice {
     /// capacities or heats of reaction fails at its entry with the missing data named.
     pub fn apply(self, net: &Network) -> Network {
         let mut n = net.clone();
-        match self {
-            HeatChoice::Isothermal => n.heat = Heat::Isothermal,
-            HeatChoice::Adiabatic => {
-                let mixture_cp = net.heat.balance().and_then(|e| e.mixture_cp);
-                n.heat = Heat::Balance(EnergyBalance {
+        let change = |h: &Heat| -> Heat {
+            match self {
+                HeatChoice::Isothermal => Heat::Isothermal,
+                HeatChoice::Adiabatic => Heat::Balance(EnergyBalance {
                     exchange: None,
-                    mixture_cp,
-                });
+                    mixture_cp: h.balance().and_then(|e| e.mixture_cp),
+                }),
+                HeatChoice::AsGiven => h.clone(),
             }
-            HeatChoice::AsGiven => {}
+        };
+        n.heat = change(&net.heat);
+        // Every unit of a train.
+        if let Some(t) = &mut n.train {
+            for u in &mut t.units {
+                u.heat = change(&u.heat);
+            }
         }
         n
     }
 }
 
 pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
+    if !net.contacting.is_empty() {
+        return Err(format!("a {} is screened only as itself", label(net)));
+    }
+    if net.train.is_some() {
+        let single = as_single_vessel(net)?;
+        return as_reactor(&single, kind);
+    }
+    if let Kind::Cascade(n) = kind {
+        return as_cascade(net, n);
+    }
     let mut n = net.clone();
     // Heat exchange moves with the vessel: U·a per reactor volume along a tube is U·A = U·a·V
     // in total for a tank of the same volume (and back); a coolant stream is modelled along
@@ -117,6 +270,7 @@ pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
         }
     }
     match (&net.reactor, kind) {
+        (_, Kind::Cascade(_)) => unreachable!("handled above"),
         (Reactor::Pbr { .. }, _) => {
             return Err("a packed bed (rates per catalyst mass) is compared only as itself".into());
         }
@@ -165,7 +319,7 @@ pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
 pub struct CompareRow {
     pub file: String,
     pub study: String,
-    pub reactor: &'static str,
+    pub reactor: String,
     /// "V", "W" or "t".
     pub size_variable: &'static str,
     /// "m3", "kg" or "s".
@@ -236,7 +390,7 @@ pub fn evaluate(
         file: file.to_string(),
         study: net.name.clone(),
         // The type asked for, so a row that fails still says which screen it was.
-        reactor: kind.map_or(net.reactor.kind(), Kind::name),
+        reactor: kind.map_or_else(|| label(net), Kind::name),
         size_variable: xn,
         size_unit: xu,
         size: None,
@@ -263,7 +417,7 @@ pub fn evaluate(
             Some(k) => as_reactor(net, k)?,
             None => net.clone(),
         };
-        row.reactor = n.reactor.kind();
+        row.reactor = label(&n);
         let (xn, xu, _) = solve::reactor_axis(&n);
         row.size_variable = xn;
         row.size_unit = xu;

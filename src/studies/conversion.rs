@@ -56,6 +56,9 @@ fn limit_reason(net: &Network, y: &[f64]) -> String {
 /// ln V to 1e-14; settled when a tenfold V changes X by less than 1e-10, X_eq then extrapolated
 /// from the 1/V tail, X_eq ≈ X(10V) + (X(10V) − X(V))/9.
 pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, StudyError> {
+    if solve::train::is_flowsheet(net) {
+        return reach_flowsheet(net, x, opts);
+    }
     refuse_heat_cstr(net, "the volume that reaches a conversion")?;
     let b = Balance::new(net).map_err(StudyError::Invalid)?;
     if solve::shooting::is_counter_current(&b) {
@@ -189,6 +192,52 @@ pub fn size_for_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result
             net, x, x_max, &reason,
         ))),
     }
+}
+
+/// A train (or a tube with side feeds or a recycle): the total size, every unit scaled in
+/// proportion ([`Network::with_size`]), at which the key conversion on everything fed reaches
+/// `x`: decades from the study's size until X passes x, then bisection on ln of the total; the
+/// most it can reach when a tenfold size changes X by less than 1e-10.
+fn reach_flowsheet(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, StudyError> {
+    if net
+        .vessels()
+        .iter()
+        .any(|(r, h)| matches!(r, Reactor::Cstr { .. }) && h.balance().is_some())
+    {
+        return Err(StudyError::Invalid(
+            "the size for a conversion is not searched for a train with a non-isothermal tank: its conversion can jump at ignition and extinction; run it at chosen sizes (`rxnet sweep` over train.<id>.volume)".into(),
+        ));
+    }
+    let size = net.size();
+    let at = |v: f64| -> Result<(f64, Vec<f64>), StudyError> {
+        let n = net.with_size(v);
+        let sim = solve::simulate(&n, opts).map_err(StudyError::Solve)?;
+        let (fed, left) = super::evaluate::totals(&n, &sim);
+        Ok(((fed[n.key] - left[n.key]) / fed[n.key], left))
+    };
+    let mut lo = 1e-9 * size;
+    let mut prev: Option<f64> = None;
+    for k in 0..DECADES {
+        let v = size * 10f64.powi(k as i32);
+        let (xv, f) = at(v)?;
+        if xv >= x {
+            let (l, h) = bisect_ln(lo, v, |v| Ok(at(v)?.0 < x))?;
+            return Ok(Reach::Size((0.5 * (l + h)).exp()));
+        }
+        if let Some(p) = prev
+            && (xv - p).abs() <= 1e-10
+        {
+            return Ok(Reach::Beyond {
+                x_max: xv,
+                reason: limit_reason(net, &f),
+            });
+        }
+        prev = Some(xv);
+        lo = v;
+    }
+    Err(StudyError::Infeasible(format!(
+        "conversion {x} is not reached by a train {DECADES} decades larger than the study's"
+    )))
 }
 
 /// "conversion 0.9 of A is beyond equilibrium: X approaches X_eq = 0.666667 as V -> ∞".

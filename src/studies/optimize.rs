@@ -159,6 +159,9 @@ pub fn optimize_size(
     if net.feed.amounts[net.key] <= 0.0 {
         return Err(StudyError::Invalid("the key reactant is not fed".into()));
     }
+    if solve::train::is_flowsheet(net) {
+        return optimize_train_size(net, target, lo, hi, min_conversion, opts);
+    }
     super::conversion::refuse_heat_cstr(net, "the optimum volume")?;
     let min_conversion = min_conversion.filter(|x| *x > 0.0);
     let lo_open = lo == 0.0;
@@ -541,6 +544,98 @@ fn evaluate(
     Ok(target
         .value_against(&net, &ev.fed, &ev.left)
         .ok_or(NoValue::Other))
+}
+
+/// Points of the coarse grid on ln(total size) that brackets a train's optimum.
+const TRAIN_GRID: usize = 13;
+
+/// A train (or a tube with side feeds or a recycle): the total size in [lo, hi] that maximises
+/// the target with every unit scaled in proportion ([`Network::with_size`]). Each candidate is
+/// the whole train through the evaluation gate, so the size is searched on a grid in ln(size)
+/// and refined by golden section around the best grid point (the target taken as unimodal
+/// there, as it is for the usual rise-and-fall of an intermediate); an optimum on a bound says
+/// whether the target still improves beyond it.
+fn optimize_train_size(
+    net: &Network,
+    target: &Target,
+    lo: f64,
+    hi: f64,
+    min_conversion: Option<f64>,
+    opts: &SolveOptions,
+) -> Result<SizeOptimum, StudyError> {
+    let open_at_zero = lo == 0.0;
+    let lo = if open_at_zero { 1e-3 * hi } else { lo };
+    let mut candidates = 0usize;
+    let mut value = |size: f64| -> Result<Option<f64>, StudyError> {
+        candidates += 1;
+        let n = net.with_size(size);
+        let ev = match super::evaluate::evaluate(&n, opts, false) {
+            Ok(ev) => ev,
+            Err(e) if e.is_invalid_input() => return Err(StudyError::Invalid(e.to_string())),
+            Err(_) => return Ok(None),
+        };
+        if min_conversion.is_some_and(|x| ev.metrics.conversion < x)
+            || ev.heat.as_ref().is_some_and(|h| h.exceeds_limit())
+        {
+            return Ok(None);
+        }
+        Ok(target.value_against(&n, &ev.fed, &ev.left))
+    };
+    let (a, b) = (lo.ln(), hi.ln());
+    let grid: Vec<f64> = (0..TRAIN_GRID)
+        .map(|k| a + (b - a) * k as f64 / (TRAIN_GRID - 1) as f64)
+        .collect();
+    let mut values = Vec::with_capacity(TRAIN_GRID);
+    for &g in &grid {
+        values.push(value(g.exp())?);
+    }
+    let best = (0..TRAIN_GRID)
+        .filter(|&k| values[k].is_some())
+        .max_by(|&i, &j| values[i].unwrap().total_cmp(&values[j].unwrap()))
+        .ok_or_else(|| {
+            StudyError::Infeasible(
+                "no size between the bounds gives a value of the target (every candidate failed, missed the conversion constraint or exceeded T_max)".into(),
+            )
+        })?;
+    let on_bound = match best {
+        0 => Some(Bound::Lower),
+        k if k == TRAIN_GRID - 1 => Some(Bound::Upper),
+        _ => None,
+    };
+    if let Some(side) = on_bound {
+        let size = grid[best].exp();
+        // Whether the target still improves beyond the bound: one step further out.
+        let step = (b - a) / (TRAIN_GRID - 1) as f64 * 1e-3;
+        let beyond = match side {
+            Bound::Lower => grid[best] - step,
+            _ => grid[best] + step,
+        };
+        let improves_beyond = value(beyond.exp())?.is_some_and(|v| v > values[best].unwrap());
+        if open_at_zero && side == Bound::Lower && improves_beyond {
+            return Err(StudyError::Infeasible(format!(
+                "{} is best at the smallest total size tried ({:.3e}) and still improves below it: its supremum is approached as the train shrinks to nothing, so no finite size is optimal; add --min-conversion X (or a positive lower bound) to make the problem well posed",
+                target.label(net),
+                size
+            )));
+        }
+        return Ok(SizeOptimum {
+            size,
+            value: values[best].unwrap(),
+            on_bound,
+            improves_beyond,
+            candidates,
+        });
+    }
+    let mut f =
+        |x: f64| -> Result<f64, StudyError> { Ok(value(x.exp())?.unwrap_or(f64::NEG_INFINITY)) };
+    let (x, v) = golden_max(&mut f, grid[best - 1], grid[best + 1], 1e-9)?;
+    Ok(SizeOptimum {
+        size: x.exp(),
+        value: v,
+        on_bound: None,
+        improves_beyond: false,
+        candidates,
+    })
 }
 
 /// Maximise the target over general inputs within their bounds.

@@ -131,6 +131,11 @@ fn validate(study: &Study, input: &Input) -> Result<(), StudyError> {
         let net = study
             .load(&input.sets(v))
             .map_err(|e| StudyError::Invalid(format!("--input {} at {v}: {e}", var.path)))?;
+        if crate::solve::train::is_flowsheet(&net) {
+            return Err(StudyError::Invalid(
+                "the runaway study follows the hot spot of one vessel; a train (or a tube with side feeds or a recycle) reports each unit's hot spot in `rxnet run`, and `rxnet sweep` over an input shows how it moves".into(),
+            ));
+        }
         if matches!(net.reactor, Reactor::Cstr { .. }) {
             return Err(StudyError::Invalid(
                 "the runaway study follows the hot spot of a tube (PFR, packed bed) or a batch; a CSTR's runaway is its ignition point (see its steady states)".into(),
