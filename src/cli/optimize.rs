@@ -6,7 +6,7 @@ use rxnet::model::{Network, Override, Reactor};
 use rxnet::report::{self, num};
 use rxnet::solve;
 use rxnet::studies::optimize::{Bound, optimize_size, optimize_vars, value_unit};
-use rxnet::studies::study::Variable;
+use rxnet::studies::study::{SPLIT_MIN, Split, Variable, overrides};
 use rxnet::studies::target::Target;
 use rxnet::units::parse_quantity;
 use std::fmt::Write;
@@ -170,7 +170,21 @@ pub fn optimize(
             return EXIT_INVALID;
         }
     }
-    let size_only = over.is_empty() || (over.len() == 1 && over[0] == net.size_path());
+    // `split`: the train's total size divided between its units (no bounds of its own).
+    let split = if over.iter().any(|o| o == "split") {
+        match Split::of(&net) {
+            Ok(s) => Some(s),
+            Err(m) => {
+                eprintln!("error: --over split: {m}");
+                return EXIT_INVALID;
+            }
+        }
+    } else {
+        None
+    };
+    let over: Vec<String> = over.into_iter().filter(|o| o != "split").collect();
+    let size_only =
+        split.is_none() && (over.is_empty() || (over.len() == 1 && over[0] == net.size_path()));
     let (_, xu, _) = solve::reactor_axis(&net);
     let vu = value_unit(&net, &target);
     let (best, net_best) = if size_only {
@@ -219,9 +233,14 @@ pub fn optimize(
     } else {
         if bounds.len() != 2 * over.len() {
             eprintln!(
-                "error: give one --bounds LO HI for each --over ({} inputs, {} bounds)",
+                "error: give one --bounds LO HI for each --over ({} inputs, {} bounds){}",
                 over.len(),
-                bounds.len() / 2
+                bounds.len() / 2,
+                if split.is_some() {
+                    "; `split` takes none (the total is held)"
+                } else {
+                    ""
+                }
             );
             return EXIT_INVALID;
         }
@@ -245,9 +264,12 @@ pub fn optimize(
                 }
             }
         }
+        if let Some(sp) = split.clone() {
+            vars.extend(sp.variables());
+        }
         // The bounds themselves must load (same validation as the file: a bare number for a
         // dimensional input is refused there, as in --set).
-        for v in &vars {
+        for v in vars.iter().filter(|v| v.split.is_none()) {
             for x in [v.lo, v.hi] {
                 if let Err(e) = study.load(&[v.set(x)]) {
                     eprintln!("error: --over {} at {x}: {e}", v.path);
@@ -257,8 +279,7 @@ pub fn optimize(
         }
         match optimize_vars(&study, &vars, maximize, min_conversion, &opts) {
             Ok(o) => {
-                let sets: Vec<Override> =
-                    vars.iter().zip(&o.point).map(|(v, x)| v.set(*x)).collect();
+                let sets: Vec<Override> = overrides(&vars, &o.point);
                 let nb = match study.load(&sets) {
                     Ok(n) => n,
                     Err(e) => {
@@ -266,11 +287,36 @@ pub fn optimize(
                         return EXIT_INVALID;
                     }
                 };
-                let si: Vec<(f64, String)> = vars
-                    .iter()
-                    .zip(&o.point)
-                    .map(|(v, x)| to_si(v, *x))
-                    .collect();
+                // Each plain input in SI; a split as the units' sizes it gives.
+                let mut point = indexmap::IndexMap::new();
+                let mut units = indexmap::IndexMap::new();
+                let mut on_bound = indexmap::IndexMap::new();
+                for ((v, x), b) in vars.iter().zip(&o.point).zip(&o.on_bound) {
+                    if v.split.is_none() {
+                        let (x, u) = to_si(v, *x);
+                        point.insert(v.path.clone(), x);
+                        units.insert(v.path.clone(), u);
+                        on_bound.insert(v.path.clone(), *b);
+                    }
+                }
+                if let Some(sp) = &split {
+                    let u: Vec<f64> = vars
+                        .iter()
+                        .zip(&o.point)
+                        .filter(|(v, _)| v.split.is_some())
+                        .map(|(_, x)| *x)
+                        .collect();
+                    // A unit at the smallest share the split allows sits on its bound.
+                    let near = |f: f64| {
+                        f <= SPLIT_MIN * (1.0 + 1e-6) || f >= 1.0 - SPLIT_MIN * (1.0 + 1e-6)
+                    };
+                    let edge = u.iter().any(|f| near(*f));
+                    for (p, size) in sp.paths.iter().zip(sp.sizes(&u)) {
+                        point.insert(p.clone(), size);
+                        units.insert(p.clone(), sp.unit.to_string());
+                        on_bound.insert(p.clone(), edge.then_some(Bound::Lower));
+                    }
+                }
                 (
                     Best {
                         size: None,
@@ -278,21 +324,9 @@ pub fn optimize(
                         space_time_s: None,
                         value: o.value,
                         value_unit: vu,
-                        point: vars
-                            .iter()
-                            .zip(&si)
-                            .map(|(v, (x, _))| (v.path.clone(), *x))
-                            .collect(),
-                        units: vars
-                            .iter()
-                            .zip(&si)
-                            .map(|(v, (_, u))| (v.path.clone(), u.clone()))
-                            .collect(),
-                        on_bound: vars
-                            .iter()
-                            .zip(&o.on_bound)
-                            .map(|(v, b)| (v.path.clone(), *b))
-                            .collect(),
+                        point,
+                        units,
+                        on_bound,
                         improves_beyond_bound: None,
                     },
                     nb,
@@ -315,8 +349,8 @@ pub fn optimize(
     } else {
         rxnet::studies::evaluate::evaluate(&net_best, &opts, false)
     };
-    let (balance, sim, m) = match evaluated {
-        Ok(ev) => (ev.balance, ev.sim, ev.metrics),
+    let (balance, sim, m, train) = match evaluated {
+        Ok(ev) => (ev.balance, ev.sim, ev.metrics, ev.train),
         Err(e) => {
             eprintln!("error: {}: at the optimum: {e}", file.display());
             return if e.is_invalid_input() {
@@ -326,7 +360,10 @@ pub fn optimize(
             };
         }
     };
-    let run = report::run::build(&net_best, &balance, &sim, &m, false);
+    let mut run = report::run::build(&net_best, &balance, &sim, &m, false);
+    if let Some(t) = &train {
+        report::train::set_outlet(&mut run, &net_best, t);
+    }
     let rep = OptimizeReport {
         target: target.label(&net),
         best,

@@ -515,6 +515,9 @@ impl Network {
 
     /// The key of the reactor size in the study file (`reactor.volume`, ...).
     pub fn size_path(&self) -> &'static str {
+        if self.train.is_some() {
+            return "size (the train's total, every unit in proportion)";
+        }
         match self.reactor {
             Reactor::Pfr { .. } | Reactor::Cstr { .. } => "reactor.volume",
             Reactor::Pbr { .. } => "reactor.catalyst",

@@ -523,7 +523,7 @@ fn evaluate(
     min_conversion: Option<f64>,
     opts: &SolveOptions,
 ) -> Result<Result<f64, NoValue>, StudyError> {
-    let sets: Vec<Override> = vars.iter().zip(x).map(|(v, x)| v.set(*x)).collect();
+    let sets: Vec<Override> = super::study::overrides(vars, x);
     let net = study.load(&sets)?;
     let target = Target::parse(target_text, &net).map_err(StudyError::Invalid)?;
     // Through the evaluation gate: a candidate `run` would refuse (error findings at this

@@ -33,6 +33,104 @@ pub struct Variable {
     pub lo: f64,
     pub hi: f64,
     pub unit: String,
+    /// One of the N − 1 variables of a train's split of its total size (`--over split`); the
+    /// split's variables are set together ([`overrides`]).
+    pub split: Option<std::sync::Arc<Split>>,
+}
+
+/// Smallest stick-breaking fraction of a split: every unit keeps at least about this share of
+/// what the units before it left.
+pub const SPLIT_MIN: f64 = 1e-3;
+
+/// The split of a train's total size between its N units, the total held (`optimize --over
+/// split`): N − 1 variables u_k in [SPLIT_MIN, 1 − SPLIT_MIN] give the shares by stick
+/// breaking, share_k = u_k Π_{i<k} (1 − u_i) and the last unit the rest, so that every split
+/// with positive sizes is reachable from a box (common practice for optimising over a simplex).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Split {
+    /// Each unit's size key, `train.<id>.volume` (or `.catalyst`).
+    pub paths: Vec<String>,
+    /// The total size held, SI (m3 or kg).
+    pub total: f64,
+    /// `m3` or `kg`.
+    pub unit: &'static str,
+}
+
+impl Split {
+    /// The split of a study's train; refused for a single vessel or a one-unit train.
+    pub fn of(net: &Network) -> Result<Split, String> {
+        let Some(t) = net.train.as_ref().filter(|t| t.units.len() >= 2) else {
+            return Err(
+                "--over split divides a train's total size between its units; this study has one vessel".into(),
+            );
+        };
+        let catalyst = matches!(t.units[0].reactor, crate::model::Reactor::Pbr { .. });
+        let key = if catalyst { "catalyst" } else { "volume" };
+        Ok(Split {
+            paths: t
+                .units
+                .iter()
+                .map(|u| format!("train.{}.{key}", u.id))
+                .collect(),
+            total: net.size(),
+            unit: if catalyst { "kg" } else { "m3" },
+        })
+    }
+
+    /// The N − 1 variables, starting from an equal split.
+    pub fn variables(self) -> Vec<Variable> {
+        let shared = std::sync::Arc::new(self);
+        (1..shared.paths.len())
+            .map(|k| Variable {
+                path: format!("split.{k}"),
+                lo: SPLIT_MIN,
+                hi: 1.0 - SPLIT_MIN,
+                unit: String::new(),
+                split: Some(shared.clone()),
+            })
+            .collect()
+    }
+
+    /// Each unit's size (SI) from the stick-breaking fractions `u`.
+    pub fn sizes(&self, u: &[f64]) -> Vec<f64> {
+        let mut left = 1.0;
+        let mut out = Vec::with_capacity(self.paths.len());
+        for &f in u {
+            out.push(self.total * left * f);
+            left *= 1.0 - f;
+        }
+        out.push(self.total * left);
+        out
+    }
+
+    /// The overrides that set each unit's size.
+    pub fn overrides(&self, u: &[f64]) -> Vec<Override> {
+        self.paths
+            .iter()
+            .zip(self.sizes(u))
+            .map(|(p, v)| Override {
+                path: p.clone(),
+                value: format!("{v:?} {}", self.unit),
+            })
+            .collect()
+    }
+}
+
+/// The overrides of a point `x` of `vars`: each variable's own, and a split's N − 1 variables
+/// together as the N unit sizes.
+pub fn overrides(vars: &[Variable], x: &[f64]) -> Vec<Override> {
+    let mut out = Vec::new();
+    let mut split: Option<(&Split, Vec<f64>)> = None;
+    for (v, &xv) in vars.iter().zip(x) {
+        match &v.split {
+            None => out.push(v.set(xv)),
+            Some(s) => split.get_or_insert_with(|| (s, Vec::new())).1.push(xv),
+        }
+    }
+    if let Some((s, u)) = split {
+        out.extend(s.overrides(&u));
+    }
+    out
 }
 
 impl Variable {
@@ -69,6 +167,7 @@ impl Variable {
             lo: l,
             hi: h,
             unit: ul,
+            split: None,
         })
     }
 
