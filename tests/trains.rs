@@ -330,3 +330,351 @@ fn run_reports_every_unit_and_a_labelled_profile() {
     assert!(lines[1].starts_with("feed,0"));
     assert!(lines[4].starts_with("R3,3.0"), "{csv}");
 }
+
+fn split_fixture() -> Value {
+    serde_json::from_str(include_str!("reference/cascade_split.json")).expect("fixture parses")
+}
+
+/// A series A -> B -> C (first order) through three tanks: the test values of
+/// tests/reference/cascade_split.py.
+fn series_cascade(each: f64) -> String {
+    let f = split_fixture();
+    format!(
+        "name: series cascade (test values)
+phase: liquid
+species: {{A: null, B: null, C: null}}
+reactions:
+  - {{id: r1, stoich: A -> B, rate: {{k: {} 1/s}}}}
+  - {{id: r2, stoich: B -> C, rate: {{k: {} 1/s}}}}
+feed: {{T: 300 K, volumetric: {} m3/s, concentrations: {{A: {} mol/m3}}}}
+desired: B
+train:
+  - {{id: R1, type: cstr, volume: {each} m3}}
+  - {{id: R2, type: cstr, volume: {each} m3}}
+  - {{id: R3, type: cstr, volume: {each} m3}}
+",
+        f["k1"], f["k2"], f["v0"], f["ca0"]
+    )
+}
+
+/// `optimize --over split`: the division of the total volume between three tanks that
+/// maximises the intermediate B, against scipy's optimum of the tanks-in-series algebra
+/// (tests/reference/cascade_split.py).
+#[test]
+fn the_best_split_of_a_cascade_matches_scipy() {
+    let f = split_fixture();
+    let file = temp_study("split", &series_cascade(0.1));
+    let j = rxnet(&[
+        "optimize",
+        file.p(),
+        "--maximize",
+        "B",
+        "--over",
+        "split",
+        "--format",
+        "json",
+    ])
+    .ok_json();
+    let best = &j["best"];
+    let want = f["split"]["outlet_b"].as_f64().unwrap();
+    let got = best["value"].as_f64().unwrap();
+    assert!(
+        (got - want).abs() <= 1e-7 * want,
+        "B = {got} vs scipy {want}"
+    );
+    assert!(got >= f["split"]["grid_best"].as_f64().unwrap() - 1e-9);
+    let sizes: Vec<f64> = ["R1", "R2", "R3"]
+        .iter()
+        .map(|id| {
+            best["point"][format!("train.{id}.volume")]
+                .as_f64()
+                .unwrap()
+        })
+        .collect();
+    assert!(
+        (sizes.iter().sum::<f64>() - 0.3).abs() < 1e-12,
+        "total held: {sizes:?}"
+    );
+    // The optimum is flat in the two small tanks' split; the big first tank is sharp.
+    let v1 = f["split"]["volumes"][0].as_f64().unwrap();
+    assert!((sizes[0] - v1).abs() < 1e-3 * v1, "{sizes:?}");
+    assert_eq!(j["run"]["units"].as_array().unwrap().len(), 3);
+}
+
+/// `optimize` over the size of a train: the total of three equal tanks (held equal) that
+/// maximises B, against scipy's bounded scalar minimisation of the same algebra.
+#[test]
+fn the_best_total_size_of_a_cascade_matches_scipy() {
+    let f = split_fixture();
+    let file = temp_study("total", &series_cascade(0.1));
+    let j = rxnet(&["optimize", file.p(), "--maximize", "B", "--format", "json"]).ok_json();
+    let want = f["equal_tanks"]["total"].as_f64().unwrap();
+    let size = j["best"]["size"].as_f64().unwrap();
+    assert!(
+        (size - want).abs() < 1e-6 * want,
+        "total {size} vs scipy {want}"
+    );
+    let b = j["best"]["value"].as_f64().unwrap();
+    let bw = f["equal_tanks"]["outlet_b"].as_f64().unwrap();
+    assert!((b - bw).abs() < 1e-9 * bw);
+    for u in j["run"]["units"].as_array().unwrap() {
+        assert!((u["size"].as_f64().unwrap() - want / 3.0).abs() < 1e-6 * want);
+    }
+}
+
+/// `size` of a cascade for a conversion: every tank scaled in proportion, the total from
+/// X = 1 − (1 + kτ/N)^−N, τ = N((1 − X)^(−1/N) − 1)/k (Levenspiel ch. 6).
+#[test]
+fn the_size_of_a_cascade_for_a_conversion_matches_the_closed_form() {
+    let file = temp_study("size", &cascade(3, 0.3));
+    let j = rxnet(&["size", file.p(), "--conversion", "0.95", "--format", "json"]).ok_json();
+    let tau = 3.0 * ((0.05f64).powf(-1.0 / 3.0) - 1.0) / K;
+    let v = j["size"].as_f64().unwrap();
+    assert!(
+        (v - tau * V0).abs() < 1e-9 * tau * V0,
+        "{v} vs {}",
+        tau * V0
+    );
+    assert!((j["run"]["conversion"].as_f64().unwrap() - 0.95).abs() < 1e-9);
+}
+
+/// `compare --reactors cascade:N` screens N equal tanks of the study's volume beside the
+/// single vessels; each conversion against its closed form (Levenspiel ch. 5–6).
+#[test]
+fn compare_screens_cascades_beside_single_vessels() {
+    let file = temp_study("cmp", &first_order("reactor: {type: cstr, volume: 0.3 m3}"));
+    let j = rxnet(&[
+        "compare",
+        file.p(),
+        "--reactors",
+        "pfr,cstr,cascade:3,cascade:10",
+        "--format",
+        "json",
+    ]);
+    let rows = j.ok_json();
+    let a = K * 0.3 / V0;
+    let want = |label: &str| match label {
+        "pfr" => 1.0 - (-a).exp(),
+        "cstr" => a / (1.0 + a),
+        "cascade:3" => 1.0 - (1.0 + a / 3.0).powi(-3),
+        "cascade:10" => 1.0 - (1.0 + a / 10.0).powi(-10),
+        other => panic!("unexpected row {other}"),
+    };
+    let rows = rows.as_array().unwrap();
+    assert_eq!(rows.len(), 4);
+    for r in rows {
+        let label = r["reactor"].as_str().unwrap();
+        let x = r["conversion"].as_f64().unwrap();
+        assert!(
+            (x - want(label)).abs() < 1e-9,
+            "{label}: {x} vs {}",
+            want(label)
+        );
+    }
+    // Ranked by conversion: the tube, then more tanks before fewer.
+    let order: Vec<&str> = rows
+        .iter()
+        .map(|r| r["reactor"].as_str().unwrap())
+        .collect();
+    assert_eq!(order, ["pfr", "cascade:10", "cascade:3", "cstr"]);
+    // At equal conversion every entry is resized (a cascade by scaling its tanks).
+    let eq = rxnet(&[
+        "compare",
+        file.p(),
+        "--reactors",
+        "cstr,cascade:3",
+        "--at-conversion",
+        "0.9",
+        "--format",
+        "json",
+    ])
+    .ok_json();
+    for r in eq.as_array().unwrap() {
+        assert!(
+            (r["conversion"].as_f64().unwrap() - 0.9).abs() < 1e-9,
+            "{r}"
+        );
+    }
+}
+
+/// A sweep over one unit's volume through `--vary train.R2.volume=...`: every point is the
+/// two-tank cascade's closed form X = 1 − 1/((1 + kτ1)(1 + kτ2)) (Levenspiel ch. 6).
+#[test]
+fn a_sweep_over_one_unit_matches_the_closed_form() {
+    let file = temp_study(
+        "sweep",
+        &first_order(
+            "train:\n  - {id: R1, type: cstr, volume: 0.1 m3}\n  - {id: R2, type: cstr, volume: 0.1 m3}",
+        ),
+    );
+    let r = rxnet(&[
+        "sweep",
+        file.p(),
+        "--vary",
+        "train.R2.volume=0.05 m3:0.25 m3:5",
+    ]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let mut lines = r.stdout.lines();
+    let head: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let xc = head
+        .iter()
+        .position(|h| *h == "conversion")
+        .expect("a conversion column");
+    let vc = head
+        .iter()
+        .position(|h| h.starts_with("train.R2.volume"))
+        .expect("the input column");
+    let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
+    assert_eq!(rows.len(), 5);
+    for row in rows {
+        let v2: f64 = row[vc].parse().unwrap();
+        let x: f64 = row[xc].parse().unwrap();
+        let want = 1.0 - 1.0 / ((1.0 + K * 100.0) * (1.0 + K * v2 / V0));
+        assert!((x - want).abs() < 1e-9, "V2 = {v2}: {x} vs {want}");
+    }
+}
+
+/// The runaway study follows one vessel's hot spot: a train is refused with exit 2.
+#[test]
+fn the_runaway_study_refuses_a_train() {
+    let file = temp_study("runaway", &cascade(2, 0.2));
+    let r = rxnet(&[
+        "runaway",
+        file.p(),
+        "--input",
+        "feed.T",
+        "--from",
+        "300 K",
+        "--to",
+        "320 K",
+    ]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(r.stderr.contains("train"), "{}", r.stderr);
+}
+
+/// Bad trains, side feeds and recycles: refused with exit 2, naming the file's field.
+#[test]
+fn bad_trains_are_refused_naming_the_field() {
+    let base = first_order(
+        "train:\n  - {id: R1, type: cstr, volume: 0.1 m3}\n  - {id: R2, type: pfr, volume: 0.1 m3}",
+    );
+    let cases: Vec<(String, &[&str])> = vec![
+        (base.replace("{id: R2, ", "{"), &["train[1]", "needs an `id`"]),
+        (base.replace("id: R2", "id: R1"), &["train[1].id", "duplicate unit id `R1`"]),
+        (
+            base.replace("{id: R1, type: cstr, volume: 0.1 m3}", "{id: R1, type: cstr, volume: 0.1 m3, join: {flows: {A: 1 mol/s}, volumetric: 1 L/s}}"),
+            &["train[0].join", "first unit"],
+        ),
+        (base.replace("{id: R2, type: pfr, volume: 0.1 m3}", "{id: R2, type: pfr, volume: 0.1 m3, bypass: 1.2}"), &["train[1].bypass", "[0, 1)"]),
+        (base.replace("type: pfr", "type: batch, time: 1 h"), &["train[1].type", "batch"]),
+        (base.replace("type: pfr, volume: 0.1 m3", "type: pbr, catalyst: 10 kg"), &["train[1].type", "per catalyst mass"]),
+        (base.replace("{id: R1, type: cstr, volume: 0.1 m3}", "{id: R1, type: cstr, volume: 0.1 m3, recycle: 2}"), &["train[0].recycle", "tube"]),
+        (base.replace("volume: 0.1 m3}\n  - {id: R2, type: pfr, volume: 0.1 m3}", "volume: 0.1 m3}\n  - {id: R2, type: pfr, volume: 0.1 m3, recycle: -1}"), &["train[1].recycle", "zero or positive"]),
+        (base.replace("{id: R2, type: pfr, volume: 0.1 m3}", "{id: R2, type: pfr, volume: 0.1 m3, side_feeds: [{at: 0.2 m3, flows: {A: 1 mol/s}, volumetric: 1 L/s}]}"), &["train[1].side_feeds[0].at", "strictly inside"]),
+        (base.replace("{id: R2, type: pfr, volume: 0.1 m3}", "{id: R2, type: pfr, volume: 0.1 m3, side_feeds: [{at: 0.05 m3, flows: {A: 1 mol/s}}]}"), &["train[1].side_feeds[0]", "volumetric"]),
+        (base.replace("{id: R1, type: cstr, volume: 0.1 m3}", "{id: R1, type: cstr, volume: 0.1 m3, side_feeds: [{at: 0.05 m3, flows: {A: 1 mol/s}, volumetric: 1 L/s}]}"), &["train[0].side_feeds", "tube"]),
+        (first_order("reactor: {type: pfr, volume: 1 m3, id: R1}"), &["reactor.id", "train"]),
+        (format!("{}reactor: {{type: pfr, volume: 1 m3}}\n", base), &["train", "not both"]),
+        (first_order("train: []"), &["train", "at least one unit"]),
+    ];
+    for (k, (yaml, words)) in cases.iter().enumerate() {
+        let file = temp_study("bad-train", yaml);
+        let r = rxnet(&["check", file.p()]);
+        assert_eq!(r.code, 2, "case {k}: exit {}; {}", r.code, r.stderr);
+        assert!(!r.stderr.contains("panicked"), "case {k}: {}", r.stderr);
+        assert!(
+            r.stderr.contains(file.p()),
+            "case {k} names the file: {}",
+            r.stderr
+        );
+        for w in *words {
+            assert!(
+                r.stderr.contains(w),
+                "case {k}: stderr lacks `{w}`:\n{}",
+                r.stderr
+            );
+        }
+    }
+}
+
+/// Streams at different temperatures meeting where no heat capacity is known: the mixture's
+/// temperature is unknown, so the run is refused (exit 2) naming the species, not guessed.
+#[test]
+fn a_join_at_another_temperature_without_heat_capacities_is_refused() {
+    let yaml = first_order(
+        "train:\n  - {id: R1, type: cstr, volume: 0.1 m3}\n  - {id: R2, type: cstr, volume: 0.1 m3, join: {T: 350 K, concentrations: {A: 1 mol/L}, volumetric: 1 L/s}}",
+    );
+    let file = temp_study("join-t", &yaml);
+    let r = rxnet(&["run", file.p()]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
+    assert!(
+        r.stderr.contains("unit `R2`") && r.stderr.contains("`cp`"),
+        "{}",
+        r.stderr
+    );
+}
+
+/// An adiabatic liquid train (tank, tube, tank) with a cold stream joining before the tube:
+/// with constant species cp the enthalpy balance of the whole train closes,
+/// Σ_out F_j cp_j (T_out − T_r) = Σ_in F_j cp_j (T_in − T_r) + (−ΔH) ξ, ξ = F_A,fed − F_A,out
+/// (first law for a steady adiabatic flow system, common practice), and each unit's outlet
+/// lies on its adiabatic line.
+#[test]
+fn an_adiabatic_train_closes_its_enthalpy_balance() {
+    let yaml = "name: adiabatic train (test values)
+phase: liquid
+species: {A: {cp: 150 J/(mol*K)}, B: {cp: 150 J/(mol*K)}, W: {cp: 75 J/(mol*K)}}
+reactions:
+  - {id: r1, stoich: A -> B, rate: {k: 2e-3 1/s, Ea: 70 kJ/mol, T_ref: 320 K, dH: -60 kJ/mol}}
+feed: {T: 320 K, volumetric: 1 L/s, concentrations: {A: 1 mol/L, W: 40 mol/L}}
+train:
+  - {id: R1, type: cstr, volume: 0.2 m3, heat: adiabatic}
+  - {id: R2, type: pfr, volume: 0.2 m3, heat: adiabatic, join: {T: 290 K, concentrations: {A: 1 mol/L, W: 40 mol/L}, volumetric: 0.5 L/s}}
+  - {id: R3, type: cstr, volume: 0.1 m3, heat: adiabatic}
+";
+    let (net, ev) = eval(yaml, Points::Even(5));
+    let t = ev.train.as_ref().unwrap();
+    let cp = [150.0, 150.0, 75.0];
+    let capacity = |f: &[f64]| -> f64 { f.iter().zip(cp).map(|(f, c)| f * c).sum() };
+    let tr = 300.0;
+    let feed = &net.feed;
+    let join = t.units[1]
+        .inlet
+        .amounts
+        .iter()
+        .zip(&t.units[0].outlet.amounts)
+        .map(|(i, o)| i - o)
+        .collect::<Vec<_>>();
+    let h_in = capacity(&feed.amounts) * (feed.temperature - tr) + capacity(&join) * (290.0 - tr);
+    let xi = ev.fed[0] - ev.left[0];
+    let h_out = capacity(&t.outlet.amounts) * (t.outlet.temperature - tr);
+    let scale = capacity(&t.outlet.amounts) * 100.0;
+    assert!(
+        ((h_out - h_in - 60e3 * xi) / scale).abs() < 1e-9,
+        "closure {}",
+        (h_out - h_in - 60e3 * xi) / scale
+    );
+    // The join cools the stream: R2's inlet lies between 290 K and R1's outlet.
+    assert!(t.units[1].inlet.temperature < t.units[0].outlet.temperature);
+    assert!(t.units[1].inlet.temperature > 290.0);
+    // Each unit on its own adiabatic line: T_out − T_in = ΔT_ad of its inlet × its conversion.
+    for u in &t.units {
+        let rise = 60e3 * u.inlet.amounts[0] / capacity(&u.inlet.amounts);
+        let x = (u.fed[0] - u.left[0]) / u.fed[0];
+        assert!(
+            (u.outlet.temperature - u.inlet.temperature - rise * x).abs() < 1e-7,
+            "unit {}",
+            u.id
+        );
+    }
+    // The hot spot is the hottest point of any unit, on the train's coordinate.
+    let h = ev.heat.as_ref().unwrap();
+    assert!(
+        h.hot_spot.temperature
+            >= t.units
+                .iter()
+                .map(|u| u.outlet.temperature)
+                .fold(0.0, f64::max)
+                - 1e-9
+    );
+}

@@ -210,7 +210,15 @@ fn run_unit(
     let around = scaled(&inlet, u.bypass);
     let (pieces, product, recycle) = match u.contacting.recycle {
         Some(ratio) if ratio > 0.0 => {
-            let (pieces, product, run) = recycle_loop(net, u, &through, ratio, offset, opts)?;
+            let (pieces, product, run) = recycle_loop(
+                net,
+                u,
+                &through,
+                ratio,
+                offset,
+                opts,
+                RECYCLE_MAX_ITERATIONS,
+            )?;
             (pieces, product, Some(run))
         }
         _ => {
@@ -380,7 +388,9 @@ fn shifted_walls(c: &Contacting, a: f64) -> Contacting {
     out
 }
 
-/// The recycle loop around a tube: find r with r = R/(R+1) · tube(mix(fresh, r)).
+/// The recycle loop around a tube: find r with r = R/(R+1) · tube(mix(fresh, r)), in at most
+/// `max_passes` passes through the tube.
+#[allow(clippy::too_many_arguments)]
 fn recycle_loop(
     net: &Network,
     u: &Unit,
@@ -388,6 +398,7 @@ fn recycle_loop(
     ratio: f64,
     offset: f64,
     opts: &SolveOptions,
+    max_passes: usize,
 ) -> Result<(Vec<Piece>, Feed, RecycleRun), SolveError> {
     let n = net.species.len();
     let isothermal = u.heat.balance().is_none();
@@ -447,7 +458,7 @@ fn recycle_loop(
     let mut history_z: Vec<Vec<f64>> = Vec::new();
     let mut history_f: Vec<Vec<f64>> = Vec::new();
     let mut change = f64::INFINITY;
-    for it in 1..=RECYCLE_MAX_ITERATIONS {
+    for it in 1..=max_passes {
         let (pieces, out, g) = run(&z)?;
         let f: Vec<f64> = g.iter().zip(&z).map(|(g, z)| g - z).collect();
         change = f.iter().fold(0.0f64, |m, v| m.max(v.abs())) / scale;
@@ -474,7 +485,7 @@ fn recycle_loop(
         z = anderson(&history_z, &history_f, &g);
     }
     Err(SolveError::Recycle(format!(
-        "the recycle around the tube (R = {ratio}) did not converge in {RECYCLE_MAX_ITERATIONS} passes: the recycle stream still changes by {change:.2e} of the fresh flow per pass (tolerance {tol:.1e})"
+        "the recycle around the tube (R = {ratio}) did not converge in {max_passes} passes: the recycle stream still changes by {change:.2e} of the fresh flow per pass (tolerance {tol:.1e}); a recycle stream that will not settle can mean several operating points (as in a CSTR) or none reachable from no recycle"
     )))
 }
 
@@ -666,4 +677,32 @@ fn run_side(run: &UnitRun, k: usize) -> Vec<f64> {
         .zip(before)
         .map(|(i, o)| i - o)
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::load_str;
+
+    /// A loop that has not settled in its passes is an error naming the recycle, not a result.
+    #[test]
+    fn a_recycle_that_does_not_settle_is_an_error() {
+        let net = load_str(
+            "name: t\nphase: liquid\nspecies: {A: null, B: null}\nreactions: [{id: r1, stoich: A -> B, rate: {k: 0.01 1/s}}]\nfeed: {T: 300 K, volumetric: 1 L/s, concentrations: {A: 1 mol/L}}\nreactor: {type: pfr, volume: 0.2 m3, recycle: 3}\n",
+            "t",
+            &[],
+        )
+        .unwrap();
+        let u = &units_of(&net)[0];
+        let opts = SolveOptions::default();
+        let e = recycle_loop(&net, u, &net.feed, 3.0, 0.0, &opts, 2).unwrap_err();
+        match e {
+            SolveError::Recycle(m) => assert!(m.contains("did not converge in 2 passes"), "{m}"),
+            e => panic!("{e}"),
+        }
+        // With its passes it converges (Anderson mixing: a handful).
+        let (_, _, run) =
+            recycle_loop(&net, u, &net.feed, 3.0, 0.0, &opts, RECYCLE_MAX_ITERATIONS).unwrap();
+        assert!(run.iterations < 30, "{}", run.iterations);
+    }
 }
