@@ -368,10 +368,29 @@ pub struct Screen<'a> {
     pub min_conversion: Option<f64>,
 }
 
-/// τ = V/v0 (PFR, CSTR) or t (batch), s; None for a packed bed.
+/// τ = V/v0 (PFR, CSTR) or t (batch), s; None for a packed bed. For a train or a tube with
+/// side feeds v0 is every stream fed (the feed, the joins, the side feeds).
 fn time_scale(n: &Network, size: f64) -> Option<f64> {
+    let joined: f64 = n.train.as_ref().map_or(0.0, |t| {
+        t.units
+            .iter()
+            .map(|u| {
+                u.join.as_ref().map_or(0.0, |j| j.volumetric)
+                    + u.contacting
+                        .side_feeds
+                        .iter()
+                        .map(|s| s.stream.volumetric)
+                        .sum::<f64>()
+            })
+            .sum()
+    }) + n
+        .contacting
+        .side_feeds
+        .iter()
+        .map(|s| s.stream.volumetric)
+        .sum::<f64>();
     match n.reactor {
-        Reactor::Pfr { .. } | Reactor::Cstr { .. } => Some(size / n.feed.volumetric),
+        Reactor::Pfr { .. } | Reactor::Cstr { .. } => Some(size / (n.feed.volumetric + joined)),
         Reactor::Batch { .. } => Some(size),
         Reactor::Pbr { .. } => None,
     }

@@ -613,7 +613,7 @@ fn optimize_train_size(
         let improves_beyond = value(beyond.exp())?.is_some_and(|v| v > values[best].unwrap());
         if open_at_zero && side == Bound::Lower && improves_beyond {
             return Err(StudyError::Infeasible(format!(
-                "{} is best at the smallest total size tried ({:.3e}) and still improves below it: its supremum is approached as the train shrinks to nothing, so no finite size is optimal; add --min-conversion X (or a positive lower bound) to make the problem well posed",
+                "{} is best at the smallest total size tried ({:.3e}) and still improves below it: its supremum is approached as the train shrinks to nothing: no finite optimum; add --min-conversion X (or a positive lower bound) to make the problem well posed",
                 target.label(net),
                 size
             )));
