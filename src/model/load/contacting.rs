@@ -29,8 +29,15 @@ pub(super) fn build_stream(
     cx: &Cx,
 ) -> Result<Feed, LoadError> {
     let raw = RawFeed {
-        t: s.t.clone().unwrap_or(RawQty::Number(sc.feed.temperature)),
-        p: Some(s.p.clone().unwrap_or(RawQty::Number(sc.feed.pressure))),
+        // The feed's values in SI, with their units (a bare number is refused for a quantity
+        // with dimensions).
+        t: s.t
+            .clone()
+            .unwrap_or_else(|| RawQty::Text(format!("{:e} K", sc.feed.temperature))),
+        p: Some(
+            s.p.clone()
+                .unwrap_or_else(|| RawQty::Text(format!("{:e} Pa", sc.feed.pressure))),
+        ),
         flows: s.flows.clone(),
         amounts: None,
         volumetric: s.volumetric.clone(),
