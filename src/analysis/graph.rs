@@ -178,8 +178,8 @@ pub fn analyse(net: &Network) -> GraphReport {
         .filter(|&j| !makers[j].is_empty() && !consumers[j].is_empty())
         .collect();
 
-    // Reachability fixed point from the fed species.
-    let mut present: Vec<bool> = net.feed.amounts.iter().map(|&a| a > 0.0).collect();
+    // Reachability fixed point from the fed species (by the feed or any other route).
+    let mut present = fed_species(net);
     let mut runs = vec![false; nr];
     loop {
         let mut changed = false;
@@ -225,4 +225,36 @@ pub fn analyse(net: &Network) -> GraphReport {
             .collect(),
         dead_reactions: (0..nr).filter(|&i| !runs[i]).collect(),
     }
+}
+
+/// Whether each species is brought into the vessel: by the feed, or by a stream entering
+/// besides it (a side or distributed feed, a join, dosing, or through a membrane wall from a
+/// sweep side that holds it).
+pub fn fed_species(net: &crate::model::Network) -> Vec<bool> {
+    let c = &net.contacting;
+    let mut fed: Vec<bool> = net.feed.amounts.iter().map(|&a| a > 0.0).collect();
+    let streams = c
+        .side_feeds
+        .iter()
+        .map(|s| &s.stream)
+        .chain(c.distributed.iter().map(|d| &d.stream))
+        .chain(
+            net.train
+                .iter()
+                .flat_map(|t| t.units.iter().filter_map(|u| u.join.as_ref())),
+        );
+    for s in streams {
+        for (f, a) in fed.iter_mut().zip(&s.amounts) {
+            *f |= *a > 0.0;
+        }
+    }
+    for d in &c.dosing {
+        for (f, a) in fed.iter_mut().zip(&d.concentrations) {
+            *f |= *a > 0.0;
+        }
+    }
+    for p in &c.membrane {
+        fed[p.species] |= p.sweep > 0.0 && p.coefficient > 0.0;
+    }
+    fed
 }

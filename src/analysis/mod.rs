@@ -294,12 +294,13 @@ pub fn check(net: &Network) -> Check {
         }
     }
     // Species usage.
+    let brought = graph::fed_species(net);
     for (j, s) in net.species.iter().enumerate() {
         let in_any = net
             .reactions
             .iter()
             .any(|r| r.has_reactant(j) || r.has_product(j));
-        let fed = net.feed.amounts[j] > 0.0;
+        let fed = brought[j];
         if !in_any && !fed {
             add(
                 Severity::Warning,

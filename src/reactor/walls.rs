@@ -140,6 +140,24 @@ impl Walls {
     }
 }
 
+impl Walls {
+    /// The species crossing the membrane wall, in the order written.
+    pub fn membrane_species(&self) -> Vec<usize> {
+        self.membrane.iter().map(|p| p.species).collect()
+    }
+
+    /// How much of species j the distributed feeds fed by x (mol/s).
+    pub fn fed_by(&self, j: usize, x: f64) -> f64 {
+        self.fed
+            .iter()
+            .filter_map(|f| {
+                let fj = f.flows.iter().find(|(k, _)| *k == j)?.1;
+                Some(fj * f.shape.integral(f.shape.points[0].0, x))
+            })
+            .sum()
+    }
+}
+
 impl Balance {
     /// The tube's walls, if it has any.
     pub fn walls(&self) -> Option<&Walls> {

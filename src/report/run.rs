@@ -39,6 +39,11 @@ pub struct ProfilePoint {
     /// Volume V, m3, of a constant-pressure gas batch (it follows the moles).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub volume: Option<f64>,
+    /// A tube with a membrane wall: the net amount of each membrane species through the wall
+    /// from the inlet to this point, mol/s (positive: permeate out of the tube; negative: fed
+    /// through the wall from the sweep side).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub permeate: Option<IndexMap<String, f64>>,
     /// Instantaneous selectivity R_D/R_U of the desired product over each other product.
     pub instantaneous_selectivity: IndexMap<String, Option<f64>>,
     /// Instantaneous selectivity of the desired product over all other products together,
@@ -91,6 +96,15 @@ pub struct RunReport {
     /// Why a selectivity is null, per other product.
     pub selectivity_not_defined: IndexMap<String, String>,
     pub element_closure: IndexMap<String, f64>,
+    /// A tube with distributed feeds: everything they fed along the tube, per species, mol/s
+    /// (the conversion, yields and element closure count it as fed).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub distributed_feed: Option<IndexMap<String, f64>>,
+    /// A tube with a membrane wall: the net amount of each membrane species through the wall
+    /// over the whole tube, mol/s (positive: permeate, counted as having left; negative: fed
+    /// through the wall, counted as fed).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub permeate: Option<IndexMap<String, f64>>,
     pub solver: SolveStats,
     /// CSTR: every steady state found (rising conversion), which one this report shows, and
     /// their stability.
@@ -241,9 +255,15 @@ pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
     let feed = &net.feed;
     let p_local = sim.pressure.as_ref().map_or(feed.pressure, |p| p[k]);
     if net.phase != Phase::Gas {
+        // A liquid tube's volumetric flow grows with the streams fed along it.
+        let added = if net.reactor.is_batch() {
+            0.0
+        } else {
+            crate::reactor::added_volumetric(net, sim.x[k])
+        };
         return Conditions {
             pressure: p_local,
-            volumetric: feed.volumetric,
+            volumetric: feed.volumetric + added,
         };
     }
     let n_rt =
@@ -268,6 +288,54 @@ pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
             volumetric: n_rt / p_local,
         },
     }
+}
+
+/// Everything the distributed feeds of a tube fed, per species (mol/s), the species they carry.
+fn distributed_total(net: &Network) -> Option<IndexMap<String, f64>> {
+    let d = &net.contacting.distributed;
+    if d.is_empty() {
+        return None;
+    }
+    Some(
+        net.species
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| d.iter().any(|f| f.stream.amounts[*j] != 0.0))
+            .map(|(j, s)| {
+                (
+                    s.name.clone(),
+                    d.iter().map(|f| f.stream.amounts[j]).sum::<f64>(),
+                )
+            })
+            .collect(),
+    )
+}
+
+/// The net amount of each membrane species through the wall up to profile point k (mol/s,
+/// positive out), from the exchange of the run.
+fn permeate_at(
+    net: &Network,
+    balance: &Balance,
+    sim: &Simulation,
+    k: usize,
+) -> Option<IndexMap<String, f64>> {
+    let ex = sim.exchanged.as_ref()?;
+    let walls = balance.walls()?;
+    let species = walls.membrane_species();
+    if species.is_empty() {
+        return None;
+    }
+    Some(
+        species
+            .into_iter()
+            .map(|j| {
+                (
+                    net.species[j].name.clone(),
+                    ex.left[k][j] - ex.entered[k][j] + walls.fed_by(j, sim.x[k]),
+                )
+            })
+            .collect(),
+    )
 }
 
 /// Whether the coolant temperature varies along a batch (a jacket ramp) without being a state.
@@ -301,7 +369,9 @@ pub fn coolant_temperature(net: &Network, sim: &Simulation, k: usize) -> Option<
 /// Which conditions vary along the profile, and so get a column: (pressure, volumetric).
 fn varying(net: &Network, sim: &Simulation) -> (bool, bool) {
     if net.phase != Phase::Gas {
-        return (false, false);
+        // A liquid tube with distributed feeds: v grows along it.
+        let grows = !net.reactor.is_batch() && !net.contacting.distributed.is_empty();
+        return (false, grows);
     }
     match net.reactor {
         Reactor::Batch {
@@ -378,6 +448,7 @@ pub fn build(
                     pressure: p_varies.then_some(cond.pressure),
                     volumetric_flow: (v_varies && !batch).then_some(cond.volumetric),
                     volume: (v_varies && batch).then_some(cond.volumetric),
+                    permeate: permeate_at(net, balance, sim, k),
                     instantaneous_selectivity_over_all: over_all(&inst),
                     instantaneous_selectivity: inst
                         .into_iter()
@@ -449,6 +520,8 @@ pub fn build(
             .iter()
             .map(|c| (c.element.clone(), c.relative))
             .collect(),
+        distributed_feed: distributed_total(net),
+        permeate: permeate_at(net, balance, sim, last),
         solver: sim.stats.clone(),
         steady_states: sim.steady.as_ref().map(|st| SteadyStatesReport {
             count: st.states.len(),
@@ -644,6 +717,22 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     }
     if !conditions.is_empty() {
         let _ = writeln!(o, "{}", conditions.join(", "));
+    }
+    let listed = |m: &IndexMap<String, f64>| {
+        m.iter()
+            .map(|(s, v)| format!("{s} {} mol/s", num(*v)))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    if let Some(d) = &r.distributed_feed {
+        let _ = writeln!(o, "fed along the tube: {}", listed(d));
+    }
+    if let Some(p) = &r.permeate {
+        let _ = writeln!(
+            o,
+            "through the wall (net, out of the tube positive): {}",
+            listed(p)
+        );
     }
     let w = r.outlet.keys().map(|k| k.len()).max().unwrap_or(7).max(7);
     let flow = if r.state_unit == "mol" {
@@ -982,6 +1071,17 @@ pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String
     if sim.coolant.is_some() || coolant_varies(net) {
         let _ = write!(o, ",T_coolant [K]");
     }
+    let membrane = balance
+        .walls()
+        .map(|w| w.membrane_species())
+        .unwrap_or_default();
+    for &j in &membrane {
+        let _ = write!(
+            o,
+            ",{}",
+            csv_field(&format!("permeate {} [mol/s]", net.species[j].name))
+        );
+    }
     if let Some(d) = net.desired {
         let name = &net.species[d].name;
         for u in metrics::products(net).into_iter().filter(|&u| u != d) {
@@ -1017,6 +1117,11 @@ pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String
         }
         if let Some(ta) = coolant_temperature(net, sim, k) {
             let _ = write!(o, ",{ta:.12e}");
+        }
+        if let Some(q) = permeate_at(net, balance, sim, k) {
+            for v in q.values() {
+                let _ = write!(o, ",{v:.12e}");
+            }
         }
         if net.desired.is_some() {
             let inst = metrics::instantaneous_selectivity(

@@ -88,6 +88,21 @@ impl HeatChoice {
 }
 
 pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
+    // A tube's walls (a feed along its length, a membrane) have no counterpart in a tank or a
+    // batch: moving the study there would drop them silently.
+    let c = &net.contacting;
+    if kind != Kind::Pfr && (!c.distributed.is_empty() || !c.membrane.is_empty()) {
+        return Err(format!(
+            "the {} has {} along its length, which a {} does not: it is compared only as a tube (for a stream added to a tank use a `join` in a `train`, to a batch `dosing`)",
+            net.reactor.kind(),
+            match (c.distributed.is_empty(), c.membrane.is_empty()) {
+                (false, false) => "a distributed feed and a membrane wall",
+                (false, true) => "a distributed feed",
+                _ => "a membrane wall",
+            },
+            kind.name()
+        ));
+    }
     let mut n = net.clone();
     // Heat exchange moves with the vessel: U·a per reactor volume along a tube is U·A = U·a·V
     // in total for a tank of the same volume (and back); a coolant stream is modelled along

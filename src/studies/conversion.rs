@@ -57,6 +57,7 @@ fn limit_reason(net: &Network, y: &[f64]) -> String {
 /// from the 1/V tail, X_eq ≈ X(10V) + (X(10V) − X(V))/9.
 pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, StudyError> {
     refuse_heat_cstr(net, "the volume that reaches a conversion")?;
+    refuse_walls(net, "the size that reaches a conversion")?;
     let b = Balance::new(net).map_err(StudyError::Invalid)?;
     if solve::shooting::is_counter_current(&b) {
         return Err(StudyError::Invalid(solve::shooting::size_study_refusal(
@@ -175,6 +176,28 @@ pub fn refuse_heat_cstr(net: &Network, what: &str) -> Result<(), StudyError> {
     if matches!(net.reactor, Reactor::Cstr { .. }) && net.heat.balance().is_some() {
         return Err(StudyError::Invalid(format!(
             "{what} is not searched for a CSTR with an energy balance (reactor.heat): its conversion is not monotone in the volume and jumps at ignition and extinction, so a search over V could land on a branch the vessel does not hold; run it at chosen volumes instead (`rxnet sweep` over reactor.volume, or `rxnet run --set reactor.volume=...`, which list every steady state)"
+        )));
+    }
+    Ok(())
+}
+
+/// Refuse a search over the size of a tube with walls (`what` names it). A distributed feed
+/// enters over a stretch fixed along the tube as written and a membrane's species leave by
+/// the wall, so neither the conversion against the feed alone nor a tube made longer or
+/// shorter than written keeps the pattern the study describes. Runs at chosen sizes (`run`,
+/// `sweep` over the size, which judge everything fed and everything that left) do.
+pub fn refuse_walls(net: &Network, what: &str) -> Result<(), StudyError> {
+    let c = &net.contacting;
+    if !c.distributed.is_empty() || !c.membrane.is_empty() {
+        return Err(StudyError::Invalid(format!(
+            "{what} is not searched for a tube with {}: the stretches and the wall are fixed along the tube as written, so a tube of another size is another pattern; run it at chosen sizes instead (`rxnet sweep` over {}, or `rxnet run --set {}=...`)",
+            if c.distributed.is_empty() {
+                "a membrane wall"
+            } else {
+                "a distributed feed"
+            },
+            net.size_path(),
+            net.size_path()
         )));
     }
     Ok(())

@@ -160,6 +160,7 @@ pub fn optimize_size(
         return Err(StudyError::Invalid("the key reactant is not fed".into()));
     }
     super::conversion::refuse_heat_cstr(net, "the optimum volume")?;
+    super::conversion::refuse_walls(net, "the optimum size")?;
     let min_conversion = min_conversion.filter(|x| *x > 0.0);
     let lo_open = lo == 0.0;
     let lo_eff = if lo_open { ZERO_SIZE * hi } else { lo };

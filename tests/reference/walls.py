@@ -117,7 +117,7 @@ def parallel_study(feed_b_at_inlet, distributed, heat="", cps=None, ea=None):
         feed = f"feed: {{T: 320 K, volumetric: {num(V0 + QB)} m3/s, flows: {{A: {num(FA0)} mol/s, B: {num(FB)} mol/s}}}}\n"
     else:
         feed = f"feed: {{T: 320 K, volumetric: {num(V0)} m3/s, flows: {{A: {num(FA0)} mol/s}}}}\n"
-    return (f"name: series-parallel with B along the tube (demo values)\nphase: liquid\n{sp}"
+    return (f"name: parallel A + B -> R, 2 B -> S, B along the tube (demo values)\nphase: liquid\n{sp}"
             f"reactions:\n{rx}{feed}reactor:\n  type: pfr\n  volume: {num(V)} m3\n{heat}{distributed}"
             "desired: R\n")
 
