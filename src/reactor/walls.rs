@@ -297,6 +297,19 @@ impl Balance {
         }
     }
 
+    /// With an energy balance and a distributed feed: the adiabatic temperature rise reported
+    /// (ΔT_ad, [`crate::safety`]) is the inlet feed's, and the streams fed along the tube bring
+    /// more reactant and heat capacity; say so beside the result.
+    pub fn wall_warning(&self, net: &Network) -> Option<String> {
+        let w = self.walls.as_ref()?;
+        (self.energy.is_some() && !w.fed.is_empty()).then(|| {
+            format!(
+                "the adiabatic temperature rise ΔT_ad is that of the inlet feed of `{}`; the streams fed along the tube bring more reactant (and heat capacity), so the rise they allow can differ: judge the hazard on the temperature profile",
+                net.species[net.key].name
+            )
+        })
+    }
+
     /// What entered and left through the walls, cumulative to each profile point (x, full
     /// state y): the distributed streams' share by x (F_j,d times the fraction of the shape's
     /// integral up to x) and the net wall flux Q_j, counted as entered where negative (a

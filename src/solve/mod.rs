@@ -558,7 +558,7 @@ pub fn simulate_with(
         }
         // The temperatures to check against the heat-capacity ranges: the profile points and
         // the extremes over the whole reactor (located between steps).
-        let warnings = temperature
+        let mut warnings = temperature
             .as_ref()
             .map(|t| {
                 let (mut xs, mut ts) = (sol.x.clone(), t.clone());
@@ -569,6 +569,7 @@ pub fn simulate_with(
                 range_warnings(net, balance, &xs, &ts, x_name, x_unit)
             })
             .unwrap_or_default();
+        warnings.extend(balance.wall_warning(net));
         Simulation {
             x_name,
             x_unit,
