@@ -7,7 +7,8 @@
 //!   which is v = v0 (F_T/F_T0)(P0/P); for a first-order A -> products at constant P this is
 //!   v = v0 (1 + ε X) (Levenspiel ch. 5);
 //! - gas batch at constant volume: P = N_T R T / V; at constant pressure: V = N_T R T / P0;
-//! - liquid (constant density): v = v0 and V = V0; the pressure is the feed's, not computed.
+//! - liquid (constant density): v = v0 and V = V0, plus in a tube what its distributed feeds
+//!   have added by x (v = v0 + Σ_d q_d ∫_0^x w_d); the pressure is the feed's, not computed.
 
 use super::num;
 use crate::metrics::{self, Metrics};
@@ -33,7 +34,8 @@ pub struct ProfilePoint {
     /// Pressure, Pa, where it varies (packed bed with pressure drop, constant-volume gas batch).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pressure: Option<f64>,
-    /// Volumetric flow v, m3/s, of a gas flow reactor (it varies with the moles and P).
+    /// Volumetric flow v, m3/s, of a gas flow reactor (it varies with the moles and P) or of a
+    /// liquid tube with distributed feeds (it grows with them).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub volumetric_flow: Option<f64>,
     /// Volume V, m3, of a constant-pressure gas batch (it follows the moles).
@@ -67,7 +69,8 @@ pub struct RunReport {
     pub outlet_pressure: f64,
     /// Inlet volumetric flow v0, m3/s (flow reactors).
     pub inlet_volumetric_flow: Option<f64>,
-    /// Outlet volumetric flow v, m3/s (flow reactors): F_T R T / P for a gas, v0 for a liquid.
+    /// Outlet volumetric flow v, m3/s (flow reactors): F_T R T / P for a gas, v0 for a liquid
+    /// (plus the streams fed along a tube).
     pub outlet_volumetric_flow: Option<f64>,
     /// Charged volume V0, m3 (batch).
     pub initial_volume: Option<f64>,
@@ -981,6 +984,9 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
     if first.coolant_temperature.is_some() {
         header.push("T_coolant [K]".into());
     }
+    if let Some(q) = &first.permeate {
+        header.extend(q.keys().map(|s| format!("permeate {s} [mol/s]")));
+    }
     if let Some(d) = &r.desired {
         header.extend(
             first
@@ -1000,6 +1006,9 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
             row.extend(p.volume.map(|v| num(v * 1e3)));
             row.extend(p.temperature.map(num));
             row.extend(p.coolant_temperature.map(num));
+            if let Some(q) = &p.permeate {
+                row.extend(q.values().map(|v| num(*v)));
+            }
             if r.desired.is_some() {
                 row.extend(
                     p.instantaneous_selectivity
@@ -1047,7 +1056,9 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
 
 /// The profile as CSV: the independent variable, every species, then P where it varies
 /// (packed bed with pressure drop, constant-volume gas batch), the volumetric flow v of a gas
-/// flow reactor or the volume V of a constant-pressure gas batch, then the instantaneous
+/// flow reactor (or of a liquid tube with distributed feeds) or the volume V of a
+/// constant-pressure gas batch, T and the coolant's T where they are states, the net permeate
+/// of each membrane species (positive out of the tube), then the instantaneous
 /// selectivities of the desired product over each other product and over all of them (empty
 /// where not defined).
 pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String {
