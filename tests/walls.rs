@@ -86,6 +86,15 @@ fn against_fixture(name: &str, tol: f64) -> (rxnet::Network, Simulation) {
                 &format!("T at x = {x}"),
             );
         }
+        if let Some(p) = case.get("pressure_ratio") {
+            // scipy solve_ivp Radau rtol 1e-11 (tests/reference/walls.py)
+            a.check(
+                sim.pressure.as_ref().unwrap()[k] / net.feed.pressure,
+                fv(p)[k],
+                tol,
+                &format!("P/P0 at x = {x}"),
+            );
+        }
         if let Some(q) = case.get("permeate") {
             let q = fv(q)[k];
             let ex = sim
@@ -227,6 +236,14 @@ fn membrane_beats_the_closed_tube_equilibrium() {
         (xc - x_eq).abs() < 1e-6,
         "closed tube X = {xc} vs X_eq {x_eq}"
     );
+}
+
+/// A packed bed with pressure drop and a membrane (coefficient per catalyst mass): species,
+/// permeate and P/P0 against scipy.
+#[test]
+fn membrane_packed_bed_matches_scipy() {
+    let (net, sim) = against_fixture("membrane_pbr", 1e-7);
+    elements_close(&net, &sim);
 }
 
 /// A reactant fed through the wall from a sweep richer than the tube (negative permeation):

@@ -28,6 +28,9 @@ Cases:
     of a pure A feed (own derivation: K_c = C_T0 X^2 / (1 - X^2) from F_A = F0 (1 - X),
     F_B = F_C = F0 X, F_T = F0 (1 + X)).
   membrane_feed: liquid A + B -> P with B entering through the wall from a sweep at 500 mol/m3.
+  membrane_pbr: the membrane_gas scheme in a packed bed with pressure drop, rates and the wall
+    coefficient per catalyst mass: C_j = C_T0 p F_j / F_T, dp/dW = -(alpha / 2p)(F_T / F_T0)
+    (isothermal; Ergun lumped, common practice).
 
 Integration: scipy.integrate.solve_ivp, method Radau, rtol 1e-11, atol 1e-13 per unit of each
 state, piece by piece between the shape's points (where the right-hand side kinks or jumps).
@@ -269,6 +272,31 @@ cases["membrane_feed"] = {
               f"  membrane: [{{species: B, coefficient: {num(KMB)} 1/s, sweep: {num(CSW)} mol/m3}}]\n"),
     "x": x, "states": [s[:3] for s in y], "permeate": [s[3] for s in y],
     "species": ["A", "B", "P"], "permeate_species": "B"}
+
+# ---- membrane in a packed bed with pressure drop (demo values) ----
+KFW, KMW, ALPHA, WB = 0.01, 0.04, 0.005, 100.0   # m3/(kg s), m3/(kg s), 1/kg, kg
+
+
+def membrane_pbr_rhs(x, y):
+    fa, fb, fc, q, p = y
+    ft = fa + fb + fc
+    ca, cb, cc = (CTM * p * f / ft for f in (fa, fb, fc))
+    r = KFW * (ca - cb * cc / KC)
+    flux = KMW * cc
+    return [-r, r, r - flux, flux, -ALPHA / (2 * p) * ft / FM]
+
+
+x, y = integrate(membrane_pbr_rhs, [FM, 0.0, 0.0, 0.0, 1.0], WB, [])
+cases["membrane_pbr"] = {
+    "study": ("name: membrane packed bed, C taken out through the wall (demo values)\nphase: gas\n"
+              "species:\n  A: {formula: C4H10}\n  B: {formula: C4H8}\n  C: {formula: H2}\n"
+              f"reactions:\n  - {{id: r1, stoich: A <=> B + C, rate: {{k: {num(KFW)} m3/(kg*s), K_eq: {num(KC)} mol/m3}}}}\n"
+              f"feed: {{T: {num(TM)} K, P: {num(PM)} Pa, flows: {{A: {num(FM)} mol/s}}}}\n"
+              f"reactor:\n  type: pbr\n  catalyst: {num(WB)} kg\n  pressure_drop: {{alpha: {num(ALPHA)} 1/kg}}\n"
+              f"  membrane: [{{species: C, coefficient: {num(KMW)} m3/(kg*s)}}]\n"),
+    "x": x, "states": [s[:3] for s in y], "permeate": [s[3] for s in y],
+    "pressure_ratio": [s[4] for s in y],
+    "species": ["A", "B", "C"], "permeate_species": "C"}
 
 json.dump({
     "scipy": scipy.__version__,
