@@ -491,3 +491,38 @@ fn size_refuses_the_walls() {
         run.stderr
     );
 }
+
+/// An energy balance needs the heat capacity of a species fed only along the tube (it would
+/// otherwise carry no heat into the stream): refused at load with the field and the species
+/// named, exit 2 (and by the balances' own setup for a study moved to an energy balance by
+/// `compare --heat`).
+#[test]
+fn an_energy_balance_needs_the_cp_of_a_species_fed_along_the_tube() {
+    let y = TUBE
+        .replace(
+            "  A: {formula: C2H4}\n",
+            "  A: {formula: C2H4, cp: 100 J/(mol*K)}\n",
+        )
+        .replace(
+            "  R: {formula: C2H4Br2}\n",
+            "  R: {formula: C2H4Br2, cp: 150 J/(mol*K)}\n",
+        )
+        .replace(
+            "  S: {formula: Br4}\n",
+            "  S: {formula: Br4, cp: 100 J/(mol*K)}\n",
+        )
+        .replace("m3/(mol*s)}}\n", "m3/(mol*s), dH: -20 kJ/mol}}\n")
+        .replace("  volume: 1 m3\n", "  volume: 1 m3\n  heat: adiabatic\n");
+    refused(
+        "walls-cp",
+        &y,
+        "- from: 0 m3",
+        &["reactor.distributed_feeds[0]", "heat capacity of `B`"],
+    );
+    let ok = y.replace(
+        "  B: {formula: Br2}\n",
+        "  B: {formula: Br2, cp: 50 J/(mol*K)}\n",
+    );
+    let run = run_args("walls-cp-ok", &ok, &[]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+}

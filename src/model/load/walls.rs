@@ -54,7 +54,7 @@ pub(super) fn build_walls(
 ) -> Result<(Vec<DistributedFeed>, Vec<Permeation>), LoadError> {
     let distributed = match &r.distributed_feeds {
         None => Vec::new(),
-        Some(list) => build_distributed(list, at, reactor, sc, cx)?,
+        Some(list) => build_distributed(list, r.heat.as_ref(), at, reactor, sc, cx)?,
     };
     let membrane = match &r.membrane {
         None => Vec::new(),
@@ -66,6 +66,7 @@ pub(super) fn build_walls(
 /// The distributed feeds of a tube, each with its shape normalised to an integral of 1.
 fn build_distributed(
     list: &[RawDistributedFeed],
+    heat: Option<&RawHeat>,
     at: &str,
     reactor: &Reactor,
     sc: &StreamContext,
@@ -131,9 +132,49 @@ fn build_distributed(
             Some(points) => build_shape(points, &f, from, to, (dim, what, ex, unit), cx)?,
         };
         let stream = build_stream(&d.stream(), &f, sc, cx)?;
+        needs_cp(r_heat_uses_species_cp(heat), &stream, &f, sc, cx)?;
         out.push(DistributedFeed { stream, shape });
     }
     Ok(out)
+}
+
+/// Whether the vessel's `heat` is an energy balance on the species' heat capacities (not
+/// isothermal, no `mixture_cp`).
+fn r_heat_uses_species_cp(heat: Option<&RawHeat>) -> bool {
+    match heat {
+        None => false,
+        Some(RawHeat::Word(w)) => w.trim() != "isothermal",
+        Some(RawHeat::Map(m)) => m.mixture_cp.is_none(),
+    }
+}
+
+/// With an energy balance on species data, every species a distributed stream brings needs
+/// its heat capacity (the stream is brought to the tube's temperature).
+fn needs_cp(
+    energy: bool,
+    stream: &Feed,
+    f: &str,
+    sc: &StreamContext,
+    cx: &Cx,
+) -> Result<(), LoadError> {
+    if !energy {
+        return Ok(());
+    }
+    if let Some(j) = (0..stream.amounts.len())
+        .find(|&j| stream.amounts[j] > 0.0 && sc.species[j].thermo.cp.is_none())
+    {
+        let name = &sc.species[j].name;
+        return Err(cx.err(
+            f,
+            &format!(
+                "an energy balance needs the heat capacity of `{name}`, which this stream brings along the tube"
+            ),
+            Some(format!(
+                "give `species.{name}.cp` (e.g. `cp: 75 J/(mol*K)`), or a `heat.mixture_cp` for a liquid"
+            )),
+        ));
+    }
+    Ok(())
 }
 
 /// A shape [[x, weight], ...]: x ascending within [from, to], weights ≥ 0 and not all 0;
