@@ -111,7 +111,7 @@ impl Balance {
                 extra.push(StateKind::CoolantTemperature);
             }
         }
-        let mut walls = super::walls::Walls::new(net);
+        let mut walls = super::walls::Walls::new(net)?;
         extra.extend(walls.iter().flat_map(|w| w.states()));
         let layout = StateLayout::new(net, &extra);
         if let Some(w) = &mut walls {

@@ -61,11 +61,21 @@ pub struct Walls {
 }
 
 impl Walls {
-    /// The walls of the network's vessel, `None` for a tube without them (or any other vessel).
-    pub(super) fn new(net: &Network) -> Option<Walls> {
+    /// The walls of the network's vessel, `None` without them; an error on a vessel that is
+    /// not a tube (the loader refuses that; a network changed in code gets the same answer).
+    pub(super) fn new(net: &Network) -> Result<Option<Walls>, String> {
         let c = &net.contacting;
         if c.distributed.is_empty() && c.membrane.is_empty() {
-            return None;
+            return Ok(None);
+        }
+        if !matches!(
+            net.reactor,
+            crate::model::Reactor::Pfr { .. } | crate::model::Reactor::Pbr { .. }
+        ) {
+            return Err(format!(
+                "distributed feeds and membrane walls belong to a tube (pfr or pbr), not a {}",
+                net.reactor.kind()
+            ));
         }
         let size = net.size();
         let fed: Vec<FedAlong> = c
@@ -92,12 +102,12 @@ impl Walls {
             .collect();
         breakpoints.sort_by(f64::total_cmp);
         breakpoints.dedup();
-        Some(Walls {
+        Ok(Some(Walls {
             fed,
             membrane: c.membrane.clone(),
             permeate: Vec::new(),
             breakpoints,
-        })
+        }))
     }
 
     /// The extra states: one cumulative permeate per membrane species.
