@@ -191,19 +191,12 @@ impl Contacting {
         }
     }
 
-    /// Move the positions along a tube (side feeds, distributed feeds' shapes) with its
-    /// length scaled by `factor`: each keeps its fraction of the way along.
+    /// Move the side feeds along a tube whose length is scaled by `factor`: each keeps its
+    /// fraction of the way along. (A tube with walls is not resized: its stretches are fixed
+    /// as written, `studies::conversion::refuse_walls`.)
     pub fn scale_positions(&mut self, factor: f64) {
         for s in &mut self.side_feeds {
             s.at *= factor;
-        }
-        for d in &mut self.distributed {
-            for p in &mut d.shape.points {
-                p.0 *= factor;
-                // The shape is an intensity per unit of x: stretched by `factor`, it keeps its
-                // total by dividing the intensity.
-                p.1 /= factor;
-            }
         }
     }
 

@@ -53,6 +53,8 @@ pub struct Balance {
     /// schedules (net volumetric inflow per unit of x: dosing less withdrawal, or a feed
     /// distributed along the tube); empty for a plain vessel.
     pub(super) growth: Vec<crate::model::Schedule>,
+    /// A tube's distributed feeds and membrane wall ([`super::walls`]), if it has any.
+    pub(super) walls: Option<super::walls::Walls>,
 }
 
 /// Networks with at most this many species keep their concentrations on the stack in
@@ -109,8 +111,15 @@ impl Balance {
                 extra.push(StateKind::CoolantTemperature);
             }
         }
+        let mut walls = super::walls::Walls::new(net)?;
+        extra.extend(walls.iter().flat_map(|w| w.states()));
         let layout = StateLayout::new(net, &extra);
+        if let Some(w) = &mut walls {
+            w.place(&layout);
+        }
         Ok(Balance {
+            growth: walls.as_ref().map_or_else(Vec::new, |w| w.growth(net)),
+            walls,
             t_index: layout.index_of(StateKind::Temperature),
             coolant_index: layout.index_of(StateKind::CoolantTemperature),
             energy,
@@ -133,7 +142,6 @@ impl Balance {
             temperature: feed.temperature,
             alpha,
             total0: feed.total(),
-            growth: Vec::new(),
         })
     }
 
@@ -174,6 +182,7 @@ impl Balance {
                 y.push(inlet);
             }
         }
+        y.resize(self.dim(), 0.0); // the permeate of a membrane wall starts at 0
         y
     }
 
@@ -302,6 +311,9 @@ impl Balance {
             let p = y[self.n_species];
             dydx[self.n_species] = -alpha / (2.0 * p) * (s / self.total0);
         }
+        if let Some(w) = &self.walls {
+            self.add_walls(w, x, y, kappa, dydx);
+        }
     }
 
     /// ∂(dy/dx)/∂y at x = 0 as (row, column, value) triplets; duplicates add.
@@ -367,6 +379,9 @@ impl Balance {
                 out.push((n, k, -alpha / (2.0 * p * self.total0)));
             }
             out.push((n, n, alpha * s / (2.0 * p * p * self.total0)));
+        }
+        if let Some(w) = &self.walls {
+            self.wall_jacobian(w, x, y, None, out);
         }
     }
 }
@@ -507,5 +522,62 @@ mod energy_tests {
             "{CP}phase: gas\nreactions:\n  - {{id: r1, stoich: A + B -> 2 C, rate: {{k: 1e-6 m6/(mol*kg*s), Ea: 50 kJ/mol, dH: -50 kJ/mol}}}}\n  - {{id: r2, stoich: C <=> D, rate: {{k: 0.2 m3/(kg*s), K_eq: 3, dH: -20 kJ/mol}}}}\nfeed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor: {{type: pbr, catalyst: 10 kg, pressure_drop: {{alpha: 0.01 1/kg}}, heat: {{UA: 30 W/(kg*K), coolant: {{T_in: 480 K, mass_flow: 0.2 kg/s, cp: 2 kJ/(kg*K), direction: co_current}}}}}}\n"
         );
         fd_check(&pbr, &with(&[0.7, 530.0, 490.0]));
+    }
+}
+
+#[cfg(test)]
+mod wall_tests {
+    use super::tests_support::*;
+
+    const CP: &str = "name: t\nspecies: {A: {cp: 150 J/(mol*K)}, B: {cp: 90 J/(mol*K)}, C: {cp: 120 J/(mol*K)}, D: {cp: 60 J/(mol*K)}, E: {cp: 40 J/(mol*K)}, I: {cp: 30 J/(mol*K)}}\n";
+    const REACTIONS: &str = "reactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-3 m3/(mol*s), Ea: 60 kJ/mol, T_ref: 450 K, dH: -90 kJ/mol}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 1/s, Ea: 40 kJ/mol, K_eq: 3, dH: -30 kJ/mol}}\n";
+    /// A distributed feed whose shape is non-zero at the check's x = 120 and a membrane with a
+    /// species leaving and one entering from the sweep.
+    const WALLS: &str = "  distributed_feeds: [{from: 100 m3, to: 250 m3, flows: {B: 0.7 mol/s, I: 0.2 mol/s}, volumetric: 1 L/s, T: 350 K, shape: [[100 m3, 1], [150 m3, 3], [250 m3, 0.5]]}]\n  membrane: [{species: C, coefficient: 0.01 1/s}, {species: A, coefficient: 0.003 1/s, sweep: 900 mol/m3}]\n";
+
+    /// The Jacobians with a tube's walls (distributed feed, membrane; liquid, gas, packed bed
+    /// with pressure drop, energy balances with species Cp and with a mixture heat capacity)
+    /// against central finite differences (common practice).
+    #[test]
+    fn wall_jacobians_match_finite_differences() {
+        // species, then permeate of C and A (plus P/P0, T where present, before them).
+        let y = [0.8, 0.5, 0.3, 0.2, 0.1, 0.4];
+        let with = |extra: &[f64]| [&y[..], extra].concat();
+        let liquid = format!(
+            "{CP}phase: liquid\n{REACTIONS}feed: {{T: 300 K, volumetric: 2 L/s, flows: {{A: 1 mol/s, B: 1 mol/s}}}}\nreactor:\n  type: pfr\n  volume: 300 m3\n{WALLS}"
+        );
+        fd_check(&liquid, &with(&[0.01, -0.02]));
+        let liquid_heat = liquid.replace("  type: pfr\n", "  type: pfr\n  heat: adiabatic\n");
+        fd_check(&liquid_heat, &with(&[330.0, 0.01, -0.02]));
+        let mixture = liquid.replace(
+            "  type: pfr\n",
+            "  type: pfr\n  heat: {mixture_cp: 3.9 kJ/(kg*K), density: 900 kg/m3, UA: 5 W/(m3*K), coolant: {T: 300 K}}\n",
+        );
+        fd_check(&mixture, &with(&[330.0, 0.01, -0.02]));
+        let gas = format!(
+            "{CP}phase: gas\n{REACTIONS}feed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor:\n  type: pfr\n  volume: 300 m3\n{}",
+            WALLS
+                .replace("sweep: 900 mol/m3", "sweep: 200 mol/m3")
+                .replace(", volumetric: 1 L/s", "")
+        );
+        fd_check(&gas, &with(&[0.01, -0.02]));
+        let gas_heat = gas.replace(
+            "  type: pfr\n",
+            "  type: pfr\n  heat: {U: 100 W/(m2*K), area: 50 m2/m3, coolant: {T: 450 K}}\n",
+        );
+        fd_check(&gas_heat, &with(&[520.0, 0.01, -0.02]));
+        let pbr = format!(
+            "{CP}phase: gas\nreactions:\n  - {{id: r1, stoich: A + B -> 2 C, rate: {{k: 1e-6 m6/(mol*kg*s), Ea: 50 kJ/mol, dH: -50 kJ/mol}}}}\n  - {{id: r2, stoich: C <=> D, rate: {{k: 0.2 m3/(kg*s), K_eq: 3, dH: -20 kJ/mol}}}}\nfeed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor:\n  type: pbr\n  catalyst: 300 kg\n  heat: {{UA: 30 W/(kg*K), coolant: {{T: 480 K}}}}\n  membrane: [{{species: C, coefficient: 0.01 m3/(kg*s)}}, {{species: A, coefficient: 0.003 m3/(kg*s), sweep: 200 mol/m3}}]\n"
+        );
+        fd_check(&pbr, &with(&[530.0, 0.01, -0.02]));
+        let pbr_dp = pbr.replace(
+            "  catalyst: 300 kg\n",
+            "  catalyst: 300 kg\n  pressure_drop: {alpha: 0.001 1/kg}\n",
+        );
+        fd_check(&pbr_dp, &with(&[0.7, 530.0, 0.01, -0.02]));
+        let pbr_feed = format!(
+            "{CP}phase: gas\nreactions:\n  - {{id: r1, stoich: A + B -> 2 C, rate: {{k: 1e-6 m6/(mol*kg*s), Ea: 50 kJ/mol, dH: -50 kJ/mol}}}}\nfeed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor:\n  type: pbr\n  catalyst: 300 kg\n  heat: adiabatic\n  distributed_feeds: [{{from: 100 kg, flows: {{B: 0.7 mol/s}}, T: 420 K}}]\n  membrane: [{{species: C, coefficient: 0.01 m3/(kg*s)}}]\n"
+        );
+        fd_check(&pbr_feed, &with(&[530.0, 0.01]));
     }
 }

@@ -102,8 +102,9 @@ impl Energy {
             });
         }
         if mixture.is_none() {
-            let fed_or_made =
-                |j: usize| net.feed.amounts[j] > 0.0 || net.reactions.iter().any(|r| r.nu(j) > 0.0);
+            // Fed by the feed or by any other route (a stream along a tube, through a wall).
+            let brought = net.fed_species();
+            let fed_or_made = |j: usize| brought[j] || net.reactions.iter().any(|r| r.nu(j) > 0.0);
             if let Some(j) = (0..net.species.len()).find(|&j| fed_or_made(j) && cp[j].is_none()) {
                 return Err(format!(
                     "an energy balance needs the heat capacity of `{}`",

@@ -41,11 +41,13 @@ mod ergun;
 pub mod mixing;
 mod nonisothermal;
 mod state;
+mod walls;
 
 pub use balance::Balance;
 pub use energy::Energy;
 pub use ergun::ergun_alpha;
 pub use state::{StateKind, StateLayout, StateVar};
+pub use walls::{Walls, added_volumetric};
 
 /// A reactor model as the solver sees it: the state layout, dy/dx and its Jacobian.
 pub trait Model {

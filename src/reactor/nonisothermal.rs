@@ -59,8 +59,12 @@ impl Balance {
             }
         }
         let ta = self.coolant_temperature(e, x, y);
-        let (cap, _) = e.capacity(&y[..n], t);
+        let (cap, _) = self.heat_capacity(e, x, &y[..n], t);
         dydx[ti] = (e.ua * (ta - t) + release) / cap;
+        if let Some(w) = &self.walls {
+            self.add_walls(w, x, y, kappa, dydx);
+            dydx[ti] += self.wall_heat(e, w, x, t).0 / cap;
+        }
         if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
             let sign = if counter { -1.0 } else { 1.0 };
             dydx[k] = sign * e.ua * (t - ta) / capacity;
@@ -176,7 +180,7 @@ impl Balance {
             out.push((j, ti, col_t[j]));
         }
         let ta = self.coolant_temperature(e, x, y);
-        let (cap, dcap_dt) = e.capacity(&y[..n], t);
+        let (cap, dcap_dt) = self.heat_capacity(e, x, &y[..n], t);
         let f_t = (e.ua * (ta - t) + release) / cap;
         for (k, row) in energy_row.iter().enumerate() {
             out.push((
@@ -204,6 +208,9 @@ impl Balance {
             }
             out.push((n, n, -f_p / p));
             out.push((n, ti, f_p / t));
+        }
+        if let Some(w) = &self.walls {
+            self.wall_jacobian(w, x, y, Some((e, ti, cap)), out);
         }
     }
 }

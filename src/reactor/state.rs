@@ -15,6 +15,10 @@ pub enum StateKind {
     Temperature,
     /// The temperature of a coolant stream along a tube (K).
     CoolantTemperature,
+    /// The cumulative net flux of species j through a tube's membrane wall, ∫ k_m (C_j −
+    /// C_j,sweep) dx from the inlet (mol/s; positive out of the tube), present only with a
+    /// membrane ([`super::walls`]).
+    Permeate(usize),
 }
 
 /// One entry of the state vector.
@@ -67,6 +71,11 @@ impl StateLayout {
                     kind: *kind,
                     name: "T_a".into(),
                     unit: "K",
+                },
+                StateKind::Permeate(j) => StateVar {
+                    kind: *kind,
+                    name: format!("Q_{}", net.species[*j].name),
+                    unit: "mol/s",
                 },
             });
         }

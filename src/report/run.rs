@@ -7,7 +7,8 @@
 //!   which is v = v0 (F_T/F_T0)(P0/P); for a first-order A -> products at constant P this is
 //!   v = v0 (1 + ε X) (Levenspiel ch. 5);
 //! - gas batch at constant volume: P = N_T R T / V; at constant pressure: V = N_T R T / P0;
-//! - liquid (constant density): v = v0 and V = V0; the pressure is the feed's, not computed.
+//! - liquid (constant density): v = v0 and V = V0, plus in a tube what its distributed feeds
+//!   have added by x (v = v0 + Σ_d q_d ∫_0^x w_d); the pressure is the feed's, not computed.
 
 use super::num;
 use crate::metrics::{self, Metrics};
@@ -22,6 +23,9 @@ use std::fmt::Write;
 /// One profile point (JSON).
 #[derive(Debug, Clone, Serialize)]
 pub struct ProfilePoint {
+    /// A train: the unit the point belongs to (`T2`, or `T2 outlet` after a split or bypass).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub unit: Option<String>,
     pub x: f64,
     pub state: IndexMap<String, f64>,
     /// Temperature, K, where it varies (energy balance).
@@ -33,12 +37,18 @@ pub struct ProfilePoint {
     /// Pressure, Pa, where it varies (packed bed with pressure drop, constant-volume gas batch).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub pressure: Option<f64>,
-    /// Volumetric flow v, m3/s, of a gas flow reactor (it varies with the moles and P).
+    /// Volumetric flow v, m3/s, of a gas flow reactor (it varies with the moles and P) or of a
+    /// liquid tube with distributed feeds (it grows with them).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub volumetric_flow: Option<f64>,
     /// Volume V, m3, of a constant-pressure gas batch (it follows the moles).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub volume: Option<f64>,
+    /// A tube with a membrane wall: the net amount of each membrane species through the wall
+    /// from the inlet to this point, mol/s (positive: permeate out of the tube; negative: fed
+    /// through the wall from the sweep side).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub permeate: Option<IndexMap<String, f64>>,
     /// Instantaneous selectivity R_D/R_U of the desired product over each other product.
     pub instantaneous_selectivity: IndexMap<String, Option<f64>>,
     /// Instantaneous selectivity of the desired product over all other products together,
@@ -62,7 +72,8 @@ pub struct RunReport {
     pub outlet_pressure: f64,
     /// Inlet volumetric flow v0, m3/s (flow reactors).
     pub inlet_volumetric_flow: Option<f64>,
-    /// Outlet volumetric flow v, m3/s (flow reactors): F_T R T / P for a gas, v0 for a liquid.
+    /// Outlet volumetric flow v, m3/s (flow reactors): F_T R T / P for a gas, v0 for a liquid
+    /// (plus the streams fed along a tube).
     pub outlet_volumetric_flow: Option<f64>,
     /// Charged volume V0, m3 (batch).
     pub initial_volume: Option<f64>,
@@ -91,6 +102,15 @@ pub struct RunReport {
     /// Why a selectivity is null, per other product.
     pub selectivity_not_defined: IndexMap<String, String>,
     pub element_closure: IndexMap<String, f64>,
+    /// A tube with distributed feeds: everything they fed along the tube, per species, mol/s
+    /// (the conversion, yields and element closure count it as fed).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub distributed_feed: Option<IndexMap<String, f64>>,
+    /// A tube with a membrane wall: the net amount of each membrane species through the wall
+    /// over the whole tube, mol/s (positive: permeate, counted as having left; negative: fed
+    /// through the wall, counted as fed).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub permeate: Option<IndexMap<String, f64>>,
     pub solver: SolveStats,
     /// CSTR: every steady state found (rising conversion), which one this report shows, and
     /// their stability.
@@ -245,9 +265,15 @@ pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
     let feed = &net.feed;
     let p_local = sim.pressure.as_ref().map_or(feed.pressure, |p| p[k]);
     if net.phase != Phase::Gas {
+        // A liquid tube's volumetric flow grows with the streams fed along it.
+        let added = if net.reactor.is_batch() {
+            0.0
+        } else {
+            crate::reactor::added_volumetric(net, sim.x[k])
+        };
         return Conditions {
             pressure: p_local,
-            volumetric: feed.volumetric,
+            volumetric: feed.volumetric + added,
         };
     }
     let n_rt =
@@ -272,6 +298,54 @@ pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
             volumetric: n_rt / p_local,
         },
     }
+}
+
+/// Everything the distributed feeds of a tube fed, per species (mol/s), the species they carry.
+fn distributed_total(net: &Network) -> Option<IndexMap<String, f64>> {
+    let d = &net.contacting.distributed;
+    if d.is_empty() {
+        return None;
+    }
+    Some(
+        net.species
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| d.iter().any(|f| f.stream.amounts[*j] != 0.0))
+            .map(|(j, s)| {
+                (
+                    s.name.clone(),
+                    d.iter().map(|f| f.stream.amounts[j]).sum::<f64>(),
+                )
+            })
+            .collect(),
+    )
+}
+
+/// The net amount of each membrane species through the wall up to profile point k (mol/s,
+/// positive out), from the exchange of the run.
+fn permeate_at(
+    net: &Network,
+    balance: &Balance,
+    sim: &Simulation,
+    k: usize,
+) -> Option<IndexMap<String, f64>> {
+    let ex = sim.exchanged.as_ref()?;
+    let walls = balance.walls()?;
+    let species = walls.membrane_species();
+    if species.is_empty() {
+        return None;
+    }
+    Some(
+        species
+            .into_iter()
+            .map(|j| {
+                (
+                    net.species[j].name.clone(),
+                    ex.left[k][j] - ex.entered[k][j] + walls.fed_by(j, sim.x[k]),
+                )
+            })
+            .collect(),
+    )
 }
 
 /// Whether the coolant temperature varies along a batch (a jacket ramp) without being a state.
@@ -305,7 +379,9 @@ pub fn coolant_temperature(net: &Network, sim: &Simulation, k: usize) -> Option<
 /// Which conditions vary along the profile, and so get a column: (pressure, volumetric).
 fn varying(net: &Network, sim: &Simulation) -> (bool, bool) {
     if net.phase != Phase::Gas {
-        return (false, false);
+        // A liquid tube with distributed feeds: v grows along it.
+        let grows = !net.reactor.is_batch() && !net.contacting.distributed.is_empty();
+        return (false, grows);
     }
     match net.reactor {
         Reactor::Batch {
@@ -321,7 +397,7 @@ fn varying(net: &Network, sim: &Simulation) -> (bool, bool) {
 }
 
 /// R_D / Σ_U R_U from the per-product instantaneous selectivities: Σ_U R_U / R_D = Σ_U 1/S_D/U.
-fn over_all(per_product: &[metrics::Selectivity]) -> Option<f64> {
+pub(crate) fn over_all(per_product: &[metrics::Selectivity]) -> Option<f64> {
     if per_product.is_empty() {
         return None;
     }
@@ -375,6 +451,7 @@ pub fn build(
                     &sim.model_state(k, net.feed.pressure),
                 );
                 ProfilePoint {
+                    unit: None,
                     x: *x,
                     state: names(&sim.states[k]),
                     temperature: sim.temperature.as_ref().map(|t| t[k]),
@@ -382,6 +459,7 @@ pub fn build(
                     pressure: p_varies.then_some(cond.pressure),
                     volumetric_flow: (v_varies && !batch).then_some(cond.volumetric),
                     volume: (v_varies && batch).then_some(cond.volumetric),
+                    permeate: permeate_at(net, balance, sim, k),
                     instantaneous_selectivity_over_all: over_all(&inst),
                     instantaneous_selectivity: inst
                         .into_iter()
@@ -453,6 +531,8 @@ pub fn build(
             .iter()
             .map(|c| (c.element.clone(), c.relative))
             .collect(),
+        distributed_feed: distributed_total(net),
+        permeate: permeate_at(net, balance, sim, last),
         solver: sim.stats.clone(),
         steady_states: sim.steady.as_ref().map(|st| SteadyStatesReport {
             count: st.states.len(),
@@ -659,6 +739,22 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     }
     if !conditions.is_empty() {
         let _ = writeln!(o, "{}", conditions.join(", "));
+    }
+    let listed = |m: &IndexMap<String, f64>| {
+        m.iter()
+            .map(|(s, v)| format!("{s} {} mol/s", num(*v)))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    if let Some(d) = &r.distributed_feed {
+        let _ = writeln!(o, "fed along the tube: {}", listed(d));
+    }
+    if let Some(p) = &r.permeate {
+        let _ = writeln!(
+            o,
+            "through the wall (net, out of the tube positive): {}",
+            listed(p)
+        );
     }
     let w = r.outlet.keys().map(|k| k.len()).max().unwrap_or(7).max(7);
     let flow = if r.state_unit == "mol" {
@@ -898,7 +994,11 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
         "W" => "kg",
         _ => "s",
     };
+    let labelled = profile[0].unit.is_some();
     let mut header = vec![format!("{} [{}]", r.size_variable, unit(r.size_variable))];
+    if labelled {
+        header.insert(0, "unit".into());
+    }
     header.extend(r.outlet.keys().map(|s| format!("{s} [{}]", r.state_unit)));
     let first = &profile[0];
     if first.pressure.is_some() {
@@ -916,6 +1016,9 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
     if first.coolant_temperature.is_some() {
         header.push("T_coolant [K]".into());
     }
+    if let Some(q) = &first.permeate {
+        header.extend(q.keys().map(|s| format!("permeate {s} [mol/s]")));
+    }
     if let Some(d) = &r.desired {
         header.extend(
             first
@@ -929,12 +1032,18 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
         .iter()
         .map(|p| {
             let mut row = vec![num(p.x)];
+            if let Some(u) = &p.unit {
+                row.insert(0, u.clone());
+            }
             row.extend(p.state.values().map(|v| num(*v)));
             row.extend(p.pressure.map(|v| num(v / 1e5)));
             row.extend(p.volumetric_flow.map(|v| num(v * 1e3)));
             row.extend(p.volume.map(|v| num(v * 1e3)));
             row.extend(p.temperature.map(num));
             row.extend(p.coolant_temperature.map(num));
+            if let Some(q) = &p.permeate {
+                row.extend(q.values().map(|v| num(*v)));
+            }
             if r.desired.is_some() {
                 row.extend(
                     p.instantaneous_selectivity
@@ -982,7 +1091,9 @@ fn profile_text(o: &mut String, r: &RunReport, profile: &[ProfilePoint]) {
 
 /// The profile as CSV: the independent variable, every species, then P where it varies
 /// (packed bed with pressure drop, constant-volume gas batch), the volumetric flow v of a gas
-/// flow reactor or the volume V of a constant-pressure gas batch, then the instantaneous
+/// flow reactor (or of a liquid tube with distributed feeds) or the volume V of a
+/// constant-pressure gas batch, T and the coolant's T where they are states, the net permeate
+/// of each membrane species (positive out of the tube), then the instantaneous
 /// selectivities of the desired product over each other product and over all of them (empty
 /// where not defined).
 pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String {
@@ -1005,6 +1116,17 @@ pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String
     }
     if sim.coolant.is_some() || coolant_varies(net) {
         let _ = write!(o, ",T_coolant [K]");
+    }
+    let membrane = balance
+        .walls()
+        .map(|w| w.membrane_species())
+        .unwrap_or_default();
+    for &j in &membrane {
+        let _ = write!(
+            o,
+            ",{}",
+            csv_field(&format!("permeate {} [mol/s]", net.species[j].name))
+        );
     }
     if let Some(d) = net.desired {
         let name = &net.species[d].name;
@@ -1041,6 +1163,11 @@ pub fn profile_csv(net: &Network, balance: &Balance, sim: &Simulation) -> String
         }
         if let Some(ta) = coolant_temperature(net, sim, k) {
             let _ = write!(o, ",{ta:.12e}");
+        }
+        if let Some(q) = permeate_at(net, balance, sim, k) {
+            for v in q.values() {
+                let _ = write!(o, ",{v:.12e}");
+            }
         }
         if net.desired.is_some() {
             let inst = metrics::instantaneous_selectivity(

@@ -74,6 +74,74 @@ pub fn set_outlet(rep: &mut super::run::RunReport, net: &Network, run: &TrainRun
     rep.outlet_pressure = run.outlet.pressure;
     rep.size = run.profile.size;
     rep.units = Some(units(net, run));
+    if net.train.is_some() {
+        rep.reactor = "train";
+    }
+    rep.heat = crate::safety::HeatFigures::of_train(net, run);
+    // The single-vessel figures of a side route describe one vessel: a train's are per unit
+    // (its `fed` and `left`), so they are not repeated for the whole.
+    rep.distributed_feed = None;
+    rep.permeate = None;
+    if rep.profile.is_some() {
+        rep.profile = Some(profile(net, run));
+    }
+}
+
+/// The train's profile for the report: each point's state, T and P where any unit has them,
+/// and its instantaneous selectivities from its own unit's balance, labelled with its unit.
+fn profile(net: &Network, run: &TrainRun) -> Vec<super::run::ProfilePoint> {
+    let sim = &run.profile;
+    let others: Vec<String> = net
+        .desired
+        .map(|d| {
+            metrics::products(net)
+                .into_iter()
+                .filter(|&u| u != d)
+                .map(|u| net.species[u].name.clone())
+                .collect()
+        })
+        .unwrap_or_default();
+    (0..sim.x.len())
+        .map(|k| {
+            let inst = run.places[k].map(|(u, p, i)| {
+                let piece = &run.units[u].pieces[p];
+                metrics::instantaneous_selectivity(
+                    &piece.network,
+                    &piece.balance,
+                    piece.sim.x[i],
+                    &piece.sim.model_state(i, piece.network.feed.pressure),
+                )
+            });
+            let over_all = inst.as_deref().and_then(super::run::over_all);
+            super::run::ProfilePoint {
+                unit: Some(run.labels[k].clone()),
+                x: sim.x[k],
+                state: net
+                    .species
+                    .iter()
+                    .zip(&sim.states[k])
+                    .map(|(s, v)| (s.name.clone(), *v))
+                    .collect(),
+                temperature: sim.temperature.as_ref().map(|t| t[k]),
+                coolant_temperature: None,
+                pressure: sim.pressure.as_ref().map(|p| p[k]),
+                volumetric_flow: None,
+                volume: None,
+                permeate: None,
+                instantaneous_selectivity: others
+                    .iter()
+                    .enumerate()
+                    .map(|(j, name)| {
+                        (
+                            name.clone(),
+                            inst.as_ref().and_then(|s| s.get(j)).and_then(|s| s.value),
+                        )
+                    })
+                    .collect(),
+                instantaneous_selectivity_over_all: over_all,
+            }
+        })
+        .collect()
 }
 
 /// Every unit's report.

@@ -8,6 +8,7 @@ pub mod hotspot;
 pub mod krylov;
 pub mod newton;
 pub mod ode;
+pub mod pieces;
 pub mod shooting;
 pub mod steady;
 pub mod system;
@@ -509,33 +510,40 @@ pub fn simulate_with(
                 watch.push(vec![(ti, 1.0), (k, rise / n_k0)]);
             }
         }
-        let (sol, _) =
-            ode::integrate_watching(&Adapter(balance), &y0, size, &out, &ode_opts, &watch)
-                .map_err(|source| {
-                    let x = source.position().unwrap_or(0.0);
-                    if balance.has_pressure() && x > 0.0 {
-                        // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
-                        let before = ode::integrate(
-                            &Adapter(balance),
-                            &y0,
-                            x * (1.0 - 1e-6),
-                            &Output::End,
-                            &ode_opts,
-                        );
-                        if let Ok(sol) = before
-                            && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
-                        {
-                            return SolveError::PressureCollapse { w: x };
-                        }
-                    }
-                    SolveError::Integration {
-                        reactor,
-                        x_name,
-                        x_unit,
-                        x,
-                        source,
-                    }
-                })?;
+        let (sol, _) = pieces::integrate_watching(
+            &Adapter(balance),
+            &y0,
+            size,
+            &out,
+            &ode_opts,
+            &watch,
+            balance.breakpoints(),
+        )
+        .map_err(|source| {
+            let x = source.position().unwrap_or(0.0);
+            if balance.has_pressure() && x > 0.0 {
+                // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
+                let before = ode::integrate(
+                    &Adapter(balance),
+                    &y0,
+                    x * (1.0 - 1e-6),
+                    &Output::End,
+                    &ode_opts,
+                );
+                if let Ok(sol) = before
+                    && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
+                {
+                    return SolveError::PressureCollapse { w: x };
+                }
+            }
+            SolveError::Integration {
+                reactor,
+                x_name,
+                x_unit,
+                x,
+                source,
+            }
+        })?;
         stats.steps = sol.stats.steps;
         stats.rhs_evals = sol.stats.rhs_evals;
         stats.jac_evals = sol.stats.jac_evals;
@@ -559,6 +567,7 @@ pub fn simulate_with(
         let column = |i: Option<usize>| i.map(|i| sol.y.iter().map(|y| y[i]).collect::<Vec<f64>>());
         let temperature = column(balance.temperature_index());
         let coolant = column(balance.coolant_index());
+        let exchanged = balance.wall_exchange(&sol.x, &sol.y);
         if let Some(t) = &temperature
             && let Some(k) = t.iter().position(|v| !(*v > 0.0))
         {
@@ -569,7 +578,7 @@ pub fn simulate_with(
         }
         // The temperatures to check against the heat-capacity ranges: the profile points and
         // the extremes over the whole reactor (located between steps).
-        let warnings = temperature
+        let mut warnings = temperature
             .as_ref()
             .map(|t| {
                 let (mut xs, mut ts) = (sol.x.clone(), t.clone());
@@ -580,6 +589,7 @@ pub fn simulate_with(
                 range_warnings(net, balance, &xs, &ts, x_name, x_unit)
             })
             .unwrap_or_default();
+        warnings.extend(balance.wall_warning(net));
         Simulation {
             x_name,
             x_unit,
@@ -602,7 +612,7 @@ pub fn simulate_with(
             stats,
             steady: None,
             counter_current,
-            exchanged: None,
+            exchanged,
         }
     };
     let limit = negative_limit(total);
@@ -723,6 +733,12 @@ pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> Ode
     {
         atols[i] = 1e-9 * net.feed.temperature;
     }
+    // A membrane's permeate of species j: the species' own tolerance.
+    for (i, v) in balance.layout().vars().iter().enumerate() {
+        if let crate::reactor::StateKind::Permeate(j) = v.kind {
+            atols[i] = atols[j];
+        }
+    }
     OdeOptions {
         rtol,
         atol: atols,
@@ -748,23 +764,6 @@ fn study_error(net: &Network, length: f64, source: OdeError) -> SolveError {
     }
 }
 
-/// A model seen from position `x0` of the reactor: the integrator's x = 0 is the reactor's
-/// x0 (a batch whose jacket follows a ramp is not autonomous, so a restart mid-way must keep
-/// the clock).
-struct Shifted<'a, M: Model>(&'a M, f64);
-
-impl<M: Model> OdeSystem for Shifted<'_, M> {
-    fn dim(&self) -> usize {
-        self.0.layout().len()
-    }
-    fn rhs(&self, x: f64, y: &[f64], dydx: &mut [f64]) {
-        self.0.rhs(self.1 + x, y, dydx)
-    }
-    fn jacobian(&self, x: f64, y: &[f64], out: &mut Vec<(usize, usize, f64)>) {
-        self.0.jacobian(self.1 + x, y, out)
-    }
-}
-
 /// Integrate the balances from state `y0` at position `x0` over a length `length` of the
 /// reactor and return the end state (full state: species, then p, T and the coolant
 /// temperature where modelled).
@@ -778,13 +777,8 @@ pub fn advance(
 ) -> Result<Vec<f64>, SolveError> {
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
-    let sol = ode::integrate(&Shifted(balance, x0), y0, length, &Output::End, &o)
-        .map_err(|e| study_error(net, length, e))?;
-    Ok(sol
-        .y
-        .last()
-        .expect("the solution has its end point")
-        .clone())
+    pieces::advance(&Adapter(balance), y0, x0, length, &o, balance.breakpoints())
+        .map_err(|e| study_error(net, length, e))
 }
 
 /// Integrate from `y0` at position `x0` over `length` until g(x, y) crosses zero (x the
@@ -802,13 +796,14 @@ pub fn trace_root(
 ) -> Result<(Option<(f64, Vec<f64>)>, Vec<f64>), SolveError> {
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
-    let gx = |x: f64, y: &[f64]| g(x0 + x, y);
-    let (sol, root) = ode::integrate_until_root(&Shifted(balance, x0), &gx, y0, length, &o)
-        .map_err(|e| study_error(net, length, e))?;
-    let last = sol
-        .y
-        .last()
-        .expect("the solution has its end point")
-        .clone();
-    Ok((root, last))
+    pieces::until_root(
+        &Adapter(balance),
+        g,
+        y0,
+        x0,
+        length,
+        &o,
+        balance.breakpoints(),
+    )
+    .map_err(|e| study_error(net, length, e))
 }

@@ -53,7 +53,7 @@
 //! across it is not looked for (the note says how many trials failed).
 
 use super::hotspot::HotSpot;
-use super::ode::{self, OdeOptions, Output};
+use super::ode::{OdeOptions, Output};
 use super::{Adapter, SolveError};
 use crate::model::Network;
 use crate::reactor::{Balance, Energy};
@@ -231,15 +231,24 @@ pub fn solve(
             .min(band_hi - y[ki])
     };
     let trial = |theta: f64| -> Trial {
-        match ode::integrate_until_root(&Adapter(balance), &band, &start(theta), size, o) {
-            Ok((_, Some((_, y)))) => {
+        // Piecewise between the breakpoints of a distributed feed, if any.
+        match super::pieces::until_root(
+            &Adapter(balance),
+            &band,
+            &start(theta),
+            0.0,
+            size,
+            o,
+            balance.breakpoints(),
+        ) {
+            Ok((Some((_, y)), _)) => {
                 if y[ti].max(y[ki]) >= 0.5 * (band_lo + band_hi) {
                     Trial::Above
                 } else {
                     Trial::Below
                 }
             }
-            Ok((sol, None)) => Trial::Value(sol.y.last().expect("end point")[ki] - t_in),
+            Ok((None, last)) => Trial::Value(last[ki] - t_in),
             Err(err) => Trial::Failed(err.to_string()),
         }
     };
@@ -305,13 +314,14 @@ pub fn solve(
     let fa0 = net.feed.amounts[key];
     let mut solutions = Vec::with_capacity(roots.len());
     for &theta in &roots {
-        let (sol, extremes) = ode::integrate_watching(
+        let (sol, extremes) = super::pieces::integrate_watching(
             &Adapter(balance),
             &start(theta),
             size,
             &Output::End,
             o,
             &[vec![(ti, 1.0)]],
+            balance.breakpoints(),
         )
         .map_err(|source| super::study_error(net, size, source))?;
         let hot_spot = HotSpot::of(&extremes[0], size);

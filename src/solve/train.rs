@@ -524,18 +524,44 @@ fn concatenate(net: &Network, runs: &[UnitRun]) -> (Simulation, Vec<String>, Pla
     let pieces = || runs.iter().flat_map(|r| &r.pieces);
     let any_pressure = pieces().any(|p| p.sim.pressure.is_some());
     let any_energy = pieces().any(|p| p.sim.temperature.is_some());
-    let mut x = vec![0.0];
-    let mut states = vec![net.feed.amounts.clone()];
-    let mut pressure = vec![net.feed.pressure];
-    let mut temperature = vec![net.feed.temperature];
-    let mut labels = vec!["feed".to_string()];
-    let mut places = vec![None];
+    let mut x = Vec::new();
+    let mut states = Vec::new();
+    let mut pressure = Vec::new();
+    let mut temperature = Vec::new();
+    let mut labels = Vec::new();
+    let mut places = Vec::new();
     let mut entered_now = vec![0.0; n];
     let mut left_now = vec![0.0; n];
-    let mut entered = vec![entered_now.clone()];
-    let mut left = vec![left_now.clone()];
+    let mut entered = Vec::new();
+    let mut left = Vec::new();
+    // A train that starts with a tank starts its profile with the feed (a tube's first point
+    // is its inlet already).
+    if first.sim.x.first().is_none_or(|&x0| x0 > 0.0) {
+        x.push(0.0);
+        states.push(net.feed.amounts.clone());
+        pressure.push(net.feed.pressure);
+        temperature.push(net.feed.temperature);
+        labels.push("feed".to_string());
+        places.push(None);
+        entered.push(entered_now.clone());
+        left.push(left_now.clone());
+    }
+    let recycle = runs.iter().any(|r| r.recycle.is_some());
     let mut stats = SolveStats {
-        method: "units in series, each solved as a single vessel; streams mixed by their enthalpy balance; a recycle by Anderson-accelerated substitution",
+        method: match (runs.len() > 1, recycle) {
+            (true, false) => {
+                "units in series, each solved as a single vessel (a tube stretch by stretch between side feeds); streams mixed by their enthalpy balance"
+            }
+            (true, true) => {
+                "units in series, each solved as a single vessel (a tube stretch by stretch between side feeds); streams mixed by their enthalpy balance; a recycle by Anderson-accelerated substitution"
+            }
+            (false, false) => {
+                "the tube stretch by stretch between its side feeds; streams mixed by their enthalpy balance"
+            }
+            (false, true) => {
+                "the tube with its recycle, by Anderson-accelerated substitution on the recycle stream; streams mixed by their enthalpy balance"
+            }
+        },
         rtol: first.sim.stats.rtol,
         atol: first.sim.stats.atol,
         ..Default::default()

@@ -60,6 +60,7 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
         return reach_flowsheet(net, x, opts);
     }
     refuse_heat_cstr(net, "the volume that reaches a conversion")?;
+    refuse_walls(net, "the size that reaches a conversion")?;
     let b = Balance::new(net).map_err(StudyError::Invalid)?;
     if solve::shooting::is_counter_current(&b) {
         return Err(StudyError::Invalid(solve::shooting::size_study_refusal(
@@ -183,6 +184,34 @@ pub fn refuse_heat_cstr(net: &Network, what: &str) -> Result<(), StudyError> {
     Ok(())
 }
 
+/// Refuse a search over the size of a tube with walls (`what` names it). A distributed feed
+/// enters over a stretch fixed along the tube as written and a membrane's species leave by
+/// the wall, so neither the conversion against the feed alone nor a tube made longer or
+/// shorter than written keeps the pattern the study describes. Runs at chosen sizes (`run`,
+/// `sweep` over the size, which judge everything fed and everything that left) do.
+pub fn refuse_walls(net: &Network, what: &str) -> Result<(), StudyError> {
+    let units = net
+        .train
+        .iter()
+        .flat_map(|t| t.units.iter().map(|u| &u.contacting));
+    let Some(c) = std::iter::once(&net.contacting)
+        .chain(units)
+        .find(|c| !c.distributed.is_empty() || !c.membrane.is_empty())
+    else {
+        return Ok(());
+    };
+    Err(StudyError::Invalid(format!(
+        "{what} is not searched for a tube with {}: the stretches and the wall are fixed along the tube as written, so a tube of another size is another pattern; run it at chosen sizes instead (`rxnet sweep` over {}, or `rxnet run --set {}=...`)",
+        if c.distributed.is_empty() {
+            "a membrane wall"
+        } else {
+            "a distributed feed"
+        },
+        net.size_path(),
+        net.size_path()
+    )))
+}
+
 /// The size at which the key conversion reaches `x`; an `Infeasible` error naming the largest
 /// conversion when `x` is beyond it.
 pub fn size_for_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<f64, StudyError> {
@@ -199,6 +228,7 @@ pub fn size_for_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result
 /// `x`: decades from the study's size until X passes x, then bisection on ln of the total; the
 /// most it can reach when a tenfold size changes X by less than 1e-10.
 fn reach_flowsheet(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, StudyError> {
+    refuse_walls(net, "the size that reaches a conversion")?;
     if net
         .vessels()
         .iter()

@@ -159,6 +159,7 @@ pub fn optimize_size(
     if net.feed.amounts[net.key] <= 0.0 {
         return Err(StudyError::Invalid("the key reactant is not fed".into()));
     }
+    super::conversion::refuse_walls(net, "the optimum size")?;
     if solve::train::is_flowsheet(net) {
         return optimize_train_size(net, target, lo, hi, min_conversion, opts);
     }
