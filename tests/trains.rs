@@ -724,3 +724,35 @@ fn the_bundled_split_feed_cascade_beats_feeding_everything_at_the_inlet() {
     assert_eq!(out.code, 0, "{}", out.stderr);
     assert!(out.stdout.contains("T1 cstr -> T2 cstr -> T3 cstr"));
 }
+
+/// An autocatalytic A + R -> 2 R in a recycle tube: the recycle's residual is not monotone
+/// (more R recycled speeds the reaction up), where an accelerated substitution can overshoot;
+/// the loop must still settle on the operating point, against the closed-form tube and scipy's
+/// brentq on the fixed point (tests/reference/recycle_autocatalytic.py). Conversion rises
+/// above the tank's at a moderate ratio and falls back towards it (Levenspiel ch. 6).
+#[test]
+fn an_autocatalytic_recycle_tube_settles_on_its_operating_point() {
+    let f: Value =
+        serde_json::from_str(include_str!("reference/recycle_autocatalytic.json")).unwrap();
+    for case in f["cases"].as_array().unwrap() {
+        let r = case["recycle"].as_f64().unwrap();
+        let yaml = format!(
+            "name: autocatalytic recycle (test values)
+phase: liquid
+species: {{A: null, R: null}}
+reactions:
+  - {{id: auto, stoich: A + R -> 2 R, rate: {{k: 1e-3 L/(mol*s)}}}}
+feed: {{T: 300 K, volumetric: 1 L/s, concentrations: {{A: 1 mol/L, R: 0.01 mol/L}}}}
+key: A
+reactor: {{type: pfr, volume: 2000 L, recycle: {r}}}
+"
+        );
+        let (_, ev) = eval(&yaml, Points::End);
+        let want = case["conversion"].as_f64().unwrap();
+        assert!(
+            (ev.metrics.conversion - want).abs() < 1e-8,
+            "R = {r}: X = {} vs {want}",
+            ev.metrics.conversion
+        );
+    }
+}

@@ -404,16 +404,31 @@ fn recycle_loop(
     let isothermal = u.heat.balance().is_none();
     let scale = fresh.amounts.iter().sum::<f64>().max(f64::MIN_POSITIVE);
     let t_scale = fresh.temperature;
+    // The loop amplifies the tube's integration error: near a large recycle ratio the map
+    // r -> g(r) is close to the identity, and an error ε·(R + 1)F in the tube's flows moves
+    // the fixed point by about as much. Each pass therefore integrates with rtol/(R + 1), so
+    // the recycle is resolved to the study's rtol on the fresh flow.
     let (rtol, _) = super::tolerances(net, opts);
-    let tol = rtol.max(1e-13);
+    let tol = 10.0 * rtol;
+    let inner = SolveOptions {
+        rtol: Some((rtol / (ratio + 1.0)).max(crate::model::solver_settings::MIN_RTOL)),
+        ..opts.clone()
+    };
+    let opts = &inner;
     let share = ratio / (ratio + 1.0);
     // The state of the loop: the recycled flows, then (a liquid) its volumetric flow and (with
     // an energy balance) its temperature, both scaled to the flows' size.
     let liquid = net.phase == Phase::Liquid;
-    let v_index = n;
-    let t_index = n + usize::from(liquid);
-    let dim = t_index + usize::from(!isothermal);
-    let v_scale = fresh.volumetric.max(f64::MIN_POSITIVE);
+    // One pass with no recycle: the first guess, r = R × that outlet, and a liquid's volume
+    // gained along the tube (a distributed feed), which fixes the recycle's volumetric flow
+    // exactly, v_r = R/(R+1) (v_f + v_r + G), so v_r = R (v_f + G).
+    let plain = run_vessel(net, u, fresh, offset, opts)?;
+    let plain_out = outlet_stream(net, plain.last().expect("a vessel has a stretch"));
+    let v_recycle = ratio * plain_out.volumetric;
+    // The state of the loop: the recycled flows and (with an energy balance) the recycle's T
+    // scaled to the flows' size.
+    let t_index = n;
+    let dim = n + usize::from(!isothermal);
     let to_stream = |z: &[f64]| -> Feed {
         let amounts: Vec<f64> = z[..n].iter().map(|v| v.max(0.0)).collect();
         let temperature = if isothermal {
@@ -422,7 +437,7 @@ fn recycle_loop(
             (z[t_index] / scale * t_scale).max(1.0)
         };
         let volumetric = if liquid {
-            (z[v_index] / scale * v_scale).max(0.0)
+            v_recycle
         } else {
             amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / fresh.pressure
         };
@@ -443,21 +458,26 @@ fn recycle_loop(
         let pieces = run_vessel(net, u, &tube_in, offset, opts)?;
         let out = outlet_stream(net, pieces.last().expect("a vessel has a stretch"));
         let mut g: Vec<f64> = out.amounts.iter().map(|f| f * share).collect();
-        if liquid {
-            g.push(out.volumetric * share / v_scale * scale);
-        }
         if !isothermal {
             g.push(out.temperature / t_scale * scale);
         }
         Ok((pieces, out, g))
     };
-    let mut z = vec![0.0; dim];
+    let mut z: Vec<f64> = plain_out.amounts.iter().map(|f| ratio * f).collect();
     if !isothermal {
-        z[t_index] = scale;
+        z.push(plain_out.temperature / t_scale * scale);
     }
+    debug_assert_eq!(z.len(), dim);
     let mut history_z: Vec<Vec<f64>> = Vec::new();
     let mut history_f: Vec<Vec<f64>> = Vec::new();
     let mut change = f64::INFINITY;
+    // Safeguard: an Anderson step is kept only when it lowers the residual and stays
+    // physical; otherwise the loop falls back to plain substitution from the point before
+    // (which moves towards a stable operating point even where the residual is not monotone,
+    // as for an autocatalytic step) for a few passes, with a fresh history.
+    let mut previous: Option<(f64, Vec<f64>)> = None; // (change, g) at the point before
+    let mut accelerated = false;
+    let mut plain_passes = 0usize;
     for it in 1..=max_passes {
         let (pieces, out, g) = run(&z)?;
         let f: Vec<f64> = g.iter().zip(&z).map(|(g, z)| g - z).collect();
@@ -476,40 +496,58 @@ fn recycle_loop(
                 },
             ));
         }
+        if accelerated
+            && let Some((c0, g0)) = &previous
+            && change > *c0
+        {
+            // The accelerated step made it worse: substitute from the point before instead.
+            z = g0.clone();
+            history_z.clear();
+            history_f.clear();
+            plain_passes = 3;
+            accelerated = false;
+            continue;
+        }
         history_z.push(z.clone());
-        history_f.push(f.clone());
+        history_f.push(f);
         if history_z.len() > ANDERSON_DEPTH + 1 {
             history_z.remove(0);
             history_f.remove(0);
         }
-        z = anderson(&history_z, &history_f, &g);
+        previous = Some((change, g.clone()));
+        let proposal = (plain_passes == 0 && history_z.len() > 1)
+            .then(|| anderson(&history_z, &history_f))
+            .filter(|p| p[..n].iter().all(|v| *v >= 0.0) && p.iter().all(|v| v.is_finite()));
+        accelerated = proposal.is_some();
+        z = proposal.unwrap_or(g);
+        plain_passes = plain_passes.saturating_sub(1);
     }
     Err(SolveError::Recycle(format!(
         "the recycle around the tube (R = {ratio}) did not converge in {max_passes} passes: the recycle stream still changes by {change:.2e} of the fresh flow per pass (tolerance {tol:.1e}); a recycle stream that will not settle can mean several operating points (as in a CSTR) or none reachable from no recycle"
     )))
 }
 
-/// One Anderson step: with the last residuals f_k = g(z_k) − z_k, choose γ minimising
-/// ‖f_k − ΔF γ‖ and return g(z_k) − ΔG γ (ΔG = ΔZ + ΔF); plain substitution when there is
-/// no history or the least-squares problem is degenerate.
-fn anderson(zs: &[Vec<f64>], fs: &[Vec<f64>], g: &[f64]) -> Vec<f64> {
+/// One Anderson step: with the residuals f_k = g(z_k) − z_k, choose γ minimising
+/// ‖f_k − ΔF γ‖ (least squares by SVD) and return g(z_k) − ΔG γ, ΔG = ΔZ + ΔF (Anderson 1965;
+/// Walker & Ni 2011); the plain substitution g(z_k) when the problem is degenerate.
+fn anderson(zs: &[Vec<f64>], fs: &[Vec<f64>]) -> Vec<f64> {
     let m = zs.len() - 1;
+    let (z, last) = (&zs[m], &fs[m]);
+    let g: Vec<f64> = z.iter().zip(last).map(|(z, f)| z + f).collect();
     if m == 0 {
-        return g.to_vec();
+        return g;
     }
-    let dim = g.len();
-    let last = &fs[m];
+    let dim = z.len();
     let df = nalgebra::DMatrix::from_fn(dim, m, |i, k| fs[k + 1][i] - fs[k][i]);
     let dz = nalgebra::DMatrix::from_fn(dim, m, |i, k| zs[k + 1][i] - zs[k][i]);
     let rhs = nalgebra::DVector::from_column_slice(last);
     let Ok(gamma) = df.clone().svd(true, true).solve(&rhs, 1e-12) else {
-        return g.to_vec();
+        return g;
     };
     if gamma.iter().any(|v| !v.is_finite()) {
-        return g.to_vec();
+        return g;
     }
-    let dg = &dz + &df;
-    let step = dg * gamma;
+    let step = (&dz + &df) * gamma;
     g.iter().zip(step.iter()).map(|(g, s)| g - s).collect()
 }
 
