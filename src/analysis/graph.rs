@@ -179,7 +179,21 @@ pub fn analyse(net: &Network) -> GraphReport {
         .collect();
 
     // Reachability fixed point from the fed species.
-    let mut present: Vec<bool> = net.feed.amounts.iter().map(|&a| a > 0.0).collect();
+    // What a semibatch doses is present too (it enters over time).
+    let mut present: Vec<bool> = net
+        .feed
+        .amounts
+        .iter()
+        .enumerate()
+        .map(|(j, &a)| {
+            a > 0.0
+                || net
+                    .contacting
+                    .dosing
+                    .iter()
+                    .any(|d| d.concentrations[j] > 0.0)
+        })
+        .collect();
     let mut runs = vec![false; nr];
     loop {
         let mut changed = false;

@@ -299,7 +299,7 @@ pub fn check(net: &Network) -> Check {
             .reactions
             .iter()
             .any(|r| r.has_reactant(j) || r.has_product(j));
-        let fed = net.feed.amounts[j] > 0.0;
+        let fed = net.feed.amounts[j] > 0.0 || dosed(net, j);
         if !in_any && !fed {
             add(
                 Severity::Warning,
@@ -336,7 +336,7 @@ pub fn check(net: &Network) -> Check {
             ),
         );
     }
-    if net.feed.amounts[key] <= 0.0 {
+    if net.feed.amounts[key] <= 0.0 && !dosed(net, key) {
         add(
             Severity::Error,
             format!(
@@ -466,4 +466,12 @@ pub fn check(net: &Network) -> Check {
             .collect(),
         findings,
     }
+}
+
+/// Whether species j is dosed into a semibatch (it is fed, over time).
+fn dosed(net: &Network, j: usize) -> bool {
+    net.contacting
+        .dosing
+        .iter()
+        .any(|d| d.concentrations[j] > 0.0)
 }

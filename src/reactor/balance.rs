@@ -53,6 +53,8 @@ pub struct Balance {
     /// schedules (net volumetric inflow per unit of x: dosing less withdrawal, or a feed
     /// distributed along the tube); empty for a plain vessel.
     pub(super) growth: Vec<crate::model::Schedule>,
+    /// Dosing and withdrawal of a semibatch ([`super::semibatch`]); `None` for a plain vessel.
+    pub(super) semibatch: Option<super::semibatch::Semibatch>,
 }
 
 /// Networks with at most this many species keep their concentrations on the stack in
@@ -109,7 +111,12 @@ impl Balance {
                 extra.push(StateKind::CoolantTemperature);
             }
         }
+        let semibatch = super::semibatch::Semibatch::new(net);
+        if let Some(s) = &semibatch {
+            extra.extend(s.extra_states(net.species.len()));
+        }
         let layout = StateLayout::new(net, &extra);
+        let semibatch = semibatch.map(|s| s.place(&layout));
         Ok(Balance {
             t_index: layout.index_of(StateKind::Temperature),
             coolant_index: layout.index_of(StateKind::CoolantTemperature),
@@ -133,7 +140,8 @@ impl Balance {
             temperature: feed.temperature,
             alpha,
             total0: feed.total(),
-            growth: Vec::new(),
+            growth: semibatch.as_ref().map_or_else(Vec::new, |s| s.growth()),
+            semibatch,
         })
     }
 
@@ -174,6 +182,8 @@ impl Balance {
                 y.push(inlet);
             }
         }
+        // A semibatch's withdrawn amounts start at zero.
+        y.resize(self.dim(), 0.0);
         y
     }
 
@@ -302,6 +312,7 @@ impl Balance {
             let p = y[self.n_species];
             dydx[self.n_species] = -alpha / (2.0 * p) * (s / self.total0);
         }
+        self.exchange_rhs(x, y, dydx);
     }
 
     /// ∂(dy/dx)/∂y at x = 0 as (row, column, value) triplets; duplicates add.
@@ -368,6 +379,7 @@ impl Balance {
             }
             out.push((n, n, alpha * s / (2.0 * p * p * self.total0)));
         }
+        self.exchange_jacobian(x, out);
     }
 }
 
@@ -507,5 +519,43 @@ mod energy_tests {
             "{CP}phase: gas\nreactions:\n  - {{id: r1, stoich: A + B -> 2 C, rate: {{k: 1e-6 m6/(mol*kg*s), Ea: 50 kJ/mol, dH: -50 kJ/mol}}}}\n  - {{id: r2, stoich: C <=> D, rate: {{k: 0.2 m3/(kg*s), K_eq: 3, dH: -20 kJ/mol}}}}\nfeed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor: {{type: pbr, catalyst: 10 kg, pressure_drop: {{alpha: 0.01 1/kg}}, heat: {{UA: 30 W/(kg*K), coolant: {{T_in: 480 K, mass_flow: 0.2 kg/s, cp: 2 kJ/(kg*K), direction: co_current}}}}}}\n"
         );
         fd_check(&pbr, &with(&[0.7, 530.0, 490.0]));
+    }
+}
+
+#[cfg(test)]
+mod semibatch_tests {
+    use super::tests_support::*;
+
+    const SPECIES: &str = "name: t\nspecies: {A: {cp: 150 J/(mol*K)}, B: {cp: 90 J/(mol*K)}, C: {cp: 120 J/(mol*K)}, D: {cp: 60 J/(mol*K)}, E: {cp: 40 J/(mol*K)}, I: {cp: 30 J/(mol*K)}}\nphase: liquid\n";
+    const REACTIONS: &str = "reactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-3 m3/(mol*s), Ea: 60 kJ/mol, T_ref: 300 K, dH: -90 kJ/mol}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 1/s, Ea: 40 kJ/mol, K_eq: 3, dH: -30 kJ/mol}}\n  - {id: r3, stoich: A -> D + E, rate: {law: hyperbolic, k: 0.05 1/s, Ea: 80 kJ/mol, dH: 20 kJ/mol, adsorption: {D: {K: 0.01 m3/mol, dH: -10 kJ/mol}}}}\n";
+    const DOSING: &str = "dosing: [{concentrations: {B: 2 mol/L, I: 0.5 mol/L}, T: 290 K, rate: [[0 s, 0.01 L/s], [300 s, 0.03 L/s]]}, {concentrations: {A: 1 mol/L}, rate: 0.02 L/s, from: 60 s, to: 200 s}]\n  withdrawal: {rate: 0.015 L/s, from: 100 s, to: 400 s}";
+
+    /// The semibatch terms' Jacobian (withdrawal −q_out/V on the diagonal and its quadrature
+    /// rows, the dosed liquid's enthalpy, the contents' growing heat capacity) against central
+    /// finite differences (common practice), at t = 120 s where both dosings and the
+    /// withdrawal run.
+    #[test]
+    fn semibatch_jacobians_match_finite_differences() {
+        let y = [0.8, 0.5, 0.3, 0.2, 0.1, 0.4];
+        let withdrawn = [0.01, 0.02, 0.03, 0.0, 0.0, 0.05];
+        let full = |extra: &[f64]| [&y[..], extra, &withdrawn[..]].concat();
+        fd_check(
+            &format!(
+                "{SPECIES}{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor:\n  type: batch\n  time: 1 h\n  volume: 3 L\n  {DOSING}\n"
+            ),
+            &full(&[]),
+        );
+        fd_check(
+            &format!(
+                "{SPECIES}{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor:\n  type: batch\n  time: 1 h\n  volume: 3 L\n  heat: {{UA: 20 W/K, coolant: {{T: 310 K}}}}\n  {DOSING}\n"
+            ),
+            &full(&[330.0]),
+        );
+        fd_check(
+            &format!(
+                "{SPECIES}{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor:\n  type: batch\n  time: 1 h\n  volume: 3 L\n  heat: {{mixture_cp: 3.9 kJ/(kg*K), density: 900 kg/m3, UA: 20 W/K, coolant: {{T: 310 K}}}}\n  {DOSING}\n"
+            ),
+            &full(&[330.0]),
+        );
     }
 }

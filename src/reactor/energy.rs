@@ -102,8 +102,15 @@ impl Energy {
             });
         }
         if mixture.is_none() {
-            let fed_or_made =
-                |j: usize| net.feed.amounts[j] > 0.0 || net.reactions.iter().any(|r| r.nu(j) > 0.0);
+            let fed_or_made = |j: usize| {
+                net.feed.amounts[j] > 0.0
+                    || net.reactions.iter().any(|r| r.nu(j) > 0.0)
+                    || net
+                        .contacting
+                        .dosing
+                        .iter()
+                        .any(|d| d.concentrations[j] > 0.0)
+            };
             if let Some(j) = (0..net.species.len()).find(|&j| fed_or_made(j) && cp[j].is_none()) {
                 return Err(format!(
                     "an energy balance needs the heat capacity of `{}`",

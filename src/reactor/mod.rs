@@ -39,11 +39,13 @@ mod balance;
 mod energy;
 mod ergun;
 mod nonisothermal;
+mod semibatch;
 mod state;
 
 pub use balance::Balance;
 pub use energy::Energy;
 pub use ergun::ergun_alpha;
+pub use semibatch::{breakpoints, dosed_by, liquid_volume};
 pub use state::{StateKind, StateLayout, StateVar};
 
 /// A reactor model as the solver sees it: the state layout, dy/dx and its Jacobian.

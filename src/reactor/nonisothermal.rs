@@ -59,8 +59,9 @@ impl Balance {
             }
         }
         let ta = self.coolant_temperature(e, x, y);
-        let (cap, _) = e.capacity(&y[..n], t);
-        dydx[ti] = (e.ua * (ta - t) + release) / cap;
+        let (cap, _) = self.content_capacity(e, x, &y[..n], t);
+        let (dosed, _) = self.dosing_heat(e, x, t);
+        dydx[ti] = (e.ua * (ta - t) + release + dosed) / cap;
         if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
             let sign = if counter { -1.0 } else { 1.0 };
             dydx[k] = sign * e.ua * (t - ta) / capacity;
@@ -69,6 +70,7 @@ impl Balance {
             let p = y[n];
             dydx[n] = -alpha / (2.0 * p) * (s / self.total0) * (t / e.t0);
         }
+        self.exchange_rhs(x, y, dydx);
     }
 
     /// κ, σ and S at state y with their derivatives: uniform in the species (∂κ/∂y_k,
@@ -176,8 +178,9 @@ impl Balance {
             out.push((j, ti, col_t[j]));
         }
         let ta = self.coolant_temperature(e, x, y);
-        let (cap, dcap_dt) = e.capacity(&y[..n], t);
-        let f_t = (e.ua * (ta - t) + release) / cap;
+        let (cap, dcap_dt) = self.content_capacity(e, x, &y[..n], t);
+        let (dosed, dosed_dt) = self.dosing_heat(e, x, t);
+        let f_t = (e.ua * (ta - t) + release + dosed) / cap;
         for (k, row) in energy_row.iter().enumerate() {
             out.push((
                 ti,
@@ -185,7 +188,11 @@ impl Balance {
                 (row + energy_uniform - f_t * e.capacity_slope(k, t)) / cap,
             ));
         }
-        out.push((ti, ti, (-e.ua + release_dt - f_t * dcap_dt) / cap));
+        out.push((
+            ti,
+            ti,
+            (-e.ua + release_dt + dosed_dt - f_t * dcap_dt) / cap,
+        ));
         if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
             let sign = if counter { -1.0 } else { 1.0 };
             out.push((ti, k, e.ua / cap));
@@ -205,6 +212,7 @@ impl Balance {
             out.push((n, n, -f_p / p));
             out.push((n, ti, f_p / t));
         }
+        self.exchange_jacobian(x, out);
     }
 }
 

@@ -15,6 +15,8 @@ pub enum StateKind {
     Temperature,
     /// The temperature of a coolant stream along a tube (K).
     CoolantTemperature,
+    /// The amount of species j withdrawn from a semibatch so far (mol), ∫ q_out N_j / V dt.
+    Withdrawn(usize),
 }
 
 /// One entry of the state vector.
@@ -67,6 +69,11 @@ impl StateLayout {
                     kind: *kind,
                     name: "T_a".into(),
                     unit: "K",
+                },
+                StateKind::Withdrawn(j) => StateVar {
+                    kind: *kind,
+                    name: format!("withdrawn_{}", net.species[*j].name),
+                    unit: "mol",
                 },
             });
         }

@@ -8,6 +8,7 @@ pub mod hotspot;
 pub mod krylov;
 pub mod newton;
 pub mod ode;
+pub mod piecewise;
 pub mod shooting;
 pub mod steady;
 pub mod system;
@@ -279,8 +280,14 @@ pub fn species_atol(net: &Network, opts: &SolveOptions) -> Vec<f64> {
     if let Some(a) = opts.atol.or(net.solver.atol) {
         return vec![a; n];
     }
-    let f0 = &net.feed.amounts;
-    let total = net.feed.total();
+    // What a semibatch doses over the batch counts with the charge.
+    let mut f0 = net.feed.amounts.clone();
+    if let Reactor::Batch { time, .. } = net.reactor {
+        for (f, d) in f0.iter_mut().zip(crate::reactor::dosed_by(net, time)) {
+            *f += d;
+        }
+    }
+    let total: f64 = f0.iter().sum();
     let smallest_reactant = (0..n)
         .filter(|&j| f0[j] > 0.0 && net.reactions.iter().any(|r| r.nu(j) < 0.0))
         .map(|j| f0[j])
@@ -489,33 +496,42 @@ pub fn simulate_with(
                 watch.push(vec![(ti, 1.0), (k, rise / n_k0)]);
             }
         }
-        let (sol, _) =
-            ode::integrate_watching(&Adapter(balance), &y0, size, &out, &ode_opts, &watch)
-                .map_err(|source| {
-                    let x = source.position().unwrap_or(0.0);
-                    if balance.has_pressure() && x > 0.0 {
-                        // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
-                        let before = ode::integrate(
-                            &Adapter(balance),
-                            &y0,
-                            x * (1.0 - 1e-6),
-                            &Output::End,
-                            &ode_opts,
-                        );
-                        if let Ok(sol) = before
-                            && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
-                        {
-                            return SolveError::PressureCollapse { w: x };
-                        }
-                    }
-                    SolveError::Integration {
-                        reactor,
-                        x_name,
-                        x_unit,
-                        x,
-                        source,
-                    }
-                })?;
+        // A semibatch's dosing and withdrawal start, stop and change slope at these times.
+        let breaks = crate::reactor::breakpoints(net, size);
+        let sol = piecewise::integrate_watching(
+            &Adapter(balance),
+            &y0,
+            size,
+            &out,
+            &ode_opts,
+            &watch,
+            &breaks,
+        )
+        .map_err(|source| {
+            let x = source.position().unwrap_or(0.0);
+            if balance.has_pressure() && x > 0.0 {
+                // Was it the pressure collapsing? Look at p = P/P0 just before the failure.
+                let before = ode::integrate(
+                    &Adapter(balance),
+                    &y0,
+                    x * (1.0 - 1e-6),
+                    &Output::End,
+                    &ode_opts,
+                );
+                if let Ok(sol) = before
+                    && sol.y.last().is_some_and(|y| y[n] < PRESSURE_COLLAPSE)
+                {
+                    return SolveError::PressureCollapse { w: x };
+                }
+            }
+            SolveError::Integration {
+                reactor,
+                x_name,
+                x_unit,
+                x,
+                source,
+            }
+        })?;
         stats.steps = sol.stats.steps;
         stats.rhs_evals = sol.stats.rhs_evals;
         stats.jac_evals = sol.stats.jac_evals;
@@ -534,6 +550,7 @@ pub fn simulate_with(
         {
             return Err(SolveError::PressureCollapse { w: sol.x[k] });
         }
+        let exchanged = semibatch_exchanged(net, balance, &sol.x, &sol.y);
         let temperature_range = sol.extremes.first().copied();
         let cooling_failure = sol.extremes.get(1).copied();
         let column = |i: Option<usize>| i.map(|i| sol.y.iter().map(|y| y[i]).collect::<Vec<f64>>());
@@ -582,7 +599,7 @@ pub fn simulate_with(
             stats,
             steady: None,
             counter_current,
-            exchanged: None,
+            exchanged,
         }
     };
     let limit = negative_limit(total);
@@ -696,6 +713,12 @@ pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> Ode
     if balance.has_pressure() {
         atols[net.species.len()] = 1e-12;
     }
+    // A semibatch's withdrawn amounts: the tolerance of their species.
+    if let Some(l0) = balance.withdrawn_index() {
+        for j in 0..net.species.len() {
+            atols[l0 + j] = atols[j];
+        }
+    }
     // Temperatures: 1e-9 of the feed temperature (about 3e-7 K), below any digit reported.
     for i in [balance.temperature_index(), balance.coolant_index()]
         .into_iter()
@@ -758,13 +781,47 @@ pub fn advance(
 ) -> Result<Vec<f64>, SolveError> {
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
-    let sol = ode::integrate(&Shifted(balance, x0), y0, length, &Output::End, &o)
-        .map_err(|e| study_error(net, length, e))?;
-    Ok(sol
-        .y
-        .last()
-        .expect("the solution has its end point")
-        .clone())
+    let breaks = breaks_from(net, x0, length);
+    piecewise::integrate_to_end(&Shifted(balance, x0), y0, length, &o, &breaks)
+        .map_err(|e| study_error(net, length, e))
+}
+
+/// The breakpoints of a semibatch's rates inside (x0, x0 + length), relative to x0.
+fn breaks_from(net: &Network, x0: f64, length: f64) -> Vec<f64> {
+    crate::reactor::breakpoints(net, x0 + length)
+        .into_iter()
+        .filter(|&b| b > x0)
+        .map(|b| b - x0)
+        .collect()
+}
+
+/// What a semibatch dosed and withdrew up to each profile point: the dosed amounts in closed
+/// form from the rates, the withdrawn ones from their quadrature states. `None` for a plain
+/// vessel.
+fn semibatch_exchanged(
+    net: &Network,
+    balance: &Balance,
+    x: &[f64],
+    y: &[Vec<f64>],
+) -> Option<Exchanged> {
+    let c = &net.contacting;
+    if !net.reactor.is_batch() || (c.dosing.is_empty() && c.withdrawal.is_none()) {
+        return None;
+    }
+    let n = net.species.len();
+    Some(Exchanged {
+        entered: x
+            .iter()
+            .map(|&t| crate::reactor::dosed_by(net, t))
+            .collect(),
+        left: y
+            .iter()
+            .map(|yk| match balance.withdrawn_index() {
+                Some(l0) => yk[l0..l0 + n].to_vec(),
+                None => vec![0.0; n],
+            })
+            .collect(),
+    })
 }
 
 /// Integrate from `y0` at position `x0` over `length` until g(x, y) crosses zero (x the
@@ -783,12 +840,7 @@ pub fn trace_root(
     let balance = &*floored(net, balance, opts);
     let o = ode_options(net, balance, opts);
     let gx = |x: f64, y: &[f64]| g(x0 + x, y);
-    let (sol, root) = ode::integrate_until_root(&Shifted(balance, x0), &gx, y0, length, &o)
-        .map_err(|e| study_error(net, length, e))?;
-    let last = sol
-        .y
-        .last()
-        .expect("the solution has its end point")
-        .clone();
-    Ok((root, last))
+    let breaks = breaks_from(net, x0, length);
+    piecewise::until_root(&Shifted(balance, x0), &gx, y0, length, &o, &breaks)
+        .map_err(|e| study_error(net, length, e))
 }
