@@ -88,6 +88,15 @@ impl HeatChoice {
 }
 
 pub fn as_reactor(net: &Network, kind: Kind) -> Result<Network, String> {
+    // A semibatch's dosing and withdrawal are over time: they have no meaning in a flow
+    // reactor, and dropping them would compare another study.
+    let c = &net.contacting;
+    if kind != Kind::Batch && (!c.dosing.is_empty() || c.withdrawal.is_some()) {
+        return Err(format!(
+            "dosing is a batch pattern (semibatch): this study's dosing and withdrawal cannot move to a {}; compare it as `batch` only, or compare a copy without them (for a flow reactor, feed along a tube with `side_feeds` or `distributed_feeds`)",
+            kind.name()
+        ));
+    }
     let mut n = net.clone();
     // Heat exchange moves with the vessel: U·a per reactor volume along a tube is U·A = U·a·V
     // in total for a tank of the same volume (and back); a coolant stream is modelled along

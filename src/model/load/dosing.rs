@@ -159,8 +159,9 @@ pub(super) fn build_semibatch(
 }
 
 /// A volumetric rate over time at field `f`: a constant over [from, to] (defaults 0 and the
-/// batch time), or points [[t, q], ...] with t strictly ascending. Rates are zero or positive
-/// and every time lies within [0, batch time].
+/// batch time), or points [[t, q], ...] with t strictly ascending. Rates are zero or positive,
+/// times not negative, and the rate starts before the batch ends (a window may run past the end:
+/// nothing enters after it).
 fn schedule(
     f: &str,
     rate: &RawVolumetricRate,
@@ -186,17 +187,31 @@ fn schedule(
         }
     };
     let within = |field: &str, t: f64| {
-        if (0.0..=time).contains(&t) {
+        if t >= 0.0 {
             Ok(t)
         } else {
             Err(cx.err(
                 field,
                 &format!(
-                    "the time {} s lies outside the batch, 0..{} s",
+                    "the time {} s is before the start of the batch",
+                    significant(t)
+                ),
+                Some("times count from the start of the batch, t = 0".into()),
+            ))
+        }
+    };
+    let starts = |field: &str, t: f64| {
+        if t < time {
+            Ok(())
+        } else {
+            Err(cx.err(
+                field,
+                &format!(
+                    "the rate starts at {} s, at or after the end of the batch ({} s): it would never run",
                     significant(t),
                     significant(time)
                 ),
-                Some("times count from the start of the batch and end by `reactor.time`".into()),
+                Some("start it earlier or make `reactor.time` longer".into()),
             ))
         }
     };
@@ -224,6 +239,7 @@ fn schedule(
                     Some("`from` is earlier than `to`".into()),
                 ));
             }
+            starts(&format!("{f}.from"), a)?;
             Ok(Schedule::constant(a, b, q))
         }
         RawVolumetricRate::Profile(points) => {
@@ -262,6 +278,7 @@ fn schedule(
                 }
                 out.push((t, q));
             }
+            starts(&format!("{field}[0]"), out[0].0)?;
             Ok(Schedule { points: out })
         }
     }
