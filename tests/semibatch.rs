@@ -589,3 +589,13 @@ fn size_integrates_the_semibatch() {
         run["conversion"]
     );
 }
+
+/// An energy balance needs the heat capacity of every dosed species: refused (exit 2) with the
+/// species named, not run with its enthalpy left out.
+#[test]
+fn an_energy_balance_needs_the_heat_capacity_of_a_dosed_species() {
+    let y = case_study("energy").replace(", cp: 110 J/(mol*K)", "");
+    let r = run_study("run", "nocp", &y, "table");
+    assert_eq!(r.code, 2, "{}\n{}", r.stderr, r.stdout);
+    assert!(r.stderr.contains("heat capacity of `B`"), "{}", r.stderr);
+}
