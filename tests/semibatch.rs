@@ -599,3 +599,40 @@ fn an_energy_balance_needs_the_heat_capacity_of_a_dosed_species() {
     assert_eq!(r.code, 2, "{}\n{}", r.stderr, r.stdout);
     assert!(r.stderr.contains("heat capacity of `B`"), "{}", r.stderr);
 }
+
+/// The best batch time is not searched along one integration for a semibatch (its targets count
+/// what was dosed by each time): refused plainly, pointing to a sweep over the time, where each
+/// point is a whole run.
+#[test]
+fn the_best_batch_time_of_a_semibatch_is_refused_and_a_sweep_over_it_runs() {
+    let f = bundled();
+    for args in [
+        &["optimize", f.p(), "--maximize", "adduct"][..],
+        &[
+            "optimize",
+            f.p(),
+            "--maximize",
+            "adduct",
+            "--over",
+            "reactor.time",
+            "--bounds",
+            "2 h",
+            "4 h",
+        ][..],
+    ] {
+        let r = rxnet(args);
+        assert_eq!(r.code, 2, "{}", r.stdout);
+        assert!(r.stderr.contains("semibatch"), "{}", r.stderr);
+        assert!(r.stderr.contains("sweep"), "{}", r.stderr);
+    }
+    let r = rxnet(&["sweep", f.p(), "--vary", "reactor.time=2 h:4 h:3"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    let lines: Vec<Vec<&str>> = r.stdout.lines().map(|l| l.split(',').collect()).collect();
+    let col = lines[0]
+        .iter()
+        .position(|h| *h == "adduct [mol]")
+        .expect("adduct");
+    let adduct = |k: usize| lines[k][col].parse::<f64>().expect("a number");
+    // More time, more adduct (the dosing stops at 1.5 h, the addition goes on).
+    assert!(adduct(3) > adduct(1), "{}", r.stdout);
+}

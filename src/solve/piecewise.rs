@@ -85,18 +85,19 @@ pub fn integrate_watching(
         let length = b - a;
         // The points of this piece (the first piece also takes x = 0), relative to a, and
         // always the piece's end to carry the state on.
+        let mut asked: Vec<f64> = Vec::new();
         let (piece_out, wanted) = match out {
             Output::Points(p) => {
-                let mut rel: Vec<f64> = p
+                asked = p
                     .iter()
-                    .filter(|&&x| (x > a || (k == 0 && x >= a)) && (x <= b || k == last))
-                    .map(|&x| (x - a).clamp(0.0, length))
+                    .copied()
+                    .filter(|&x| (x > a || (k == 0 && x >= a)) && (x <= b || k == last))
                     .collect();
-                let n = rel.len();
+                let mut rel: Vec<f64> = asked.iter().map(|&x| (x - a).clamp(0.0, length)).collect();
                 if rel.last() != Some(&length) {
                     rel.push(length);
                 }
-                (Output::Points(rel), n)
+                (Output::Points(rel), asked.len())
             }
             Output::Steps => (Output::Steps, usize::MAX),
             Output::End => (Output::End, usize::from(k == last)),
@@ -109,8 +110,9 @@ pub fn integrate_watching(
             .expect("a piece ends with its end point")
             .clone();
         let skip = usize::from(k > 0 && matches!(out, Output::Steps));
-        for (x, yk) in sol.x.iter().zip(sol.y).skip(skip).take(wanted) {
-            xs.push(a + x);
+        for (i, (x, yk)) in sol.x.iter().zip(sol.y).skip(skip).take(wanted).enumerate() {
+            // The points asked for are reported at exactly their x.
+            xs.push(asked.get(i).copied().unwrap_or(a + x));
             ys.push(yk);
         }
         for (i, e) in ext.into_iter().enumerate() {
