@@ -636,3 +636,20 @@ fn the_best_batch_time_of_a_semibatch_is_refused_and_a_sweep_over_it_runs() {
     // More time, more adduct (the dosing stops at 1.5 h, the addition goes on).
     assert!(adduct(3) > adduct(1), "{}", r.stdout);
 }
+
+/// A dosed exothermic batch says that the heat of dosed reagent accumulated unreacted is not
+/// assessed by its cooling-failure figure (common practice of process safety: that
+/// accumulation is the hazard of a dosed batch).
+#[test]
+fn a_dosed_energy_balance_warns_that_accumulation_is_not_assessed() {
+    let (_, sim) = solve(&case_study("energy"), 2);
+    assert!(
+        sim.warnings
+            .iter()
+            .any(|w| w.contains("semibatch") && w.contains("accumulated unreacted")),
+        "{:?}",
+        sim.warnings
+    );
+    let (_, plain) = solve(&case_study("dosed"), 2);
+    assert!(plain.warnings.is_empty(), "{:?}", plain.warnings);
+}

@@ -577,6 +577,12 @@ pub fn simulate_with(
                 range_warnings(net, balance, &xs, &ts, x_name, x_unit)
             })
             .unwrap_or_default();
+        let mut warnings = warnings;
+        if exchanged.is_some() && balance.has_energy() && !net.contacting.dosing.is_empty() {
+            warnings.push(
+                "semibatch: the cooling-failure temperature is figured on the charged key and the charge's heat capacity; the heat of dosed reagent accumulated unreacted (the usual hazard of a dosed exothermic batch) is not assessed: judge it with a safety review and calorimetry, under your local codes and licensed practice".into(),
+            );
+        }
         Simulation {
             x_name,
             x_unit,
