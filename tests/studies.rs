@@ -1311,6 +1311,14 @@ fn bundled_studies_optimize_and_compare() {
             assert!(r.stderr.contains("energy balance"), "{p}: {}", r.stderr);
             continue;
         }
+        // A semibatch's best batch time is refused plainly (its targets count what was dosed
+        // by each time), exit 2; tests/semibatch.rs optimizes it over its inputs.
+        if !net.contacting.dosing.is_empty() {
+            let r = rxnet(&["optimize", p, "--maximize", "conversion"]);
+            assert_eq!(r.code, 2, "{p}: {}", r.stderr);
+            assert!(r.stderr.contains("semibatch"), "{p}: {}", r.stderr);
+            continue;
+        }
         // Conversion over [0, size]: at least the conversion of the full-size run
         // (the conversion never falls along a reactor; common practice).
         let j = (rxnet(&[

@@ -55,6 +55,11 @@ pub struct Balance {
     pub(super) growth: Vec<crate::model::Schedule>,
     /// A tube's distributed feeds and membrane wall ([`super::walls`]), if it has any.
     pub(super) walls: Option<super::walls::Walls>,
+    /// Dosing and withdrawal of a semibatch ([`super::semibatch`]); `None` for a plain vessel.
+    pub(super) semibatch: Option<super::semibatch::Semibatch>,
+    /// Where the rates change form along x (a distributed feed's or a dosing's start, end and
+    /// kinks), ascending: the integration is cut there ([`crate::solve::pieces`]).
+    pub(super) breaks: Vec<f64>,
 }
 
 /// Networks with at most this many species keep their concentrations on the stack in
@@ -113,12 +118,28 @@ impl Balance {
         }
         let mut walls = super::walls::Walls::new(net)?;
         extra.extend(walls.iter().flat_map(|w| w.states()));
+        let semibatch = super::semibatch::Semibatch::new(net);
+        if let Some(s) = &semibatch {
+            extra.extend(s.extra_states(net.species.len()));
+        }
         let layout = StateLayout::new(net, &extra);
         if let Some(w) = &mut walls {
             w.place(&layout);
         }
+        let semibatch = semibatch.map(|s| s.place(&layout));
+        let mut breaks: Vec<f64> = walls
+            .as_ref()
+            .map_or(&[][..], |w| &w.breakpoints[..])
+            .iter()
+            .copied()
+            .chain(super::semibatch::breakpoints(net, net.size()))
+            .collect();
+        breaks.sort_by(f64::total_cmp);
+        breaks.dedup();
+        let mut growth = walls.as_ref().map_or_else(Vec::new, |w| w.growth(net));
+        growth.extend(semibatch.as_ref().map_or_else(Vec::new, |s| s.growth()));
         Ok(Balance {
-            growth: walls.as_ref().map_or_else(Vec::new, |w| w.growth(net)),
+            growth,
             walls,
             t_index: layout.index_of(StateKind::Temperature),
             coolant_index: layout.index_of(StateKind::CoolantTemperature),
@@ -142,6 +163,8 @@ impl Balance {
             temperature: feed.temperature,
             alpha,
             total0: feed.total(),
+            semibatch,
+            breaks,
         })
     }
 
@@ -182,7 +205,8 @@ impl Balance {
                 y.push(inlet);
             }
         }
-        y.resize(self.dim(), 0.0); // the permeate of a membrane wall starts at 0
+        // The permeate of a membrane wall and a semibatch's withdrawn amounts start at zero.
+        y.resize(self.dim(), 0.0);
         y
     }
 
@@ -314,6 +338,7 @@ impl Balance {
         if let Some(w) = &self.walls {
             self.add_walls(w, x, y, kappa, dydx);
         }
+        self.exchange_rhs(x, y, dydx);
     }
 
     /// ∂(dy/dx)/∂y at x = 0 as (row, column, value) triplets; duplicates add.
@@ -383,6 +408,7 @@ impl Balance {
         if let Some(w) = &self.walls {
             self.wall_jacobian(w, x, y, None, out);
         }
+        self.exchange_jacobian(x, out);
     }
 }
 
@@ -579,5 +605,43 @@ mod wall_tests {
             "{CP}phase: gas\nreactions:\n  - {{id: r1, stoich: A + B -> 2 C, rate: {{k: 1e-6 m6/(mol*kg*s), Ea: 50 kJ/mol, dH: -50 kJ/mol}}}}\nfeed: {{T: 500 K, P: 5 bar, flows: {{A: 1 mol/s, B: 1 mol/s, I: 1 mol/s}}}}\nreactor:\n  type: pbr\n  catalyst: 300 kg\n  heat: adiabatic\n  distributed_feeds: [{{from: 100 kg, flows: {{B: 0.7 mol/s}}, T: 420 K}}]\n  membrane: [{{species: C, coefficient: 0.01 m3/(kg*s)}}]\n"
         );
         fd_check(&pbr_feed, &with(&[530.0, 0.01]));
+    }
+}
+
+#[cfg(test)]
+mod semibatch_tests {
+    use super::tests_support::*;
+
+    const SPECIES: &str = "name: t\nspecies: {A: {cp: 150 J/(mol*K)}, B: {cp: 90 J/(mol*K)}, C: {cp: 120 J/(mol*K)}, D: {cp: 60 J/(mol*K)}, E: {cp: 40 J/(mol*K)}, I: {cp: 30 J/(mol*K)}}\nphase: liquid\n";
+    const REACTIONS: &str = "reactions:\n  - {id: r1, stoich: A + B -> 2 C, rate: {k: 1e-3 m3/(mol*s), Ea: 60 kJ/mol, T_ref: 300 K, dH: -90 kJ/mol}}\n  - {id: r2, stoich: C <=> D, rate: {k: 0.2 1/s, Ea: 40 kJ/mol, K_eq: 3, dH: -30 kJ/mol}}\n  - {id: r3, stoich: A -> D + E, rate: {law: hyperbolic, k: 0.05 1/s, Ea: 80 kJ/mol, dH: 20 kJ/mol, adsorption: {D: {K: 0.01 m3/mol, dH: -10 kJ/mol}}}}\n";
+    const DOSING: &str = "dosing: [{concentrations: {B: 2 mol/L, I: 0.5 mol/L}, T: 290 K, rate: [[0 s, 0.01 L/s], [300 s, 0.03 L/s]]}, {concentrations: {A: 1 mol/L}, rate: 0.02 L/s, from: 60 s, to: 200 s}]\n  withdrawal: {rate: 0.015 L/s, from: 100 s, to: 400 s}";
+
+    /// The semibatch terms' Jacobian (withdrawal −q_out/V on the diagonal and its quadrature
+    /// rows, the dosed liquid's enthalpy, the contents' growing heat capacity) against central
+    /// finite differences (common practice), at t = 120 s where both dosings and the
+    /// withdrawal run.
+    #[test]
+    fn semibatch_jacobians_match_finite_differences() {
+        let y = [0.8, 0.5, 0.3, 0.2, 0.1, 0.4];
+        let withdrawn = [0.01, 0.02, 0.03, 0.0, 0.0, 0.05];
+        let full = |extra: &[f64]| [&y[..], extra, &withdrawn[..]].concat();
+        fd_check(
+            &format!(
+                "{SPECIES}{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor:\n  type: batch\n  time: 1 h\n  volume: 3 L\n  {DOSING}\n"
+            ),
+            &full(&[]),
+        );
+        fd_check(
+            &format!(
+                "{SPECIES}{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor:\n  type: batch\n  time: 1 h\n  volume: 3 L\n  heat: {{UA: 20 W/K, coolant: {{T: 310 K}}}}\n  {DOSING}\n"
+            ),
+            &full(&[330.0]),
+        );
+        fd_check(
+            &format!(
+                "{SPECIES}{REACTIONS}feed: {{T: 300 K, amounts: {{A: 1 mol, B: 1 mol}}}}\nreactor:\n  type: batch\n  time: 1 h\n  volume: 3 L\n  heat: {{mixture_cp: 3.9 kJ/(kg*K), density: 900 kg/m3, UA: 20 W/K, coolant: {{T: 310 K}}}}\n  {DOSING}\n"
+            ),
+            &full(&[330.0]),
+        );
     }
 }

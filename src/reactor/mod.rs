@@ -40,12 +40,14 @@ mod energy;
 mod ergun;
 pub mod mixing;
 mod nonisothermal;
+mod semibatch;
 mod state;
 mod walls;
 
 pub use balance::Balance;
 pub use energy::Energy;
 pub use ergun::ergun_alpha;
+pub use semibatch::{breakpoints, dosed_by, liquid_volume};
 pub use state::{StateKind, StateLayout, StateVar};
 pub use walls::{Walls, added_volumetric};
 

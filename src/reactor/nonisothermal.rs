@@ -60,7 +60,8 @@ impl Balance {
         }
         let ta = self.coolant_temperature(e, x, y);
         let (cap, _) = self.heat_capacity(e, x, &y[..n], t);
-        dydx[ti] = (e.ua * (ta - t) + release) / cap;
+        let (dosed, _) = self.dosing_heat(e, x, t);
+        dydx[ti] = (e.ua * (ta - t) + release + dosed) / cap;
         if let Some(w) = &self.walls {
             self.add_walls(w, x, y, kappa, dydx);
             dydx[ti] += self.wall_heat(e, w, x, t).0 / cap;
@@ -73,6 +74,7 @@ impl Balance {
             let p = y[n];
             dydx[n] = -alpha / (2.0 * p) * (s / self.total0) * (t / e.t0);
         }
+        self.exchange_rhs(x, y, dydx);
     }
 
     /// κ, σ and S at state y with their derivatives: uniform in the species (∂κ/∂y_k,
@@ -181,7 +183,8 @@ impl Balance {
         }
         let ta = self.coolant_temperature(e, x, y);
         let (cap, dcap_dt) = self.heat_capacity(e, x, &y[..n], t);
-        let f_t = (e.ua * (ta - t) + release) / cap;
+        let (dosed, dosed_dt) = self.dosing_heat(e, x, t);
+        let f_t = (e.ua * (ta - t) + release + dosed) / cap;
         for (k, row) in energy_row.iter().enumerate() {
             out.push((
                 ti,
@@ -189,7 +192,11 @@ impl Balance {
                 (row + energy_uniform - f_t * e.capacity_slope(k, t)) / cap,
             ));
         }
-        out.push((ti, ti, (-e.ua + release_dt - f_t * dcap_dt) / cap));
+        out.push((
+            ti,
+            ti,
+            (-e.ua + release_dt + dosed_dt - f_t * dcap_dt) / cap,
+        ));
         if let (Some(k), Some((_, capacity, counter))) = (self.coolant_index, e.coolant_stream()) {
             let sign = if counter { -1.0 } else { 1.0 };
             out.push((ti, k, e.ua / cap));
@@ -212,6 +219,7 @@ impl Balance {
         if let Some(w) = &self.walls {
             self.wall_jacobian(w, x, y, Some((e, ti, cap)), out);
         }
+        self.exchange_jacobian(x, out);
     }
 }
 

@@ -19,6 +19,8 @@ pub enum StateKind {
     /// C_j,sweep) dx from the inlet (mol/s; positive out of the tube), present only with a
     /// membrane ([`super::walls`]).
     Permeate(usize),
+    /// The amount of species j withdrawn from a semibatch so far (mol), ∫ q_out N_j / V dt.
+    Withdrawn(usize),
 }
 
 /// One entry of the state vector.
@@ -76,6 +78,11 @@ impl StateLayout {
                     kind: *kind,
                     name: format!("Q_{}", net.species[*j].name),
                     unit: "mol/s",
+                },
+                StateKind::Withdrawn(j) => StateVar {
+                    kind: *kind,
+                    name: format!("withdrawn_{}", net.species[*j].name),
+                    unit: "mol",
                 },
             });
         }

@@ -57,7 +57,7 @@ pub struct Walls {
     /// State index of the cumulative permeate Q_j of each membrane entry (same order).
     permeate: Vec<usize>,
     /// The interior points of the tube where a feed starts, stops or changes slope.
-    breakpoints: Vec<f64>,
+    pub(super) breakpoints: Vec<f64>,
 }
 
 impl Walls {
@@ -178,7 +178,7 @@ impl Balance {
     /// distributed feed starting, stopping or changing slope), ascending: integrate between
     /// them, not across.
     pub fn breakpoints(&self) -> &[f64] {
-        self.walls.as_ref().map_or(&[], |w| &w.breakpoints)
+        &self.breaks
     }
 
     /// ∂κ/∂y_k (uniform in k), for the gas of a flow reactor; 0 for a liquid.

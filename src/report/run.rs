@@ -41,7 +41,8 @@ pub struct ProfilePoint {
     /// liquid tube with distributed feeds (it grows with them).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub volumetric_flow: Option<f64>,
-    /// Volume V, m3, of a constant-pressure gas batch (it follows the moles).
+    /// Volume V, m3, of a constant-pressure gas batch (it follows the moles) or of a
+    /// semibatch (it follows the dosing and withdrawal).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub volume: Option<f64>,
     /// A tube with a membrane wall: the net amount of each membrane species through the wall
@@ -77,8 +78,15 @@ pub struct RunReport {
     pub outlet_volumetric_flow: Option<f64>,
     /// Charged volume V0, m3 (batch).
     pub initial_volume: Option<f64>,
-    /// Volume at the end, m3 (batch): N_T R T / P0 for a constant-pressure gas batch, else V0.
+    /// Volume at the end, m3 (batch): N_T R T / P0 for a constant-pressure gas batch,
+    /// V(t_end) = V0 + ∫(q_in − q_out) dt for a semibatch, else V0.
     pub final_volume: Option<f64>,
+    /// Semibatch: the amount of each species dosed over the batch, mol (species dosed only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dosed: Option<IndexMap<String, f64>>,
+    /// Semibatch with withdrawal: the amount of each species withdrawn over the batch, mol.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub withdrawn: Option<IndexMap<String, f64>>,
     /// Bed constant α of the pressure drop, 1/kg (packed bed with pressure drop): as given,
     /// or computed from the Ergun equation (docs/methods.md).
     pub ergun_alpha: Option<f64>,
@@ -273,7 +281,12 @@ pub fn conditions(net: &Network, sim: &Simulation, k: usize) -> Conditions {
         };
         return Conditions {
             pressure: p_local,
-            volumetric: feed.volumetric + added,
+            volumetric: if net.reactor.is_batch() {
+                // A semibatch's liquid volume follows its dosing and withdrawal.
+                crate::reactor::liquid_volume(net, sim.x[k])
+            } else {
+                feed.volumetric + added
+            },
         };
     }
     let n_rt =
@@ -379,9 +392,9 @@ pub fn coolant_temperature(net: &Network, sim: &Simulation, k: usize) -> Option<
 /// Which conditions vary along the profile, and so get a column: (pressure, volumetric).
 fn varying(net: &Network, sim: &Simulation) -> (bool, bool) {
     if net.phase != Phase::Gas {
-        // A liquid tube with distributed feeds: v grows along it.
+        // A liquid tube with distributed feeds: v grows along it; a semibatch's volume too.
         let grows = !net.reactor.is_batch() && !net.contacting.distributed.is_empty();
-        return (false, grows);
+        return (false, grows || is_semibatch(net));
     }
     match net.reactor {
         Reactor::Batch {
@@ -394,6 +407,12 @@ fn varying(net: &Network, sim: &Simulation) -> (bool, bool) {
         } => (false, true),
         _ => (sim.pressure.is_some(), true),
     }
+}
+
+/// Whether the study is a semibatch (a batch with dosing or withdrawal).
+fn is_semibatch(net: &Network) -> bool {
+    net.reactor.is_batch()
+        && (!net.contacting.dosing.is_empty() || net.contacting.withdrawal.is_some())
 }
 
 /// R_D / Σ_U R_U from the per-product instantaneous selectivities: Σ_U R_U / R_D = Σ_U 1/S_D/U.
@@ -483,6 +502,19 @@ pub fn build(
         outlet_volumetric_flow: (!batch).then_some(end.volumetric),
         initial_volume: batch.then_some(net.feed.volumetric),
         final_volume: batch.then_some(end.volumetric),
+        dosed: (!net.contacting.dosing.is_empty() && batch).then(|| {
+            let d = crate::reactor::dosed_by(net, sim.size);
+            net.species
+                .iter()
+                .zip(d)
+                .filter(|(_, v)| *v > 0.0)
+                .map(|(s, v)| (s.name.clone(), v))
+                .collect()
+        }),
+        withdrawn: (net.contacting.withdrawal.is_some() && batch)
+            .then(|| sim.exchanged.as_ref().and_then(|e| e.left.last()))
+            .flatten()
+            .map(|l| names(l)),
         ergun_alpha: balance.alpha(),
         heat: crate::safety::HeatFigures::of(net, balance, sim),
         warnings: sim.warnings.clone(),
@@ -740,21 +772,27 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
     if !conditions.is_empty() {
         let _ = writeln!(o, "{}", conditions.join(", "));
     }
-    let listed = |m: &IndexMap<String, f64>| {
+    let listed = |m: &IndexMap<String, f64>, unit: &str| {
         m.iter()
-            .map(|(s, v)| format!("{s} {} mol/s", num(*v)))
+            .map(|(s, v)| format!("{s} {} {unit}", num(*v)))
             .collect::<Vec<_>>()
             .join(", ")
     };
     if let Some(d) = &r.distributed_feed {
-        let _ = writeln!(o, "fed along the tube: {}", listed(d));
+        let _ = writeln!(o, "fed along the tube: {}", listed(d, "mol/s"));
     }
     if let Some(p) = &r.permeate {
         let _ = writeln!(
             o,
             "through the wall (net, out of the tube positive): {}",
-            listed(p)
+            listed(p, "mol/s")
         );
+    }
+    if let Some(d) = &r.dosed {
+        let _ = writeln!(o, "dosed over the batch: {}", listed(d, "mol"));
+    }
+    if let Some(w) = &r.withdrawn {
+        let _ = writeln!(o, "withdrawn over the batch: {}", listed(w, "mol"));
     }
     let w = r.outlet.keys().map(|k| k.len()).max().unwrap_or(7).max(7);
     let flow = if r.state_unit == "mol" {

@@ -290,8 +290,14 @@ pub fn species_atol(net: &Network, opts: &SolveOptions) -> Vec<f64> {
     if let Some(a) = opts.atol.or(net.solver.atol) {
         return vec![a; n];
     }
-    let f0 = &net.feed.amounts;
-    let total = net.feed.total();
+    // What a semibatch doses over the batch counts with the charge.
+    let mut f0 = net.feed.amounts.clone();
+    if let Reactor::Batch { time, .. } = net.reactor {
+        for (f, d) in f0.iter_mut().zip(crate::reactor::dosed_by(net, time)) {
+            *f += d;
+        }
+    }
+    let total: f64 = f0.iter().sum();
     let smallest_reactant = (0..n)
         .filter(|&j| f0[j] > 0.0 && net.reactions.iter().any(|r| r.nu(j) < 0.0))
         .map(|j| f0[j])
@@ -567,7 +573,11 @@ pub fn simulate_with(
         let column = |i: Option<usize>| i.map(|i| sol.y.iter().map(|y| y[i]).collect::<Vec<f64>>());
         let temperature = column(balance.temperature_index());
         let coolant = column(balance.coolant_index());
-        let exchanged = balance.wall_exchange(&sol.x, &sol.y);
+        // What entered and left besides the inlet and outlet: a tube's walls, or a
+        // semibatch's dosing and withdrawal.
+        let exchanged = balance
+            .wall_exchange(&sol.x, &sol.y)
+            .or_else(|| semibatch_exchanged(net, balance, &sol.x, &sol.y));
         if let Some(t) = &temperature
             && let Some(k) = t.iter().position(|v| !(*v > 0.0))
         {
@@ -590,6 +600,11 @@ pub fn simulate_with(
             })
             .unwrap_or_default();
         warnings.extend(balance.wall_warning(net));
+        if exchanged.is_some() && balance.has_energy() && !net.contacting.dosing.is_empty() {
+            warnings.push(
+                "semibatch: the cooling-failure temperature is figured on the charged key and the charge's heat capacity; the heat of dosed reagent accumulated unreacted (the usual hazard of a dosed exothermic batch) is not assessed: judge it with a safety review and calorimetry, under your local codes and licensed practice".into(),
+            );
+        }
         Simulation {
             x_name,
             x_unit,
@@ -726,6 +741,12 @@ pub fn ode_options(net: &Network, balance: &Balance, opts: &SolveOptions) -> Ode
     if balance.has_pressure() {
         atols[net.species.len()] = 1e-12;
     }
+    // A semibatch's withdrawn amounts: the tolerance of their species.
+    if let Some(l0) = balance.withdrawn_index() {
+        for j in 0..net.species.len() {
+            atols[l0 + j] = atols[j];
+        }
+    }
     // Temperatures: 1e-9 of the feed temperature (about 3e-7 K), below any digit reported.
     for i in [balance.temperature_index(), balance.coolant_index()]
         .into_iter()
@@ -779,6 +800,35 @@ pub fn advance(
     let o = ode_options(net, balance, opts);
     pieces::advance(&Adapter(balance), y0, x0, length, &o, balance.breakpoints())
         .map_err(|e| study_error(net, length, e))
+}
+
+/// What a semibatch dosed and withdrew up to each profile point: the dosed amounts in closed
+/// form from the rates, the withdrawn ones from their quadrature states. `None` for a plain
+/// vessel.
+fn semibatch_exchanged(
+    net: &Network,
+    balance: &Balance,
+    x: &[f64],
+    y: &[Vec<f64>],
+) -> Option<Exchanged> {
+    let c = &net.contacting;
+    if !net.reactor.is_batch() || (c.dosing.is_empty() && c.withdrawal.is_none()) {
+        return None;
+    }
+    let n = net.species.len();
+    Some(Exchanged {
+        entered: x
+            .iter()
+            .map(|&t| crate::reactor::dosed_by(net, t))
+            .collect(),
+        left: y
+            .iter()
+            .map(|yk| match balance.withdrawn_index() {
+                Some(l0) => yk[l0..l0 + n].to_vec(),
+                None => vec![0.0; n],
+            })
+            .collect(),
+    })
 }
 
 /// Integrate from `y0` at position `x0` over `length` until g(x, y) crosses zero (x the

@@ -69,6 +69,12 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
     }
     let a = net.key;
     let f0 = net.feed.amounts[a];
+    if f0 <= 0.0 && crate::reactor::dosed_by(net, net.size())[a] > 0.0 {
+        return Err(StudyError::Invalid(format!(
+            "the key reactant {} is dosed, not charged: its conversion is not defined from the start of the batch; name a charged reactant as `key` for the time to a conversion",
+            net.species[a].name
+        )));
+    }
     if f0 <= 0.0 {
         return Err(StudyError::Invalid(format!(
             "the key reactant {} is not fed",
@@ -76,6 +82,16 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
         )));
     }
     let conv = |y: &[f64]| (f0 - y[a]) / f0;
+    // A semibatch at time t: the key fed by then (charged and dosed) less what is in the
+    // vessel and what was withdrawn, over the key fed by then.
+    let conv_at = |t: f64, y: &[f64]| {
+        if net.contacting.dosing.is_empty() && b.withdrawn_index().is_none() {
+            return conv(y);
+        }
+        let fed = f0 + crate::reactor::dosed_by(net, t)[a];
+        let gone = b.withdrawn_index().map_or(0.0, |l0| y[l0 + a]);
+        (fed - y[a] - gone) / fed
+    };
     let total = net.feed.total();
     let size = net.size();
     if let Reactor::Cstr { .. } = net.reactor {
@@ -126,7 +142,7 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
             size * 10f64.powi(DECADES as i32 - 1)
         )))
     } else {
-        let g = |_x: f64, y: &[f64]| conv(y) - x;
+        let g = |t: f64, y: &[f64]| conv_at(t, y) - x;
         let mut y = b.initial_state(net);
         let (mut from, mut len) = (0.0, size);
         let mut d = vec![0.0; y.len()];
@@ -155,7 +171,7 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
             let change = d[..n].iter().fold(0.0f64, |m, v| m.max(v.abs())) * from;
             if change <= 1e-11 * total {
                 return Ok(Reach::Beyond {
-                    x_max: conv(&end),
+                    x_max: conv_at(from, &end),
                     reason: limit_reason(net, &end),
                 });
             }

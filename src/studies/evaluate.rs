@@ -97,10 +97,11 @@ impl Findings {
 }
 
 /// Whether a `--set` path can change the consistency check: the check reads no `reactor`
-/// field (type, size, bed), so a study varied only there keeps the check of its base network
-/// and a sweep need not repeat it at every point.
+/// field (type, size, bed) but a semibatch's `dosing` (what is dosed counts as fed), so a
+/// study varied only there keeps the check of its base network and a sweep need not repeat it
+/// at every point.
 pub fn path_affects_check(path: &str) -> bool {
-    !(path == "reactor" || path.starts_with("reactor."))
+    !(path == "reactor" || path.starts_with("reactor.")) || path.starts_with("reactor.dosing")
 }
 
 /// What the solve part of the gate gives: the balance and result of a single vessel, or of a

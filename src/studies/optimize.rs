@@ -164,6 +164,14 @@ pub fn optimize_size(
         return optimize_train_size(net, target, lo, hi, min_conversion, opts);
     }
     super::conversion::refuse_heat_cstr(net, "the optimum volume")?;
+    // The search along the batch time judges targets on the charge alone; a semibatch's
+    // metrics count what was dosed and withdrawn by each time, which it does not follow.
+    let c = &net.contacting;
+    if net.reactor.is_batch() && (!c.dosing.is_empty() || c.withdrawal.is_some()) {
+        return Err(StudyError::Invalid(
+            "the best batch time of a semibatch is not searched along one integration (its targets count what was dosed and withdrawn by each time): sweep it instead, `rxnet sweep --vary \"reactor.time=1 h:4 h:13\"`, where each point is a whole run (mind that a dosing's `to` defaults to the batch time), or optimize the dosing itself (`--over reactor.dosing.0.rate`)".into(),
+        ));
+    }
     let min_conversion = min_conversion.filter(|x| *x > 0.0);
     let lo_open = lo == 0.0;
     let lo_eff = if lo_open { ZERO_SIZE * hi } else { lo };
