@@ -129,6 +129,7 @@ impl HeatFigures {
         out.hot_spot.at += offset;
         out.cold_spot.at += offset;
         out.inlet_temperature = net.feed.temperature;
+        out.heat = net.heat_name();
         for (offset, h) in all {
             if h.hot_spot.temperature > out.hot_spot.temperature {
                 out.hot_spot = Located {

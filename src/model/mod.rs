@@ -396,6 +396,18 @@ impl Network {
         }
     }
 
+    /// The heat model's short name for reports: the vessel's (`isothermal`, `adiabatic`,
+    /// `heat exchange`), or a train's when every unit has the same one, else `per unit`.
+    pub fn heat_name(&self) -> &'static str {
+        let vessels = self.vessels();
+        let first = vessels[0].1.name();
+        if vessels.iter().all(|(_, h)| h.name() == first) {
+            first
+        } else {
+            "per unit"
+        }
+    }
+
     /// Which species enter the study by any route: the feed, a join before a unit of a train,
     /// a side, distributed or dosed stream, or the wall. The consistency check reasons from
     /// these (what can form, whether the key is fed).

@@ -428,7 +428,7 @@ pub fn evaluate(
         optimum_note: None,
         hot_spot: None,
         over_limit: false,
-        heat: net.heat.name(),
+        heat: net.heat_name(),
         error: None,
     };
     let result = (|| -> Result<(), String> {
