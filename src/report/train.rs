@@ -103,15 +103,7 @@ fn profile(net: &Network, run: &TrainRun) -> Vec<super::run::ProfilePoint> {
         .unwrap_or_default();
     (0..sim.x.len())
         .map(|k| {
-            let inst = run.places[k].map(|(u, p, i)| {
-                let piece = &run.units[u].pieces[p];
-                metrics::instantaneous_selectivity(
-                    &piece.network,
-                    &piece.balance,
-                    piece.sim.x[i],
-                    &piece.sim.model_state(i, piece.network.feed.pressure),
-                )
-            });
+            let inst = point_selectivity(run, k);
             let over_all = inst.as_deref().and_then(super::run::over_all);
             super::run::ProfilePoint {
                 unit: Some(run.labels[k].clone()),
@@ -355,15 +347,7 @@ pub fn profile_csv(net: &Network, run: &TrainRun) -> String {
             let _ = write!(o, ",{:.12e}", t[k]);
         }
         if net.desired.is_some() {
-            let inst = run.places[k].map(|(u, p, i)| {
-                let piece = &run.units[u].pieces[p];
-                metrics::instantaneous_selectivity(
-                    &piece.network,
-                    &piece.balance,
-                    piece.sim.x[i],
-                    &piece.sim.model_state(i, piece.network.feed.pressure),
-                )
-            });
+            let inst = point_selectivity(run, k);
             for j in 0..others.len() {
                 match inst.as_ref().and_then(|s| s.get(j)).and_then(|s| s.value) {
                     Some(v) => {
@@ -376,4 +360,18 @@ pub fn profile_csv(net: &Network, run: &TrainRun) -> String {
         o.push('\n');
     }
     o
+}
+
+/// The instantaneous selectivities at profile point k from its own unit's balance (`None` for
+/// the feed and a unit's outlet after a split or bypass).
+fn point_selectivity(run: &TrainRun, k: usize) -> Option<Vec<metrics::Selectivity>> {
+    run.places[k].map(|(u, p, i)| {
+        let piece = &run.units[u].pieces[p];
+        metrics::instantaneous_selectivity(
+            &piece.network,
+            &piece.balance,
+            piece.sim.x[i],
+            &piece.sim.model_state(i, piece.network.feed.pressure),
+        )
+    })
 }

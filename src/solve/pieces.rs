@@ -44,17 +44,8 @@ impl OdeSystem for From<'_> {
 
 /// An error of a piece starting at `x0`, placed on the whole tube's coordinate.
 fn placed(mut e: OdeError, x0: f64) -> OdeError {
-    match &mut e {
-        OdeError::NonFiniteRhs { x, .. }
-        | OdeError::NonFiniteJacobian { x, .. }
-        | OdeError::SparsityChanged { x, .. }
-        | OdeError::NonFiniteRoot { x }
-        | OdeError::NonFiniteState { x, .. }
-        | OdeError::StepSizeTooSmall { x }
-        | OdeError::MaxSteps { x, .. }
-        | OdeError::ConvergenceFailure { x, .. }
-        | OdeError::Solver { x, .. } => *x += x0,
-        OdeError::InvalidInput { .. } | OdeError::JacobianIndexOutOfRange { .. } => {}
+    if let Some(x) = e.position_mut() {
+        *x += x0;
     }
     e
 }

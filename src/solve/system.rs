@@ -71,8 +71,9 @@ pub enum OdeError {
 }
 
 impl OdeError {
-    /// Where along the integration it failed, when the failure happened during it.
-    pub fn position(&self) -> Option<f64> {
+    /// Where along the integration it failed, to move onto another coordinate (a piece of a
+    /// longer integration); `None` when the failure happened before it started.
+    pub fn position_mut(&mut self) -> Option<&mut f64> {
         match self {
             OdeError::NonFiniteRhs { x, .. }
             | OdeError::NonFiniteJacobian { x, .. }
@@ -82,8 +83,13 @@ impl OdeError {
             | OdeError::StepSizeTooSmall { x }
             | OdeError::MaxSteps { x, .. }
             | OdeError::ConvergenceFailure { x, .. }
-            | OdeError::Solver { x, .. } => Some(*x),
+            | OdeError::Solver { x, .. } => Some(x),
             OdeError::InvalidInput { .. } | OdeError::JacobianIndexOutOfRange { .. } => None,
         }
+    }
+
+    /// Where the failure happened (the reactor position), when known.
+    pub fn position(&self) -> Option<f64> {
+        self.clone().position_mut().map(|x| *x)
     }
 }
