@@ -151,6 +151,25 @@ pub fn selectivity_value(
     }
 }
 
+/// The selectivity of the desired product d over all other products formed together,
+/// (F_d − F_d0)/Σ_U (F_U − F_U0), of what left (`left`) against what was fed (`fed`); `None`
+/// where it is not defined (the rules of [`selectivity_value`]).
+pub fn selectivity_over_all(net: &Network, d: usize, fed: &[f64], left: &[f64]) -> Option<f64> {
+    let total: f64 = fed.iter().sum();
+    let others: f64 = products(net)
+        .into_iter()
+        .filter(|&u| u != d)
+        .map(|u| left[u] - fed[u])
+        .sum();
+    selectivity_value(
+        &net.species[d].name,
+        "the other products",
+        formed(left[d] - fed[d], total),
+        formed(others, total),
+    )
+    .0
+}
+
 /// Metrics of an outlet state against the feed.
 pub fn compute(net: &Network, outlet: &[f64]) -> Metrics {
     compute_against(net, &net.feed.amounts, outlet)

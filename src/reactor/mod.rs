@@ -41,7 +41,9 @@ mod ergun;
 pub mod mixing;
 mod nonisothermal;
 mod semibatch;
+mod semibatch_terms;
 mod state;
+mod wall_terms;
 mod walls;
 
 pub use balance::Balance;

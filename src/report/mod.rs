@@ -6,6 +6,7 @@ use crate::analysis::{Check, Severity};
 pub mod plot;
 pub mod run;
 pub mod train;
+pub mod units;
 
 use std::fmt::Write;
 

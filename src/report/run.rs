@@ -140,7 +140,7 @@ pub struct RunReport {
     /// A train (or a vessel with side feeds or a recycle): every unit, in order. The outlet,
     /// conversion, yields and selectivities above are then the train's, on everything fed.
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub units: Option<Vec<super::train::UnitReport>>,
+    pub units: Option<Vec<super::units::UnitReport>>,
 }
 
 /// One CSTR steady state in the report (SI: mol/s, 1/s).
@@ -924,7 +924,7 @@ pub fn text(r: &RunReport, verbose: bool) -> String {
         }
     }
     if let Some(units) = &r.units {
-        super::train::text(
+        super::units::text(
             &mut o,
             units,
             &r.key,

@@ -577,6 +577,10 @@ pub fn simulate_with(
         // semibatch's dosing and withdrawal.
         let exchanged = balance
             .wall_exchange(&sol.x, &sol.y)
+            .map(|e| Exchanged {
+                entered: e.entered,
+                left: e.left,
+            })
             .or_else(|| semibatch_exchanged(net, balance, &sol.x, &sol.y));
         if let Some(t) = &temperature
             && let Some(k) = t.iter().position(|v| !(*v > 0.0))

@@ -186,17 +186,7 @@ impl Target {
                 )
                 .0
             }
-            Target::SelectivityAll(d) => {
-                let total = feed_total;
-                let mu: f64 = others(net, d).iter().map(|&u| y[u] - f0[u]).sum();
-                crate::metrics::selectivity_value(
-                    &net.species[d].name,
-                    "the other products",
-                    crate::metrics::formed(y[d] - f0[d], total),
-                    crate::metrics::formed(mu, total),
-                )
-                .0
-            }
+            Target::SelectivityAll(d) => crate::metrics::selectivity_over_all(net, d, f0, y),
         }
     }
 

@@ -1,59 +1,14 @@
 //! How reactants are brought together: the streams a vessel exchanges besides its inlet and
-//! outlet (`side_feeds`, `recycle` here; `distributed_feeds` and `membrane` in [`super::walls`];
+//! outlet (`side_feeds`, `recycle` here, each stream read by [`super::stream`]; `distributed_feeds` and `membrane` in [`super::walls`];
 //! `dosing` and `withdrawal` in [`super::dosing`]), and a `train` of vessels with their
 //! mixing points (`join`) and bypasses.
 
-use super::feed::build_feed;
 use super::heat::build_heat;
 use super::reactor::build_reactor;
+use super::stream::{StreamContext, build_stream};
 use super::{Cx, LoadError};
 use crate::model::file::*;
 use crate::model::*;
-use indexmap::IndexMap;
-
-/// What every stream loader needs to know about the study.
-pub(super) struct StreamContext<'a> {
-    pub phase: Phase,
-    pub feed: &'a Feed,
-    pub index: &'a IndexMap<String, usize>,
-    pub species: &'a [Species],
-}
-
-/// A stream other than the feed (a join, a side feed, a distributed feed) at field `at`: flows,
-/// or concentrations with the volumetric flow, by the feed's own rules (units, ideal gas,
-/// not empty); temperature and pressure default to the feed's.
-pub(super) fn build_stream(
-    s: &RawStream,
-    at: &str,
-    sc: &StreamContext,
-    cx: &Cx,
-) -> Result<Feed, LoadError> {
-    // Defaults written as quantities in SI, read back exactly ({:?} is the shortest
-    // round-trip form of an f64).
-    let raw = RawFeed {
-        t: s.t
-            .clone()
-            .unwrap_or_else(|| RawQty::Text(format!("{:?} K", sc.feed.temperature))),
-        p: Some(
-            s.p.clone()
-                .unwrap_or_else(|| RawQty::Text(format!("{:?} Pa", sc.feed.pressure))),
-        ),
-        flows: s.flows.clone(),
-        amounts: None,
-        volumetric: s.volumetric.clone(),
-        concentrations: s.concentrations.clone(),
-    };
-    // Loaded as the feed of a flow reactor (the reactor's size plays no part).
-    build_feed(
-        &raw,
-        at,
-        sc.phase,
-        &Reactor::Pfr { volume: 1.0 },
-        sc.index,
-        sc.species,
-        cx,
-    )
-}
 
 /// A unit-only key written under `reactor` (a single vessel).
 fn unit_only(r: &RawReactor, at: &str, cx: &Cx) -> Result<(), LoadError> {

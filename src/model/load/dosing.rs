@@ -5,9 +5,9 @@
 //! takes the contents out at q_out(t). The liquid volume V(t) = V0 + ∫ (Σ q − q_out) dt is
 //! explicit in t, so the loader checks here that the vessel never empties over the batch.
 
-use super::contacting::StreamContext;
 use super::messages::significant;
 use super::species::species_map;
+use super::stream::StreamContext;
 use super::{Cx, LoadError, conc};
 use crate::model::file::*;
 use crate::model::*;

@@ -17,6 +17,7 @@ mod reactions;
 mod reactor;
 mod solver;
 mod species;
+mod stream;
 mod walls;
 
 pub(crate) use messages::closest;
@@ -564,7 +565,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     let (heat, t_max, contacting, train) = contacting::build_vessels(
         &vessels,
         &reactors,
-        &contacting::StreamContext {
+        &stream::StreamContext {
             phase,
             feed: &feed,
             index: &index,

@@ -10,8 +10,8 @@
 //! volume, 1/s; per catalyst mass of a packed bed, m3/(kg*s)) and the sweep side's
 //! concentration (default 0).
 
-use super::contacting::{StreamContext, build_stream};
 use super::messages::significant;
+use super::stream::{StreamContext, build_stream};
 use super::{Cx, LoadError};
 use crate::model::file::*;
 use crate::model::*;
