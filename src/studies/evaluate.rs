@@ -97,11 +97,47 @@ impl Findings {
 }
 
 /// Whether a `--set` path can change the consistency check: the check reads no `reactor`
-/// field (type, size, bed) but a semibatch's `dosing` (what is dosed counts as fed), so a
-/// study varied only there keeps the check of its base network and a sweep need not repeat it
-/// at every point.
+/// field (type, size, bed, heat) except the streams that bring species in besides the feed
+/// (dosing, side and distributed feeds, a membrane's sweep: what they bring counts as fed), so
+/// a study varied only in the others keeps the check of its base network and a sweep need not
+/// repeat it at every point. A train's paths (`train.…`, joins among them) always re-check.
 pub fn path_affects_check(path: &str) -> bool {
-    !(path == "reactor" || path.starts_with("reactor.")) || path.starts_with("reactor.dosing")
+    let Some(rest) = path.strip_prefix("reactor.") else {
+        return path != "reactor";
+    };
+    ["dosing", "side_feeds", "distributed_feeds", "membrane"]
+        .iter()
+        .any(|k| rest.starts_with(k))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::path_affects_check;
+
+    /// The paths that bring species in re-run the check; the size and heat do not.
+    #[test]
+    fn streams_that_bring_species_in_re_run_the_check() {
+        for p in [
+            "feed.flows.A",
+            "reactions.r1.rate.k",
+            "reactor.dosing.0.rate",
+            "reactor.side_feeds.0.flows.B",
+            "reactor.distributed_feeds.0.flows.B",
+            "reactor.membrane.0.sweep",
+            "train.T2.join.flows.A",
+            "train.T2.volume",
+        ] {
+            assert!(path_affects_check(p), "{p}");
+        }
+        for p in [
+            "reactor",
+            "reactor.volume",
+            "reactor.heat.coolant.T",
+            "reactor.recycle",
+        ] {
+            assert!(!path_affects_check(p), "{p}");
+        }
+    }
 }
 
 /// What the solve part of the gate gives: the balance and result of a single vessel, or of a
