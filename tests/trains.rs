@@ -756,3 +756,36 @@ reactor: {{type: pfr, volume: 2000 L, recycle: {r}}}
         );
     }
 }
+
+/// A split whose best is degenerate says which units sit on a bound: maximising S_R/D of the
+/// bundled split-feed cascade puts (nearly) the whole volume into the first tank, whose
+/// backmixing keeps A lowest (parallel steps of different order, Levenspiel ch. 7): the first
+/// tank on its upper bound, the others on their lower bound, the total held.
+#[test]
+fn a_degenerate_split_names_the_units_on_their_bounds() {
+    let p = common::network("split_feed_cascade.yaml");
+    let j = rxnet(&[
+        "optimize",
+        p.to_str().unwrap(),
+        "--maximize",
+        "selectivity:R/D",
+        "--over",
+        "split",
+        "--format",
+        "json",
+    ])
+    .ok_json();
+    let b = &j["best"]["on_bound"];
+    assert_eq!(b["train.T1.volume"], "upper", "{j}");
+    assert_eq!(b["train.T2.volume"], "lower", "{j}");
+    assert_eq!(b["train.T3.volume"], "lower", "{j}");
+    let total: f64 = ["T1", "T2", "T3"]
+        .iter()
+        .map(|id| {
+            j["best"]["point"][format!("train.{id}.volume")]
+                .as_f64()
+                .unwrap()
+        })
+        .sum();
+    assert!((total - 2.4).abs() < 1e-12, "{total}");
+}

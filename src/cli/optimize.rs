@@ -306,15 +306,32 @@ pub fn optimize(
                         .filter(|(v, _)| v.split.is_some())
                         .map(|(_, x)| *x)
                         .collect();
-                    // A unit at the smallest share the split allows sits on its bound.
-                    let near = |f: f64| {
-                        f <= SPLIT_MIN * (1.0 + 1e-6) || f >= 1.0 - SPLIT_MIN * (1.0 + 1e-6)
-                    };
-                    let edge = u.iter().any(|f| near(*f));
-                    for (p, size) in sp.paths.iter().zip(sp.sizes(&u)) {
+                    // A unit squeezed to the smallest share the split allows sits on its lower
+                    // bound: unit k when its fraction u_k is at the floor or a unit before it
+                    // took all but the floor (u_i at the ceiling), the last unit when any
+                    // fraction is at the ceiling (it gets what the others leave).
+                    let floor = SPLIT_MIN * (1.0 + 1e-6);
+                    let ceiling = |us: &[f64]| us.iter().any(|f| *f >= 1.0 - floor);
+                    let at_floor: Vec<bool> = (0..u.len())
+                        .map(|k| u[k] <= floor || ceiling(&u[..k]))
+                        .chain(std::iter::once(ceiling(&u)))
+                        .collect();
+                    // A unit that took all the others leave it (u_k at the ceiling) is on its
+                    // upper bound.
+                    let took_all = |k: usize| k < u.len() && u[k] >= 1.0 - floor;
+                    for (k, ((p, size), low)) in
+                        sp.paths.iter().zip(sp.sizes(&u)).zip(at_floor).enumerate()
+                    {
                         point.insert(p.clone(), size);
                         units.insert(p.clone(), sp.unit.to_string());
-                        on_bound.insert(p.clone(), edge.then_some(Bound::Lower));
+                        let bound = if low {
+                            Some(Bound::Lower)
+                        } else if took_all(k) {
+                            Some(Bound::Upper)
+                        } else {
+                            None
+                        };
+                        on_bound.insert(p.clone(), bound);
                     }
                 }
                 (

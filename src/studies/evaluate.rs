@@ -110,36 +110,6 @@ pub fn path_affects_check(path: &str) -> bool {
         .any(|k| rest.starts_with(k))
 }
 
-#[cfg(test)]
-mod tests {
-    use super::path_affects_check;
-
-    /// The paths that bring species in re-run the check; the size and heat do not.
-    #[test]
-    fn streams_that_bring_species_in_re_run_the_check() {
-        for p in [
-            "feed.flows.A",
-            "reactions.r1.rate.k",
-            "reactor.dosing.0.rate",
-            "reactor.side_feeds.0.flows.B",
-            "reactor.distributed_feeds.0.flows.B",
-            "reactor.membrane.0.sweep",
-            "train.T2.join.flows.A",
-            "train.T2.volume",
-        ] {
-            assert!(path_affects_check(p), "{p}");
-        }
-        for p in [
-            "reactor",
-            "reactor.volume",
-            "reactor.heat.coolant.T",
-            "reactor.recycle",
-        ] {
-            assert!(!path_affects_check(p), "{p}");
-        }
-    }
-}
-
 /// What the solve part of the gate gives: the balance and result of a single vessel, or of a
 /// train with its units.
 type Solved = (Balance, Simulation, Option<TrainRun>);
@@ -271,4 +241,34 @@ pub fn evaluate_study(
         _ => evaluate(&net, opts, false)?,
     };
     Ok((net, e))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::path_affects_check;
+
+    /// The paths that bring species in re-run the check; the size and heat do not.
+    #[test]
+    fn streams_that_bring_species_in_re_run_the_check() {
+        for p in [
+            "feed.flows.A",
+            "reactions.r1.rate.k",
+            "reactor.dosing.0.rate",
+            "reactor.side_feeds.0.flows.B",
+            "reactor.distributed_feeds.0.flows.B",
+            "reactor.membrane.0.sweep",
+            "train.T2.join.flows.A",
+            "train.T2.volume",
+        ] {
+            assert!(path_affects_check(p), "{p}");
+        }
+        for p in [
+            "reactor",
+            "reactor.volume",
+            "reactor.heat.coolant.T",
+            "reactor.recycle",
+        ] {
+            assert!(!path_affects_check(p), "{p}");
+        }
+    }
 }
