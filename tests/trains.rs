@@ -789,3 +789,21 @@ fn a_degenerate_split_names_the_units_on_their_bounds() {
         .sum();
     assert!((total - 2.4).abs() < 1e-12, "{total}");
 }
+
+/// The stoichiometric table is the feed's: for a study where species also enter later (joins
+/// between units) it says so, in text and JSON; a study with one feed has no such note.
+#[test]
+fn the_table_names_the_streams_that_join_later() {
+    let p = common::network("split_feed_cascade.yaml");
+    let t = rxnet(&["table", p.to_str().unwrap()]);
+    assert_eq!(t.code, 0, "{}", t.stderr);
+    assert!(t.stdout.contains("joins between units"), "{}", t.stdout);
+    let j = rxnet(&["table", p.to_str().unwrap(), "--format", "json"]).ok_json();
+    assert!(
+        j["other_streams"].as_str().unwrap().contains("joins"),
+        "{j}"
+    );
+    let plain = common::network("dimerization_cstr.yaml");
+    let j = rxnet(&["table", plain.to_str().unwrap(), "--format", "json"]).ok_json();
+    assert!(j.get("other_streams").is_none(), "{j}");
+}

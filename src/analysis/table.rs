@@ -54,6 +54,10 @@ pub struct StoichTable {
     pub total_feed: f64,
     /// F_T as text.
     pub total_outlet: String,
+    /// Where species also enter besides the feed (joins, side or distributed feeds, dosing,
+    /// a membrane's sweep): the table is the feed's, and those streams add where they enter.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub other_streams: Option<String>,
 }
 
 fn signed_term(nu: f64, id: &str) -> String {
@@ -152,5 +156,46 @@ pub fn build(net: &Network) -> StoichTable {
         reactions,
         total_feed: ft0,
         total_outlet,
+        other_streams: other_streams(net),
     }
+}
+
+/// The routes by which species enter besides the feed, named, or `None` for a study with one
+/// feed.
+fn other_streams(net: &Network) -> Option<String> {
+    let mut routes: Vec<&str> = Vec::new();
+    let contacting = std::iter::once(&net.contacting).chain(
+        net.train
+            .iter()
+            .flat_map(|t| t.units.iter().map(|u| &u.contacting)),
+    );
+    for c in contacting {
+        for (on, what) in [
+            (!c.side_feeds.is_empty(), "side feeds"),
+            (!c.distributed.is_empty(), "distributed feeds"),
+            (!c.dosing.is_empty(), "dosing"),
+            (
+                c.membrane.iter().any(|p| p.sweep > 0.0),
+                "a membrane's sweep",
+            ),
+        ] {
+            if on && !routes.contains(&what) {
+                routes.push(what);
+            }
+        }
+    }
+    if net
+        .train
+        .as_ref()
+        .is_some_and(|t| t.units.iter().any(|u| u.join.is_some()))
+    {
+        routes.insert(0, "joins between units");
+    }
+    let s = if net.reactor.is_batch() { "N" } else { "F" };
+    (!routes.is_empty()).then(|| {
+        format!(
+            "this table is of the feed; species also enter by {}, which add to {s}_j0 where they enter ({s}_j = {s}_j0 + what entered + Σ_i ν_ij ξ_i; `run` reports the totals)",
+            routes.join(", ")
+        )
+    })
 }

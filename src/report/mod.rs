@@ -372,5 +372,8 @@ pub fn table_text(t: &StoichTable) -> String {
         "\nδ = Σν / |ν_A| for reactions that involve A; ε = y_A0 δ (gas only); ξ_i is the extent of reaction i ({}).",
         t.unit
     );
+    if let Some(n) = &t.other_streams {
+        let _ = writeln!(o, "note: {n}.");
+    }
     o
 }
