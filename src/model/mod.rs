@@ -247,6 +247,24 @@ impl Reactor {
     pub fn is_batch(&self) -> bool {
         matches!(self, Reactor::Batch { .. })
     }
+
+    /// The vessel's size: V (PFR, CSTR), catalyst mass W (packed bed) or batch time, SI.
+    pub fn size(&self) -> f64 {
+        match self {
+            Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume,
+            Reactor::Pbr { catalyst, .. } => *catalyst,
+            Reactor::Batch { time, .. } => *time,
+        }
+    }
+
+    /// Set the vessel's size (V, W or batch time, SI).
+    pub fn set_size(&mut self, size: f64) {
+        match self {
+            Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
+            Reactor::Pbr { catalyst, .. } => *catalyst = size,
+            Reactor::Batch { time, .. } => *time = size,
+        }
+    }
 }
 
 /// How the reactor's temperature is found.
@@ -449,23 +467,6 @@ impl Network {
     }
 }
 
-/// The size of one vessel (V, W or batch time, SI).
-fn size_of(r: &Reactor) -> f64 {
-    match r {
-        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume,
-        Reactor::Pbr { catalyst, .. } => *catalyst,
-        Reactor::Batch { time, .. } => *time,
-    }
-}
-
-fn set_size(r: &mut Reactor, size: f64) {
-    match r {
-        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
-        Reactor::Pbr { catalyst, .. } => *catalyst = size,
-        Reactor::Batch { time, .. } => *time = size,
-    }
-}
-
 /// The name in `names` closest to `name` (at most two edits, or equal ignoring case), for
 /// "did you mean" hints.
 pub fn closest_name<'a>(name: &str, names: &[&'a str]) -> Option<&'a str> {
@@ -485,13 +486,9 @@ impl Network {
     /// The reactor size (V, W or batch time, SI); a train's total size.
     pub fn size(&self) -> f64 {
         if let Some(t) = &self.train {
-            return t.units.iter().map(|u| size_of(&u.reactor)).sum();
+            return t.units.iter().map(|u| u.reactor.size()).sum();
         }
-        match self.reactor {
-            Reactor::Pfr { volume } | Reactor::Cstr { volume } => volume,
-            Reactor::Pbr { catalyst, .. } => catalyst,
-            Reactor::Batch { time, .. } => time,
-        }
+        self.reactor.size()
     }
 
     /// The same study with another reactor size (V, W or batch time, SI, positive). A train
@@ -502,8 +499,8 @@ impl Network {
         if let Some(t) = &mut n.train {
             let factor = size / self.size();
             for u in &mut t.units {
-                let s = size_of(&u.reactor) * factor;
-                set_size(&mut u.reactor, s);
+                let s = u.reactor.size() * factor;
+                u.reactor.set_size(s);
                 u.contacting.scale_positions(factor);
             }
             let first = t.units[0].clone();
@@ -517,11 +514,7 @@ impl Network {
         for s in &mut n.contacting.side_feeds {
             s.at *= factor;
         }
-        match &mut n.reactor {
-            Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
-            Reactor::Pbr { catalyst, .. } => *catalyst = size,
-            Reactor::Batch { time, .. } => *time = size,
-        }
+        n.reactor.set_size(size);
         n
     }
 

@@ -32,15 +32,6 @@ pub fn scaled(s: &Feed, factor: f64) -> Feed {
 /// ρ c_p) takes the place of the species' heat capacities where given. Fails, naming what is
 /// missing, when streams at different temperatures meet and no heat capacity is known.
 pub fn mix(net: &Network, heat: &Heat, streams: &[&Feed]) -> Result<Feed, String> {
-    let first = streams[0];
-    let n = first.amounts.len();
-    let mut amounts = vec![0.0; n];
-    for s in streams {
-        for (a, f) in amounts.iter_mut().zip(&s.amounts) {
-            *a += f;
-        }
-    }
-    let liquid_volume: f64 = streams.iter().map(|s| s.volumetric).sum();
     let t_min = streams
         .iter()
         .map(|s| s.temperature)
@@ -55,20 +46,34 @@ pub fn mix(net: &Network, heat: &Heat, streams: &[&Feed]) -> Result<Feed, String
             .iter()
             .map(|s| s.volumetric * s.temperature)
             .sum::<f64>()
-            / liquid_volume
+            / streams.iter().map(|s| s.volumetric).sum::<f64>()
     } else {
         mixed_temperature(net, streams, t_min, t_max)?
     };
+    Ok(combine(net, streams, temperature))
+}
+
+/// Streams combined at a given temperature (the mixture's, or the one an isothermal vessel
+/// holds) and the pressure of the first: species add; the volumetric flow is the sum for a
+/// liquid and F_T R T / P for an ideal gas.
+pub fn combine(net: &Network, streams: &[&Feed], temperature: f64) -> Feed {
+    let mut amounts = vec![0.0; net.species.len()];
+    for s in streams {
+        for (a, f) in amounts.iter_mut().zip(&s.amounts) {
+            *a += f;
+        }
+    }
+    let pressure = streams[0].pressure;
     let volumetric = match net.phase {
-        Phase::Liquid => liquid_volume,
-        Phase::Gas => amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / first.pressure,
+        Phase::Liquid => streams.iter().map(|s| s.volumetric).sum(),
+        Phase::Gas => amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / pressure,
     };
-    Ok(Feed {
+    Feed {
         temperature,
-        pressure: first.pressure,
+        pressure,
         amounts,
         volumetric,
-    })
+    }
 }
 
 /// T of the mixture from the species' heat capacities: Newton on

@@ -152,6 +152,28 @@ pub struct Extreme {
 }
 
 impl Extreme {
+    /// These extremes moved `offset` along the coordinate (a piece or a unit placed on a
+    /// longer one).
+    pub fn shifted(&self, offset: f64) -> Extreme {
+        Extreme {
+            max_at: self.max_at + offset,
+            min_at: self.min_at + offset,
+            ..*self
+        }
+    }
+
+    /// Widen these extremes by `other`'s (the extremes over both ranges).
+    pub fn include(&mut self, other: &Extreme) {
+        if other.max > self.max {
+            self.max = other.max;
+            self.max_at = other.max_at;
+        }
+        if other.min < self.min {
+            self.min = other.min;
+            self.min_at = other.min_at;
+        }
+    }
+
     fn consider(&mut self, x: f64, v: f64) {
         if v > self.max {
             self.max = v;

@@ -140,23 +140,10 @@ pub fn integrate_watching(
         w.krylov_iterations += s.krylov_iterations;
         w.krylov_fallbacks += s.krylov_fallbacks;
         for (i, e) in ext.iter().enumerate() {
-            let e = Extreme {
-                max_at: e.max_at + a,
-                min_at: e.min_at + a,
-                ..*e
-            };
+            let e = e.shifted(a);
             match whole.extremes.get_mut(i) {
                 None => whole.extremes.push(e),
-                Some(acc) => {
-                    if e.max > acc.max {
-                        acc.max = e.max;
-                        acc.max_at = e.max_at;
-                    }
-                    if e.min < acc.min {
-                        acc.min = e.min;
-                        acc.min_at = e.min_at;
-                    }
-                }
+                Some(acc) => acc.include(&e),
             }
         }
     }

@@ -22,7 +22,7 @@
 use super::{Exchanged, Simulation, SolveError, SolveOptions, SolveStats, ode::Extreme};
 use crate::model::{Contacting, Coolant, Feed, Heat, Network, Phase, Reactor, Unit};
 use crate::reactor::Balance;
-use crate::reactor::mixing::{mix, scaled};
+use crate::reactor::mixing::{combine, mix, scaled};
 use crate::units::GAS_CONSTANT;
 
 /// Most substitutions a recycle loop may take.
@@ -144,24 +144,6 @@ pub fn solve(net: &Network, opts: &SolveOptions) -> Result<TrainRun, SolveError>
     })
 }
 
-fn size_of(r: &Reactor) -> f64 {
-    match r {
-        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume,
-        Reactor::Pbr { catalyst, .. } => *catalyst,
-        Reactor::Batch { time, .. } => *time,
-    }
-}
-
-fn with_size(r: &Reactor, size: f64) -> Reactor {
-    let mut r = r.clone();
-    match &mut r {
-        Reactor::Pfr { volume } | Reactor::Cstr { volume } => *volume = size,
-        Reactor::Pbr { catalyst, .. } => *catalyst = size,
-        Reactor::Batch { time, .. } => *time = size,
-    }
-    r
-}
-
 fn run_unit(
     net: &Network,
     u: &Unit,
@@ -247,7 +229,7 @@ fn run_unit(
     Ok(UnitRun {
         id: u.id.clone(),
         kind: u.reactor.kind(),
-        size: size_of(&u.reactor),
+        size: u.reactor.size(),
         offset,
         inlet,
         pieces,
@@ -295,7 +277,7 @@ fn run_vessel(
     offset: f64,
     opts: &SolveOptions,
 ) -> Result<Vec<Piece>, SolveError> {
-    let size = size_of(&u.reactor);
+    let size = u.reactor.size();
     let mut bounds = vec![0.0];
     bounds.extend(u.contacting.side_feeds.iter().map(|s| s.at));
     bounds.push(size);
@@ -309,10 +291,9 @@ fn run_vessel(
             let out = outlet_stream(net, prev);
             let side = &u.contacting.side_feeds[k - 1].stream;
             stream = if isothermal {
-                // Held at the tube's temperature: the side feed is brought to it at the wall.
-                let mut s = mix_at(net, &[&out, side], inlet.temperature);
-                s.pressure = out.pressure;
-                s
+                // Held at the tube's temperature: the side feed is brought to it at the wall
+                // (at the stream's own pressure, the first's).
+                combine(net, &[&out, side], inlet.temperature)
             } else {
                 mix(net, &u.heat, &[&out, side]).map_err(SolveError::Setup)?
             };
@@ -325,7 +306,8 @@ fn run_vessel(
         let mut n = net.clone();
         n.train = None;
         n.feed = stream.clone();
-        n.reactor = with_size(&u.reactor, b - a);
+        n.reactor = u.reactor.clone();
+        n.reactor.set_size(b - a);
         n.heat = heat.clone();
         n.contacting = shifted_walls(&u.contacting, a);
         let balance = Balance::new(&n).map_err(SolveError::Setup)?;
@@ -348,26 +330,6 @@ fn heat_stream_mut(heat: &mut Heat) -> Option<&mut f64> {
             _ => None,
         },
         Heat::Isothermal => None,
-    }
-}
-
-/// Species add at a temperature the vessel holds (an isothermal tube); the volumetric flow
-/// follows (liquid: the sum; gas: F_T R T / P at that temperature).
-fn mix_at(net: &Network, streams: &[&Feed], temperature: f64) -> Feed {
-    let mut amounts = vec![0.0; net.species.len()];
-    for s in streams {
-        add(&mut amounts, &s.amounts);
-    }
-    let pressure = streams[0].pressure;
-    let volumetric = match net.phase {
-        Phase::Liquid => streams.iter().map(|s| s.volumetric).sum(),
-        Phase::Gas => amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / pressure,
-    };
-    Feed {
-        temperature,
-        pressure,
-        amounts,
-        volumetric,
     }
 }
 
@@ -451,7 +413,7 @@ fn recycle_loop(
     let run = |z: &[f64]| -> Result<(Vec<Piece>, Feed, Vec<f64>), SolveError> {
         let r = to_stream(z);
         let tube_in = if isothermal {
-            mix_at(net, &[fresh, &r], fresh.temperature)
+            combine(net, &[fresh, &r], fresh.temperature)
         } else {
             mix(net, &u.heat, &[fresh, &r]).map_err(SolveError::Setup)?
         };
@@ -667,7 +629,11 @@ fn concatenate(net: &Network, runs: &[UnitRun]) -> (Simulation, Vec<String>, Pla
                 }
             }
             if let Some(r) = &s.temperature_range {
-                range = Some(widen(range, r, p.offset));
+                let r = r.shifted(p.offset);
+                range = Some(range.map_or(r, |mut a| {
+                    a.include(&r);
+                    a
+                }));
             }
             warnings.extend(s.warnings.iter().map(|w| format!("unit `{}`: {w}", run.id)));
         }
@@ -702,30 +668,6 @@ fn concatenate(net: &Network, runs: &[UnitRun]) -> (Simulation, Vec<String>, Pla
         exchanged: Some(Exchanged { entered, left }),
     };
     (profile, labels, places)
-}
-
-/// The extremes so far widened by a stretch's, moved to the train's coordinate.
-fn widen(range: Option<Extreme>, r: &Extreme, offset: f64) -> Extreme {
-    let shifted = Extreme {
-        max: r.max,
-        max_at: r.max_at + offset,
-        min: r.min,
-        min_at: r.min_at + offset,
-    };
-    match range {
-        None => shifted,
-        Some(mut a) => {
-            if shifted.max > a.max {
-                a.max = shifted.max;
-                a.max_at = shifted.max_at;
-            }
-            if shifted.min < a.min {
-                a.min = shifted.min;
-                a.min_at = shifted.min_at;
-            }
-            a
-        }
-    }
 }
 
 /// The side feed entering before stretch `k + 1` of a unit.
