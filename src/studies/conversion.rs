@@ -101,13 +101,9 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
                 .map_err(StudyError::Solve)?;
             Ok((conv(&f), f))
         };
-        let mut lo = 1e-9 * size;
-        let mut prev: Option<f64> = None;
-        for k in 0..DECADES {
-            let v = size * 10f64.powi(k as i32);
-            let (xv, f) = at(v)?;
-            if xv >= x {
-                let (l, h) = bisect_ln(lo, v, |v| Ok(at(v)?.0 < x))?;
+        match walk_decades(size, x, &at)? {
+            Walk::Passed { below, beyond } => {
+                let (l, h) = bisect_ln(below, beyond, |v| Ok(at(v)?.0 < x))?;
                 // With several steady states the chosen branch can jump over x (ignition or
                 // extinction): then the bracket closes on the jump, not on a state with
                 // conversion x, and that size would be a wrong answer.
@@ -124,23 +120,21 @@ pub fn reach_conversion(net: &Network, x: f64, opts: &SolveOptions) -> Result<Re
                         net.species[a].name
                     )));
                 }
-                return Ok(Reach::Size((0.5 * (l + h)).exp()));
+                Ok(Reach::Size((0.5 * (l + h)).exp()))
             }
-            if let Some(p) = prev
-                && (xv - p).abs() <= 1e-10
-            {
-                return Ok(Reach::Beyond {
-                    x_max: xv + (xv - p) / 9.0,
-                    reason: limit_reason(net, &f),
-                });
-            }
-            prev = Some(xv);
-            lo = v;
+            Walk::Settled {
+                x: xv,
+                previous: p,
+                state: f,
+            } => Ok(Reach::Beyond {
+                x_max: xv + (xv - p) / 9.0,
+                reason: limit_reason(net, &f),
+            }),
+            Walk::NotReached => Err(StudyError::Infeasible(format!(
+                "conversion {x} is not reached below V = {:.3e} m3 and the conversion has not settled",
+                size * 10f64.powi(DECADES as i32 - 1)
+            ))),
         }
-        Err(StudyError::Infeasible(format!(
-            "conversion {x} is not reached below V = {:.3e} m3 and the conversion has not settled",
-            size * 10f64.powi(DECADES as i32 - 1)
-        )))
     } else {
         let g = |t: f64, y: &[f64]| conv_at(t, y) - x;
         let mut y = b.initial_state(net);
@@ -261,29 +255,68 @@ fn reach_flowsheet(net: &Network, x: f64, opts: &SolveOptions) -> Result<Reach, 
         let (fed, left) = super::evaluate::totals(&n, &sim);
         Ok(((fed[n.key] - left[n.key]) / fed[n.key], left))
     };
-    let mut lo = 1e-9 * size;
+    match walk_decades(size, x, &at)? {
+        Walk::Passed { below, beyond } => {
+            let (l, h) = bisect_ln(below, beyond, |v| Ok(at(v)?.0 < x))?;
+            Ok(Reach::Size((0.5 * (l + h)).exp()))
+        }
+        Walk::Settled {
+            x: xv, state: f, ..
+        } => Ok(Reach::Beyond {
+            x_max: xv,
+            reason: limit_reason(net, &f),
+        }),
+        Walk::NotReached => Err(StudyError::Infeasible(format!(
+            "conversion {x} is not reached by a train {DECADES} decades larger than the study's"
+        ))),
+    }
+}
+
+/// How a walk over the sizes size·10^k ended.
+enum Walk {
+    /// X reached the target at `beyond`; `below` is the last size short of it (1e-9 of the
+    /// study's size at the first step).
+    Passed { below: f64, beyond: f64 },
+    /// A tenfold size changed X by less than 1e-10: X settled at `x` (`previous` a decade
+    /// smaller), with the state there.
+    Settled {
+        x: f64,
+        previous: f64,
+        state: Vec<f64>,
+    },
+    /// Neither in DECADES decades.
+    NotReached,
+}
+
+/// X at size·10^k, k = 0, 1, … (each from `at`, which gives X and the outlet state), until X
+/// reaches `x` or settles: the size searches that solve whole vessels (a CSTR's steady states,
+/// a train) share it and bisect on ln(size) from the bracket it leaves.
+fn walk_decades(
+    size: f64,
+    x: f64,
+    at: &dyn Fn(f64) -> Result<(f64, Vec<f64>), StudyError>,
+) -> Result<Walk, StudyError> {
+    let mut below = 1e-9 * size;
     let mut prev: Option<f64> = None;
     for k in 0..DECADES {
         let v = size * 10f64.powi(k as i32);
-        let (xv, f) = at(v)?;
+        let (xv, state) = at(v)?;
         if xv >= x {
-            let (l, h) = bisect_ln(lo, v, |v| Ok(at(v)?.0 < x))?;
-            return Ok(Reach::Size((0.5 * (l + h)).exp()));
+            return Ok(Walk::Passed { below, beyond: v });
         }
         if let Some(p) = prev
             && (xv - p).abs() <= 1e-10
         {
-            return Ok(Reach::Beyond {
-                x_max: xv,
-                reason: limit_reason(net, &f),
+            return Ok(Walk::Settled {
+                x: xv,
+                previous: p,
+                state,
             });
         }
         prev = Some(xv);
-        lo = v;
+        below = v;
     }
-    Err(StudyError::Infeasible(format!(
-        "conversion {x} is not reached by a train {DECADES} decades larger than the study's"
-    )))
+    Ok(Walk::NotReached)
 }
 
 /// "conversion 0.9 of A is beyond equilibrium: X approaches X_eq = 0.666667 as V -> ∞".
