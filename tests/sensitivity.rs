@@ -11,11 +11,14 @@
 
 mod common;
 
-use common::network;
+use common::{network, num, rxnet};
 use rxnet::solve::sensitivity::{Sensitivities, simulate_sensitivities};
 use rxnet::solve::{Points, SolveOptions, simulate};
+use rxnet::studies::evaluate::totals;
 use rxnet::studies::parameters::{Parameter, every, perturbed, read};
+use rxnet::studies::sensitivity::{Request, sensitivity};
 use rxnet::studies::study::Study;
+use rxnet::studies::target::Target;
 
 fn study_of(text: &str) -> Study {
     Study::new(text.into(), "test.yaml".into(), vec![]).unwrap_or_else(|e| panic!("{e}"))
@@ -204,4 +207,186 @@ fn forward_sensitivities_agree_with_finite_differences_on_every_bundled_vessel()
         );
         assert!(worst.0 < 1e-5, "{file}: {}", worst.1);
     }
+}
+
+/// The target's value after a whole solve of `net` (rtol 1e-12).
+fn target_after(net: &rxnet::Network, target: &Target) -> f64 {
+    let opts = SolveOptions {
+        rtol: Some(1e-12),
+        ..Default::default()
+    };
+    let sim = simulate(net, &opts).unwrap_or_else(|e| panic!("{e}"));
+    let (fed, left) = totals(net, &sim);
+    target.value_against(net, &fed, &left).unwrap()
+}
+
+#[test]
+fn target_sensitivities_agree_with_finite_differences_on_every_bundled_vessel() {
+    for file in SINGLE_VESSEL {
+        let text = std::fs::read_to_string(network(file)).unwrap();
+        let study = Study::new(text, file.into(), vec![]).unwrap();
+        let net = study.load(&[]).unwrap();
+        // The desired product's yield (the default), and the conversion, whose value depends
+        // on the feed directly.
+        for target_text in [None, Some("conversion")] {
+            let req = Request {
+                target: target_text.map(str::to_string),
+                of: Vec::new(),
+                profile: None,
+                solve: SolveOptions {
+                    rtol: Some(1e-11),
+                    ..Default::default()
+                },
+            };
+            let rep = sensitivity(&study, &req).unwrap_or_else(|e| panic!("{file}: {e}"));
+            let target = Target::parse(&rep.target, &net).unwrap();
+            let params = every(&study, &net);
+            assert_eq!(rep.sensitivities.len(), params.len());
+            // Central differences of whole solves, Richardson-extrapolated, per unit θ.
+            let fd_at = |h: f64| -> Vec<f64> {
+                perturbed(&study, &[], &params, h)
+                    .unwrap()
+                    .iter()
+                    .map(|p| {
+                        (target_after(&p.plus, &target) - target_after(&p.minus, &target)) / p.step
+                    })
+                    .collect()
+            };
+            let (c, f) = (fd_at(1e-3), fd_at(5e-4));
+            // ∂g/∂θ from the report's ∂g/∂p (Log: ∂g/∂ln p = p ∂g/∂p).
+            let per_theta = |p: &Parameter, absolute: f64| match p.scale {
+                rxnet::studies::parameters::Scale::Log => absolute * p.si,
+                rxnet::studies::parameters::Scale::Linear => absolute,
+            };
+            let largest = c
+                .iter()
+                .zip(&params)
+                .map(|(v, p)| (v * p.step_scale()).abs())
+                .fold(0.0, f64::max);
+            // Floor: 1e-5 of the largest, and never below 1e-7 of the target itself (a yield of
+            // exactly 1 has every derivative zero, resolved by neither method).
+            let floor = (1e-5 * largest).max(1e-7 * rep.value.abs());
+            for (k, p) in params.iter().enumerate() {
+                let want = (4.0 * f[k] - c[k]) / 3.0;
+                let row = rep.sensitivities.iter().find(|r| r.path == p.path).unwrap();
+                let got = per_theta(p, row.absolute);
+                let (w, g) = (want * p.step_scale(), got * p.step_scale());
+                let context = format!("{file} {} {}: {got} vs {want}", rep.target, p.path);
+                if w.abs() < floor {
+                    assert!((g - w).abs() < floor, "{context}");
+                } else {
+                    assert!((g - w).abs() < 1e-5 * w.abs(), "{context}");
+                }
+            }
+        }
+    }
+}
+
+/// A bundled study's path for the command.
+fn study_path(file: &str) -> String {
+    network(file).to_string_lossy().into_owned()
+}
+
+#[test]
+fn command_reports_ranked_json_and_exits_zero() {
+    let run = rxnet(&[
+        "sensitivity",
+        &study_path("cooled_nitration_tube.yaml"),
+        "--format",
+        "json",
+        "--profile",
+        "5",
+    ]);
+    let v = run.ok_json();
+    for key in [
+        "target",
+        "value",
+        "sensitivities",
+        "profile",
+        "x_name",
+        "x_unit",
+        "warnings",
+    ] {
+        assert!(v.get(key).is_some(), "missing `{key}`: {v}");
+    }
+    assert_eq!(v["target"], "yield:MNT");
+    let rows = v["sensitivities"].as_array().unwrap();
+    assert!(rows.len() >= 10);
+    let mut last = f64::INFINITY;
+    for r in rows {
+        for key in ["path", "value", "unit", "normalized", "absolute"] {
+            assert!(r.get(key).is_some(), "missing `{key}` in {r}");
+        }
+        let n = num(&r["normalized"], "normalized").abs();
+        assert!(n <= last, "not ranked: {n} after {last}");
+        last = n;
+    }
+    let profile = v["profile"].as_array().unwrap();
+    assert_eq!(profile.len(), 5);
+    assert_eq!(
+        profile[4]["normalized"].as_array().unwrap().len(),
+        rows.len()
+    );
+    // The outlet row of the profile is the ranked table (a size moves the end only there).
+    for (k, r) in rows.iter().enumerate() {
+        if r["path"] == "reactor.volume" {
+            continue;
+        }
+        let a = num(&profile[4]["normalized"][k], "profile");
+        let b = num(&r["normalized"], "normalized");
+        assert!(
+            (a - b).abs() <= 1e-6 * b.abs().max(1e-6),
+            "{}: {a} vs {b}",
+            r["path"]
+        );
+    }
+    // The text form names the target and the parameter.
+    let text = rxnet(&[
+        "sensitivity",
+        &study_path("dimerization_cstr.yaml"),
+        "--target",
+        "R",
+        "--of",
+        "reactions.dimerise.rate.k",
+    ]);
+    assert_eq!(text.code, 0, "{}", text.stderr);
+    assert!(
+        text.stdout.contains("reactions.dimerise.rate.k") && text.stdout.contains("R ="),
+        "{}",
+        text.stdout
+    );
+}
+
+#[test]
+fn command_refuses_what_it_cannot_answer() {
+    // The consistency check fails: exit 1, as `run` refuses it.
+    let run = rxnet(&["sensitivity", &study_path("unbalanced_epoxidation.yaml")]);
+    assert_eq!(run.code, 1, "{}", run.stderr);
+    assert!(run.stderr.contains("error findings"), "{}", run.stderr);
+    // Invalid requests: exit 2, naming what is wrong.
+    let nitration = study_path("cooled_nitration_tube.yaml");
+    for (args, says) in [
+        (
+            vec!["--of", "reactions.nope.rate.k"],
+            "reactions.nope.rate.k",
+        ),
+        (vec!["--target", "yield:XYZ"], "XYZ"),
+        (vec!["--target", "selectivity:MNT"], "selectivity"),
+        (vec!["--profile", "1"], "--profile"),
+        (vec!["--rtol", "5"], "rtol"),
+    ] {
+        let mut all = vec!["sensitivity", nitration.as_str()];
+        all.extend(args.iter().copied());
+        let r = rxnet(&all);
+        assert_eq!(r.code, 2, "{args:?}: {}", r.stderr);
+        assert!(r.stderr.contains(says), "{args:?}: {}", r.stderr);
+    }
+    // A stirred tank has no profile.
+    let r = rxnet(&[
+        "sensitivity",
+        &study_path("dimerization_cstr.yaml"),
+        "--profile",
+        "5",
+    ]);
+    assert_eq!(r.code, 2, "{}", r.stderr);
 }
