@@ -390,3 +390,102 @@ fn command_refuses_what_it_cannot_answer() {
     ]);
     assert_eq!(r.code, 2, "{}", r.stderr);
 }
+
+/// The nitration tube with its coolant as a stream in the given direction.
+fn nitration_with_coolant_stream(direction: &str) -> Study {
+    let text = std::fs::read_to_string(network("cooled_nitration_tube.yaml"))
+        .unwrap()
+        .replace(
+            "coolant: {T: 325 K}",
+            &format!(
+                "coolant: {{T_in: 325 K, mass_flow: 20 kg/s, cp: 4.18 kJ/(kg*K), direction: {direction}}}"
+            ),
+        );
+    assert!(text.contains("T_in"));
+    study_of(&text)
+}
+
+#[test]
+fn refusals_name_the_reason() {
+    // A counter-current coolant is a boundary-value problem: refused.
+    let s = nitration_with_coolant_stream("counter_current");
+    let net = s.load(&[]).unwrap();
+    let p = perturbed(
+        &s,
+        &[],
+        &[read(&s, "reactions.first_nitration.rate.k").unwrap()],
+        1e-5,
+    )
+    .unwrap();
+    let e = simulate_sensitivities(&net, &p, &SolveOptions::default())
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("counter-current"), "{e}");
+    // A co-current stream is an initial-value problem: its inlet temperature has a derivative
+    // that agrees with finite differences of whole solves.
+    let s = nitration_with_coolant_stream("co_current");
+    let params = vec![read(&s, "reactor.heat.coolant.T_in").unwrap()];
+    let out = sens(&s, &params, &tight(Points::End));
+    let fd = finite_differences(&s, &params, 1e-3);
+    let mnt = 2;
+    assert!(
+        (out.d_outlet[0][mnt] - fd[0][mnt]).abs() < 1e-5 * fd[0][mnt].abs(),
+        "{} vs {}",
+        out.d_outlet[0][mnt],
+        fd[0][mnt]
+    );
+    // The end of a dosing window moves a breakpoint: refused.
+    let text = std::fs::read_to_string(network("semibatch_acrylate_addition.yaml")).unwrap();
+    let s = study_of(&text);
+    let net = s.load(&[]).unwrap();
+    let p = perturbed(&s, &[], &[read(&s, "reactor.dosing.0.to").unwrap()], 1e-5).unwrap();
+    let e = simulate_sensitivities(&net, &p, &SolveOptions::default())
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("breakpoint"), "{e}");
+}
+
+#[test]
+fn profile_at_given_positions() {
+    // Points::At gives exactly the positions asked for; positions outside the reactor or
+    // decreasing are refused.
+    let s = study_of(BATCH);
+    let net = s.load(&[]).unwrap();
+    let at = vec![0.0, 37.5, 100.0, 600.0];
+    let sim = simulate(&net, &tight(Points::At(at.clone()))).unwrap();
+    assert_eq!(sim.x, at);
+    // N_A = N_A0 e^{−kt} (Levenspiel ch. 3, from memory).
+    for (t, y) in sim.x.iter().zip(&sim.states) {
+        let want = 1000.0 * (-2.0e-3 * t).exp();
+        assert!(
+            (y[0] - want).abs() < 1e-8 * 1000.0,
+            "{t}: {} vs {want}",
+            y[0]
+        );
+    }
+    for bad in [vec![0.0, 700.0], vec![100.0, 50.0], vec![]] {
+        let e = simulate(&net, &tight(Points::At(bad.clone()))).unwrap_err();
+        assert!(
+            matches!(e, rxnet::solve::SolveError::Setup(_)),
+            "{bad:?}: {e}"
+        );
+    }
+}
+
+#[test]
+fn every_lists_a_trains_units() {
+    let text = std::fs::read_to_string(network("split_feed_cascade.yaml")).unwrap();
+    let s = study_of(&text);
+    let net = s.load(&[]).unwrap();
+    let paths: Vec<String> = every(&s, &net).into_iter().map(|p| p.path).collect();
+    for p in [
+        "reactions.couple.rate.k",
+        "reactions.dimerise.rate.Ea",
+        "feed.volumetric",
+        "feed.concentrations.A",
+        "train.T1.volume",
+        "train.T3.volume",
+    ] {
+        assert!(paths.iter().any(|q| q == p), "{p} not in {paths:?}");
+    }
+}
