@@ -546,3 +546,38 @@ fn every_lists_a_trains_units() {
         assert!(paths.iter().any(|q| q == p), "{p} not in {paths:?}");
     }
 }
+
+#[test]
+fn adsorption_constants_are_parameters() {
+    // A hyperbolic (adsorption-inhibited) step in series with a power-law one, liquid tube.
+    let s = study_of(
+        r#"
+name: inhibited series tube
+phase: liquid
+species: {A: {}, B: {}, C: {}}
+reactions:
+  - id: first
+    stoich: A -> B
+    rate:
+      law: hyperbolic
+      k: 4.0e-3 1/s
+      orders: {A: 1}
+      adsorption: {A: {K: 2.0e-3 m3/mol}, B: {K: 0.03 (m3/mol)^0.5, order: 0.5, dH: -20 kJ/mol}}
+      inhibition_power: 2
+      Ea: 40 kJ/mol
+      T_ref: 320 K
+  - {id: second, stoich: B -> C, rate: {k: 1.0e-3 1/s, Ea: 60 kJ/mol, T_ref: 320 K}}
+feed: {T: 330 K, volumetric: 1 L/s, concentrations: {A: 1.5 mol/L}}
+reactor: {type: pfr, volume: 2 m3}
+"#,
+    );
+    let net = s.load(&[]).unwrap();
+    let paths: Vec<String> = every(&s, &net).into_iter().map(|p| p.path).collect();
+    for p in [
+        "reactions.first.rate.adsorption.A.K",
+        "reactions.first.rate.adsorption.B.K",
+    ] {
+        assert!(paths.iter().any(|q| q == p), "{p} not in {paths:?}");
+    }
+    check_against_finite_differences("hyperbolic tube", &s, 1e-3);
+}
