@@ -110,32 +110,70 @@ fn value_of(target: &Target, net: &Network, fed: &[f64], left: &[f64]) -> Option
     target.value_against(net, fed, left)
 }
 
-/// Everything fed to a vessel up to position `x`: its feed, and for a semibatch what was dosed
-/// by then.
-fn fed_by(net: &Network, x: f64) -> Vec<f64> {
+/// What the network's streams bring in by position `x` (the feed, a train's joins, side
+/// feeds, and what a semibatch has dosed by then): the part of everything fed that a
+/// parameter can move without a solve.
+fn streams_in(net: &Network, x: f64) -> Vec<f64> {
     let mut fed = net.feed.amounts.clone();
-    if net.reactor.is_batch() && !net.contacting.dosing.is_empty() {
-        for (f, d) in fed.iter_mut().zip(crate::reactor::dosed_by(net, x)) {
-            *f += d;
+    let mut add = |a: &[f64]| fed.iter_mut().zip(a).for_each(|(f, v)| *f += v);
+    let contacting: Vec<&crate::model::Contacting> = match &net.train {
+        Some(t) => {
+            for u in &t.units {
+                if let Some(j) = &u.join {
+                    add(&j.amounts);
+                }
+            }
+            t.units.iter().map(|u| &u.contacting).collect()
         }
+        None => vec![&net.contacting],
+    };
+    for c in contacting {
+        for s in &c.side_feeds {
+            add(&s.stream.amounts);
+        }
+    }
+    if net.reactor.is_batch() && !net.contacting.dosing.is_empty() {
+        add(&crate::reactor::dosed_by(net, x));
     }
     fed
 }
 
-/// ∂g/∂θ at a state `y` with sensitivity `s` (per unit θ), positions `x±` in the perturbed
-/// models (the end moves with a size parameter).
+/// Everything fed in a perturbed model: the nominal's, moved by what the model's streams
+/// bring in beyond the nominal's (`x`: the nominal's and the model's positions).
+fn fed_moved(net: &Network, fed: &[f64], model: &Network, x: (f64, f64)) -> Vec<f64> {
+    let (a, b) = (streams_in(net, x.0), streams_in(model, x.1));
+    fed.iter()
+        .zip(a.iter().zip(&b))
+        .map(|(f, (a, b))| f + (b - a))
+        .collect()
+}
+
+/// ∂g/∂θ at a state `y` (with everything fed `fed`, at position `x`) with sensitivity `s`
+/// (per unit θ); in the perturbed models the position is `x±` (the end moves with a size
+/// parameter).
 fn target_derivative(
     target: &Target,
+    (net, fed, x): (&Network, &[f64], f64),
     p: &Perturbed,
     y: &[f64],
     s: &[f64],
-    x: (f64, f64),
+    x_pm: (f64, f64),
 ) -> Option<f64> {
     let d = p.step / 2.0;
     let yp: Vec<f64> = y.iter().zip(s).map(|(a, b)| a + d * b).collect();
     let ym: Vec<f64> = y.iter().zip(s).map(|(a, b)| a - d * b).collect();
-    let gp = value_of(target, &p.plus, &fed_by(&p.plus, x.0), &yp)?;
-    let gm = value_of(target, &p.minus, &fed_by(&p.minus, x.1), &ym)?;
+    let gp = value_of(
+        target,
+        &p.plus,
+        &fed_moved(net, fed, &p.plus, (x, x_pm.0)),
+        &yp,
+    )?;
+    let gm = value_of(
+        target,
+        &p.minus,
+        &fed_moved(net, fed, &p.minus, (x, x_pm.1)),
+        &ym,
+    )?;
     Some((gp - gm) / p.step)
 }
 
@@ -192,7 +230,14 @@ pub fn sensitivity(study: &Study, req: &Request) -> Result<Report, SensitivityEr
             ))
             .into());
         }
-        if matches!(net.reactor, crate::model::Reactor::Cstr { .. }) || net.train.is_some() {
+        if crate::solve::train::is_flowsheet(&net) {
+            return Err(StudyError::Invalid(
+                "--profile is for a single vessel: a train's sensitivities are given at its outlet"
+                    .into(),
+            )
+            .into());
+        }
+        if matches!(net.reactor, crate::model::Reactor::Cstr { .. }) {
             return Err(StudyError::Invalid(
                 "--profile: a stirred tank has no profile along it (its outlet is its state)"
                     .into(),
@@ -257,6 +302,7 @@ pub fn sensitivity(study: &Study, req: &Request) -> Result<Report, SensitivityEr
     for (k, (param, p)) in params.iter().zip(&perturbed).enumerate() {
         let d = target_derivative(
             &target,
+            (&net, &fed, sens.sim.size),
             p,
             &left,
             &sens.d_outlet[k],
@@ -287,13 +333,21 @@ pub fn sensitivity(study: &Study, req: &Request) -> Result<Report, SensitivityEr
             .enumerate()
             .map(|(i, &x)| {
                 let y = &sens.sim.states[i];
-                let g = value_of(&target, &net, &fed_by(&net, x), y);
+                let fed_x = streams_in(&net, x);
+                let g = value_of(&target, &net, &fed_x, y);
                 let normalized = params
                     .iter()
                     .zip(&perturbed)
                     .enumerate()
                     .map(|(k, (param, p))| {
-                        let d = target_derivative(&target, p, y, &sens.d_states[k][i], (x, x))?;
+                        let d = target_derivative(
+                            &target,
+                            (&net, &fed_x, x),
+                            p,
+                            y,
+                            &sens.d_states[k][i],
+                            (x, x),
+                        )?;
                         normalise(param, d, g).0
                     })
                     .collect();
