@@ -1,0 +1,3 @@
+//! Fitting a network to measurements: the least-squares optimiser and the statistics of the fit.
+
+pub mod lm;
