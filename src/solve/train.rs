@@ -367,7 +367,7 @@ fn run_vessel(
     let mut stream = inlet.clone();
     let mut coolant = None;
     let mut pieces: Vec<Piece> = Vec::with_capacity(bounds.len() - 1);
-    for k in 0..bounds.len() - 1 {
+    for (k, &start) in bounds[..bounds.len() - 1].iter().enumerate() {
         if k > 0 {
             let prev = pieces.last().expect("a stretch before");
             stream = stretch_inlet(net, u, k, &outlet_stream(net, prev), inlet.temperature)?;
@@ -380,7 +380,7 @@ fn run_vessel(
             network: n,
             balance,
             sim,
-            offset: offset + bounds[k],
+            offset: offset + start,
         });
     }
     Ok(pieces)
