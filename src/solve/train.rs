@@ -123,13 +123,7 @@ pub fn solve(net: &Network, opts: &SolveOptions) -> Result<TrainRun, SolveError>
     let mut offset = 0.0;
     let mut runs = Vec::with_capacity(units.len());
     for u in &units {
-        let run = run_unit(net, u, &stream, offset, opts).map_err(|e| match e {
-            SolveError::Setup(m) => SolveError::Setup(format!("unit `{}`: {m}", u.id)),
-            e => SolveError::Unit {
-                unit: u.id.clone(),
-                source: Box::new(e),
-            },
-        })?;
+        let run = run_unit(net, u, &stream, offset, opts).map_err(|e| in_unit(u, e))?;
         stream = run.outlet.clone();
         offset += run.size;
         runs.push(run);
@@ -144,6 +138,17 @@ pub fn solve(net: &Network, opts: &SolveOptions) -> Result<TrainRun, SolveError>
     })
 }
 
+/// An error of unit `u`, naming it.
+pub fn in_unit(u: &Unit, e: SolveError) -> SolveError {
+    match e {
+        SolveError::Setup(m) => SolveError::Setup(format!("unit `{}`: {m}", u.id)),
+        e => SolveError::Unit {
+            unit: u.id.clone(),
+            source: Box::new(e),
+        },
+    }
+}
+
 fn run_unit(
     net: &Network,
     u: &Unit,
@@ -151,6 +156,35 @@ fn run_unit(
     offset: f64,
     opts: &SolveOptions,
 ) -> Result<UnitRun, SolveError> {
+    check_unit(u)?;
+    let inlet = unit_inlet(net, u, arriving)?;
+    let (through, around) = bypass_split(&inlet, u.bypass);
+    let (pieces, product, recycle) = match u.contacting.recycle {
+        Some(ratio) if ratio > 0.0 => {
+            let (pieces, product, run) = recycle_loop(
+                net,
+                u,
+                &through,
+                ratio,
+                offset,
+                opts,
+                RECYCLE_MAX_ITERATIONS,
+            )?;
+            (pieces, product, Some(run))
+        }
+        _ => {
+            let pieces = run_vessel(net, u, &through, offset, opts)?;
+            let out = outlet_stream(net, pieces.last().expect("a vessel has a stretch"));
+            (pieces, out, None)
+        }
+    };
+    let outlet = rejoined(net, u, product, &around)?;
+    Ok(unit_run(net, u, offset, inlet, pieces, outlet, recycle))
+}
+
+/// What a unit cannot be solved with: side feeds or a recycle on a bed with pressure drop or
+/// with a counter-current coolant.
+pub fn check_unit(u: &Unit) -> Result<(), SolveError> {
     let setup = SolveError::Setup;
     let tube = matches!(u.reactor, Reactor::Pfr { .. } | Reactor::Pbr { .. });
     let split = !u.contacting.side_feeds.is_empty() || u.contacting.recycle.is_some();
@@ -184,28 +218,20 @@ fn run_unit(
         tube || !split,
         "the loader allows side feeds and recycle on tubes only"
     );
-    let inlet = unit_inlet(net, u, arriving)?;
-    let (through, around) = bypass_split(&inlet, u.bypass);
-    let (pieces, product, recycle) = match u.contacting.recycle {
-        Some(ratio) if ratio > 0.0 => {
-            let (pieces, product, run) = recycle_loop(
-                net,
-                u,
-                &through,
-                ratio,
-                offset,
-                opts,
-                RECYCLE_MAX_ITERATIONS,
-            )?;
-            (pieces, product, Some(run))
-        }
-        _ => {
-            let pieces = run_vessel(net, u, &through, offset, opts)?;
-            let out = outlet_stream(net, pieces.last().expect("a vessel has a stretch"));
-            (pieces, out, None)
-        }
-    };
-    let outlet = rejoined(net, u, product, &around)?;
+    Ok(())
+}
+
+/// A unit as solved, from its streams and stretches: with what it was fed (its inlet, side
+/// feeds, what entered by its walls) and what it gave (its outlet, what left by its walls).
+pub fn unit_run(
+    net: &Network,
+    u: &Unit,
+    offset: f64,
+    inlet: Feed,
+    pieces: Vec<Piece>,
+    outlet: Feed,
+    recycle: Option<RecycleRun>,
+) -> UnitRun {
     let n = net.species.len();
     let mut fed = inlet.amounts.clone();
     let mut left = outlet.amounts.clone();
@@ -218,7 +244,7 @@ fn run_unit(
             add(&mut left, ex.left.last().map_or(&[][..], |v| &v[..n]));
         }
     }
-    Ok(UnitRun {
+    UnitRun {
         id: u.id.clone(),
         kind: u.reactor.kind(),
         size: u.reactor.size(),
@@ -230,7 +256,7 @@ fn run_unit(
         left,
         bypass: u.bypass,
         recycle,
-    })
+    }
 }
 
 /// The stream entering unit `u` of `net`: the arriving stream mixed with the unit's `join`
