@@ -119,6 +119,131 @@ where
         .collect()
 }
 
+/// The sensitivity of an adiabatic mixing point ([`crate::reactor::mixing::mix`]) of the
+/// nominal `streams` into `mixture`, for each parameter; `inputs` gives the streams entering
+/// on each side (moved by ±δ·s, or the side network's own join or side feed). Species, and a
+/// liquid's volumetric flow, add: their central differences are exact. The temperature is
+/// not differenced between two mixing solves (each converged only to ~1e-12 of T, which a
+/// step of 1e-5 would turn into 1e-7 K per unit of θ): it is the implicit-function derivative
+/// of the enthalpy balance at the nominal mixed T,
+///
+/// ```text
+/// H(T; streams) = Σ_s Σ_j F_sj ∫_{T_s}^{T} Cp_j dT = 0,    ∂T/∂θ = −(∂H/∂θ) / Σ_s Σ_j F_sj Cp_j(T)
+/// ```
+///
+/// with ∂H/∂θ the central difference of H at that T between the two sides' streams (and heat
+/// capacities); with a liquid's `mixture_cp` H = Σ_s v_s (T − T_s) and the divisor Σ_s v_s.
+/// Streams at one temperature need no heat capacity while they stay at one temperature.
+#[allow(clippy::too_many_arguments)]
+fn mixed<F>(
+    net: &Network,
+    u: &Unit,
+    streams: &[&Feed],
+    mixture: &Feed,
+    sides: &[[Side; 2]],
+    steps: &[f64],
+    inputs: F,
+) -> Result<Vec<StreamSensitivity>, SolveError>
+where
+    F: Fn(usize, &Side) -> Result<Vec<Feed>, SolveError>,
+{
+    let t = mixture.temperature;
+    let temps = || streams.iter().map(|s| s.temperature);
+    let t_max = temps().fold(f64::MIN, f64::max);
+    let t_min = temps().fold(f64::MAX, f64::min);
+    let same = t_max - t_min <= 1e-12 * t_max;
+    let volume_weighted =
+        net.phase == Phase::Liquid && u.heat.balance().and_then(|e| e.mixture_cp).is_some();
+    let n = net.species.len();
+    let present: Vec<usize> = (0..n)
+        .filter(|&j| streams.iter().any(|s| s.amounts[j] > 0.0))
+        .collect();
+    let with_cp = |m: &Network| present.iter().all(|&j| m.species[j].thermo.cp.is_some());
+    // H at the nominal mixed T for one side's streams and heat capacities.
+    let enthalpy = |m: &Network, ss: &[Feed]| -> f64 {
+        let mut h = 0.0;
+        for s in ss {
+            for &j in &present {
+                if s.amounts[j] != 0.0 {
+                    let cp = m.species[j].thermo.cp.as_ref().expect("checked");
+                    h += s.amounts[j] * cp.enthalpy_change(s.temperature, t);
+                }
+            }
+        }
+        h
+    };
+    let capacity: f64 = streams
+        .iter()
+        .map(|s| {
+            present
+                .iter()
+                .map(|&j| {
+                    net.species[j]
+                        .thermo
+                        .cp
+                        .as_ref()
+                        .map_or(0.0, |cp| s.amounts[j] * cp.cp(t))
+                })
+                .sum::<f64>()
+        })
+        .sum();
+    let volume: f64 = streams.iter().map(|s| s.volumetric).sum();
+    sides
+        .iter()
+        .zip(steps)
+        .enumerate()
+        .map(|(k, ([plus, minus], &step))| {
+            let (sp, sm) = (inputs(k, plus)?, inputs(k, minus)?);
+            let sum = |ss: &[Feed], f: &dyn Fn(&Feed) -> f64| ss.iter().map(f).sum::<f64>();
+            let amounts: Vec<f64> = (0..n)
+                .map(|j| (sum(&sp, &|s| s.amounts[j]) - sum(&sm, &|s| s.amounts[j])) / step)
+                .collect();
+            let temperature = if !same && volume_weighted {
+                let g = |ss: &[Feed]| sum(ss, &|s| s.volumetric * (t - s.temperature));
+                -(g(&sp) - g(&sm)) / step / volume
+            } else if with_cp(net) && with_cp(plus.net) && with_cp(minus.net) && capacity > 0.0 {
+                -(enthalpy(plus.net, &sp) - enthalpy(minus.net, &sm)) / step / capacity
+            } else if same && volume_weighted {
+                let g = |ss: &[Feed]| sum(ss, &|s| s.volumetric * (t - s.temperature));
+                -(g(&sp) - g(&sm)) / step / volume
+            } else {
+                // At one temperature without heat capacities: it must stay one temperature.
+                let one = |ss: &[Feed]| {
+                    let hi = ss.iter().map(|s| s.temperature).fold(f64::MIN, f64::max);
+                    let lo = ss.iter().map(|s| s.temperature).fold(f64::MAX, f64::min);
+                    (hi - lo <= 1e-12 * hi).then_some(hi)
+                };
+                match (one(&sp), one(&sm)) {
+                    (Some(a), Some(b)) => (a - b) / step,
+                    _ => {
+                        return Err(SolveError::Setup(format!(
+                            "streams at {t:.2} K meet, and parameter {} moves their temperatures apart: the mixture's temperature then needs the heat capacities `cp` of the species",
+                            k + 1
+                        )));
+                    }
+                }
+            };
+            let pressure = (sp[0].pressure - sm[0].pressure) / step;
+            let volumetric = match net.phase {
+                Phase::Liquid => {
+                    (sum(&sp, &|s| s.volumetric) - sum(&sm, &|s| s.volumetric)) / step
+                }
+                Phase::Gas => {
+                    let (f, p) = (mixture.total(), mixture.pressure);
+                    GAS_CONSTANT * (t * amounts.iter().sum::<f64>() + f * temperature) / p
+                        - f * GAS_CONSTANT * t * pressure / (p * p)
+                }
+            };
+            Ok(StreamSensitivity {
+                amounts,
+                temperature,
+                pressure,
+                volumetric,
+            })
+        })
+        .collect()
+}
+
 /// Forward sensitivities of a train (or a tube with side feeds): the nominal solve, identical
 /// to [`crate::solve::simulate`], and per parameter the sensitivities at every point of the
 /// train's profile and of its outlet.
@@ -248,13 +373,24 @@ fn unit_sensitivities(
     let id = u.id.as_str();
     // 1. The join.
     let inlet = unit_inlet(net, u, arriving)?;
-    let s_inlet = differentiate(sides, steps, |k, side| {
-        unit_inlet(
-            side.net,
-            &side.units[i],
-            &moved(arriving, &s_arriving[k], side.by, id)?,
-        )
-    })?;
+    let s_inlet = match &u.join {
+        Some(join) => mixed(
+            net,
+            u,
+            &[arriving, join],
+            &inlet,
+            sides,
+            steps,
+            |k, side| {
+                let j = side.units[i]
+                    .join
+                    .clone()
+                    .expect("the same joins on both sides");
+                Ok(vec![moved(arriving, &s_arriving[k], side.by, id)?, j])
+            },
+        )?,
+        None => s_arriving.to_vec(),
+    };
     // 2. The bypass split.
     let (through, around) = bypass_split(&inlet, u.bypass);
     let split = |k: usize, side: &Side| -> Result<(Feed, Feed), SolveError> {
@@ -280,15 +416,34 @@ fn unit_sensitivities(
             let out = outlet_stream(net, prev);
             let s_out = &s_product;
             stream = stretch_inlet(net, u, j, &out, through.temperature)?;
-            s_stream = differentiate(sides, steps, |k, side| {
-                stretch_inlet(
-                    side.net,
-                    &side.units[i],
-                    j,
-                    &moved(&out, &s_out[k], side.by, id)?,
-                    through.temperature + side.by * s_through[k].temperature,
-                )
-            })?;
+            s_stream = if u.heat.balance().is_none() {
+                // Combined at the held temperature: species and flows add, no balance to solve.
+                differentiate(sides, steps, |k, side| {
+                    stretch_inlet(
+                        side.net,
+                        &side.units[i],
+                        j,
+                        &moved(&out, &s_out[k], side.by, id)?,
+                        through.temperature + side.by * s_through[k].temperature,
+                    )
+                })?
+            } else {
+                let side_feed = &u.contacting.side_feeds[j - 1].stream;
+                mixed(
+                    net,
+                    u,
+                    &[&out, side_feed],
+                    &stream,
+                    sides,
+                    steps,
+                    |k, side| {
+                        Ok(vec![
+                            moved(&out, &s_out[k], side.by, id)?,
+                            side.units[i].contacting.side_feeds[j - 1].stream.clone(),
+                        ])
+                    },
+                )?
+            };
             coolant = coolant_outlet(&prev.sim);
             if coolant.is_some() {
                 return Err(SolveError::Setup(
@@ -326,7 +481,7 @@ fn unit_sensitivities(
             offset: offset + start,
         };
         let out = outlet_stream(net, &piece);
-        s_product = stretch_outlet(net, &piece, &sens, &directions, &s_stream)?;
+        s_product = stretch_outlet(net, &piece, &sens, &directions, &s_stream, opts)?;
         product = Some(out);
         pieces.push(piece);
         stretches.push((sens, s_stream.clone()));
@@ -334,16 +489,50 @@ fn unit_sensitivities(
     let product = product.expect("a vessel has a stretch");
     // 4. The bypass rejoins.
     let outlet = rejoined(net, u, product.clone(), &around)?;
-    let s_outlet = differentiate(sides, steps, |k, side| {
-        rejoined(
-            side.net,
-            &side.units[i],
-            moved(&product, &s_product[k], side.by, id)?,
-            &moved(&around, &s_around[k], side.by, id)?,
-        )
-    })?;
+    let s_outlet = if u.bypass > 0.0 {
+        mixed(
+            net,
+            u,
+            &[&product, &around],
+            &outlet,
+            sides,
+            steps,
+            |k, side| {
+                Ok(vec![
+                    moved(&product, &s_product[k], side.by, id)?,
+                    moved(&around, &s_around[k], side.by, id)?,
+                ])
+            },
+        )?
+    } else {
+        s_product
+    };
     let run = unit_run(net, u, offset, inlet, pieces, outlet, None);
     Ok((run, stretches, s_outlet))
+}
+
+/// ∂x_end/∂θ: how fast the direction moves the stretch's end.
+fn end_moves(d: &Perturbed) -> f64 {
+    (d.plus.reactor.size() - d.minus.reactor.size()) / d.step
+}
+
+/// dT/dx at a tube stretch's outlet, from its energy balance at the outlet state.
+fn outlet_temperature_slope(piece: &Piece, opts: &SolveOptions) -> Result<f64, SolveError> {
+    let net = &piece.network;
+    let balance = crate::solve::floored(net, &piece.balance, opts);
+    let last = piece.sim.x.len() - 1;
+    let y = piece.sim.model_state(last, net.feed.pressure);
+    let ti = balance.temperature_index();
+    match ti {
+        Some(ti) if y.len() == balance.dim() => {
+            let mut f = vec![0.0; balance.dim()];
+            balance.rhs_at(piece.sim.size, &y, &mut f);
+            Ok(f[ti])
+        }
+        _ => Err(SolveError::Setup(
+            "the size of a tube with an energy balance and walls that carry states of their own (a membrane's permeate) moves its outlet temperature in a way not carried on yet: sensitivities to it are not supported".into(),
+        )),
+    }
 }
 
 /// The sensitivity of the stream leaving a stretch: its species from the single vessel's
@@ -358,14 +547,28 @@ fn stretch_outlet(
     sens: &Sensitivities,
     directions: &[Perturbed],
     s_in: &[StreamSensitivity],
+    opts: &SolveOptions,
 ) -> Result<Vec<StreamSensitivity>, SolveError> {
     let out = outlet_stream(net, piece);
     let f_total: f64 = out.amounts.iter().sum();
+    // A size parameter moves a tube's end: its outlet temperature moves by T'(x_end)·∂x_end/∂θ
+    // too (the species' share of it is in `d_outlet` already).
+    let slope = match (&piece.sim.temperature, piece.sim.steady.is_some()) {
+        (Some(_), false) if directions.iter().any(|d| end_moves(d) != 0.0) => {
+            Some(outlet_temperature_slope(piece, opts)?)
+        }
+        _ => None,
+    };
     (0..directions.len())
         .map(|k| {
             let amounts = sens.d_outlet[k].clone();
             let temperature = match &sens.d_temperature {
-                Some(dt) => *dt[k].last().expect("a profile has its outlet"),
+                Some(dt) => {
+                    *dt[k].last().expect("a profile has its outlet")
+                        + slope
+                            .as_ref()
+                            .map_or(0.0, |f| f * end_moves(&directions[k]))
+                }
                 None => s_in[k].temperature,
             };
             let pressure = if piece.sim.pressure.is_some() {
