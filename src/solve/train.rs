@@ -118,6 +118,13 @@ pub fn units_of(net: &Network) -> Vec<Unit> {
 
 /// Solve the train of `net` unit by unit.
 pub fn solve(net: &Network, opts: &SolveOptions) -> Result<TrainRun, SolveError> {
+    if let super::Points::At(_) = opts.points {
+        // Each stretch runs on its own coordinate; positions on the train's would land in the
+        // wrong vessel.
+        return Err(SolveError::Setup(
+            "profile points at given positions are not available for a train (or a tube with side feeds or a recycle) yet: ask for evenly spaced points or the outlet".into(),
+        ));
+    }
     let units = units_of(net);
     let mut stream = net.feed.clone();
     let mut offset = 0.0;
