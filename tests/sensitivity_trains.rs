@@ -4,7 +4,7 @@
 //!
 //! Every rate constant, feed and size below is an invented test value, not data for any real
 //! process. The finite differences are of whole `simulate` solves at rtol 1e-12, central, with
-//! one Richardson extrapolation, D = (4 D(δ/2) − D(δ))/3 (error O(δ⁴); common practice), so
+//! two levels of Richardson extrapolation over δ, δ/2, δ/4 (error O(δ⁶); common practice), so
 //! they are an independent check of the unit-by-unit chain rule.
 
 use rxnet::Network;
@@ -15,7 +15,7 @@ use rxnet::studies::study::Study;
 
 /// The step of the forward sensitivities' central differences of the right-hand side.
 const H: f64 = 1e-5;
-/// The first step of the whole-solve finite differences on a log scale (then δ/2,
+/// The first step of the whole-solve finite differences on a log scale (then δ/2 and δ/4,
 /// extrapolated): large enough that a temperature's round-off (~1e-9 K of several hundred)
 /// stays below 1e-6 of its change.
 const H_FD: f64 = 2e-2;
@@ -48,7 +48,7 @@ fn observed(sim: &Simulation, at: Option<usize>) -> Vec<f64> {
 }
 
 /// ∂(observed)/∂θ of parameter `p` by central differences of whole solves, Richardson
-/// extrapolated.
+/// extrapolated twice.
 fn finite_difference(s: &Study, p: &Parameter, points: &Points, at: Option<usize>) -> Vec<f64> {
     let d = |h: f64| -> Vec<f64> {
         let pert = parameters::perturbed(s, &[], std::slice::from_ref(p), h)
@@ -65,10 +65,13 @@ fn finite_difference(s: &Study, p: &Parameter, points: &Points, at: Option<usize
         parameters::Scale::Log => H_FD,
         parameters::Scale::Linear => 0.3 * H_FD,
     };
-    let (d1, d2) = (d(h), d(0.5 * h));
-    d1.iter()
-        .zip(&d2)
-        .map(|(d1, d2)| (4.0 * d2 - d1) / 3.0)
+    // Two levels of Richardson extrapolation: error O(δ⁶).
+    let (d1, d2, d3) = (d(h), d(0.5 * h), d(0.25 * h));
+    (0..d1.len())
+        .map(|j| {
+            let (r1, r2) = ((4.0 * d2[j] - d1[j]) / 3.0, (4.0 * d3[j] - d2[j]) / 3.0);
+            (16.0 * r2 - r1) / 15.0
+        })
         .collect()
 }
 
@@ -147,9 +150,9 @@ impl Comparison {
 
 /// Every parameter of `text` (or those of `only`): the outlet's forward sensitivities agree
 /// with finite differences of whole solves to 1e-5 relative, and the nominal solve is
-/// `simulate`'s. `profile_at`: also a profile point (not for size parameters, which move the
-/// points).
-fn check(name: &str, text: &str, only: Option<&[&str]>, profile_at: Option<(usize, usize)>) {
+/// `simulate`'s. `profile_at`: (N, indices) also these points of the profile with N points per
+/// stretch (not for size parameters, which move the points).
+fn check(name: &str, text: &str, only: Option<&[&str]>, profile_at: Option<(usize, &[usize])>) {
     let s = study(text);
     let net = s.load(&[]).unwrap();
     let params: Vec<Parameter> = match only {
@@ -189,17 +192,19 @@ fn check(name: &str, text: &str, only: Option<&[&str]>, profile_at: Option<(usiz
             fd,
             t_index,
         );
-        if let Some((_, i)) = profile_at
+        if let Some((_, at)) = profile_at
             && !is_size(&p.path)
         {
-            let fd = finite_difference(&s, p, &points, Some(i));
-            profile.push(
-                format!("{name}: ∂(profile point {i})/∂{}", p.path),
-                p.step_scale(),
-                forward(&sens, k, Some(i)),
-                fd,
-                t_index,
-            );
+            for &i in at {
+                let fd = finite_difference(&s, p, &points, Some(i));
+                profile.push(
+                    format!("{name}: ∂(profile point {i})/∂{}", p.path),
+                    p.step_scale(),
+                    forward(&sens, k, Some(i)),
+                    fd,
+                    t_index,
+                );
+            }
         }
     }
     outlet.assert(1e-5);
@@ -216,11 +221,19 @@ fn is_size(path: &str) -> bool {
 /// parameter the study has.
 #[test]
 fn the_split_feed_cascade_agrees_with_finite_differences() {
+    let text = include_str!("../networks/split_feed_cascade.yaml");
+    check("split_feed_cascade", text, None, None);
+    // The profile: the feed, then each tank's outlet.
     check(
-        "split_feed_cascade",
-        include_str!("../networks/split_feed_cascade.yaml"),
-        None,
-        None,
+        "split_feed_cascade, profile",
+        text,
+        Some(&[
+            "reactions.couple.rate.k",
+            "reactions.dimerise.rate.Ea",
+            "feed.concentrations.A",
+            "train.T2.join.volumetric",
+        ]),
+        Some((3, &[0, 1, 2, 3])),
     );
 }
 
@@ -257,24 +270,25 @@ train:
         ]),
         None,
     );
-    // And the isothermal train's profile, point by point (a point inside the tube and the
-    // tank's outlet before the bypass rejoins).
-    let iso = text.replace(", heat: adiabatic", "");
-    let s = study(&iso);
-    let net = s.load(&[]).unwrap();
-    let n = solve(&net, &Points::Even(5)).x.len();
-    for at in [2, n - 2] {
-        check(
-            "isothermal tube and bypassed tank",
-            &iso,
-            Some(&[
-                "reactions.first.rate.k",
-                "feed.volumetric",
-                "train.R2.bypass",
-            ]),
-            Some((5, at)),
-        );
-    }
+    // And the profile, point by point, for the parameters that do not move its points: the
+    // feed, a point inside the tube, its outlet, the tank's outlet before the bypass rejoins,
+    // and the unit's outlet after it.
+    let n = solve(&study(text).load(&[]).unwrap(), &Points::Even(5))
+        .x
+        .len();
+    check(
+        "tube and bypassed tank, profile",
+        text,
+        Some(&[
+            "reactions.first.rate.k",
+            "reactions.first.rate.Ea",
+            "feed.T",
+            "feed.volumetric",
+            "train.R2.bypass",
+            "train.R2.join.T",
+        ]),
+        Some((5, &[0, 2, n - 3, n - 2, n - 1])),
+    );
 }
 
 /// A tube with side feeds (the liquid case of tests/reference/side_feeds.py), stretch by
@@ -313,7 +327,7 @@ reactor:
         "side-fed tube profile",
         text,
         Some(&["reactions.r1.rate.k", "reactor.side_feeds.0.flows.B"]),
-        Some((4, n - 3)),
+        Some((4, &[1, n / 2, n - 3, n - 1])),
     );
 }
 
