@@ -14,6 +14,7 @@ mod optimize;
 pub mod output;
 mod run;
 mod runaway;
+mod sensitivity;
 mod size;
 mod sweep;
 mod table;
@@ -94,6 +95,9 @@ enum Command {
     },
     /// The runaway boundary over one input: hot spot and its normalised sensitivity.
     Runaway(runaway::RunawayArgs),
+    /// How a target (yield, selectivity, conversion, an outlet amount) depends on every
+    /// parameter of the study: normalised local sensitivities, ranked.
+    Sensitivity(sensitivity::SensitivityArgs),
     /// Run a full grid over one or more inputs (in parallel).
     Sweep {
         file: PathBuf,
@@ -193,6 +197,7 @@ pub fn main() -> i32 {
         Command::Run(args) => run::run(&args),
         Command::Size(args) => size::size(&args),
         Command::Runaway(args) => runaway::runaway(&args),
+        Command::Sensitivity(args) => sensitivity::run(&args),
         Command::Generate {
             species,
             reactions,
