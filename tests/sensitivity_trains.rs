@@ -331,6 +331,42 @@ reactor:
     );
 }
 
+/// An ideal-gas train: a tube, then a tank with a stream joining at another temperature and a
+/// bypass, with heat capacities and an energy balance in the tank (the volumetric flows
+/// follow F_T R T / P, so their sensitivities come from the species', T's and P's).
+#[test]
+fn a_gas_train_agrees_with_finite_differences() {
+    let text = "name: gas train (test values)
+phase: gas
+species: {A: {cp: 40 J/(mol*K)}, B: {cp: 40 J/(mol*K)}, C: {cp: 60 J/(mol*K)}, N2: {cp: 29 J/(mol*K)}}
+reactions:
+  - {id: r1, stoich: A -> 2 B, rate: {k: 0.5 1/s, Ea: 50 kJ/mol, T_ref: 500 K, dH: -20 kJ/mol}}
+  - {id: r2, stoich: B -> C, rate: {k: 0.1 1/s, Ea: 70 kJ/mol, T_ref: 500 K, dH: -10 kJ/mol}}
+feed: {T: 500 K, P: 2 bar, flows: {A: 1 mol/s, N2: 3 mol/s}}
+train:
+  - {id: R1, type: pfr, volume: 0.05 m3}
+  - {id: R2, type: cstr, volume: 0.1 m3, heat: adiabatic, bypass: 0.1, join: {T: 450 K, flows: {A: 0.5 mol/s, N2: 1 mol/s}}}
+";
+    check(
+        "gas train",
+        text,
+        Some(&[
+            "reactions.r1.rate.k",
+            "reactions.r2.rate.k",
+            "reactions.r1.rate.Ea",
+            "feed.T",
+            "feed.P",
+            "feed.flows.A",
+            "train.R1.volume",
+            "train.R2.volume",
+            "train.R2.join.T",
+            "train.R2.join.flows.A",
+            "train.R2.bypass",
+        ]),
+        None,
+    );
+}
+
 /// N equal isothermal tanks in series, first order A -> B: C_A,N = C_A0 (1 + kτ)^−N with τ
 /// the space time of one tank, so ∂C_A,N/∂ln k = −N kτ C_A0 (1 + kτ)^−N−1 (Levenspiel ch. 6,
 /// tanks in series; the derivative by hand; from memory).
