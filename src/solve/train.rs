@@ -102,7 +102,7 @@ pub fn is_flowsheet(net: &Network) -> bool {
 }
 
 /// The units to run: the train's, or the single vessel as one unit.
-fn units_of(net: &Network) -> Vec<Unit> {
+pub fn units_of(net: &Network) -> Vec<Unit> {
     match &net.train {
         Some(t) => t.units.clone(),
         None => vec![Unit {
@@ -118,18 +118,19 @@ fn units_of(net: &Network) -> Vec<Unit> {
 
 /// Solve the train of `net` unit by unit.
 pub fn solve(net: &Network, opts: &SolveOptions) -> Result<TrainRun, SolveError> {
+    if let super::Points::At(_) = opts.points {
+        // Each stretch runs on its own coordinate; positions on the train's would land in the
+        // wrong vessel.
+        return Err(SolveError::Setup(
+            "profile points at given positions are not available for a train (or a tube with side feeds or a recycle) yet: ask for evenly spaced points or the outlet".into(),
+        ));
+    }
     let units = units_of(net);
     let mut stream = net.feed.clone();
     let mut offset = 0.0;
     let mut runs = Vec::with_capacity(units.len());
     for u in &units {
-        let run = run_unit(net, u, &stream, offset, opts).map_err(|e| match e {
-            SolveError::Setup(m) => SolveError::Setup(format!("unit `{}`: {m}", u.id)),
-            e => SolveError::Unit {
-                unit: u.id.clone(),
-                source: Box::new(e),
-            },
-        })?;
+        let run = run_unit(net, u, &stream, offset, opts).map_err(|e| in_unit(u, e))?;
         stream = run.outlet.clone();
         offset += run.size;
         runs.push(run);
@@ -144,6 +145,17 @@ pub fn solve(net: &Network, opts: &SolveOptions) -> Result<TrainRun, SolveError>
     })
 }
 
+/// An error of unit `u`, naming it.
+pub fn in_unit(u: &Unit, e: SolveError) -> SolveError {
+    match e {
+        SolveError::Setup(m) => SolveError::Setup(format!("unit `{}`: {m}", u.id)),
+        e => SolveError::Unit {
+            unit: u.id.clone(),
+            source: Box::new(e),
+        },
+    }
+}
+
 fn run_unit(
     net: &Network,
     u: &Unit,
@@ -151,6 +163,35 @@ fn run_unit(
     offset: f64,
     opts: &SolveOptions,
 ) -> Result<UnitRun, SolveError> {
+    check_unit(u)?;
+    let inlet = unit_inlet(net, u, arriving)?;
+    let (through, around) = bypass_split(&inlet, u.bypass);
+    let (pieces, product, recycle) = match u.contacting.recycle {
+        Some(ratio) if ratio > 0.0 => {
+            let (pieces, product, run) = recycle_loop(
+                net,
+                u,
+                &through,
+                ratio,
+                offset,
+                opts,
+                RECYCLE_MAX_ITERATIONS,
+            )?;
+            (pieces, product, Some(run))
+        }
+        _ => {
+            let pieces = run_vessel(net, u, &through, offset, opts)?;
+            let out = outlet_stream(net, pieces.last().expect("a vessel has a stretch"));
+            (pieces, out, None)
+        }
+    };
+    let outlet = rejoined(net, u, product, &around)?;
+    Ok(unit_run(net, u, offset, inlet, pieces, outlet, recycle))
+}
+
+/// What a unit cannot be solved with: side feeds or a recycle on a bed with pressure drop or
+/// with a counter-current coolant.
+pub fn check_unit(u: &Unit) -> Result<(), SolveError> {
     let setup = SolveError::Setup;
     let tube = matches!(u.reactor, Reactor::Pfr { .. } | Reactor::Pbr { .. });
     let split = !u.contacting.side_feeds.is_empty() || u.contacting.recycle.is_some();
@@ -184,36 +225,20 @@ fn run_unit(
         tube || !split,
         "the loader allows side feeds and recycle on tubes only"
     );
-    let inlet = match &u.join {
-        Some(j) => mix(net, &u.heat, &[arriving, j]).map_err(setup)?,
-        None => arriving.clone(),
-    };
-    let through = scaled(&inlet, 1.0 - u.bypass);
-    let around = scaled(&inlet, u.bypass);
-    let (pieces, product, recycle) = match u.contacting.recycle {
-        Some(ratio) if ratio > 0.0 => {
-            let (pieces, product, run) = recycle_loop(
-                net,
-                u,
-                &through,
-                ratio,
-                offset,
-                opts,
-                RECYCLE_MAX_ITERATIONS,
-            )?;
-            (pieces, product, Some(run))
-        }
-        _ => {
-            let pieces = run_vessel(net, u, &through, offset, opts)?;
-            let out = outlet_stream(net, pieces.last().expect("a vessel has a stretch"));
-            (pieces, out, None)
-        }
-    };
-    let outlet = if u.bypass > 0.0 {
-        mix(net, &u.heat, &[&product, &around]).map_err(setup)?
-    } else {
-        product
-    };
+    Ok(())
+}
+
+/// A unit as solved, from its streams and stretches: with what it was fed (its inlet, side
+/// feeds, what entered by its walls) and what it gave (its outlet, what left by its walls).
+pub fn unit_run(
+    net: &Network,
+    u: &Unit,
+    offset: f64,
+    inlet: Feed,
+    pieces: Vec<Piece>,
+    outlet: Feed,
+    recycle: Option<RecycleRun>,
+) -> UnitRun {
     let n = net.species.len();
     let mut fed = inlet.amounts.clone();
     let mut left = outlet.amounts.clone();
@@ -226,7 +251,7 @@ fn run_unit(
             add(&mut left, ex.left.last().map_or(&[][..], |v| &v[..n]));
         }
     }
-    Ok(UnitRun {
+    UnitRun {
         id: u.id.clone(),
         kind: u.reactor.kind(),
         size: u.reactor.size(),
@@ -238,7 +263,31 @@ fn run_unit(
         left,
         bypass: u.bypass,
         recycle,
-    })
+    }
+}
+
+/// The stream entering unit `u` of `net`: the arriving stream mixed with the unit's `join`
+/// stream (adiabatic mixing, [`mix`]), or the arriving stream as it is.
+pub fn unit_inlet(net: &Network, u: &Unit, arriving: &Feed) -> Result<Feed, SolveError> {
+    match &u.join {
+        Some(j) => mix(net, &u.heat, &[arriving, j]).map_err(SolveError::Setup),
+        None => Ok(arriving.clone()),
+    }
+}
+
+/// A unit's inlet split by its bypass fraction b: (1 − b) through the vessel, b around it.
+pub fn bypass_split(inlet: &Feed, bypass: f64) -> (Feed, Feed) {
+    (scaled(inlet, 1.0 - bypass), scaled(inlet, bypass))
+}
+
+/// The unit's outlet: the vessel's product with the bypassed stream mixed back in (none: the
+/// product as it is).
+pub fn rejoined(net: &Network, u: &Unit, product: Feed, around: &Feed) -> Result<Feed, SolveError> {
+    if u.bypass > 0.0 {
+        mix(net, &u.heat, &[&product, around]).map_err(SolveError::Setup)
+    } else {
+        Ok(product)
+    }
 }
 
 fn add(a: &mut [f64], b: &[f64]) {
@@ -248,7 +297,7 @@ fn add(a: &mut [f64], b: &[f64]) {
 /// The stream leaving a stretch: its outlet flows, temperature and pressure, and the
 /// volumetric flow that follows (a liquid's inlet flow grown by what entered along it; an
 /// ideal gas's from F_T, T and P).
-fn outlet_stream(net: &Network, p: &Piece) -> Feed {
+pub fn outlet_stream(net: &Network, p: &Piece) -> Feed {
     let sim = &p.sim;
     let k = sim.x.len() - 1;
     let amounts = sim.outlet().to_vec();
@@ -258,7 +307,7 @@ fn outlet_stream(net: &Network, p: &Piece) -> Feed {
         .as_ref()
         .map_or(p.network.feed.pressure, |pr| pr[k]);
     let volumetric = match net.phase {
-        Phase::Liquid => p.balance.fixed_volume(sim.size),
+        Phase::Liquid => liquid_outlet_volumetric(&p.balance, sim.size),
         Phase::Gas => amounts.iter().sum::<f64>() * GAS_CONSTANT * temperature / pressure,
     };
     Feed {
@@ -269,6 +318,76 @@ fn outlet_stream(net: &Network, p: &Piece) -> Feed {
     }
 }
 
+/// A liquid stretch's outlet volumetric flow: its inlet flow grown by what entered along it
+/// (distributed feeds), v(x_end).
+pub fn liquid_outlet_volumetric(balance: &Balance, size: f64) -> f64 {
+    balance.fixed_volume(size)
+}
+
+/// Where a unit's stretches start and end on its own coordinate: 0, each side feed's position,
+/// the unit's size.
+pub fn stretch_bounds(u: &Unit) -> Vec<f64> {
+    let mut bounds = vec![0.0];
+    bounds.extend(u.contacting.side_feeds.iter().map(|s| s.at));
+    bounds.push(u.reactor.size());
+    bounds
+}
+
+/// The stream entering stretch `k` ≥ 1 of unit `u`: the stretch before's outlet `out` mixed
+/// with the side feed at its start. An isothermal tube holds the temperature `held` of the
+/// unit's stream (the side feed brought to it at the wall); a tube with an energy balance mixes
+/// adiabatically.
+pub fn stretch_inlet(
+    net: &Network,
+    u: &Unit,
+    k: usize,
+    out: &Feed,
+    held: f64,
+) -> Result<Feed, SolveError> {
+    let side = &u.contacting.side_feeds[k - 1].stream;
+    if u.heat.balance().is_none() {
+        // At the stream's own pressure, the first's.
+        Ok(combine(net, &[out, side], held))
+    } else {
+        mix(net, &u.heat, &[out, side]).map_err(SolveError::Setup)
+    }
+}
+
+/// Stretch `k` of unit `u` of `net` as a single-vessel study: the unit's reactor cut to the
+/// stretch, its heat (a co-current coolant entering at `coolant` when given: carried on from
+/// the stretch before), its walls moved onto the stretch's coordinate, and `inlet` as the feed.
+/// The train solve and the train's sensitivities build every vessel they integrate here, at
+/// the nominal parameters and at the moved ones alike.
+pub fn stretch_network(
+    net: &Network,
+    u: &Unit,
+    k: usize,
+    inlet: &Feed,
+    coolant: Option<f64>,
+) -> Network {
+    let bounds = stretch_bounds(u);
+    let (a, b) = (bounds[k], bounds[k + 1]);
+    let mut n = net.clone();
+    n.train = None;
+    n.feed = inlet.clone();
+    n.reactor = u.reactor.clone();
+    n.reactor.set_size(b - a);
+    n.heat = u.heat.clone();
+    if let (Some(c), Some(t)) = (heat_stream_mut(&mut n.heat), coolant) {
+        *c = t;
+    }
+    n.contacting = shifted_walls(&u.contacting, a);
+    n
+}
+
+/// The co-current coolant leaving a stretch, which enters the next (`None` without a coolant
+/// stream).
+pub fn coolant_outlet(sim: &Simulation) -> Option<f64> {
+    sim.coolant
+        .as_ref()
+        .map(|tc| *tc.last().expect("a profile has its outlet"))
+}
+
 /// One vessel on `inlet`, stretch by stretch between its side feeds.
 fn run_vessel(
     net: &Network,
@@ -277,46 +396,24 @@ fn run_vessel(
     offset: f64,
     opts: &SolveOptions,
 ) -> Result<Vec<Piece>, SolveError> {
-    let size = u.reactor.size();
-    let mut bounds = vec![0.0];
-    bounds.extend(u.contacting.side_feeds.iter().map(|s| s.at));
-    bounds.push(size);
-    let isothermal = u.heat.balance().is_none();
+    let bounds = stretch_bounds(u);
     let mut stream = inlet.clone();
-    let mut heat = u.heat.clone();
+    let mut coolant = None;
     let mut pieces: Vec<Piece> = Vec::with_capacity(bounds.len() - 1);
-    for k in 0..bounds.len() - 1 {
+    for (k, &start) in bounds[..bounds.len() - 1].iter().enumerate() {
         if k > 0 {
             let prev = pieces.last().expect("a stretch before");
-            let out = outlet_stream(net, prev);
-            let side = &u.contacting.side_feeds[k - 1].stream;
-            stream = if isothermal {
-                // Held at the tube's temperature: the side feed is brought to it at the wall
-                // (at the stream's own pressure, the first's).
-                combine(net, &[&out, side], inlet.temperature)
-            } else {
-                mix(net, &u.heat, &[&out, side]).map_err(SolveError::Setup)?
-            };
-            // A co-current coolant carries on from the stretch before.
-            if let (Some(c), Some(tc)) = (heat_stream_mut(&mut heat), prev.sim.coolant.as_ref()) {
-                *c = *tc.last().expect("a profile has its outlet");
-            }
+            stream = stretch_inlet(net, u, k, &outlet_stream(net, prev), inlet.temperature)?;
+            coolant = coolant_outlet(&prev.sim);
         }
-        let (a, b) = (bounds[k], bounds[k + 1]);
-        let mut n = net.clone();
-        n.train = None;
-        n.feed = stream.clone();
-        n.reactor = u.reactor.clone();
-        n.reactor.set_size(b - a);
-        n.heat = heat.clone();
-        n.contacting = shifted_walls(&u.contacting, a);
+        let n = stretch_network(net, u, k, &stream, coolant);
         let balance = Balance::new(&n).map_err(SolveError::Setup)?;
         let sim = super::simulate_with(&n, &balance, opts)?;
         pieces.push(Piece {
             network: n,
             balance,
             sim,
-            offset: offset + a,
+            offset: offset + start,
         });
     }
     Ok(pieces)
@@ -513,12 +610,14 @@ fn anderson(zs: &[Vec<f64>], fs: &[Vec<f64>]) -> Vec<f64> {
     g.iter().zip(step.iter()).map(|(g, s)| g - s).collect()
 }
 
+/// Where each point of a train's profile comes from: (unit, stretch, point of the stretch's
+/// profile), `None` for the feed and for a unit's outlet after its split or bypass.
+pub type Places = Vec<Option<(usize, usize, usize)>>;
+
 /// The train's profile: the feed at x = 0, then every stretch's points on the cumulative
 /// coordinate (a tank contributes its outlet), and a point after each split or bypass. Joins
 /// and side feeds count as entered from where they join.
-type Places = Vec<Option<(usize, usize, usize)>>;
-
-fn concatenate(net: &Network, runs: &[UnitRun]) -> (Simulation, Vec<String>, Places) {
+pub fn concatenate(net: &Network, runs: &[UnitRun]) -> (Simulation, Vec<String>, Places) {
     let n = net.species.len();
     let first = &runs[0].pieces[0];
     let pieces = || runs.iter().flat_map(|r| &r.pieces);
