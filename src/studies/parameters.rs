@@ -321,6 +321,7 @@ pub fn perturbed(
                 plus: load(theta + delta)?,
                 minus: load(theta - delta)?,
                 step: 2.0 * delta,
+                scale: p.step_scale(),
             })
         })
         .collect()

@@ -93,6 +93,8 @@ struct Side<'a> {
     net: &'a Network,
     units: Vec<Unit>,
     by: f64,
+    /// The parameter's θ scale ([`Perturbed::scale`]).
+    scale: f64,
 }
 
 /// For each parameter, the sensitivity of `f`'s output: f evaluated on each side (the side's
@@ -263,6 +265,7 @@ pub fn sensitivities(
         .map(|p| {
             let h = 0.5 * p.step;
             [(&p.plus, h), (&p.minus, -h)].map(|(n, by)| Side {
+                scale: p.scale,
                 net: n,
                 units: units_of(n),
                 by,
@@ -474,6 +477,7 @@ fn unit_sensitivities(
                     plus: build(plus)?,
                     minus: build(minus)?,
                     step: steps[k],
+                    scale: plus.scale,
                 })
             })
             .collect::<Result<Vec<_>, SolveError>>()?;

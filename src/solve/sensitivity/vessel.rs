@@ -11,8 +11,9 @@
 //! central difference (f(x, y; θ+δ) − f(x, y; θ−δ))/2δ of the right-hand sides of the two
 //! perturbed models at the same state. The Newton matrix is block diagonal, I − hγJ on every
 //! block, the simultaneous corrector of Maly & Petzold (Appl. Numer. Math. 20, 1996, from
-//! memory), and the sensitivities are in the error test with their species' absolute
-//! tolerances (CVODES's default with unit parameter scales).
+//! memory), and the sensitivities are in the error test, each as scale·s against its state's
+//! tolerances (the parameter's typical magnitude, [`super::Perturbed::scale`]: 1 on a log
+//! scale, e.g. 10 kJ/mol for an Ea; CVODES's parameter scaling p̄).
 //!
 //! Every state must mean the same in the three models: the pressure state p = P/P0 is relative
 //! to each model's own feed pressure, so it is carried in the nominal's P0 (a model's p times
@@ -172,9 +173,16 @@ pub fn sensitivities(
         y0.extend((0..n).map(|i| (yp[i] * d.plus_scale[i] - ym[i] * d.minus_scale[i]) / d.step));
     }
     let mut o = ode_options(net, nominal, opts);
-    let atol = o.atol.clone();
-    for _ in &dirs {
-        o.atol.extend_from_slice(&atol);
+    // Each sensitivity block is error-tested as scale·s (Perturbed::scale): its absolute
+    // tolerances are the states' divided by the parameter's scale.
+    let atol = if o.atol.len() == 1 {
+        vec![o.atol[0]; nominal.dim()]
+    } else {
+        o.atol.clone()
+    };
+    o.atol = atol.clone();
+    for p in perturbed {
+        o.atol.extend(atol.iter().map(|a| a / p.scale));
     }
     let aug = Augmented {
         nominal,
