@@ -8,6 +8,7 @@
 
 pub mod analysis;
 pub mod exact;
+pub mod fit;
 pub mod generate;
 pub mod kinetics;
 pub mod metrics;
