@@ -9,6 +9,7 @@ pub mod krylov;
 pub mod newton;
 pub mod ode;
 pub mod pieces;
+pub mod sensitivity;
 pub mod shooting;
 pub mod steady;
 pub mod system;

@@ -5,6 +5,7 @@ pub mod compare;
 pub mod conversion;
 pub mod evaluate;
 pub mod optimize;
+pub mod parameters;
 pub mod runaway;
 pub mod study;
 pub mod sweep;

@@ -154,6 +154,44 @@ impl ParsedStudy {
     pub fn load(&self, overrides: &[Override]) -> Result<Network, LoadError> {
         load_parsed(self.tree.clone(), &self.text, &self.file, overrides)
     }
+
+    /// The YAML value at a `--set` path after `overrides` (list items by index or by `id`,
+    /// as an override resolves them); `Ok(None)` where the file gives no value there.
+    pub fn value_at(
+        &self,
+        overrides: &[Override],
+        path: &str,
+    ) -> Result<Option<serde_yaml::Value>, String> {
+        let mut tree = self.tree.clone();
+        for o in overrides {
+            apply_override(&mut tree, o)
+                .map_err(|m| format!("cannot apply --set {}={}: {m}", o.path, o.value))?;
+        }
+        let mut cur = &tree;
+        for seg in path.split('.') {
+            cur = match cur {
+                serde_yaml::Value::Mapping(m) => match m.get(seg) {
+                    Some(v) => v,
+                    None => return Ok(None),
+                },
+                serde_yaml::Value::Sequence(items) => match seg.parse::<usize>() {
+                    Ok(i) => match items.get(i) {
+                        Some(v) => v,
+                        None => return Ok(None),
+                    },
+                    Err(_) => match items
+                        .iter()
+                        .find(|it| it.get("id").and_then(|v| v.as_str()) == Some(seg))
+                    {
+                        Some(v) => v,
+                        None => return Ok(None),
+                    },
+                },
+                _ => return Err(format!("`{seg}` is below a scalar")),
+            };
+        }
+        Ok(Some(cur.clone()))
+    }
 }
 
 /// The YAML tree of a study text.
