@@ -2,4 +2,5 @@
 //! reactor model, with the Jacobian from forward sensitivities.
 
 pub mod data;
+pub mod lm;
 pub mod runs;
