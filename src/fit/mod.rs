@@ -4,3 +4,4 @@
 pub mod data;
 pub mod lm;
 pub mod runs;
+pub mod setup;

@@ -19,8 +19,8 @@ pub use contacting::{
     Contacting, DistributedFeed, Dosing, Permeation, Schedule, SideFeed, Train, Unit, Withdrawal,
 };
 pub use load::{
-    ErrorSpec, EstimateSpec, FitBound, FitSection, LoadError, Override, ParsedStudy, load_file,
-    load_str, read_text,
+    ErrorSpec, EstimateSpec, FitBound, FitSection, LoadError, MAX_STARTS, Override, ParsedStudy,
+    load_file, load_str, read_text,
 };
 
 use formula::Formula;

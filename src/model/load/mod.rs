@@ -21,7 +21,7 @@ mod species;
 mod stream;
 mod walls;
 
-pub use fit::{ErrorSpec, EstimateSpec, FitBound, FitSection};
+pub use fit::{ErrorSpec, EstimateSpec, FitBound, FitSection, MAX_STARTS};
 pub(crate) use messages::closest;
 
 use super::file::*;
