@@ -177,39 +177,16 @@ impl Search<'_> {
 
     /// (G, R, the residual of the whole system, its Jacobian) at flows F and temperature T.
     fn system(&self, f: &[f64], t: f64) -> (f64, f64, Vec<f64>, DMatrix<f64>) {
-        let n = f.len();
-        let v = self.volume;
-        let mut y = f.to_vec();
-        y.push(t);
-        let mut d = vec![0.0; n + 1];
-        self.b.rhs_at(0.0, &y, &mut d);
-        let mut trip = Vec::new();
-        self.b.jacobian_at(0.0, &y, &mut trip);
-        let mut gq = vec![0.0; n + 1];
-        let q = self
-            .b
-            .heat_release(&y, Some(&mut gq))
-            .expect("the balance has an energy balance");
-        let (sens, slope) = self.e.feed_sensible(&self.net.feed.amounts, t);
-        let g = v * q;
-        let r = sens + self.ua * (t - self.ta);
-        let mut res = vec![0.0; n + 1];
-        for j in 0..n {
-            res[j] = self.net.feed.amounts[j] - f[j] + v * d[j];
-        }
-        res[n] = g - r;
-        let mut jm = DMatrix::<f64>::zeros(n + 1, n + 1);
-        for &(row, col, val) in &trip {
-            if row < n {
-                jm[(row, col)] += v * val;
-            }
-        }
-        for j in 0..n {
-            jm[(j, j)] -= 1.0;
-            jm[(n, j)] = v * gq[j];
-        }
-        jm[(n, n)] = v * gq[n] - slope - self.ua;
-        (g, r, res, jm)
+        system_at(
+            self.net,
+            self.b,
+            self.e,
+            self.volume,
+            self.ua,
+            self.ta,
+            f,
+            t,
+        )
     }
 
     fn point(&self, t: f64, guess: Option<&[f64]>) -> Result<Point, String> {
@@ -354,6 +331,76 @@ impl Search<'_> {
 
 /// S = J_nn − J_n,:n (J_:n,:n)⁻¹ J_:n,n: dD/dT along the isothermal outlet; NaN when the
 /// species block is singular.
+/// (G, R, the residual of the whole steady-state system, its Jacobian in (F, T)) at flows F
+/// and temperature T: the species rows F_j0 − F_j + V Σ_i ν_ij r_i and the energy row
+/// G(T) − R(T) of the module's equations.
+#[allow(clippy::too_many_arguments)]
+fn system_at(
+    net: &Network,
+    b: &Balance,
+    e: &Energy,
+    volume: f64,
+    ua: f64,
+    ta: f64,
+    f: &[f64],
+    t: f64,
+) -> (f64, f64, Vec<f64>, DMatrix<f64>) {
+    let n = f.len();
+    let v = volume;
+    let mut y = f.to_vec();
+    y.push(t);
+    let mut d = vec![0.0; n + 1];
+    b.rhs_at(0.0, &y, &mut d);
+    let mut trip = Vec::new();
+    b.jacobian_at(0.0, &y, &mut trip);
+    let mut gq = vec![0.0; n + 1];
+    let q = b
+        .heat_release(&y, Some(&mut gq))
+        .expect("the balance has an energy balance");
+    let (sens, slope) = e.feed_sensible(&net.feed.amounts, t);
+    let g = v * q;
+    let r = sens + ua * (t - ta);
+    let mut res = vec![0.0; n + 1];
+    for j in 0..n {
+        res[j] = net.feed.amounts[j] - f[j] + v * d[j];
+    }
+    res[n] = g - r;
+    let mut jm = DMatrix::<f64>::zeros(n + 1, n + 1);
+    for &(row, col, val) in &trip {
+        if row < n {
+            jm[(row, col)] += v * val;
+        }
+    }
+    for j in 0..n {
+        jm[(j, j)] -= 1.0;
+        jm[(n, j)] = v * gq[j];
+    }
+    jm[(n, n)] = v * gq[n] - slope - ua;
+    (g, r, res, jm)
+}
+
+/// The residual of the steady-state balances (species rows mol/s, energy row W) of the
+/// network's CSTR at `volume`, flows `f` and temperature `t`, and its Jacobian in (F, T): the
+/// system whose zeros [`find_all`] finds, for the implicit-function derivative of a state.
+pub(crate) fn steady_residual(
+    net: &Network,
+    b: &Balance,
+    volume: f64,
+    f: &[f64],
+    t: f64,
+) -> Result<(Vec<f64>, DMatrix<f64>), SolveError> {
+    let e = b
+        .energy()
+        .ok_or_else(|| SolveError::Setup("the CSTR has no energy balance".into()))?;
+    let ta = e.constant_coolant().ok_or_else(|| {
+        SolveError::Setup(
+            "a CSTR exchanges heat with a coolant at a constant temperature only".into(),
+        )
+    })?;
+    let (_, _, res, jm) = system_at(net, b, e, volume, e.ua(), ta, f, t);
+    Ok((res, jm))
+}
+
 fn schur(jm: &DMatrix<f64>, n: usize) -> f64 {
     let a = jm.view((0, 0), (n, n)).into_owned();
     let b = jm.view((0, n), (n, 1)).into_owned();

@@ -30,6 +30,9 @@ pub enum Points {
     Even(usize),
     /// Every internal step of the integrator.
     Steps,
+    /// Exactly these positions (SI, non-decreasing, within the reactor): the points of a
+    /// measured profile.
+    At(Vec<f64>),
 }
 
 /// Tolerances and output of a solve. `None` takes the study file's value, then the default.
@@ -499,10 +502,14 @@ pub fn simulate_with(
             LinearAlgebra::Sparse => "BDF (diffsol, analytic Jacobian, sparse LU)",
             _ => "BDF (diffsol, analytic Jacobian, GMRES with dropped-entry LU preconditioner)",
         };
-        let out = match opts.points {
+        let out = match &opts.points {
             Points::End => Output::End,
-            Points::Even(k) => Output::evenly_spaced(k, size),
+            Points::Even(k) => Output::evenly_spaced(*k, size),
             Points::Steps => Output::Steps,
+            Points::At(xs) => {
+                check_points(xs, size, x_name, x_unit)?;
+                Output::Points(xs.clone())
+            }
         };
         let reactor = reactor_name(net);
         // With an energy balance, watch T (and a batch's cooling-failure temperature) for
@@ -650,6 +657,29 @@ pub fn simulate_with(
         }
     }
     Ok(sim)
+}
+
+/// Requested profile positions must lie in [0, size] and not decrease.
+fn check_points(xs: &[f64], size: f64, x_name: &str, x_unit: &str) -> Result<(), SolveError> {
+    if xs.is_empty() {
+        return Err(SolveError::Setup(
+            "no profile positions were asked for".into(),
+        ));
+    }
+    for (i, &x) in xs.iter().enumerate() {
+        if !(x.is_finite() && (0.0..=size).contains(&x)) {
+            return Err(SolveError::Setup(format!(
+                "profile position {x_name} = {x} {x_unit} is outside the reactor (0 to {size} {x_unit})"
+            )));
+        }
+        if i > 0 && x < xs[i - 1] {
+            return Err(SolveError::Setup(format!(
+                "profile positions must not decrease ({x_name} = {x} {x_unit} after {})",
+                xs[i - 1]
+            )));
+        }
+    }
+    Ok(())
 }
 
 /// The residual tolerance of a CSTR solve, mol/s: far below what the ODE tolerances ask of a
