@@ -39,7 +39,13 @@ struct Direction {
 
 /// Scratch of one right-hand side: Jacobian triplets, the state in each perturbed model's
 /// units, and their right-hand sides.
-type Scratch = (Vec<(usize, usize, f64)>, Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>);
+type Scratch = (
+    Vec<(usize, usize, f64)>,
+    Vec<f64>,
+    Vec<f64>,
+    Vec<f64>,
+    Vec<f64>,
+);
 
 /// The augmented system [y; s_1; ...; s_P].
 struct Augmented<'a> {
@@ -47,11 +53,6 @@ struct Augmented<'a> {
     dirs: &'a [Direction],
     n: usize,
     scratch: RefCell<Scratch>,
-        Vec<f64>,
-        Vec<f64>,
-        Vec<f64>,
-        Vec<f64>,
-    )>,
 }
 
 impl OdeSystem for Augmented<'_> {
