@@ -85,6 +85,45 @@ impl ParsedStudy {
     }
 }
 
+impl ParsedStudy {
+    /// The field path of a `--set` path in the text's own terms (`reactions.first.rate.k` →
+    /// `reactions[0].rate.k`), for locating a value in the text; `None` where the tree has no
+    /// such place (the last key may be missing: its parent must exist).
+    pub fn field_path(&self, path: &str) -> Option<String> {
+        let mut cur = &self.tree;
+        let mut out = String::new();
+        let segs: Vec<&str> = path.split('.').collect();
+        for (n, seg) in segs.iter().enumerate() {
+            match cur {
+                serde_yaml::Value::Mapping(m) => {
+                    if !out.is_empty() {
+                        out.push('.');
+                    }
+                    out.push_str(seg);
+                    match m.get(*seg) {
+                        Some(v) => cur = v,
+                        None if n + 1 == segs.len() => return Some(out),
+                        None => return None,
+                    }
+                }
+                serde_yaml::Value::Sequence(items) => {
+                    let i = match seg.parse::<usize>() {
+                        Ok(i) if i < items.len() => i,
+                        Ok(_) => return None,
+                        Err(_) => items
+                            .iter()
+                            .position(|it| it.get("id").and_then(|v| v.as_str()) == Some(*seg))?,
+                    };
+                    out.push_str(&format!("[{i}]"));
+                    cur = &items[i];
+                }
+                _ => return None,
+            }
+        }
+        Some(out)
+    }
+}
+
 fn read(raw: &RawFit, cx: &Cx, parsed: &ParsedStudy) -> Result<FitSection, LoadError> {
     let species: Vec<String> = parsed
         .tree
