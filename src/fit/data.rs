@@ -133,6 +133,8 @@ pub struct Data {
     /// The unit of x as written, and its SI factor.
     pub x_unit: String,
     pub x_factor: f64,
+    /// 1-based column of the independent variable's header cell.
+    pub x_column: usize,
     /// The header's line number (for errors about a column as a whole).
     pub header_line: usize,
     pub columns: Vec<Column>,
@@ -461,6 +463,7 @@ impl Data {
             independent,
             x_unit,
             x_factor: xu.factor,
+            x_column: cells[1].column,
             header_line,
             columns,
             samples,
@@ -481,16 +484,18 @@ impl Data {
             message,
         };
         let kind = net.reactor.kind();
-        let x_ok = match (self.independent, kind) {
-            (Independent::Time, "batch") => true,
-            (Independent::Volume, "pfr" | "cstr") => true,
-            (Independent::CatalystMass, "pbr") => true,
-            (Independent::ResidenceTime, "pfr" | "cstr") => true,
-            _ => false,
-        };
+        let x_ok = matches!(
+            (self.independent, kind),
+            (Independent::Time, "batch")
+                | (
+                    Independent::Volume | Independent::ResidenceTime,
+                    "pfr" | "cstr"
+                )
+                | (Independent::CatalystMass, "pbr")
+        );
         if !x_ok {
             return Err(err(
-                2,
+                self.x_column,
                 format!(
                     "`{}` cannot be the independent variable of a {kind}: use {}",
                     self.independent.name(),

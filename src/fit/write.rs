@@ -155,7 +155,7 @@ pub fn fitted_text(f: &Fitted) -> Result<String, String> {
             }
         }
     }
-    edits.sort_by(|a, b| b.start.cmp(&a.start));
+    edits.sort_by_key(|e| std::cmp::Reverse(e.start));
     let mut out = text.clone();
     for e in edits {
         out.replace_range(e.start..e.end, &e.text);

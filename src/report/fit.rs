@@ -81,8 +81,8 @@ pub fn fit_text(r: &FitReport) -> String {
         .max(9);
     let _ = writeln!(
         s,
-        "  {:w$}  {:>13}  {:>11}  {:>27}  {}",
-        "parameter", "value", "std. error", "95 % interval", "unit"
+        "  {:w$}  {:>13}  {:>11}  {:>27}  unit",
+        "parameter", "value", "std. error", "95 % interval"
     );
     for e in &r.estimates {
         let (se, ci) = in_file_units(e);
