@@ -220,6 +220,15 @@ fn write_keeps_the_text_and_refits_to_the_same_estimates() {
         out.to_str().unwrap(),
         "--plots",
         plots.to_str().unwrap(),
+        // A reaction by its index is the same place in the text as by its id.
+        "--estimate",
+        "reactions.0.rate.k",
+        "--estimate",
+        "reactions.0.rate.Ea=0..300 kJ/mol",
+        "--estimate",
+        "reactions.second.rate.k",
+        "--estimate",
+        "reactions.second.rate.Ea",
     ]));
     let text = std::fs::read_to_string(&out).unwrap();
     assert!(text.contains("# a first guess"), "comments kept:\n{text}");

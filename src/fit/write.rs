@@ -97,11 +97,18 @@ pub fn fitted_text(f: &Fitted) -> Result<String, String> {
             value: v,
         });
     }
-    let mut edits: Vec<Edit> = Vec::new();
+    // One edit per place in the text: a path by index and the same by id are one place, and
+    // the later (the estimate) wins.
+    let mut placed: Vec<(String, &Override)> = Vec::new();
     for o in &sets {
         let field = parsed
             .field_path(&o.path)
             .ok_or_else(|| format!("`{}` has no place in {} to write to", o.path, parsed.file))?;
+        placed.retain(|(f, _)| *f != field);
+        placed.push((field, o));
+    }
+    let mut edits: Vec<Edit> = Vec::new();
+    for (field, o) in placed {
         let exists = parsed.value_at(&[], &o.path).ok().flatten().is_some();
         if exists {
             let p = loc
