@@ -278,6 +278,26 @@ pub fn setup(req: &FitRequest) -> Result<FitSetup, FitError> {
     let data_name = data_path.display().to_string();
     let mut data = Data::parse(&read_csv_text(&data_path, &data_name)?, &data_name)?;
     data.check_against(&net)?;
+    // A gas's concentration in a bed with pressure drop follows P/P0, whose sensitivity the
+    // solve does not give: its derivative would be incomplete, so flows are asked for.
+    if net.phase == crate::model::Phase::Gas
+        && matches!(
+            net.reactor,
+            crate::model::Reactor::Pbr {
+                pressure_drop: Some(_),
+                ..
+            }
+        )
+        && let Some(c) = data
+            .columns
+            .iter()
+            .find(|c| c.measure == Measure::Concentration)
+    {
+        return Err(FitError::Invalid(format!(
+            "{}:{}:{}: concentrations of a gas in a packed bed with pressure drop cannot be fitted (their derivative needs that of P/P0); give molar flows (mol/s)",
+            data.file, data.header_line, c.column
+        )));
+    }
     let runs_path = match (&req.runs, &section.runs) {
         (Some(p), _) => Some(p.clone()),
         (None, Some(r)) => Some(beside(&req.study, r)),
