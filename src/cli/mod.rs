@@ -15,6 +15,7 @@ mod optimize;
 pub mod output;
 mod run;
 mod runaway;
+mod sensitivity;
 mod size;
 mod sweep;
 mod table;
@@ -95,6 +96,9 @@ enum Command {
     },
     /// The runaway boundary over one input: hot spot and its normalised sensitivity.
     Runaway(runaway::RunawayArgs),
+    /// How a target (yield, selectivity, conversion, an outlet amount) depends on every
+    /// parameter of the study: normalised local sensitivities, ranked.
+    Sensitivity(sensitivity::SensitivityArgs),
     /// Run a full grid over one or more inputs (in parallel).
     Sweep {
         file: PathBuf,
@@ -197,6 +201,7 @@ pub fn main() -> i32 {
         Command::Fit(args) => fit::fit(&args),
         Command::Size(args) => size::size(&args),
         Command::Runaway(args) => runaway::runaway(&args),
+        Command::Sensitivity(args) => sensitivity::run(&args),
         Command::Generate {
             species,
             reactions,

@@ -7,6 +7,7 @@ pub mod evaluate;
 pub mod optimize;
 pub mod parameters;
 pub mod runaway;
+pub mod sensitivity;
 pub mod study;
 pub mod sweep;
 pub mod target;
