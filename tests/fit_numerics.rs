@@ -421,8 +421,8 @@ fn distributions_match_scipy() {
 
 #[test]
 fn nested_f_test_and_refusals() {
-    // F = ((SSR_A − SSR_B)/(P_B − P_A)) / (SSR_B/(N − P_B)) (Bates & Watts 1988, §3.10), the
-    // p-value checked against the scipy f.sf row (F = 4, 1, 50).
+    // F = ((SSR_A − SSR_B)/(P_B − P_A)) / (SSR_B/(N − P_B)) (extra sum of squares; Bates &
+    // Watts 1988, from memory); the p-value against the scipy f.sf row (F = 4, 1, 50).
     let t = nested_f_test(12.0, 2, 10.0, 3, 53).unwrap();
     assert!(rel(t.f, 10.0) < 1e-15 && t.df1 == 1 && t.df2 == 50);
     let fx = fixture();

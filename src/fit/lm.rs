@@ -6,14 +6,16 @@
 //! and its Jacobian `J_ij = ∂r_i/∂θ_j` through [`LeastSquares`].
 //!
 //! # Method
-//! Levenberg (1944) and Marquardt (1963): each iteration solves the damped, scaled linear
+//! Levenberg (Q. Appl. Math. 2, 1944, 164–168) and Marquardt (J. SIAM 11, 1963, 431–441):
+//! each iteration solves the damped, scaled linear
 //! least-squares problem
 //!
 //! ```text
 //!     min_p ‖r + J p‖² + λ ‖D p‖²
 //! ```
 //!
-//! with Moré's (1978) diagonal scaling `D = diag(d_j)`, `d_j` the running maximum over the
+//! with Moré's diagonal scaling ("The Levenberg–Marquardt algorithm: implementation and
+//! theory", Lecture Notes in Mathematics 630, 1978, 105–116) `D = diag(d_j)`, `d_j` the running maximum over the
 //! iterations of the Jacobian's column norms ‖J_·j‖ (so the method is invariant to the units
 //! of θ). With `J̃ = J D⁻¹ = U Σ Vᵀ` (thin SVD) the step is `D p = −V diag(σ_k/(σ_k² + λ)) Uᵀ r`,
 //! singular values below `ε·σ_max·max(N, P)` treated as zero (a rank-deficient J gives no step
@@ -30,16 +32,22 @@
 //! others and the trial point projected onto the box, `θ+ = clip(θ + p)`. The predicted
 //! reduction is that of the projected step, so the gain ratio judges the step actually taken.
 //!
-//! # Stopping (the tests of MINPACK's lmder, Moré, Garbow & Hillstrom 1980)
+//! # Stopping (after the tests of MINPACK's lmder, Moré, Garbow & Hillstrom, ANL-80-74, 1980)
 //! - gtol: `max_j |g_j| / (‖J_·j‖ ‖r‖) ≤ gtol` over the free parameters (the cosine of the
 //!   angle between r and each column: the projected gradient is zero to that tolerance);
-//! - ftol: an accepted step whose actual and predicted relative reductions of F are both `≤ ftol`;
-//! - xtol: an accepted step with `‖D p‖ ≤ xtol·(‖D θ‖ + xtol)`;
+//! - ftol: a step is accepted whose actual relative reduction of F is `≤ ftol` while the
+//!   undamped (Gauss–Newton, λ = 0, projected) step promises no more than `ftol·F` either;
+//! - xtol: a step is accepted while the undamped step is `‖D p_GN‖ ≤ xtol·(‖D θ‖ + xtol)`;
 //! - rounding: the trial steps shrink below the rounding level of θ without any reduction of
 //!   F (the tolerances asked for are tighter than the arithmetic allows): converged, so said.
 //!
+//! MINPACK measures xtol and ftol on the damped step; measuring them on the undamped one
+//! means a step cut short by a large λ (after rejections or failed evaluations) is never taken
+//! for convergence.
+//!
 //! A model evaluation that fails (an `Err`, or a non-finite residual) at a trial point rejects
-//! the step (λ up), never gives a result; at the start point it is an error.
+//! the step (λ up), never gives a result; at the start point it is an error. A run that can
+//! only go on where the model fails stops with `converged = false` and the model's message.
 
 use nalgebra::{DMatrix, DVector};
 
@@ -49,6 +57,8 @@ pub trait LeastSquares {
     fn n_residuals(&self) -> usize;
     /// Residuals at θ and, when `jacobian` is true, the N×P Jacobian ∂r/∂θ.
     /// An `Err` is a failed model evaluation (for example a failed integration).
+    /// [`levenberg_marquardt`] asks for the Jacobian at every point it evaluates, trial points
+    /// included (most trial steps are accepted, and then no second solve is needed).
     fn evaluate(
         &mut self,
         theta: &[f64],
@@ -250,6 +260,8 @@ pub fn levenberg_marquardt(
     let mut nu = 2.0f64;
     let mut iterations = 0usize;
     let eps = f64::EPSILON;
+    // The last failed evaluation of the run, for the reason of a run that does not converge.
+    let mut failure_seen: Option<String> = None;
 
     let finish = |cur: Point, iterations, evaluations, converged, reason: String| LmResult {
         at_bound: on_bound(&cur.theta, b),
@@ -261,6 +273,28 @@ pub fn levenberg_marquardt(
         evaluations,
         converged,
         reason,
+    };
+
+    // No step reduces F any more: at rounding level (converged), or because the model fails
+    // at the trial points (not converged: the run stopped at the edge of where the model works).
+    let stalled = |cur: Point, iterations, evaluations, failure: Option<String>| {
+        let f = cur.f;
+        match failure {
+            Some(e) => finish(
+                cur,
+                iterations,
+                evaluations,
+                false,
+                format!("stopped where the model fails at every longer trial step: {e}"),
+            ),
+            None => finish(
+                cur,
+                iterations,
+                evaluations,
+                true,
+                format!("no further reduction of SSR = {f:.6e} possible at rounding level"),
+            ),
+        }
     };
 
     loop {
@@ -306,7 +340,10 @@ pub fn levenberg_marquardt(
             ));
         }
         if iterations > o.max_iterations {
-            let reason = format!("iteration limit ({}) reached", o.max_iterations);
+            let mut reason = format!("iteration limit ({}) reached", o.max_iterations);
+            if let Some(e) = &failure_seen {
+                reason.push_str(&format!(" (the model failed at some trial points: {e})"));
+            }
             return Ok(finish(cur, iterations - 1, evaluations, false, reason));
         }
 
@@ -330,6 +367,34 @@ pub fn levenberg_marquardt(
         let mut rr = DVector::<f64>::zeros(n.max(m));
         rr.rows_mut(0, n).copy_from(&cur.r);
         let utr = u.tr_mul(&rr);
+        // The undamped (Gauss–Newton, λ = 0) step, projected: what the linearised model
+        // promises at best. The xtol and ftol tests use it, so that a step cut short by a
+        // large λ (after failed evaluations or rejections) is never taken for convergence.
+        let (gn_size, gn_pred) = {
+            let mut q = DVector::<f64>::zeros(m);
+            for k in 0..sv.len() {
+                if sv[k] > cutoff {
+                    let c = utr[k] / sv[k];
+                    for (jj, qj) in q.iter_mut().enumerate() {
+                        *qj -= vt[(k, jj)] * c;
+                    }
+                }
+            }
+            let mut gn = cur.theta.clone();
+            for (c, &j) in free.iter().enumerate() {
+                gn[j] += q[c] / dj[j];
+            }
+            let gn = b.clip(&gn);
+            let s = DVector::from_iterator(np, gn.iter().zip(&cur.theta).map(|(a, c)| a - c));
+            let size = s
+                .iter()
+                .zip(&dj)
+                .map(|(x, w)| (x * w) * (x * w))
+                .sum::<f64>()
+                .sqrt();
+            let js = &cur.jac * &s;
+            (size, -2.0 * cur.r.dot(&js) - js.norm_squared())
+        };
         if lambda.is_nan() {
             lambda = 1e-3 * smax * smax;
             if !(lambda > 0.0) {
@@ -338,8 +403,9 @@ pub fn levenberg_marquardt(
         }
 
         // Inner loop: raise λ until a step is accepted.
+        // A failed evaluation in this iteration: the step was cut by the model, not by the
+        // problem, so a small step then says nothing about convergence.
         let mut last_failure: Option<String> = None;
-        let mut any_evaluated = false;
         loop {
             let mut q = DVector::<f64>::zeros(m);
             for k in 0..sv.len() {
@@ -376,25 +442,7 @@ pub fn levenberg_marquardt(
                 .all(|(s, t)| s.abs() <= 4.0 * eps * t.abs().max(f64::MIN_POSITIVE))
                 || dstep <= 4.0 * eps * dtheta;
             if negligible {
-                let cur_f = cur.f;
-                return Ok(match last_failure {
-                    Some(e) if !any_evaluated => finish(
-                        cur,
-                        iterations,
-                        evaluations,
-                        false,
-                        format!("the model failed at every trial point near θ: {e}"),
-                    ),
-                    _ => finish(
-                        cur,
-                        iterations,
-                        evaluations,
-                        true,
-                        format!(
-                            "no further reduction of SSR = {cur_f:.6e} possible at rounding level"
-                        ),
-                    ),
-                });
+                return Ok(stalled(cur, iterations, evaluations, last_failure));
             }
             // Predicted reduction of the projected step: F − ‖r + J s‖² = −2 rᵀJs − ‖Js‖².
             let s = DVector::from_vec(step.clone());
@@ -407,12 +455,12 @@ pub fn levenberg_marquardt(
             }
             match evaluate_point(p, &trial, &mut evaluations) {
                 Err(e) => {
+                    failure_seen = Some(e.clone());
                     last_failure = Some(e);
                     lambda *= nu;
                     nu *= 2.0;
                 }
                 Ok(next) => {
-                    any_evaluated = true;
                     let actual = cur.f - next.f;
                     let rho = actual / pred;
                     if rho > ACCEPT {
@@ -420,7 +468,7 @@ pub fn levenberg_marquardt(
                         nu = 2.0;
                         let f_old = cur.f;
                         cur = next;
-                        if actual / f_old <= o.ftol && pred / f_old <= o.ftol && rho <= 2.0 {
+                        if actual / f_old <= o.ftol && gn_pred / f_old <= o.ftol && rho <= 2.0 {
                             return Ok(finish(
                                 cur,
                                 iterations,
@@ -429,7 +477,7 @@ pub fn levenberg_marquardt(
                                 "relative reduction of SSR ≤ ftol".to_string(),
                             ));
                         }
-                        if dstep <= o.xtol * (dtheta + o.xtol) {
+                        if gn_size <= o.xtol * (dtheta + o.xtol) {
                             return Ok(finish(
                                 cur,
                                 iterations,
@@ -445,14 +493,7 @@ pub fn levenberg_marquardt(
                 }
             }
             if !lambda.is_finite() {
-                let reason = match last_failure {
-                    Some(e) if !any_evaluated => {
-                        format!("the model failed at every trial point near θ: {e}")
-                    }
-                    _ => "damping grew without bound: no step reduces SSR".to_string(),
-                };
-                let conv = any_evaluated;
-                return Ok(finish(cur, iterations, evaluations, conv, reason));
+                return Ok(stalled(cur, iterations, evaluations, last_failure));
             }
         }
     }
@@ -738,6 +779,9 @@ mod tests {
             r.theta
         );
         assert!(p.failures > 0, "the test never reached the failing region");
+        // Stopped by the model's failures, not at a minimum: not converged, and said why.
+        assert!(!r.converged, "{}", r.reason);
+        assert!(r.reason.contains("integration failed"), "{}", r.reason);
         // The returned residuals are the model's own at the returned θ.
         let (rr, _) = Rosenbrock.evaluate(&r.theta, false).unwrap();
         assert_eq!(rr, r.residuals);

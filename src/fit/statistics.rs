@@ -4,7 +4,7 @@
 //!
 //! Residuals are the weighted ones the optimiser minimised, `r = (model − measured)/σ`, and J
 //! their Jacobian in θ (see [`super::lm`]). With N residuals and P parameters (Bates & Watts,
-//! "Nonlinear Regression Analysis and Its Applications", Wiley 1988, §2.3):
+//! "Nonlinear Regression Analysis and Its Applications", Wiley 1988, ch. 2; from memory):
 //!
 //! ```text
 //!   dof = N − P,   SSR = Σ r²,   s² = SSR/dof,   Cov(θ) = s² (JᵀJ)⁻¹,   SE_j = √Cov_jj,
@@ -25,6 +25,8 @@
 //! Information criteria for Gaussian errors of unknown variance (common practice; Akaike, IEEE
 //! Trans. Autom. Control 19, 1974; Schwarz, Ann. Statist. 6, 1978):
 //! `AIC = N ln(SSR/N) + 2P`, `BIC = N ln(SSR/N) + P ln N`.
+//!
+//! (Section and equation numbers of the sources are quoted from memory.)
 //!
 //! Distributions: the regularised incomplete beta function `I_x(a, b)` by its continued fraction
 //! (Abramowitz & Stegun 26.5.8, evaluated by the modified Lentz method as in Press et al.,
@@ -53,8 +55,8 @@ pub struct Combination {
     pub eigenvalue_ratio: f64,
 }
 
-/// The lack-of-fit test from replicate groups (Bates & Watts 1988, §1.3.2; Draper & Smith,
-/// "Applied Regression Analysis", 3rd ed., §2.1).
+/// The lack-of-fit test from replicate groups (Draper & Smith,
+/// "Applied Regression Analysis", "lack of fit and pure error"; from memory).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct LackOfFit {
     /// SS_PE = Σ over replicate groups of Σ (r − mean r)².
@@ -271,7 +273,7 @@ pub fn information_criteria(ssr: f64, n: usize, p: usize) -> (Option<f64>, Optio
 }
 
 /// ΔAIC_i = AIC_i − min AIC and the Akaike weights exp(−ΔAIC_i/2)/Σ exp(−ΔAIC/2)
-/// (Burnham & Anderson, "Model Selection and Multimodel Inference", 2nd ed., §2.9).
+/// (Burnham & Anderson, "Model Selection and Multimodel Inference", 2nd ed., 2002; from memory).
 pub fn akaike_weights(aic: &[f64]) -> Vec<(f64, f64)> {
     let best = aic.iter().copied().fold(f64::INFINITY, f64::min);
     let raw: Vec<f64> = aic.iter().map(|a| (-(a - best) / 2.0).exp()).collect();
@@ -329,8 +331,9 @@ pub fn lack_of_fit(
     }))
 }
 
-/// The nested F-test (Bates & Watts 1988, §3.10): model A with `p_simpler` parameters nested in
-/// model B with `p_fuller`, both fitted to the same `n` measurements.
+/// The nested F-test by the extra sum of squares (Bates & Watts 1988; from memory): model A
+/// with `p_simpler` parameters nested in model B with `p_fuller`, both fitted to the same `n`
+/// measurements.
 pub fn nested_f_test(
     ssr_simpler: f64,
     p_simpler: usize,
