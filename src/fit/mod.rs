@@ -201,6 +201,19 @@ pub fn fit(setup: FitSetup, solve: &SolveOptions) -> Result<Fitted, FitError> {
             ))
         }
     })?;
+    // Starts that end at the same minimum (SSR within 1e-6 relative, as the multistart counts
+    // distinct minima) are one answer: the earliest is kept, so the study's own start wins
+    // over a point further along a valley of equal SSR (an undetermined combination, where
+    // the lowest SSR is only the integration's noise).
+    let mut ms = ms;
+    let best_ssr = ms.best().ssr;
+    if let Some(k) = ms.starts.iter().position(|s| {
+        s.outcome
+            .as_ref()
+            .is_ok_and(|r| r.converged && (r.ssr - best_ssr).abs() <= 1e-6 * best_ssr.abs() + 1e-14)
+    }) {
+        ms.best = k;
+    }
     let best = ms.best().clone();
     // Replicates: the same run, species and x.
     let groups: Vec<usize> = {

@@ -208,13 +208,22 @@ impl<'a> FitProblem<'a> {
             };
             let failed = |e: crate::solve::SolveError| format!("run `{}`: {e}", r.id);
             let (sim, sens, pert) = if jacobian {
-                let pert = parameters::perturbed(
-                    &self.setup.study,
-                    &extra,
-                    &self.setup.params,
-                    PARAMETER_STEP,
-                )
-                .map_err(|e| format!("run `{}`: {e}", r.id))?;
+                // The directions are taken about the current θ: each parameter moved to it.
+                let at_theta: Vec<parameters::Parameter> = self
+                    .setup
+                    .params
+                    .iter()
+                    .zip(theta)
+                    .map(|(p, &t)| {
+                        let mut q = p.clone();
+                        q.si = p.si_at(t);
+                        q.value = p.in_unit(q.si);
+                        q
+                    })
+                    .collect();
+                let pert =
+                    parameters::perturbed(&self.setup.study, &extra, &at_theta, PARAMETER_STEP)
+                        .map_err(|e| format!("run `{}`: {e}", r.id))?;
                 let s = simulate_sensitivities(&net, &pert, &opts).map_err(failed)?;
                 (s.sim.clone(), Some(s), pert)
             } else {
