@@ -559,3 +559,47 @@ fn the_jacobian_agrees_with_differences_of_whole_solves() {
         }
     }
 }
+
+/// The same for a CSTR (implicit-function derivative of each steady state), with the data in
+/// residence time, concentrations and molar flows.
+#[test]
+fn a_cstr_jacobian_agrees_with_differences_of_whole_solves() {
+    use rxnet::fit::lm::LeastSquares;
+    let d = dir("jaccstr");
+    let mut data = String::from("run,tau [s],A [mol/L],B [mol/min]\n");
+    for tau in [2.0, 10.0, 40.0] {
+        data.push_str(&format!("c1,{tau},1.0,30\n"));
+    }
+    put(&d, "cstr.csv", &data);
+    let text = CSTR.replace(
+        "estimate: [reactions.r1.rate.k]",
+        "estimate: [reactions.r1.rate.k, feed.concentrations.A]",
+    );
+    let study = put(&d, "cstr.yaml", &text);
+    let req = rxnet::fit::setup::FitRequest {
+        study: study.into(),
+        ..Default::default()
+    };
+    let s = rxnet::fit::setup::setup(&req).unwrap();
+    let mut p = rxnet::fit::residuals::FitProblem::new(&s, Default::default()).unwrap();
+    let th0: Vec<f64> = s.params.iter().map(|p| p.theta()).collect();
+    let th = vec![th0[0] + 1.0, th0[1] - 0.3];
+    let (_, j) = p.evaluate(&th, true).unwrap();
+    let j = j.unwrap();
+    for k in 0..2 {
+        let (mut a, mut b) = (th.clone(), th.clone());
+        a[k] += 1e-4;
+        b[k] -= 1e-4;
+        let (ra, _) = p.evaluate(&a, false).unwrap();
+        let (rb, _) = p.evaluate(&b, false).unwrap();
+        let scale = (0..ra.len()).map(|i| j[(i, k)].abs()).fold(0.0, f64::max);
+        for i in 0..ra.len() {
+            let fd = (ra[i] - rb[i]) / 2e-4;
+            assert!(
+                (j[(i, k)] - fd).abs() <= 1e-4 * scale,
+                "parameter {k}, residual {i}: sensitivity {} vs difference {fd}",
+                j[(i, k)]
+            );
+        }
+    }
+}

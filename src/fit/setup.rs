@@ -392,6 +392,16 @@ pub fn setup(req: &FitRequest) -> Result<FitSetup, FitError> {
         }
     }
 
+    // τ places a sample at V = τ·v0 with the run's v0 as written; a fitted v0 would move it.
+    if data.independent == super::data::Independent::ResidenceTime
+        && let Some(s) = specs.iter().find(|s| s.path == "feed.volumetric")
+    {
+        return Err(FitError::Invalid(format!(
+            "{}: `feed.volumetric` cannot be estimated from data in residence time (τ = V/v0 places each sample with the study's v0); give the data in V",
+            located(&file, s)
+        )));
+    }
+
     // --- T_fit and the reparameterisation
     let arrhenius: Vec<usize> = {
         let mut v: Vec<usize> = specs
