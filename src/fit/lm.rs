@@ -798,6 +798,30 @@ mod tests {
     }
 
     #[test]
+    fn multistart_records_failed_starts_and_keeps_the_rest() {
+        // Starts spread over θ₁ ∈ [−2, 2]: those beyond 0.5 fail where the model fails and are
+        // recorded as failed; the kept run is a finished one in the region where the model works.
+        let mut p = Fragile {
+            inner: Rosenbrock,
+            failures: 0,
+        };
+        let o = MultistartOptions {
+            starts: 9,
+            half_width: vec![2.0, 0.5],
+            seed: 3,
+        };
+        let b = Bounds::unbounded(2);
+        let ms = multistart(&mut p, &[0.0, 0.0], &b, &LmOptions::default(), &o).unwrap();
+        assert_eq!(ms.starts.len(), 9);
+        let failed = ms.starts.iter().filter(|s| s.outcome.is_err()).count();
+        assert!(failed >= 1, "no start fell where the model fails");
+        assert!(ms.best().theta[0] <= 0.5);
+        assert!(ms.starts[ms.best].outcome.is_ok());
+        // θ0 itself failing is an error, not a silent multistart from other points.
+        assert!(multistart(&mut p, &[0.9, 0.0], &b, &LmOptions::default(), &o).is_err());
+    }
+
+    #[test]
     fn bounds_are_respected_and_reported() {
         // With θ₁ ≤ 0.5 the constrained minimum of Rosenbrock's function is at θ₁ = 0.5,
         // θ₂ = 0.25 (the second residual vanishes; the first is smallest at the bound).

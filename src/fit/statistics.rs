@@ -584,6 +584,53 @@ mod tests {
         assert!((ln_gamma(0.5) - std::f64::consts::PI.sqrt().ln()).abs() < 1e-14);
     }
 
+    fn fitted(residuals: Vec<f64>, jacobian: nalgebra::DMatrix<f64>, theta: Vec<f64>) -> LmResult {
+        LmResult {
+            ssr: residuals.iter().map(|r| r * r).sum(),
+            at_bound: vec![false; theta.len()],
+            theta,
+            residuals,
+            jacobian,
+            iterations: 1,
+            evaluations: 1,
+            converged: true,
+            reason: String::new(),
+        }
+    }
+
+    #[test]
+    fn a_parameter_without_effect_is_flagged_alone() {
+        // r = θ₁ x − y with a second parameter the residuals do not depend on. Straight line
+        // through the origin (common practice): Var(θ₁) = s²/Σx², s² = SSR/(N − P).
+        let x = [1.0, 2.0, 3.0, 4.0];
+        let r = vec![0.1, -0.2, 0.05, 0.1];
+        let mut j = nalgebra::DMatrix::zeros(4, 2);
+        for i in 0..4 {
+            j[(i, 0)] = x[i];
+        }
+        let st = statistics(&fitted(r.clone(), j, vec![1.0, 5.0]), None).unwrap();
+        assert_eq!(st.identifiable, vec![true, false]);
+        assert_eq!(st.unidentifiable.len(), 1);
+        assert_eq!(st.unidentifiable[0].weights, vec![(1, 1.0)]);
+        let ssr: f64 = r.iter().map(|v| v * v).sum();
+        let var = ssr / 2.0 / 30.0;
+        assert!((st.se[0].unwrap() - var.sqrt()).abs() < 1e-14);
+        assert_eq!(st.se[1], None);
+        assert_eq!(st.correlation[0][1], None);
+        assert_eq!(st.lack_of_fit, None);
+        // Distinct groups only: no replicates, no lack-of-fit test.
+        let g = [0, 1, 2, 3];
+        assert_eq!(
+            statistics(
+                &fitted(r, nalgebra::DMatrix::zeros(4, 2), vec![1.0, 5.0]),
+                Some(&g)
+            )
+            .unwrap()
+            .lack_of_fit,
+            None
+        );
+    }
+
     #[test]
     fn information_criteria_and_weights() {
         // AIC and BIC as defined (Akaike 1974, Schwarz 1978): N ln(SSR/N) + 2P, + P ln N.
