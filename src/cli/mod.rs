@@ -8,6 +8,7 @@
 
 mod check;
 mod compare;
+mod fit;
 mod generate;
 mod input;
 mod optimize;
@@ -151,6 +152,8 @@ enum Command {
         #[command(flatten)]
         solver: SolverFlags,
     },
+    /// Estimate values of the study from measured data (several studies: rank the candidates).
+    Fit(fit::FitArgs),
     /// Check a network: atom balances, independent reactions, equilibrium consistency, graph.
     Check {
         file: PathBuf,
@@ -195,6 +198,7 @@ pub fn main() -> i32 {
         Command::Check { file, format, set } => check::check(&file, format, &set),
         Command::Table { file, format, set } => table::table(&file, format, &set),
         Command::Run(args) => run::run(&args),
+        Command::Fit(args) => fit::fit(&args),
         Command::Size(args) => size::size(&args),
         Command::Runaway(args) => runaway::runaway(&args),
         Command::Sensitivity(args) => sensitivity::run(&args),

@@ -54,6 +54,10 @@ pub struct RawStudy {
     pub key: Option<String>,
     pub desired: Option<String>,
     pub solver: Option<RawSolver>,
+    /// Fitting the study to data (`rxnet fit`): parsed with the study so every command refuses
+    /// a malformed section; read by `ParsedStudy::fit_section` (load/fit.rs).
+    #[allow(dead_code)]
+    pub fit: Option<RawFit>,
 }
 
 #[derive(Debug, Deserialize, Clone, Copy)]
@@ -482,4 +486,74 @@ pub struct RawSolver {
     pub linear_algebra: Option<String>,
     /// CSTR: `lowest`, `highest` or a number (in order of rising conversion).
     pub steady_state: Option<RawQty>,
+}
+
+/// `fit:` — what `rxnet fit` estimates, from which data, with which measurement error.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct RawFit {
+    /// The data CSV, relative to the study file.
+    pub data: Option<String>,
+    /// The runs table CSV, relative to the study file.
+    pub runs: Option<String>,
+    pub estimate: Option<Vec<RawEstimate>>,
+    /// Per species (or `default`): the measurement's standard deviation.
+    pub error: Option<IndexMap<String, RawMeasurementError>>,
+    /// Multistart count (1 = a single start).
+    pub starts: Option<u64>,
+}
+
+/// One estimated value: a --set path, or a map with bounds and a scale.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RawEstimate {
+    Path(String),
+    Map(RawEstimateMap),
+}
+
+impl<'de> Deserialize<'de> for RawEstimate {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        struct V;
+        impl<'de> Visitor<'de> for V {
+            type Value = RawEstimate;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str(
+                    "a --set path such as reactions.r1.rate.k, or a map {path: ..., min: ..., max: ..., scale: log}",
+                )
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<RawEstimate, E> {
+                Ok(RawEstimate::Path(v.to_string()))
+            }
+            fn visit_map<A: de::MapAccess<'de>>(self, m: A) -> Result<RawEstimate, A::Error> {
+                RawEstimateMap::deserialize(de::value::MapAccessDeserializer::new(m))
+                    .map(RawEstimate::Map)
+            }
+        }
+        d.deserialize_any(V)
+    }
+}
+
+/// `{path: reactions.r1.rate.Ea, min: 0 kJ/mol, max: 300 kJ/mol, scale: linear}`.
+#[derive(Debug, Deserialize, Clone, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct RawEstimateMap {
+    pub path: String,
+    pub min: Option<RawQty>,
+    pub max: Option<RawQty>,
+    pub scale: Option<RawScale>,
+}
+
+/// How a parameter is estimated: its logarithm (positive quantities) or the value itself.
+#[derive(Debug, Deserialize, Clone, Copy, PartialEq, Eq)]
+#[serde(rename_all = "lowercase")]
+pub enum RawScale {
+    Log,
+    Linear,
+}
+
+/// `{relative: 2 %, absolute: 0.005 mol/L}`: σ = sqrt(absolute² + (relative·|measured|)²).
+#[derive(Debug, Deserialize, Clone, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct RawMeasurementError {
+    pub absolute: Option<RawQty>,
+    pub relative: Option<RawQty>,
 }

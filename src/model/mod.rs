@@ -18,7 +18,10 @@ pub mod source;
 pub use contacting::{
     Contacting, DistributedFeed, Dosing, Permeation, Schedule, SideFeed, Train, Unit, Withdrawal,
 };
-pub use load::{LoadError, Override, ParsedStudy, load_file, load_str, read_text};
+pub use load::{
+    ErrorSpec, EstimateSpec, FitBound, FitSection, LoadError, MAX_STARTS, Override, ParsedStudy,
+    load_file, load_str, read_text,
+};
 
 use formula::Formula;
 use num_rational::BigRational;

@@ -3,6 +3,7 @@
 
 use crate::analysis::table::StoichTable;
 use crate::analysis::{Check, Severity};
+pub mod fit;
 pub mod plot;
 pub mod run;
 pub mod train;

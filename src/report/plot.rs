@@ -261,3 +261,142 @@ pub fn heat_svg(h: &HeatMap) -> Result<String, String> {
     }
     Ok(out)
 }
+
+/// One species of a fit plot: the model on a fine grid (a line) and the data (markers).
+pub struct FitSeries {
+    pub name: String,
+    pub model_x: Vec<f64>,
+    pub model_y: Vec<f64>,
+    pub data: Vec<(f64, f64)>,
+}
+
+/// Data (markers) against the fitted model (lines) along one run.
+pub fn fit_run_svg(
+    title: &str,
+    x_label: &str,
+    y_label: &str,
+    series: &[FitSeries],
+) -> Result<String, String> {
+    let mut out = String::new();
+    {
+        let root = SVGBackend::with_string(&mut out, (900, 560)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| e.to_string())?;
+        let xs = series
+            .iter()
+            .flat_map(|s| s.model_x.iter().copied().chain(s.data.iter().map(|d| d.0)));
+        let ys = series
+            .iter()
+            .flat_map(|s| s.model_y.iter().copied().chain(s.data.iter().map(|d| d.1)));
+        let (x0, x1) = bounds(xs);
+        let (y0, y1) = bounds(ys);
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 20))
+            .margin(15)
+            .margin_right(120)
+            .x_label_area_size(50)
+            .y_label_area_size(80)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(|e| e.to_string())?;
+        chart
+            .configure_mesh()
+            .x_desc(x_label)
+            .y_desc(y_label)
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(|e| e.to_string())?;
+        for (k, s) in series.iter().enumerate() {
+            let colour = COLOURS[k % COLOURS.len()];
+            let line: Vec<(f64, f64)> = s
+                .model_x
+                .iter()
+                .copied()
+                .zip(s.model_y.iter().copied())
+                .filter(|(x, y)| x.is_finite() && y.is_finite())
+                .collect();
+            chart
+                .draw_series(LineSeries::new(line.clone(), colour.stroke_width(2)))
+                .map_err(|e| e.to_string())?;
+            chart
+                .draw_series(
+                    s.data
+                        .iter()
+                        .filter(|(x, y)| x.is_finite() && y.is_finite())
+                        .map(|&(x, y)| Circle::new((x, y), 4, colour.stroke_width(2))),
+                )
+                .map_err(|e| e.to_string())?;
+            if let Some(&(xl, yl)) = line.last() {
+                chart
+                    .draw_series(std::iter::once(Text::new(
+                        format!(" {}", s.name),
+                        (xl, yl),
+                        ("sans-serif", 15).into_font().color(&colour),
+                    )))
+                    .map_err(|e| e.to_string())?;
+            }
+        }
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(out)
+}
+
+/// The parity plot of a fit: model against measured, one colour per species, with the line
+/// model = measured. `points` are (species, measured, model).
+pub fn parity_svg(
+    title: &str,
+    unit: &str,
+    points: &[(String, f64, f64)],
+) -> Result<String, String> {
+    let mut out = String::new();
+    {
+        let root = SVGBackend::with_string(&mut out, (700, 700)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| e.to_string())?;
+        let (lo, hi) = bounds(points.iter().flat_map(|p| [p.1, p.2]));
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 20))
+            .margin(15)
+            .margin_right(100)
+            .x_label_area_size(50)
+            .y_label_area_size(80)
+            .build_cartesian_2d(lo..hi, lo..hi)
+            .map_err(|e| e.to_string())?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("measured ({unit})"))
+            .y_desc(format!("model ({unit})"))
+            .light_line_style(RGBColor(235, 235, 235))
+            .draw()
+            .map_err(|e| e.to_string())?;
+        chart
+            .draw_series(LineSeries::new(
+                vec![(lo, lo), (hi, hi)],
+                RGBColor(150, 150, 150).stroke_width(1),
+            ))
+            .map_err(|e| e.to_string())?;
+        let mut names: Vec<&str> = Vec::new();
+        for p in points {
+            if !names.contains(&p.0.as_str()) {
+                names.push(&p.0);
+            }
+        }
+        for (k, name) in names.iter().enumerate() {
+            let colour = COLOURS[k % COLOURS.len()];
+            chart
+                .draw_series(
+                    points
+                        .iter()
+                        .filter(|p| p.0 == *name && p.1.is_finite() && p.2.is_finite())
+                        .map(|p| Circle::new((p.1, p.2), 4, colour.stroke_width(2))),
+                )
+                .map_err(|e| e.to_string())?;
+            chart
+                .draw_series(std::iter::once(Text::new(
+                    format!("● {name}"),
+                    (hi, hi - (hi - lo) * 0.05 * (k as f64 + 1.0)),
+                    ("sans-serif", 15).into_font().color(&colour),
+                )))
+                .map_err(|e| e.to_string())?;
+        }
+        root.present().map_err(|e| e.to_string())?;
+    }
+    Ok(out)
+}

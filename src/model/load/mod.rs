@@ -11,6 +11,7 @@
 mod contacting;
 mod dosing;
 mod feed;
+mod fit;
 mod heat;
 mod messages;
 mod reactions;
@@ -20,6 +21,7 @@ mod species;
 mod stream;
 mod walls;
 
+pub use fit::{ErrorSpec, EstimateSpec, FitBound, FitSection, MAX_STARTS};
 pub(crate) use messages::closest;
 
 use super::file::*;
