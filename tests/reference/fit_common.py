@@ -23,7 +23,8 @@ rounded to 0.1 K, with k estimated as k(T_fit) (reparameterised Arrhenius; commo
 
 Model values and their derivatives d model / d theta come from one solve_ivp Radau run of the
 states and their forward sensitivities, s' = (df/dC) s + df/dtheta, s(0) = 0, at rtol 1e-12
-(the rate laws' derivatives are written out analytically below). As a check of the reference
+(the rate laws' derivatives are written out analytically below; Radau's Newton matrix has
+df/dC on each block). As a check of the reference
 itself every fixture records the largest relative difference of that Jacobian from central
 differences of whole solves (`check_jacobian_fd`) and of the states from DOP853 at rtol 1e-13
 (`check_dop853`).
@@ -212,11 +213,20 @@ def simulate(net, params, temp, c0, times, sens=True, method="Radau", rtol=RTOL)
             out.append(jc @ s + net.nu.T @ dr)
         return np.concatenate(out)
 
+    def jac(_t, y):
+        # Newton matrix only (it sets the convergence rate, not the solution): df/dC on every
+        # diagonal block, the states' second derivatives in the sensitivity rows left out
+        # (the simultaneous corrector of Maly & Petzold 1996).
+        _r, drdc, _kt, _back = rates(net, y[:n], temp)
+        jc = net.nu.T @ drdc
+        return np.kron(np.eye(1 + (p if sens else 0)), jc)
+
     y0 = np.concatenate([np.asarray(c0, float), np.zeros(n * p if sens else 0)])
     scale = max(float(np.max(np.abs(c0))), 1.0)
     t_end = float(max(times))
+    extra = {"jac": jac} if method == "Radau" else {}
     sol = solve_ivp(f, (0.0, t_end), y0, method=method, rtol=rtol, atol=1e-12 * scale,
-                    t_eval=np.asarray(times, float))
+                    t_eval=np.asarray(times, float), **extra)
     if not sol.success:
         raise RuntimeError(sol.message)
     y = sol.y.T
@@ -400,7 +410,26 @@ def statistics(problem, theta):
         ests.append(e)
     out["estimates"] = ests
     out["lack_of_fit"] = lack_of_fit(problem, r, dof, ssr)
+    out["residuals"] = residual_summary(problem, r)
     return out
+
+
+def residual_summary(problem, r):
+    """Per species and per run: number of measurements, rms and mean of the weighted r."""
+    def summary(key, names):
+        rows = []
+        for name in names:
+            sel = np.array([key(m) == name for m in problem.meas])
+            if sel.any():
+                rows.append({"n": int(sel.sum()), "rms": float(np.sqrt(np.mean(r[sel] ** 2))),
+                             "mean": float(np.mean(r[sel]))})
+                rows[-1]["name"] = name
+        return rows
+    species = [s for s in problem.net.species if any(m.species == s for m in problem.meas)]
+    runs = list(dict.fromkeys(m.run for m in problem.meas))
+    by_species = [dict(species=e.pop("name"), **e) for e in summary(lambda m: m.species, species)]
+    by_run = [dict(run=e.pop("name"), **e) for e in summary(lambda m: m.run, runs)]
+    return {"by_species": by_species, "by_run": by_run}
 
 
 def lack_of_fit(problem, r, dof, ssr):
