@@ -212,13 +212,18 @@ fn compare_lack_of_fit(got: &Value, want: &Value, name: &str, agreement: &mut Ag
         got.is_object(),
         "{name}: replicates exist, lack_of_fit is {got}"
     );
-    for key in ["df_pe", "df_lf"] {
-        assert_eq!(got[key], want[key], "{name}: lack of fit {key}");
+    // keys: rxnet's JSON, then the fixture's
+    for (key, wkey) in [("df_pure_error", "df_pe"), ("df_lack_of_fit", "df_lf")] {
+        assert_eq!(got[key], want[wkey], "{name}: lack of fit {key}");
     }
-    for key in ["ss_pe", "ss_lf", "F"] {
+    for (key, wkey) in [
+        ("ss_pure_error", "ss_pe"),
+        ("ss_lack_of_fit", "ss_lf"),
+        ("F", "F"),
+    ] {
         agreement.check(
             num(&got[key], key),
-            num(&want[key], key),
+            num(&want[wkey], wkey),
             LOF_TOL,
             &format!("{name}: lack of fit {key}"),
         );
