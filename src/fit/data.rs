@@ -434,11 +434,17 @@ impl Data {
                 ));
             }
             let mut values = Vec::with_capacity(columns.len());
-            for c in &cells[2..] {
+            for (c, col) in cells[2..].iter().zip(&columns) {
                 values.push(if c.text.is_empty() {
                     None
                 } else {
-                    Some(number(&c.text).map_err(|m| err(line, c.column, m))?)
+                    Some(number(&c.text).map_err(|m| {
+                        err(
+                            line,
+                            c.column,
+                            format!("{m} (column `{} [{}]`)", col.species, col.unit),
+                        )
+                    })?)
                 });
             }
             if !runs.iter().any(|(r, _)| *r == run) {

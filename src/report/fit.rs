@@ -41,9 +41,10 @@ pub fn fit_text(r: &FitReport) -> String {
     let _ = writeln!(s, "Fit of {} to {}", r.study, r.data);
     let _ = writeln!(
         s,
-        "  {} measurements, {} parameters, {} degrees of freedom; {} start(s), {} iterations, {}",
+        "  {} measurements, {} parameter{}, {} degrees of freedom; {} start(s), {} iterations, {}",
         r.observations,
         r.parameters,
+        if r.parameters == 1 { "" } else { "s" },
         r.dof,
         r.starts,
         r.iterations,
