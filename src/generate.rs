@@ -47,6 +47,7 @@
 //! pseudorandom number generators", OOPSLA 2014, from memory), so one seed gives one file on
 //! every platform without a dependency.
 
+use crate::random::SplitMix64;
 use std::collections::HashSet;
 use std::fmt::Write as _;
 
@@ -111,31 +112,6 @@ const LIQUID_FLOW: f64 = 100.0;
 const LIQUID_V0: f64 = 0.1;
 /// Total batch charge, mol (liquid: in 1 m3).
 const BATCH_AMOUNT: f64 = 1000.0;
-
-/// splitmix64 (Steele, Lea & Flood, OOPSLA 2014, from memory).
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    /// Uniform in [0, 1) from the top 53 bits.
-    fn unit(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
-    }
-    /// Uniform integer in lo..=hi (lo ≤ hi); the modulo bias is below 2^-40 for our ranges.
-    fn range(&mut self, lo: usize, hi: usize) -> usize {
-        lo + (self.next_u64() % (hi - lo + 1) as u64) as usize
-    }
-    /// Log-uniform in [lo, hi].
-    fn log_uniform(&mut self, lo: f64, hi: f64) -> f64 {
-        (lo.ln() + self.unit() * (hi.ln() - lo.ln())).exp()
-    }
-}
 
 /// The species layout: sizes and isomers, in order of size.
 struct Layout {

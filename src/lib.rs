@@ -13,6 +13,7 @@ pub mod generate;
 pub mod kinetics;
 pub mod metrics;
 pub mod model;
+mod random;
 pub mod reactor;
 pub mod report;
 pub mod safety;

@@ -49,6 +49,7 @@
 //! the step (λ up), never gives a result; at the start point it is an error. A run that can
 //! only go on where the model fails stops with `converged = false` and the model's message.
 
+use crate::random::SplitMix64;
 use nalgebra::{DMatrix, DVector};
 
 /// What the optimiser calls: residuals r(θ) and their Jacobian J (rows = residuals).
@@ -565,24 +566,6 @@ pub fn default_half_widths(theta0: &[f64], log_scale: &[bool], b: &Bounds) -> Ve
         .collect()
 }
 
-/// SplitMix64 (Steele, Lea & Flood, OOPSLA 2014): a small deterministic generator, so the
-/// start points are the same on every machine and every run.
-struct SplitMix64(u64);
-
-impl SplitMix64 {
-    fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
-    }
-    /// Uniform in [0, 1) with 53 random bits.
-    fn uniform(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
-    }
-}
-
 /// The `count` start points after θ0: a Latin hypercube (McKay, Beckman & Conover,
 /// Technometrics 21, 1979) in the box θ0 ± half_width, each coordinate in its own stratum,
 /// then clipped to the bounds.
@@ -604,7 +587,7 @@ pub fn start_points(
             strata.swap(i, k);
         }
         for (i, point) in points.iter_mut().enumerate() {
-            let u = (strata[i] as f64 + rng.uniform()) / count as f64;
+            let u = (strata[i] as f64 + rng.unit()) / count as f64;
             point[j] = theta0[j] + half_width[j] * (2.0 * u - 1.0);
         }
     }
