@@ -603,3 +603,41 @@ fn a_cstr_jacobian_agrees_with_differences_of_whole_solves() {
         }
     }
 }
+
+/// The multistart is made when the first fit ends poorly or when asked for: the bundled demo,
+/// whose first fit leaves s² within its stated errors (s² ≤ 1 + 3√(2/dof), the normal
+/// approximation of χ²/dof; common practice), takes one start; `--starts 3` takes three; a
+/// study with no error model (σ = 1 in the data's unit: nothing to judge s² by) takes the
+/// default six.
+#[test]
+fn the_multistart_runs_when_the_first_fit_is_poor_or_when_asked() {
+    let demo = "networks/amine_alkylation_batch.yaml";
+    let one = json(&rxnet(&["fit", demo, "--format", "json"]));
+    assert_eq!(one["starts"], 1, "{one}");
+    let s2 = one["s2"].as_f64().unwrap();
+    let dof = one["dof"].as_f64().unwrap();
+    assert!(s2 <= 1.0 + 3.0 * (2.0 / dof).sqrt());
+    assert!(one["starts_rule"].as_str().unwrap().contains("one start"));
+    let three = json(&rxnet(&["fit", demo, "--format", "json", "--starts", "3"]));
+    assert_eq!(three["starts"], 3);
+    // The same minimum from the study's values either way (LM from one start point is
+    // deterministic).
+    let est = |v: &serde_json::Value| v["estimates"][0]["theta"].as_f64().unwrap();
+    assert!(rel(est(&one), est(&three)) < 1e-9);
+    // The series study without its error model and its `starts`: six starts.
+    let d = dir("starts");
+    series_files(&d);
+    let plain = SERIES
+        .replace("  error:\n    default: {absolute: 0.01 mol/L}\n", "")
+        .replace("  starts: 2\n", "");
+    assert!(!plain.contains("error:") && !plain.contains("starts:"));
+    let study = put(&d, "plain.yaml", &plain);
+    let six = json(&rxnet(&["fit", &study, "--format", "json"]));
+    assert_eq!(six["starts"], 6, "{six}");
+    assert!(
+        six["starts_rule"]
+            .as_str()
+            .unwrap()
+            .contains("no error model")
+    );
+}

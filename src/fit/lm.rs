@@ -632,6 +632,22 @@ pub fn multistart(
         ));
     }
     let first = levenberg_marquardt(p, theta0, b, o)?;
+    multistart_after(p, first, theta0, b, o, m)
+}
+
+/// The multistart when the descent from θ0 has already been made (`first`, its result): the
+/// other `m.starts − 1` starts, and the best of all.
+pub fn multistart_after(
+    p: &mut dyn LeastSquares,
+    first: LmResult,
+    theta0: &[f64],
+    b: &Bounds,
+    o: &LmOptions,
+    m: &MultistartOptions,
+) -> Result<MultistartResult, String> {
+    if m.starts == 0 {
+        return Err("the number of starts must be at least 1".to_string());
+    }
     let mut starts = vec![StartOutcome {
         theta0: theta0.to_vec(),
         outcome: Ok(first),

@@ -18,7 +18,7 @@ pub mod write;
 
 use crate::solve::SolveOptions;
 use crate::studies::parameters::Scale;
-use lm::{LmOptions, MultistartOptions, MultistartResult};
+use lm::{LmOptions, LmResult, MultistartOptions, MultistartResult};
 use residuals::FitProblem;
 use serde::Serialize;
 use setup::{FitError, FitSetup};
@@ -133,6 +133,8 @@ pub struct FitReport {
     pub converged: bool,
     pub iterations: usize,
     pub starts: usize,
+    /// Why that many starts: as asked, or the first fit judged poor (and why) or good.
+    pub starts_rule: String,
     pub ssr: f64,
     pub s2: f64,
     pub aic: Option<f64>,
@@ -173,25 +175,37 @@ pub fn si_unit(file_unit: &str) -> String {
     }
 }
 
-/// Fit one candidate: multistart Levenberg–Marquardt from the study's values, then the
-/// statistics at the best minimum and the warnings.
+/// Why a first fit (from the study's values) may have ended on a poor minimum, so that the
+/// multistart is worth its cost; `None` when it is judged good: converged, no parameter on a
+/// bound, and, with an error model given, s² = SSR/dof no more than three standard deviations
+/// of χ²_dof/dof above 1, i.e. s² ≤ 1 + 3 √(2/dof) (the residuals as large as the stated
+/// errors; the normal approximation of χ²/dof, common practice). Without an error model
+/// (σ = 1 in the data's unit) there is no scale to judge s² by, so the multistart is made.
+pub fn first_fit_is_poor(first: &LmResult, weighted: bool, dof: usize) -> Option<String> {
+    if !first.converged {
+        return Some("did not converge".into());
+    }
+    if first.at_bound.iter().any(|b| *b) {
+        return Some("ended with a parameter on a bound".into());
+    }
+    if !weighted {
+        return Some("has no error model to judge its residuals by".into());
+    }
+    let s2 = first.ssr / dof.max(1) as f64;
+    let limit = 1.0 + 3.0 * (2.0 / dof.max(1) as f64).sqrt();
+    (s2 > limit).then(|| {
+        format!("left s² = {s2:.3}, above {limit:.3}, larger residuals than the stated errors")
+    })
+}
+
+/// Fit one candidate: Levenberg–Marquardt from the study's values, a multistart when that first
+/// fit ends poorly ([`first_fit_is_poor`]) or when starts are asked for, then the statistics at
+/// the best minimum and the warnings.
 pub fn fit(setup: FitSetup, solve: &SolveOptions) -> Result<Fitted, FitError> {
     let mut problem = FitProblem::new(&setup, solve.clone()).map_err(FitError::Invalid)?;
     let theta0: Vec<f64> = setup.params.iter().map(|p| p.theta()).collect();
     let log: Vec<bool> = setup.params.iter().map(|p| p.scale == Scale::Log).collect();
-    let m = MultistartOptions {
-        starts: setup.starts,
-        half_width: lm::default_half_widths(&theta0, &log, &setup.bounds),
-        seed: MULTISTART_SEED,
-    };
-    let ms = lm::multistart(
-        &mut problem,
-        &theta0,
-        &setup.bounds,
-        &LmOptions::default(),
-        &m,
-    )
-    .map_err(|e| {
+    let failed_at_start = |e: String| {
         if e.contains("error findings") {
             FitError::Findings(format!("{}: {e}", setup.file))
         } else {
@@ -200,7 +214,37 @@ pub fn fit(setup: FitSetup, solve: &SolveOptions) -> Result<Fitted, FitError> {
                 setup.file
             ))
         }
-    })?;
+    };
+    let first =
+        lm::levenberg_marquardt(&mut problem, &theta0, &setup.bounds, &LmOptions::default())
+            .map_err(failed_at_start)?;
+    let dof = problem.observations.len().saturating_sub(theta0.len());
+    let poor = first_fit_is_poor(&first, setup.weighted, dof);
+    let m = MultistartOptions {
+        starts: if setup.starts_given || poor.is_some() {
+            setup.starts
+        } else {
+            1
+        },
+        half_width: lm::default_half_widths(&theta0, &log, &setup.bounds),
+        seed: MULTISTART_SEED,
+    };
+    let start_rule = if setup.starts_given {
+        format!("{} start(s) as asked", setup.starts)
+    } else if let Some(why) = &poor {
+        format!("{} starts: the first fit {why}", setup.starts)
+    } else {
+        "one start: the first fit converged, inside the bounds, with s² within the stated errors (--starts N for a multistart)".to_string()
+    };
+    let ms = lm::multistart_after(
+        &mut problem,
+        first,
+        &theta0,
+        &setup.bounds,
+        &LmOptions::default(),
+        &m,
+    )
+    .map_err(failed_at_start)?;
     // Starts that end at the same minimum (SSR within 1e-6 relative, as the multistart counts
     // distinct minima) are one answer: the earliest is kept, so the study's own start wins
     // over a point further along a valley of equal SSR (an undetermined combination, where
@@ -399,6 +443,7 @@ pub fn fit(setup: FitSetup, solve: &SolveOptions) -> Result<Fitted, FitError> {
         converged: best.converged,
         iterations: best.iterations,
         starts: ms.starts.len(),
+        starts_rule: start_rule,
         ssr: stats.ssr,
         s2: stats.s2,
         aic: stats.aic,

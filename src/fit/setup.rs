@@ -105,11 +105,16 @@ pub struct FitSetup {
     pub t_fit: Option<f64>,
     /// The reactions given T_ref = T_fit.
     pub reparameterised: Vec<String>,
+    /// Starts of the multistart (the study's `starts`, `--starts`, else [`DEFAULT_STARTS`]).
     pub starts: usize,
+    /// Whether the number of starts was asked for; if not, the other starts are made only
+    /// when the first fit ends poorly.
+    pub starts_given: bool,
     pub warnings: Vec<String>,
 }
 
-/// Default number of starts of the multistart.
+/// Default number of starts of the multistart, made when the first fit ends poorly
+/// ([`crate::fit::first_fit_is_poor`]).
 pub const DEFAULT_STARTS: usize = 6;
 
 /// A reaction addressed by a path segment (its id or its index).
@@ -597,6 +602,7 @@ pub fn setup(req: &FitRequest) -> Result<FitSetup, FitError> {
             params.len()
         )));
     }
+    let starts_given = req.starts.or(section.starts).is_some();
     let starts = req.starts.or(section.starts).unwrap_or(DEFAULT_STARTS);
     if starts == 0 || starts > crate::model::MAX_STARTS {
         return Err(FitError::Invalid(format!(
@@ -618,6 +624,7 @@ pub fn setup(req: &FitRequest) -> Result<FitSetup, FitError> {
         t_fit,
         reparameterised,
         starts,
+        starts_given,
         warnings,
     })
 }

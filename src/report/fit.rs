@@ -41,12 +41,12 @@ pub fn fit_text(r: &FitReport) -> String {
     let _ = writeln!(s, "Fit of {} to {}", r.study, r.data);
     let _ = writeln!(
         s,
-        "  {} measurements, {} parameter{}, {} degrees of freedom; {} start(s), {} iterations, {}",
+        "  {} measurements, {} parameter{}, {} degrees of freedom; {}; {} iterations, {}",
         r.observations,
         r.parameters,
         if r.parameters == 1 { "" } else { "s" },
         r.dof,
-        r.starts,
+        r.starts_rule,
         r.iterations,
         if r.converged {
             "converged"
