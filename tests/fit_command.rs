@@ -641,3 +641,33 @@ fn the_multistart_runs_when_the_first_fit_is_poor_or_when_asked() {
             .contains("no error model")
     );
 }
+
+/// An order is not a parameter to move alone: its rate constant's units depend on it (k in
+/// (mol/m3)^(1−n)/s; common practice for power laws), so `fit --estimate` and `sensitivity
+/// --of` on an order exit 2 saying so and pointing to candidate studies instead.
+#[test]
+fn an_order_is_refused_as_a_parameter() {
+    let d = dir("order");
+    let study = series_files(&d);
+    let o = rxnet(&["fit", &study, "--estimate", "reactions.first.rate.orders.A"]);
+    assert_eq!(o.code, 2, "{}", o.stderr);
+    assert!(
+        o.stderr.contains("order cannot be varied alone"),
+        "{}",
+        o.stderr
+    );
+    let o = rxnet(&[
+        "sensitivity",
+        &study,
+        "--target",
+        "conversion",
+        "--of",
+        "reactions.first.rate.orders.A",
+    ]);
+    assert_eq!(o.code, 2, "{}", o.stderr);
+    assert!(
+        o.stderr.contains("order cannot be varied alone"),
+        "{}",
+        o.stderr
+    );
+}

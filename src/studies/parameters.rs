@@ -143,6 +143,18 @@ fn default_scale(path: &str, dim: Dim, si: f64) -> Scale {
 /// (the loader's default); any other missing value is an error naming the path.
 pub fn read(study: &Study, path: &str) -> Result<Parameter, StudyError> {
     let invalid = |m: String| StudyError::Invalid(format!("{}: `{path}`: {m}", study.parsed.file));
+    if path.starts_with("reactions.")
+        && (path.contains(".rate.orders.")
+            || (path.contains(".adsorption.") && path.ends_with(".order")))
+    {
+        // The constant's units follow the exponent (k in (mol/m3)^(1−n)/s for a law on
+        // concentrations, an adsorption K in (mol/m3)^(−b)), so an exponent moved alone
+        // leaves its constant in units the loader rightly refuses; an order is chosen
+        // between candidate studies instead.
+        return Err(invalid(
+            "an order cannot be varied alone: the units of its rate or adsorption constant depend on it, so every moved order would need that constant rewritten in new units; write one study per candidate order and rank them against the data with `rxnet fit A.yaml B.yaml` (AIC, nested F-test)".into(),
+        ));
+    }
     let value = study
         .parsed
         .value_at(&study.overrides, path)
