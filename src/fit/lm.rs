@@ -15,7 +15,7 @@
 //! ```
 //!
 //! with Moré's diagonal scaling ("The Levenberg–Marquardt algorithm: implementation and
-//! theory", Lecture Notes in Mathematics 630, 1978, 105–116) `D = diag(d_j)`, `d_j` the running maximum over the
+//! theory", in Numerical Analysis, ed. G. A. Watson, Springer, 1978, 105–116) `D = diag(d_j)`, `d_j` the running maximum over the
 //! iterations of the Jacobian's column norms ‖J_·j‖ (so the method is invariant to the units
 //! of θ). With `J̃ = J D⁻¹ = U Σ Vᵀ` (thin SVD) the step is `D p = −V diag(σ_k/(σ_k² + λ)) Uᵀ r`,
 //! singular values below `ε·σ_max·max(N, P)` treated as zero (a rank-deficient J gives no step
