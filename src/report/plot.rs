@@ -1,6 +1,7 @@
 //! SVG plots (plotters): a run's profile along the reactor, a sweep's line or heat map.
 //! Axis labels carry units; each series is labelled at its line's end, so no legend hunt.
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 
 /// Colours for the lines (a plain qualitative set of our own).
@@ -105,6 +106,60 @@ pub fn stacked_svg(plots: &[LinePlot]) -> Result<String, String> {
     Ok(out)
 }
 
+/// The chart every line-type plot here draws on: a caption, room on the right for the labels
+/// at the lines' ends, axis descriptions (with units) and a light grid.
+fn framed_chart<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, plotters::coord::Shift>,
+    title: &str,
+    margin_right: u32,
+    x: std::ops::Range<f64>,
+    y: std::ops::Range<f64>,
+    x_desc: &str,
+    y_desc: &str,
+) -> Result<ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>, String>
+where
+    DB::ErrorType: 'static,
+{
+    let mut chart = ChartBuilder::on(area)
+        .caption(title, ("sans-serif", 20))
+        .margin(15)
+        .margin_right(margin_right)
+        .x_label_area_size(50)
+        .y_label_area_size(80)
+        .build_cartesian_2d(x, y)
+        .map_err(|e| e.to_string())?;
+    chart
+        .configure_mesh()
+        .x_desc(x_desc)
+        .y_desc(y_desc)
+        .light_line_style(RGBColor(235, 235, 235))
+        .draw()
+        .map_err(|e| e.to_string())?;
+    Ok(chart)
+}
+
+/// A line's name written at its last point, in its colour (no legend to hunt through).
+fn label_line_end<DB: DrawingBackend>(
+    chart: &mut ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+    name: &str,
+    line: &[(f64, f64)],
+    colour: RGBColor,
+) -> Result<(), String>
+where
+    DB::ErrorType: 'static,
+{
+    if let Some(&(xl, yl)) = line.last() {
+        chart
+            .draw_series(std::iter::once(Text::new(
+                format!(" {name}"),
+                (xl, yl),
+                ("sans-serif", 15).into_font().color(&colour),
+            )))
+            .map_err(|e| e.to_string())?;
+    }
+    Ok(())
+}
+
 fn draw_lines<DB: DrawingBackend>(
     root: &DrawingArea<DB, plotters::coord::Shift>,
     p: &LinePlot,
@@ -115,21 +170,7 @@ where
 {
     let (x0, x1) = bounds(p.x.iter().copied());
     let (y0, y1) = bounds(p.series.iter().flat_map(|(_, v)| v.iter().copied()));
-    let mut chart = ChartBuilder::on(root)
-        .caption(p.title, ("sans-serif", 20))
-        .margin(15)
-        .margin_right(120)
-        .x_label_area_size(50)
-        .y_label_area_size(80)
-        .build_cartesian_2d(x0..x1, y0..y1)
-        .map_err(|e| e.to_string())?;
-    chart
-        .configure_mesh()
-        .x_desc(p.x_label)
-        .y_desc(p.y_label)
-        .light_line_style(RGBColor(235, 235, 235))
-        .draw()
-        .map_err(|e| e.to_string())?;
+    let mut chart = framed_chart(root, p.title, 120, x0..x1, y0..y1, p.x_label, p.y_label)?;
     for (k, (name, ys)) in p.series.iter().enumerate() {
         let colour = COLOURS[k % COLOURS.len()];
         let pts: Vec<(f64, f64)> =
@@ -141,15 +182,7 @@ where
         chart
             .draw_series(LineSeries::new(pts.clone(), colour.stroke_width(2)))
             .map_err(|e| e.to_string())?;
-        if let Some(&(xl, yl)) = pts.last() {
-            chart
-                .draw_series(std::iter::once(Text::new(
-                    format!(" {name}"),
-                    (xl, yl),
-                    ("sans-serif", 15).into_font().color(&colour),
-                )))
-                .map_err(|e| e.to_string())?;
-        }
+        label_line_end(&mut chart, name, &pts, colour)?;
     }
     for (mx, my, label) in p.mark.iter().chain(marks) {
         chart
@@ -289,21 +322,7 @@ pub fn fit_run_svg(
             .flat_map(|s| s.model_y.iter().copied().chain(s.data.iter().map(|d| d.1)));
         let (x0, x1) = bounds(xs);
         let (y0, y1) = bounds(ys);
-        let mut chart = ChartBuilder::on(&root)
-            .caption(title, ("sans-serif", 20))
-            .margin(15)
-            .margin_right(120)
-            .x_label_area_size(50)
-            .y_label_area_size(80)
-            .build_cartesian_2d(x0..x1, y0..y1)
-            .map_err(|e| e.to_string())?;
-        chart
-            .configure_mesh()
-            .x_desc(x_label)
-            .y_desc(y_label)
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(|e| e.to_string())?;
+        let mut chart = framed_chart(&root, title, 120, x0..x1, y0..y1, x_label, y_label)?;
         for (k, s) in series.iter().enumerate() {
             let colour = COLOURS[k % COLOURS.len()];
             let line: Vec<(f64, f64)> = s
@@ -324,15 +343,7 @@ pub fn fit_run_svg(
                         .map(|&(x, y)| Circle::new((x, y), 4, colour.stroke_width(2))),
                 )
                 .map_err(|e| e.to_string())?;
-            if let Some(&(xl, yl)) = line.last() {
-                chart
-                    .draw_series(std::iter::once(Text::new(
-                        format!(" {}", s.name),
-                        (xl, yl),
-                        ("sans-serif", 15).into_font().color(&colour),
-                    )))
-                    .map_err(|e| e.to_string())?;
-            }
+            label_line_end(&mut chart, &s.name, &line, colour)?;
         }
         root.present().map_err(|e| e.to_string())?;
     }
@@ -351,21 +362,15 @@ pub fn parity_svg(
         let root = SVGBackend::with_string(&mut out, (700, 700)).into_drawing_area();
         root.fill(&WHITE).map_err(|e| e.to_string())?;
         let (lo, hi) = bounds(points.iter().flat_map(|p| [p.1, p.2]));
-        let mut chart = ChartBuilder::on(&root)
-            .caption(title, ("sans-serif", 20))
-            .margin(15)
-            .margin_right(100)
-            .x_label_area_size(50)
-            .y_label_area_size(80)
-            .build_cartesian_2d(lo..hi, lo..hi)
-            .map_err(|e| e.to_string())?;
-        chart
-            .configure_mesh()
-            .x_desc(format!("measured ({unit})"))
-            .y_desc(format!("model ({unit})"))
-            .light_line_style(RGBColor(235, 235, 235))
-            .draw()
-            .map_err(|e| e.to_string())?;
+        let mut chart = framed_chart(
+            &root,
+            title,
+            100,
+            lo..hi,
+            lo..hi,
+            &format!("measured ({unit})"),
+            &format!("model ({unit})"),
+        )?;
         chart
             .draw_series(LineSeries::new(
                 vec![(lo, lo), (hi, hi)],
