@@ -160,6 +160,23 @@ impl<'a> FitProblem<'a> {
             .collect()
     }
 
+    /// One solve of a run: the network at the overrides `base` with its size set, the
+    /// overrides it was loaded with (base and the size) and the options asking for `points`.
+    fn sized(
+        &self,
+        run: usize,
+        base: &[Override],
+        size: f64,
+        points: Points,
+    ) -> Result<(Network, Vec<Override>, SolveOptions), String> {
+        let mut extra = base.to_vec();
+        extra.push(size_override(&self.setup.runs[run].network, size));
+        let net = self.network(run, &extra)?;
+        let mut opts = self.opts.clone();
+        opts.points = points;
+        Ok((net, extra, opts))
+    }
+
     /// Load one network of a run at θ with the solve's size, and pass the check.
     fn network(&self, run: usize, extra: &[Override]) -> Result<Network, String> {
         let r = &self.setup.runs[run];
@@ -188,24 +205,9 @@ impl<'a> FitProblem<'a> {
         base.extend(self.theta_overrides(theta));
         let ncol = self.setup.data.columns.len();
         let mut out = Vec::with_capacity(plan.points.len());
-        let solves: Vec<(f64, Vec<f64>)> = if plan.steady {
-            plan.points.iter().map(|&x| (x, vec![x])).collect()
-        } else {
-            vec![(
-                *plan.points.last().expect("a run has points"),
-                plan.points.clone(),
-            )]
-        };
-        for (size, at) in solves {
-            let mut extra = base.clone();
-            extra.push(size_override(&r.network, size));
-            let net = self.network(run, &extra)?;
-            let mut opts = self.opts.clone();
-            opts.points = if plan.steady {
-                Points::End
-            } else {
-                Points::At(at.clone())
-            };
+        let end = *plan.points.last().expect("a run has points");
+        for (size, points) in solves(plan.steady, &plan.points, end) {
+            let (net, extra, opts) = self.sized(run, &base, size, points)?;
             let failed = |e: crate::solve::SolveError| format!("run `{}`: {e}", r.id);
             let (sim, sens, pert) = if jacobian {
                 // The directions are taken about the current θ: each parameter moved to it.
@@ -233,15 +235,15 @@ impl<'a> FitProblem<'a> {
             let rows: Vec<usize> = if plan.steady {
                 vec![sim.x.len() - 1]
             } else {
-                if sim.x.len() != at.len() {
+                if sim.x.len() != plan.points.len() {
                     return Err(format!(
                         "run `{}`: the solve gave {} points for {} samples",
                         r.id,
                         sim.x.len(),
-                        at.len()
+                        plan.points.len()
                     ));
                 }
-                (0..at.len()).collect()
+                (0..plan.points.len()).collect()
             };
             let balance = Balance::new(&net).map_err(|e| format!("run `{}`: {e}", r.id))?;
             let shifted: Vec<(Balance, Balance)> = if jacobian && self.has_concentrations() {
@@ -396,21 +398,8 @@ impl<'a> FitProblem<'a> {
         let mut base: Vec<Override> = r.overrides.clone();
         base.extend(self.theta_overrides(theta));
         let mut values = vec![Vec::new(); ncol];
-        let solves: Vec<(f64, Vec<f64>)> = if plan.steady {
-            grid.iter().map(|&x| (x, vec![x])).collect()
-        } else {
-            vec![(end, grid.clone())]
-        };
-        for (size, at) in solves {
-            let mut extra = base.clone();
-            extra.push(size_override(&r.network, size));
-            let net = self.network(run, &extra)?;
-            let mut opts = self.opts.clone();
-            opts.points = if plan.steady {
-                Points::End
-            } else {
-                Points::At(at.clone())
-            };
+        for (size, points) in solves(plan.steady, &grid, end) {
+            let (net, _, opts) = self.sized(run, &base, size, points)?;
             let sim =
                 crate::solve::simulate(&net, &opts).map_err(|e| format!("run `{}`: {e}", r.id))?;
             let balance = Balance::new(&net).map_err(|e| format!("run `{}`: {e}", r.id))?;
@@ -426,6 +415,17 @@ impl<'a> FitProblem<'a> {
             }
         }
         Ok((grid, values))
+    }
+}
+
+/// The solves that give a run's model at `points`: a tube or a batch in one solve of size
+/// `end` with its profile at exactly those points, a CSTR one steady state per point (its
+/// size set to the point). Each: (size, where the profile is wanted).
+fn solves(steady: bool, points: &[f64], end: f64) -> Vec<(f64, Points)> {
+    if steady {
+        points.iter().map(|&x| (x, Points::End)).collect()
+    } else {
+        vec![(end, Points::At(points.to_vec()))]
     }
 }
 
