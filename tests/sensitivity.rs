@@ -295,7 +295,7 @@ fn target_sensitivities_agree_with_finite_differences_on_every_bundled_vessel() 
                     ..Default::default()
                 },
             };
-            let rep = sensitivity(&study, &req).unwrap_or_else(|e| panic!("{file}: {e}"));
+            let rep = sensitivity(&study, None, &req).unwrap_or_else(|e| panic!("{file}: {e}"));
             let target = Target::parse(&rep.target, &net).unwrap();
             let params = every(&study, &net);
             assert_eq!(rep.sensitivities.len(), params.len());

@@ -47,7 +47,7 @@ pub fn run(a: &SensitivityArgs) -> i32 {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
-    let (study, _, _) = match read_study(&a.file, &a.set) {
+    let (study, _, findings) = match read_study(&a.file, &a.set) {
         Ok(s) => s,
         Err(code) => return code,
     };
@@ -61,7 +61,7 @@ pub fn run(a: &SensitivityArgs) -> i32 {
             ..Default::default()
         },
     };
-    let rep = match sensitivity(&study, &req) {
+    let rep = match sensitivity(&study, Some(&findings), &req) {
         Ok(r) => r,
         Err(SensitivityError::Gate(EvalError::Findings(errors))) => {
             eprintln!(

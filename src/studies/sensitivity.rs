@@ -18,7 +18,7 @@
 use crate::model::Network;
 use crate::solve::sensitivity::{Perturbed, Sensitivities, simulate_sensitivities};
 use crate::solve::{Points, SolveOptions};
-use crate::studies::evaluate::{self, EvalError, Evaluation};
+use crate::studies::evaluate::{self, EvalError, Evaluation, Findings};
 use crate::studies::parameters::{self, Parameter, Scale};
 use crate::studies::study::{Study, StudyError};
 use crate::studies::target::Target;
@@ -201,13 +201,27 @@ fn normalise(param: &Parameter, dg_dtheta: f64, g: Option<f64>) -> (Option<f64>,
 }
 
 /// The nominal through the evaluation gate: a study with error findings, a failed solve or an
-/// unphysical result gives no sensitivities.
-fn gate(net: &Network, opts: &SolveOptions) -> Result<Evaluation, SensitivityError> {
-    evaluate::evaluate(net, opts, true).map_err(SensitivityError::Gate)
+/// unphysical result gives no sensitivities. `known`: the study's check when the caller has
+/// already made it (not made again), else it runs beside the solve.
+fn gate(
+    net: &Network,
+    known: Option<&Findings>,
+    opts: &SolveOptions,
+) -> Result<Evaluation, SensitivityError> {
+    match known {
+        Some(f) => evaluate::evaluate_with(net, f, opts),
+        None => evaluate::evaluate(net, opts, true),
+    }
+    .map_err(SensitivityError::Gate)
 }
 
-/// The sensitivities of the study's target to its parameters.
-pub fn sensitivity(study: &Study, req: &Request) -> Result<Report, SensitivityError> {
+/// The sensitivities of the study's target to its parameters. `known` is the check of the
+/// study as loaded (with its overrides), when the caller has it already.
+pub fn sensitivity(
+    study: &Study,
+    known: Option<&Findings>,
+    req: &Request,
+) -> Result<Report, SensitivityError> {
     let net = study.load(&[])?;
     let target_text = match &req.target {
         Some(t) => t.clone(),
@@ -250,7 +264,7 @@ pub fn sensitivity(study: &Study, req: &Request) -> Result<Report, SensitivityEr
         Some(n) => Points::Even(n),
         None => Points::End,
     };
-    let ev = gate(&net, &opts)?;
+    let ev = gate(&net, known, &opts)?;
     let mut warnings = ev.warnings.clone();
     warnings.extend(ev.sim.warnings.iter().cloned());
     if let Some(h) = &ev.heat
