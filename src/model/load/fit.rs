@@ -107,13 +107,7 @@ impl ParsedStudy {
                     }
                 }
                 serde_yaml::Value::Sequence(items) => {
-                    let i = match seg.parse::<usize>() {
-                        Ok(i) if i < items.len() => i,
-                        Ok(_) => return None,
-                        Err(_) => items
-                            .iter()
-                            .position(|it| it.get("id").and_then(|v| v.as_str()) == Some(*seg))?,
-                    };
+                    let i = super::find_item(items, seg)?;
                     out.push_str(&format!("[{i}]"));
                     cur = &items[i];
                 }

@@ -174,18 +174,9 @@ impl ParsedStudy {
                     Some(v) => v,
                     None => return Ok(None),
                 },
-                serde_yaml::Value::Sequence(items) => match seg.parse::<usize>() {
-                    Ok(i) => match items.get(i) {
-                        Some(v) => v,
-                        None => return Ok(None),
-                    },
-                    Err(_) => match items
-                        .iter()
-                        .find(|it| it.get("id").and_then(|v| v.as_str()) == Some(seg))
-                    {
-                        Some(v) => v,
-                        None => return Ok(None),
-                    },
+                serde_yaml::Value::Sequence(items) => match find_item(items, seg) {
+                    Some(i) => &items[i],
+                    None => return Ok(None),
                 },
                 _ => return Err(format!("`{seg}` is below a scalar")),
             };
@@ -270,6 +261,17 @@ fn load_parsed(
     build(raw, &cx)
 }
 
+/// The list item a path segment names: by its index from 0, or (reactions, train units) by
+/// its `id`; `None` past the end or for an id no item has.
+pub(crate) fn find_item(items: &[serde_yaml::Value], seg: &str) -> Option<usize> {
+    match seg.parse::<usize>() {
+        Ok(i) => (i < items.len()).then_some(i),
+        Err(_) => items
+            .iter()
+            .position(|it| it.get("id").and_then(|v| v.as_str()) == Some(seg)),
+    }
+}
+
 fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), String> {
     use serde_yaml::Value;
     let new: Value = serde_yaml::from_str(&o.value).map_err(|e| {
@@ -318,16 +320,10 @@ fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), Stri
                 m.get_mut(&key).expect("inserted above")
             }
             Value::Sequence(items) => {
-                let idx = match seg.parse::<usize>() {
-                    Ok(i) if i < items.len() => i,
-                    Ok(i) => {
-                        return Err(format!("index {i} is past the end ({} items)", items.len()));
-                    }
-                    Err(_) => items
-                        .iter()
-                        .position(|it| it.get("id").and_then(|v| v.as_str()) == Some(seg))
-                        .ok_or_else(|| format!("no item with id `{seg}`"))?,
-                };
+                let idx = find_item(items, seg).ok_or_else(|| match seg.parse::<usize>() {
+                    Ok(i) => format!("index {i} is past the end ({} items)", items.len()),
+                    Err(_) => format!("no item with id `{seg}`"),
+                })?;
                 &mut items[idx]
             }
             _ => return Err(format!("`{seg}` is below a scalar")),
