@@ -15,7 +15,7 @@ use super::runs::RunsTable;
 use crate::model::{EstimateSpec, FitBound, FitSection, LoadError, Network, Override};
 use crate::studies::parameters::{self, Parameter, Scale};
 use crate::studies::study::Study;
-use crate::units::{Dim, GAS_CONSTANT, parse_unit};
+use crate::units::{Dim, parse_unit};
 use std::path::{Path, PathBuf};
 
 /// Why a fit cannot be made.
@@ -427,7 +427,8 @@ pub fn setup(req: &FitRequest) -> Result<FitSetup, FitError> {
         for &i in &arrhenius {
             let r = &net.reactions[i];
             let t_ref = r.rate.t_ref;
-            let moved = |dh: f64| (-dh / GAS_CONSTANT * (1.0 / t - 1.0 / t_ref)).exp();
+            // The factor by which a constant with energy `e` (Ea or a ΔH) changes from T_ref to T_fit.
+            let moved = |e: f64| crate::kinetics::arrhenius(1.0, e, t_ref, t);
             let base_path = format!("reactions.{}.rate", r.id);
             let scale = |path: String, factor: f64| -> Result<Option<Override>, FitError> {
                 if factor == 1.0 {

@@ -267,7 +267,9 @@ fn product(
     total
 }
 
-fn arrhenius(k_ref: f64, e: f64, t_ref: f64, t: f64) -> f64 {
+/// k(T) = k_ref exp(−E/R (1/T − 1/T_ref)), the Arrhenius (or van't Hoff, with E = ΔH) form
+/// about a reference temperature; exactly k_ref at T_ref or with E = 0.
+pub(crate) fn arrhenius(k_ref: f64, e: f64, t_ref: f64, t: f64) -> f64 {
     if e == 0.0 || t == t_ref {
         k_ref
     } else {
