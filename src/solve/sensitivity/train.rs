@@ -230,11 +230,10 @@ where
                 Phase::Liquid => {
                     (sum(&sp, &|s| s.volumetric) - sum(&sm, &|s| s.volumetric)) / step
                 }
-                Phase::Gas => {
-                    let (f, p) = (mixture.total(), mixture.pressure);
-                    GAS_CONSTANT * (t * amounts.iter().sum::<f64>() + f * temperature) / p
-                        - f * GAS_CONSTANT * t * pressure / (p * p)
-                }
+                Phase::Gas => d_gas_volumetric(
+                    (mixture.total(), t, mixture.pressure),
+                    (amounts.iter().sum(), temperature, pressure),
+                ),
             };
             Ok(StreamSensitivity {
                 amounts,
@@ -593,14 +592,11 @@ fn stretch_outlet(
                     };
                     (v(&directions[k].plus)? - v(&directions[k].minus)?) / directions[k].step
                 }
-                Phase::Gas => {
-                    // Unknown with the pressure's (NaN carries on).
-                    let d_total: f64 = amounts.iter().sum();
-                    GAS_CONSTANT * (out.temperature * d_total + f_total * temperature)
-                        / out.pressure
-                        - f_total * GAS_CONSTANT * out.temperature * pressure
-                            / (out.pressure * out.pressure)
-                }
+                // Unknown with the pressure's (NaN carries on).
+                Phase::Gas => d_gas_volumetric(
+                    (f_total, out.temperature, out.pressure),
+                    (amounts.iter().sum(), temperature, pressure),
+                ),
             };
             Ok(StreamSensitivity {
                 amounts,
@@ -610,4 +606,11 @@ fn stretch_outlet(
             })
         })
         .collect()
+}
+
+/// The change of an ideal-gas stream's volumetric flow v = R T F_T/P with its total flow,
+/// temperature and pressure: dv = R (T dF_T + F_T dT)/P − R T F_T dP/P², at `(F_T, T, P)`
+/// for the changes `(dF_T, dT, dP)`.
+fn d_gas_volumetric((f, t, p): (f64, f64, f64), (df, dt, dp): (f64, f64, f64)) -> f64 {
+    GAS_CONSTANT * (t * df + f * dt) / p - f * GAS_CONSTANT * t * dp / (p * p)
 }
