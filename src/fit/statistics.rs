@@ -403,31 +403,28 @@ fn beta_continued_fraction(a: f64, b: f64, x: f64) -> f64 {
     }
     d = 1.0 / d;
     let mut h = d;
+    // One step of the modified Lentz method with coefficient aa: the factor it brings to h.
+    let lentz = |aa: f64, c: &mut f64, d: &mut f64| {
+        *d = 1.0 + aa * *d;
+        if d.abs() < TINY {
+            *d = TINY;
+        }
+        *c = 1.0 + aa / *c;
+        if c.abs() < TINY {
+            *c = TINY;
+        }
+        *d = 1.0 / *d;
+        *d * *c
+    };
     for m in 1..=100_000 {
         let m = m as f64;
         let m2 = 2.0 * m;
-        let aa = m * (b - m) * x / ((qam + m2) * (a + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        h *= d * c;
-        let aa = -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2));
-        d = 1.0 + aa * d;
-        if d.abs() < TINY {
-            d = TINY;
-        }
-        c = 1.0 + aa / c;
-        if c.abs() < TINY {
-            c = TINY;
-        }
-        d = 1.0 / d;
-        let del = d * c;
+        h *= lentz(m * (b - m) * x / ((qam + m2) * (a + m2)), &mut c, &mut d);
+        let del = lentz(
+            -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2)),
+            &mut c,
+            &mut d,
+        );
         h *= del;
         if (del - 1.0).abs() <= 2.0 * f64::EPSILON {
             break;

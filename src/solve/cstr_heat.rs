@@ -389,6 +389,13 @@ pub(crate) fn steady_residual(
     f: &[f64],
     t: f64,
 ) -> Result<(Vec<f64>, DMatrix<f64>), SolveError> {
+    let (e, ta) = energy_and_coolant(b)?;
+    let (_, _, res, jm) = system_at(net, b, e, volume, e.ua(), ta, f, t);
+    Ok((res, jm))
+}
+
+/// The CSTR's energy balance and its coolant's constant temperature; refused without either.
+fn energy_and_coolant(b: &Balance) -> Result<(&Energy, f64), SolveError> {
     let e = b
         .energy()
         .ok_or_else(|| SolveError::Setup("the CSTR has no energy balance".into()))?;
@@ -397,8 +404,7 @@ pub(crate) fn steady_residual(
             "a CSTR exchanges heat with a coolant at a constant temperature only".into(),
         )
     })?;
-    let (_, _, res, jm) = system_at(net, b, e, volume, e.ua(), ta, f, t);
-    Ok((res, jm))
+    Ok((e, ta))
 }
 
 fn schur(jm: &DMatrix<f64>, n: usize) -> f64 {
@@ -434,14 +440,7 @@ pub fn find_all(
     volume: f64,
     tol: f64,
 ) -> Result<(SteadyStates, HeatSearch, Vec<String>), SolveError> {
-    let e = b
-        .energy()
-        .ok_or_else(|| SolveError::Setup("the CSTR has no energy balance".into()))?;
-    let ta = e.constant_coolant().ok_or_else(|| {
-        SolveError::Setup(
-            "a CSTR exchanges heat with a coolant at a constant temperature only".into(),
-        )
-    })?;
+    let (e, ta) = energy_and_coolant(b)?;
     let mut iso = net.clone();
     iso.heat = Heat::Isothermal;
     let s = Search {
