@@ -445,7 +445,7 @@ desired: B
         merged.extend(
             part.stdout
                 .lines()
-                .filter(|l| !l.starts_with("point"))
+                .filter(|l| !l.starts_with("point") && !l.starts_with('#'))
                 .map(String::from),
         );
     }

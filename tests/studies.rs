@@ -849,12 +849,18 @@ fn shards_together_equal_the_whole_sweep() {
         let s = format!("{k}/3");
         let part = sweep(&study, &[GRID[0], GRID[1], GRID[2], GRID[3], "--shard", &s]);
         assert_eq!(part.code, 0, "shard {s}: {}", part.stderr);
-        let mut it = part.stdout.lines();
+        // A shard begins with its provenance, four `#` lines (tests/merge.rs checks them).
+        assert!(
+            part.stdout.starts_with(&format!("# rxnet_shard: {k}/3\n")),
+            "shard {s}: {}",
+            part.stdout
+        );
+        let mut it = part.stdout.lines().skip(4);
         if k == 1 {
             header = it.next().map(str::to_string);
         } else {
             assert!(
-                !part.stdout.starts_with("point"),
+                !part.stdout.contains("\npoint"),
                 "shard {s} repeats the header"
             );
         }

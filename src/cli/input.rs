@@ -52,10 +52,28 @@ pub fn check_atol_for(net: &Network, atol: Option<f64>) -> Result<(), String> {
 /// on error findings; the findings are returned so later evaluations of the same network need
 /// not check it again); errors are printed, the exit code returned.
 pub fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network, Findings), i32> {
+    read_study_keeping_text(file, set, false)
+        .map(|(_, study, net, findings)| (study, net, findings))
+}
+
+/// [`read_study`], with the study text as read (a sweep's shards hash it).
+pub fn read_study_text(
+    file: &Path,
+    set: &[Override],
+) -> Result<(String, Study, Network, Findings), i32> {
+    read_study_keeping_text(file, set, true)
+}
+
+fn read_study_keeping_text(
+    file: &Path,
+    set: &[Override],
+    keep: bool,
+) -> Result<(String, Study, Network, Findings), i32> {
     let text = read_text(file).map_err(|e| {
         eprintln!("error: {e}");
         EXIT_INVALID
     })?;
+    let kept = if keep { text.clone() } else { String::new() };
     let study =
         Study::new(text, rxnet::model::source::display_name(file), set.to_vec()).map_err(|e| {
             eprintln!("error: {e}");
@@ -73,7 +91,7 @@ pub fn read_study(file: &Path, set: &[Override]) -> Result<(Study, Network, Find
         );
         return Err(EXIT_FINDINGS);
     }
-    Ok((study, net, findings))
+    Ok((kept, study, net, findings))
 }
 
 pub fn solve_opts(rtol: Option<f64>) -> SolveOptions {

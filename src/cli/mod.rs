@@ -11,6 +11,7 @@ mod compare;
 mod fit;
 mod generate;
 mod input;
+mod merge;
 mod optimize;
 pub mod output;
 mod run;
@@ -124,6 +125,8 @@ enum Command {
         #[arg(long = "set", value_name = "PATH=VALUE")]
         set: Vec<Override>,
     },
+    /// Put the shards of a sweep (`sweep --shard K/N`) back into the unsharded file, checked.
+    Merge(merge::MergeArgs),
     /// Screen studies and reactor types side by side, ranked by a target.
     Compare {
         #[arg(required = true)]
@@ -198,6 +201,7 @@ pub fn main() -> i32 {
         Command::Check { file, format, set } => check::check(&file, format, &set),
         Command::Table { file, format, set } => table::table(&file, format, &set),
         Command::Run(args) => run::run(&args),
+        Command::Merge(args) => merge::merge(&args),
         Command::Fit(args) => fit::fit(&args),
         Command::Size(args) => size::size(&args),
         Command::Runaway(args) => runaway::runaway(&args),

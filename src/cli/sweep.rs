@@ -1,10 +1,11 @@
 //! `rxnet sweep`: a full grid over one or more inputs, in parallel, as CSV or JSON, with an
 //! optional plot.
 
-use super::input::{check_tolerance, read_study, solve_opts};
+use super::input::{check_tolerance, read_study, read_study_text, solve_opts};
 use super::output::{EXIT_FINDINGS, EXIT_INVALID, write_atomic};
 use rxnet::model::{Network, Override};
 use rxnet::report::plot;
+use rxnet::studies::shard::{self, Provenance, SweepIdentity};
 use rxnet::studies::study::Study;
 use rxnet::studies::sweep::{self, Axis, Columns};
 use rxnet::studies::target::Target;
@@ -139,20 +140,13 @@ fn json_row(cols: &Columns, axes: &[Axis], r: &sweep::SweepRow) -> serde_json::V
     }
 }
 
-/// A JSON value pretty-printed as an element of a pretty-printed array (indented by two
-/// spaces), so rows streamed one by one give the bytes `serde_json::to_string_pretty` gives
-/// for the whole array (a JSON string holds no raw newline, so indenting lines is exact).
-fn json_element(v: &serde_json::Value) -> String {
-    let text = serde_json::to_string_pretty(v).expect("JSON values serialize");
-    let mut o = String::new();
-    for (i, line) in text.lines().enumerate() {
-        if i > 0 {
-            o.push('\n');
-        }
-        o.push_str("  ");
-        o.push_str(line);
-    }
-    o
+/// A JSON row as an element of the output's array ([`shard::json_element`]): indented by two
+/// spaces in the unsharded array, by four under a shard's `rows`.
+fn json_element(v: &serde_json::Value, indent: &str) -> String {
+    shard::json_element(
+        &serde_json::to_string_pretty(v).expect("JSON values serialize"),
+        indent,
+    )
 }
 
 /// `rxnet sweep FILE --vary PATH=LO:HI:N ...`: exit 0 when at least one point succeeded (the
@@ -209,7 +203,12 @@ pub fn sweep(a: &SweepArgs) -> i32 {
             return EXIT_INVALID;
         }
     }
-    let (study, net, findings) = match read_study(&a.file, &a.set) {
+    // A shard hashes the study text for its provenance; an unsharded sweep needs no copy.
+    let read = match shard {
+        Some(_) => read_study_text(&a.file, &a.set),
+        None => read_study(&a.file, &a.set).map(|(s, n, f)| (String::new(), s, n, f)),
+    };
+    let (text, study, net, findings) = match read {
         Ok(s) => s,
         Err(c) => return c,
     };
@@ -262,9 +261,50 @@ pub fn sweep(a: &SweepArgs) -> i32 {
             return EXIT_FINDINGS;
         }
     };
+    // A shard begins with its provenance (`studies::shard`): CSV comment lines, or a JSON
+    // object whose `rows` hold the rows. The unsharded output has none.
+    let provenance = shard.map(|k| {
+        let identity = SweepIdentity {
+            study_text: &text,
+            vary: &a.vary,
+            set: &a.set,
+            rtol: a.rtol,
+            format: if a.json {
+                shard::Format::Json
+            } else {
+                shard::Format::Csv
+            },
+        };
+        Provenance::new(k, identity.sha256(), total)
+    });
+    drop(text);
+    if let Some(p) = &provenance {
+        let preamble = if a.json {
+            p.json_opening()
+        } else {
+            p.csv_preamble()
+        };
+        if let Err(e) = sink.write(&preamble) {
+            sink.abandon();
+            if e.kind() == std::io::ErrorKind::BrokenPipe {
+                return 0;
+            }
+            eprintln!("{}", out_name(&e));
+            return EXIT_FINDINGS;
+        }
+    }
+    let indent = if provenance.is_some() {
+        shard::JSON_SHARD_INDENT
+    } else {
+        shard::JSON_INDENT
+    };
     let header = shard.is_none_or(|(k, _)| k == 1);
     let opening = if a.json {
-        "[".to_string()
+        if provenance.is_some() {
+            String::new()
+        } else {
+            "[".to_string()
+        }
     } else if header {
         sweep::csv_header(&cols)
     } else {
@@ -282,7 +322,7 @@ pub fn sweep(a: &SweepArgs) -> i32 {
             let mut t = String::new();
             for (i, r) in rows.iter().enumerate() {
                 t.push_str(if done + i == 0 { "\n" } else { ",\n" });
-                t.push_str(&json_element(&json_row(&cols, &axes, r)));
+                t.push_str(&json_element(&json_row(&cols, &axes, r), indent));
             }
             t
         } else {
@@ -315,13 +355,10 @@ pub fn sweep(a: &SweepArgs) -> i32 {
         b.finish_and_clear();
     }
     let closing = match ran {
-        Ok(()) if a.json => {
-            if done == 0 {
-                "[]\n".to_string()
-            } else {
-                "\n]\n".to_string()
-            }
-        }
+        Ok(()) if a.json && provenance.is_some() => shard::json_shard_closing(done).to_string(),
+        // Unsharded, the opening `[` is written with the first rows.
+        Ok(()) if a.json && done == 0 => "[]\n".to_string(),
+        Ok(()) if a.json => shard::json_closing(done).to_string(),
         Ok(()) if failed > 0 => sweep::csv_failed_trailer(failed, done),
         Ok(()) => String::new(),
         Err(sweep::SweepError::Grid(m)) => {

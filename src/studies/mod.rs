@@ -8,6 +8,7 @@ pub mod optimize;
 pub mod parameters;
 pub mod runaway;
 pub mod sensitivity;
+pub mod shard;
 pub mod study;
 pub mod sweep;
 pub mod target;
