@@ -177,6 +177,18 @@ fn failed_points_and_their_count_merge_to_the_unsharded_file() {
     // both failed points (2 and 6) in shard 1; 4 shards put them in shards 3 (2 and 6).
     assert_merges_to_whole(s, &FAILING, false, &[2, 4, 9]);
     assert_merges_to_whole(s, &FAILING, true, &[2, 4]);
+    // A shard whose every point failed (shard 3 of 9 holds point 2 alone) still ends 0: the
+    // merge judges the whole sweep, so a job array's merge is not held back by it.
+    let part = rxnet(&[
+        "sweep", s, FAILING[0], FAILING[1], FAILING[2], FAILING[3], "--shard", "3/9",
+    ]);
+    assert_eq!(part.code, 0, "{}", part.stderr);
+    assert!(
+        part.stderr
+            .contains("every point of this shard failed (1 of 1)"),
+        "{}",
+        part.stderr
+    );
     // The merge notes the failed points as the sweep does.
     let dir = Scratch::new("fail-note");
     let shards = write_shards(&dir, s, &FAILING, 3, false);
