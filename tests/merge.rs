@@ -257,6 +257,7 @@ fn a_shard_carries_its_provenance_and_the_unsharded_output_does_not() {
         "merge-edited",
         &(std::fs::read_to_string(&study).unwrap() + "\n# edited\n"),
     );
+    let same_text = write_temp("merge-same-text", &std::fs::read_to_string(&study).unwrap());
     for (what, args, file) in [
         (
             "--vary",
@@ -288,6 +289,12 @@ fn a_shard_carries_its_provenance_and_the_unsharded_output_does_not() {
             vec![GRID2[0], GRID2[1]],
             edited.to_str().unwrap().to_string(),
         ),
+        // The same text by another path: a failed point's error quotes the path.
+        (
+            "study path",
+            vec![GRID2[0], GRID2[1]],
+            same_text.to_str().unwrap().to_string(),
+        ),
     ] {
         let mut a = args.clone();
         a.extend(["--shard", "1/4"]);
@@ -303,6 +310,7 @@ fn a_shard_carries_its_provenance_and_the_unsharded_output_does_not() {
         assert_ne!(h, base, "{what} left the study hash as it was");
     }
     let _ = std::fs::remove_file(&edited);
+    let _ = std::fs::remove_file(&same_text);
 }
 
 /// Four CSV shards of the 21-point sweep, and the merge output path.

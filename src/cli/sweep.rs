@@ -264,8 +264,10 @@ pub fn sweep(a: &SweepArgs) -> i32 {
     // A shard begins with its provenance (`studies::shard`): CSV comment lines, or a JSON
     // object whose `rows` hold the rows. The unsharded output has none.
     let provenance = shard.map(|k| {
+        let name = rxnet::model::source::display_name(&a.file);
         let identity = SweepIdentity {
             study_text: &text,
+            study_name: &name,
             vary: &a.vary,
             set: &a.set,
             rtol: a.rtol,

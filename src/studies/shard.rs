@@ -67,7 +67,8 @@ impl Format {
     }
 }
 
-/// Everything besides the program that fixes the rows of a sweep: the study text as read and
+/// Everything besides the program that fixes the rows of a sweep: the study text as read, the
+/// study's path as given (a failed point's error quotes it, `study.yaml:6:18: field …`), and
 /// the sweep's arguments that change a row (`--vary` in order, `--set` in order with
 /// `--steady-state` as the override it becomes, `--rtol`, `--format`). `--out`, `--shard`
 /// and `--plot-target` change no row and are left out; the number of threads changes none
@@ -75,6 +76,8 @@ impl Format {
 #[derive(Debug, Clone, Copy)]
 pub struct SweepIdentity<'a> {
     pub study_text: &'a str,
+    /// The study's name in messages (`model::source::display_name`).
+    pub study_name: &'a str,
     /// Each `--vary` as given on the command line (the same grid spelt differently gives a
     /// different hash: shards of one job are run with one command line).
     pub vary: &'a [String],
@@ -94,6 +97,7 @@ impl SweepIdentity<'_> {
         };
         field(b"rxnet sweep rows 1");
         field(self.study_text.as_bytes());
+        field(self.study_name.as_bytes());
         field(&(self.vary.len() as u64).to_le_bytes());
         for v in self.vary {
             field(v.as_bytes());
@@ -467,7 +471,7 @@ impl ShardSet {
             }
             if f.prov.study_sha256 != first.prov.study_sha256 {
                 return Err(format!(
-                    "study hash {}… in {} but {}… in {}: they are shards of different sweeps (the study file or a sweep argument — --vary, --set, --rtol, --steady-state, --format — differs)",
+                    "study hash {}… in {} but {}… in {}: they are shards of different sweeps (the study's text or the path it was given by, or a sweep argument — --vary, --set, --rtol, --steady-state, --format — differs)",
                     &first.prov.study_sha256[..12],
                     first.name,
                     &f.prov.study_sha256[..12],
@@ -918,6 +922,7 @@ mod tests {
     fn identity<'a>(text: &'a str, vary: &'a [String], set: &'a [Override]) -> SweepIdentity<'a> {
         SweepIdentity {
             study_text: text,
+            study_name: "study.yaml",
             vary,
             set,
             rtol: None,
@@ -944,6 +949,11 @@ mod tests {
         let two_vary = vec![vary[0].clone(), "reactor.volume=1 L:2 L:2".into()];
         let changed = [
             identity("name: b\n", &vary, &set).sha256(),
+            SweepIdentity {
+                study_name: "other/study.yaml",
+                ..base
+            }
+            .sha256(),
             identity("name: a\n", &other_vary, &set).sha256(),
             identity("name: a\n", &two_vary, &set).sha256(),
             identity("name: a\n", &vary, &other_set).sha256(),
