@@ -585,3 +585,33 @@ fn out_may_not_be_a_shard_and_an_existing_file_survives_a_refusal() {
     assert_eq!(std::fs::read_to_string(&out).unwrap(), "kept\n");
     assert_eq!(d.names(), names, "the failed merge left a file behind");
 }
+
+#[test]
+fn a_grid_beyond_one_run_is_refused_whole_and_runs_in_shards() {
+    let study = diene();
+    // 2,000,000 points: more than the 1,000,000 one run may have.
+    let vary = ["--vary", "reactor.volume=1 L:100 L:2000000"];
+    let whole = rxnet(&["sweep", &study, vary[0], vary[1]]);
+    assert_eq!(whole.code, 2, "{}", whole.stderr);
+    assert!(
+        whole.stderr.contains("2000000 points") && whole.stderr.contains("2 or more shards"),
+        "{}",
+        whole.stderr
+    );
+    assert!(whole.stdout.is_empty());
+    let one = rxnet(&["sweep", &study, vary[0], vary[1], "--shard", "1/1"]);
+    assert_eq!(one.code, 2, "{}", one.stderr);
+    assert!(one.stderr.contains("use N ≥ 2"), "{}", one.stderr);
+    // Split a million ways, shard 1 holds points 0 and 1,000,000 (p mod N = 0).
+    let part = rxnet(&["sweep", &study, vary[0], vary[1], "--shard", "1/1000000"]);
+    assert_eq!(part.code, 0, "{}", part.stderr);
+    let lines: Vec<&str> = part.stdout.lines().collect();
+    assert_eq!(lines[0], "# rxnet_shard: 1/1000000");
+    assert_eq!(lines[3], "# points: 2000000");
+    assert!(lines[4].starts_with("point,"), "{}", lines[4]);
+    let points: Vec<&str> = lines[5..]
+        .iter()
+        .map(|l| l.split(',').next().unwrap())
+        .collect();
+    assert_eq!(points, vec!["0", "1000000"]);
+}

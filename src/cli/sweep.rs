@@ -184,7 +184,7 @@ pub fn sweep(a: &SweepArgs) -> i32 {
             return EXIT_INVALID;
         }
     };
-    let total = match sweep::grid_size(&axes) {
+    let total = match sweep::grid_size(&axes, shard) {
         Ok(t) => t,
         Err(m) => {
             eprintln!("error: {m}");
@@ -236,7 +236,7 @@ pub fn sweep(a: &SweepArgs) -> i32 {
         }
     };
     let cols = Columns::new(&net, &axes);
-    let count = shard.map(|(k, n)| (total + n - k) / n).unwrap_or(total);
+    let count = shard.map_or(total, |(k, n)| sweep::shard_size(total, k, n));
     let bar = (count >= 50 && std::io::IsTerminal::is_terminal(&std::io::stderr())).then(|| {
         let b = indicatif::ProgressBar::new(count as u64);
         b.set_style(

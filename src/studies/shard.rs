@@ -169,7 +169,7 @@ impl Provenance {
 
     /// The number of points of this shard: those p < points with p mod N = K − 1.
     pub fn shard_points(&self) -> usize {
-        (self.points + self.shards - self.shard) / self.shards
+        super::sweep::shard_size(self.points, self.shard, self.shards)
     }
 }
 

@@ -12,8 +12,13 @@ use crate::model::Network;
 use crate::solve::SolveOptions;
 use rayon::prelude::*;
 
-/// Most points one sweep may have (a bound on time and memory; split larger grids into shards).
+/// Most points one run of a sweep may have, the whole grid or one shard of it (a bound on the
+/// time one command takes); a larger grid is split with `--shard K/N`.
 pub const MAX_POINTS: usize = 1_000_000;
+
+/// Most points of a grid split into shards: a million shards of [`MAX_POINTS`]. Point numbers
+/// and an axis's positions k/(n − 1) stay exact in f64 (below 2^53) far beyond it.
+pub const MAX_GRID: usize = 1_000_000_000_000;
 
 /// One varied input: `PATH=LO:HI:N` or `PATH=LO:HI:N:log`.
 #[derive(Debug, Clone)]
@@ -41,9 +46,9 @@ impl Axis {
         if n == 0 {
             return Err(format!("`{s}`: at least one point is needed"));
         }
-        if n > MAX_POINTS {
+        if n > MAX_GRID {
             return Err(format!(
-                "`{s}`: {n} points on one axis is more than the {MAX_POINTS} a sweep may have"
+                "`{s}`: {n} points on one axis is more than the {MAX_GRID} a grid may have"
             ));
         }
         let var = Variable::new(path.trim(), lo, hi)?;
@@ -147,16 +152,33 @@ impl Columns {
     }
 }
 
-/// Total number of grid points, refused above [`MAX_POINTS`].
-pub fn grid_size(axes: &[Axis]) -> Result<usize, String> {
+/// Total number of grid points, refused above [`MAX_GRID`], and when this run (the grid, or
+/// shard K of N of it) would have more than [`MAX_POINTS`] points.
+pub fn grid_size(axes: &[Axis], shard: Option<(usize, usize)>) -> Result<usize, String> {
     let mut total: usize = 1;
     for a in axes {
         total = total
             .checked_mul(a.n)
-            .filter(|t| *t <= MAX_POINTS)
-            .ok_or_else(|| format!("the grid has more than {MAX_POINTS} points; use fewer points or split it with --shard"))?;
+            .filter(|t| *t <= MAX_GRID)
+            .ok_or_else(|| format!("the grid has more than {MAX_GRID} points; use fewer points"))?;
     }
-    Ok(total)
+    let fewest_shards = total.div_ceil(MAX_POINTS);
+    match shard {
+        None if total > MAX_POINTS => Err(format!(
+            "the grid has {total} points, more than the {MAX_POINTS} one run of a sweep may have; split it into {fewest_shards} or more shards with --shard K/N (docs/cluster.md)"
+        )),
+        Some((k, n)) if shard_size(total, k, n) > MAX_POINTS => Err(format!(
+            "shard {k} of {n} has {} of the grid's {total} points, more than the {MAX_POINTS} one run of a sweep may have; use N ≥ {fewest_shards}",
+            shard_size(total, k, n)
+        )),
+        _ => Ok(total),
+    }
+}
+
+/// The number of points of shard `k` of `n` of a grid of `total`: those p < total with
+/// p mod n = k − 1.
+pub fn shard_size(total: usize, k: usize, n: usize) -> usize {
+    (total + n - k) / n
 }
 
 /// Inputs of point p (row-major, last axis fastest).
@@ -256,7 +278,7 @@ pub fn run<E>(
     progress: &(dyn Fn() + Sync),
     sink: &mut dyn FnMut(&[SweepRow]) -> Result<(), E>,
 ) -> Result<(), SweepError<E>> {
-    let total = grid_size(axes).map_err(SweepError::Grid)?;
+    let total = grid_size(axes, shard).map_err(SweepError::Grid)?;
     let mut points = point_numbers(total, shard).peekable();
     let mut chunk = Vec::with_capacity(CHUNK);
     while points.peek().is_some() {
