@@ -523,6 +523,12 @@ fn a_file_that_is_not_a_shard_is_refused() {
     // A study file.
     given[3] = diene();
     refused(&given, &out, &[&format!("{}:1: not a shard", diene())]);
+    // A binary file without a newline is refused at its first 64 MiB, not read whole.
+    let blob = d.path("blob.bin");
+    std::fs::write(&blob, vec![b'x'; (64 << 20) + 10]).unwrap();
+    given[3] = blob.clone();
+    refused(&given, &out, &[&format!("{blob}:1: not a shard")]);
+    let _ = std::fs::remove_file(&blob);
     // A file that does not exist.
     given[3] = d.path("nowhere.csv");
     refused(&given, &out, &[&format!("cannot read {}", given[3])]);

@@ -45,7 +45,7 @@
 use crate::model::Override;
 use sha2::{Digest, Sha256};
 use std::fs::File;
-use std::io::{BufRead, BufReader, Write};
+use std::io::{BufRead, BufReader, Read, Write};
 use std::path::{Path, PathBuf};
 
 /// The version of rxnet that writes (and merges) shards.
@@ -233,6 +233,9 @@ pub struct Merged {
     pub format: Format,
 }
 
+/// Longest line a shard may have: a CSV row of a 10,000-species study is under 1 MiB.
+const MAX_LINE: u64 = 64 << 20;
+
 /// One shard file being read line by line.
 struct ShardFile {
     /// The path as given, for messages.
@@ -267,17 +270,25 @@ impl ShardFile {
     }
 
     /// The next line without its newline, or None at the end of the file. A last line
-    /// without its newline is a file cut short (every line rxnet writes ends with one).
+    /// without its newline is a file cut short (every line rxnet writes ends with one); a
+    /// line longer than [`MAX_LINE`] is refused (a foreign file is not read whole).
     fn next_line(&mut self) -> Result<Option<&str>, String> {
         self.buf.clear();
-        let n = self
-            .reader
+        let n = (&mut self.reader)
+            .take(MAX_LINE)
             .read_until(b'\n', &mut self.buf)
             .map_err(|e| format!("cannot read {}: {}", self.name, reason(&e)))?;
         if n == 0 {
             return Ok(None);
         }
         self.line += 1;
+        if n as u64 == MAX_LINE && self.buf.last() != Some(&b'\n') {
+            return Err(format!(
+                "{}: a line longer than {} MiB: not a line of an rxnet sweep",
+                self.at(),
+                MAX_LINE >> 20
+            ));
+        }
         if self.buf.pop() != Some(b'\n') {
             return Err(format!(
                 "{}: the last line has no newline: the file was cut short",
