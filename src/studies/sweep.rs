@@ -2,8 +2,9 @@
 //!
 //! Points are numbered in row-major order (the last `--vary` changes fastest). `--shard K/N`
 //! keeps the points whose number p satisfies p mod N = K − 1, so the shards of a cluster job
-//! array together cover the grid once; their CSVs concatenate (only shard 1 writes the header)
-//! and, sorted by the `point` column, equal the unsharded sweep.
+//! array together cover the grid once. Each shard file begins with its provenance and only
+//! shard 1 writes the CSV header; [`super::shard`] writes the provenance and merges the
+//! shards back into the unsharded file, byte for byte (`rxnet merge`).
 
 use super::evaluate::{Findings, evaluate_study};
 use super::study::{Study, Variable};
