@@ -132,7 +132,8 @@ pub fn run(a: &RunArgs) -> i32 {
         return EXIT_INVALID;
     }
     // Through the one gate: the consistency check (on a second thread while the reactor is
-    // solved), the solve, the result checks and the metrics.
+    // solved, for a network large enough to be worth one), the solve, the result checks and
+    // the metrics.
     let (want_profile, opts) = run_options(a);
     let ev = match evaluate::evaluate(&net, &opts, true) {
         Ok(ev) => ev,

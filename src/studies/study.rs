@@ -200,11 +200,12 @@ impl Study {
         Ok(Study { parsed, overrides })
     }
 
+    /// The network with the study's overrides and then `extra` applied. Points that change
+    /// only `reactor.…` fields reuse the species and reactions built once
+    /// ([`crate::model::ParsedStudy::load_reactor_point`]): the same network and errors.
     pub fn load(&self, extra: &[Override]) -> Result<Network, StudyError> {
-        let mut all = self.overrides.clone();
-        all.extend_from_slice(extra);
         self.parsed
-            .load(&all)
+            .load_reactor_point(&self.overrides, extra)
             .map_err(|e| StudyError::Load(e.to_string()))
     }
 }

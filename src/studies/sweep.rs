@@ -263,8 +263,9 @@ pub fn point_numbers(total: usize, shard: Option<(usize, usize)>) -> impl Iterat
 }
 
 /// Run the grid (or one shard of it) in parallel, a chunk of [`CHUNK`] points at a time, and
-/// hand each chunk's rows, in point order, to `sink` as soon as the chunk is done; memory is
-/// bounded by one chunk whatever the number of points. `progress` is called once per finished
+/// hand each chunk's rows, in point order, to `sink` as soon as the chunk is done, while the
+/// next chunk is evaluated (so writing the rows does not leave the cores idle); memory is
+/// bounded by two chunks whatever the number of points. `progress` is called once per finished
 /// point. Stops at the first error of `sink`. `base` is the consistency check of the study
 /// without the varied inputs (the caller has it from reading the study), reused at every
 /// point when only reactor fields vary; without it every point is checked.
@@ -280,12 +281,9 @@ pub fn run<E>(
     sink: &mut dyn FnMut(&[SweepRow]) -> Result<(), E>,
 ) -> Result<(), SweepError<E>> {
     let total = grid_size(axes, shard).map_err(SweepError::Grid)?;
-    let mut points = point_numbers(total, shard).peekable();
-    let mut chunk = Vec::with_capacity(CHUNK);
-    while points.peek().is_some() {
-        chunk.clear();
-        chunk.extend(points.by_ref().take(CHUNK));
-        let rows: Vec<SweepRow> = chunk
+    let mut points = point_numbers(total, shard);
+    let evaluate = |chunk: &[usize]| -> Vec<SweepRow> {
+        chunk
             .par_iter()
             .map(|&p| {
                 let inputs = point_inputs(axes, p);
@@ -297,10 +295,32 @@ pub fn run<E>(
                     result,
                 }
             })
-            .collect();
-        sink(&rows).map_err(SweepError::Sink)?;
+            .collect()
+    };
+    let next_chunk =
+        |points: &mut dyn Iterator<Item = usize>| -> Vec<usize> { points.take(CHUNK).collect() };
+    let mut done: Vec<SweepRow> = evaluate(&next_chunk(&mut points));
+    loop {
+        let chunk = next_chunk(&mut points);
+        if chunk.is_empty() {
+            if !done.is_empty() {
+                sink(&done).map_err(SweepError::Sink)?;
+            }
+            return Ok(());
+        }
+        // The pool evaluates this chunk (from a thread of its own, which waits on the pool)
+        // while this thread hands the finished rows on.
+        let (rows, sunk) = std::thread::scope(|scope| {
+            let evaluating = scope.spawn(|| evaluate(&chunk));
+            let sunk = sink(&done);
+            let rows = evaluating
+                .join()
+                .unwrap_or_else(|p| std::panic::resume_unwind(p));
+            (rows, sunk)
+        });
+        sunk.map_err(SweepError::Sink)?;
+        done = rows;
     }
-    Ok(())
 }
 
 /// Why a sweep stopped: the grid is too large, or the consumer of the rows failed (a write).

@@ -163,10 +163,11 @@ pub(super) fn build_contacting(
 
 /// The vessels as written: one `reactor`, or the units of a `train` (each with its field path).
 pub(super) fn vessels<'r>(
-    raw: &'r RawStudy,
+    reactor: Option<&'r RawReactor>,
+    train: Option<&'r Vec<RawReactor>>,
     cx: &Cx,
 ) -> Result<Vec<(&'r RawReactor, String)>, LoadError> {
-    match (&raw.reactor, &raw.train) {
+    match (reactor, train) {
         (Some(r), None) => {
             unit_only(r, "reactor", cx)?;
             Ok(vec![(r, "reactor".to_string())])

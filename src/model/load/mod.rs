@@ -141,18 +141,59 @@ pub struct ParsedStudy {
     pub text: String,
     pub file: String,
     tree: serde_yaml::Value,
+    /// The study under one list of base overrides, set up for points that change only
+    /// `reactor.…` fields ([`ParsedStudy::load_reactor_point`]); made on first use.
+    reactor_points: std::sync::OnceLock<(Vec<Override>, Option<std::sync::Arc<ReactorPoints>>)>,
 }
 
 impl ParsedStudy {
     /// Parse `text` (errors name `file`).
     pub fn new(text: String, file: String) -> Result<ParsedStudy, LoadError> {
         let tree = parse_text(&text, &file)?;
-        Ok(ParsedStudy { text, file, tree })
+        Ok(ParsedStudy {
+            text,
+            file,
+            tree,
+            reactor_points: std::sync::OnceLock::new(),
+        })
     }
 
     /// The network with `overrides` applied, validated as [`load_str`] would.
     pub fn load(&self, overrides: &[Override]) -> Result<Network, LoadError> {
         load_parsed(self.tree.clone(), &self.text, &self.file, overrides)
+    }
+
+    /// The network with `base` and then `point` applied: the same network, notes and errors
+    /// as [`ParsedStudy::load`] of both lists, made faster when every path of `point` lies
+    /// under `reactor.` in a study with a single `reactor` (a sweep over the size or the
+    /// cooling, an optimiser over the volume): then only the `reactor` section is read
+    /// again and the species and reactions are taken from a load of the study under `base`
+    /// (they cannot depend on the reactor except through the rate basis, the phase and the
+    /// feed temperature, which are compared; a difference builds them again). Anything that
+    /// fails on that path, and any other point, is loaded whole, so errors read the same.
+    pub fn load_reactor_point(
+        &self,
+        base: &[Override],
+        point: &[Override],
+    ) -> Result<Network, LoadError> {
+        let whole = || {
+            let mut all = base.to_vec();
+            all.extend_from_slice(point);
+            self.load(&all)
+        };
+        if point.is_empty() || !point.iter().all(|o| o.path.starts_with("reactor.")) {
+            return whole();
+        }
+        let (for_base, points) = self.reactor_points.get_or_init(|| {
+            (
+                base.to_vec(),
+                ReactorPoints::new(self, base).map(Into::into),
+            )
+        });
+        match points {
+            Some(rp) if for_base.as_slice() == base => rp.load(self, point).or_else(|_| whole()),
+            _ => whole(),
+        }
     }
 
     /// The YAML value at a `--set` path after `overrides` (list items by index or by `id`,
@@ -182,6 +223,64 @@ impl ParsedStudy {
             };
         }
         Ok(Some(cur.clone()))
+    }
+}
+
+/// A study under its base overrides, kept for loading points that change only fields of its
+/// single `reactor` section: the raw study as deserialized, the `reactor` subtree (to which a
+/// point's overrides are applied), and the species and reactions as built ([`Fixed`]).
+#[derive(Debug)]
+pub struct ReactorPoints {
+    raw: RawStudy,
+    reactor: serde_yaml::Value,
+    fixed: Fixed,
+}
+
+impl ReactorPoints {
+    /// `None` when the study under `base` does not load or is not a single `reactor`.
+    fn new(parsed: &ParsedStudy, base: &[Override]) -> Option<ReactorPoints> {
+        let mut tree = parsed.tree.clone();
+        for o in base {
+            apply_override(&mut tree, o).ok()?;
+        }
+        let reactor = tree.get("reactor")?.clone();
+        let raw: RawStudy = serde_path_to_error::deserialize(tree).ok()?;
+        if raw.train.is_some() || raw.reactor.is_none() {
+            return None;
+        }
+        let cx = Cx::new(&parsed.file, &parsed.text);
+        let (_, fixed) = build_sections(&raw, raw.reactor.as_ref(), &cx, Reuse::Record).ok()?;
+        Some(ReactorPoints {
+            raw,
+            reactor,
+            fixed: fixed?,
+        })
+    }
+
+    /// The network at a point whose overrides all lie under `reactor.`: the overrides
+    /// applied to the `reactor` subtree (walked from the root as [`apply_override`] walks the
+    /// whole tree), the section deserialized, the network built with the fixed sections.
+    fn load(&self, parsed: &ParsedStudy, point: &[Override]) -> Result<Network, LoadError> {
+        let failed = || LoadError {
+            file: parsed.file.clone(),
+            position: None,
+            field: String::new(),
+            message: String::new(),
+            hint: None,
+        };
+        let mut root = serde_yaml::Mapping::with_capacity(1);
+        root.insert("reactor".into(), self.reactor.clone());
+        let mut root = serde_yaml::Value::Mapping(root);
+        for o in point {
+            apply_override(&mut root, o).map_err(|_| failed())?;
+        }
+        let tree = match root {
+            serde_yaml::Value::Mapping(mut m) => m.remove("reactor").ok_or_else(failed)?,
+            _ => return Err(failed()),
+        };
+        let reactor: RawReactor = serde_path_to_error::deserialize(tree).map_err(|_| failed())?;
+        let cx = Cx::new(&parsed.file, &parsed.text);
+        build_sections(&self.raw, Some(&reactor), &cx, Reuse::From(&self.fixed)).map(|(n, _)| n)
     }
 }
 
@@ -258,7 +357,7 @@ fn load_parsed(
         let hint = unknown_field_hint(&inner);
         cx.err(&path, &strip_location(&inner), hint)
     })?;
-    build(raw, &cx)
+    build(&raw, &cx)
 }
 
 /// The list item a path segment names: by its index from 0, or (reactions, train units) by
@@ -503,9 +602,58 @@ fn molar_energy() -> Dim {
     Dim::energy().div(Dim::AMOUNT)
 }
 
-fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
+/// What [`build`] may take from an earlier load of the same study instead of building it again.
+enum Reuse<'a> {
+    /// Build every section.
+    Nothing,
+    /// Build every section and keep the species and reactions ([`Fixed`]).
+    Record,
+    /// Take the species, and the reactions when they were built with the same rate basis,
+    /// phase and feed temperature.
+    From(&'a Fixed),
+}
+
+/// The sections of a study that its `reactor` section cannot change: the species, and the
+/// reactions as built (before K_eq from species data) with the rate basis, phase and feed
+/// temperature they were built with, each with the notes it recorded. A study whose points
+/// differ only in `reactor.…` fields builds them once ([`ReactorPoints`]).
+#[derive(Debug)]
+struct Fixed {
+    species: Vec<Species>,
+    index: IndexMap<String, usize>,
+    species_notes: Vec<String>,
+    reactions: Vec<Reaction>,
+    reaction_notes: Vec<String>,
+    basis: RateBasis,
+    phase: Phase,
+    feed_temperature: f64,
+}
+
+fn build(raw: &RawStudy, cx: &Cx) -> Result<Network, LoadError> {
+    build_sections(raw, raw.reactor.as_ref(), cx, Reuse::Nothing).map(|(net, _)| net)
+}
+
+/// Build the network from the raw study with `reactor` as its `reactor` section, taking what
+/// `reuse` allows from an earlier load; with [`Reuse::Record`], also return the sections a
+/// later load may take.
+fn build_sections(
+    raw: &RawStudy,
+    reactor: Option<&RawReactor>,
+    cx: &Cx,
+    reuse: Reuse,
+) -> Result<(Network, Option<Fixed>), LoadError> {
     // --- species
-    let (species, index) = build_species(&raw.species, cx)?;
+    let notes_before = cx.notes.borrow().len();
+    let (species, index) = match &reuse {
+        Reuse::From(f) => {
+            cx.notes
+                .borrow_mut()
+                .extend(f.species_notes.iter().cloned());
+            (f.species.clone(), f.index.clone())
+        }
+        _ => build_species(&raw.species, cx)?,
+    };
+    let species_notes = cx.notes.borrow()[notes_before..].to_vec();
     let ns = species.len();
 
     let phase = match raw.phase {
@@ -521,7 +669,7 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     };
 
     // --- reactor (needed first: it fixes the rate basis); a train's units in order
-    let vessels = contacting::vessels(&raw, cx)?;
+    let vessels = contacting::vessels(reactor, raw.train.as_ref(), cx)?;
     let reactors = contacting::build_reactors(&vessels, phase, cx)?;
     let reactor = reactors[0].clone();
     let basis = if matches!(reactor, Reactor::Pbr { .. }) {
@@ -569,24 +717,21 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     if raw.reactions.is_empty() {
         return Err(cx.err("reactions", "no reactions given", None));
     }
-    let mut reactions: Vec<Reaction> = Vec::with_capacity(raw.reactions.len());
-    let mut by_id: std::collections::HashMap<String, usize> =
-        std::collections::HashMap::with_capacity(raw.reactions.len());
-    for (i, rr) in raw.reactions.iter().enumerate() {
-        let r = build_reaction(i, rr, &index, basis, phase, feed.temperature, cx)?;
-        if let Some(prev) = by_id.get(&r.id).map(|&k| &reactions[k]) {
-            return Err(cx.err(
-                &format!("reactions[{i}].id"),
-                &format!(
-                    "duplicate reaction id `{}` (already used by `{}`)",
-                    r.id, prev.equation
-                ),
-                Some("give each reaction its own id".into()),
-            ));
+    let notes_before = cx.notes.borrow().len();
+    let reactions = match &reuse {
+        Reuse::From(f)
+            if f.basis == basis
+                && f.phase == phase
+                && f.feed_temperature.to_bits() == feed.temperature.to_bits() =>
+        {
+            cx.notes
+                .borrow_mut()
+                .extend(f.reaction_notes.iter().cloned());
+            f.reactions.clone()
         }
-        by_id.insert(r.id.clone(), reactions.len());
-        reactions.push(r);
-    }
+        _ => build_reactions(raw, &index, basis, phase, feed.temperature, cx)?,
+    };
+    let reaction_notes = cx.notes.borrow()[notes_before..].to_vec();
 
     // --- key and desired
     let (key, key_is_default) = match &raw.key {
@@ -612,8 +757,21 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     )?;
     debug_assert_eq!(feed.amounts.len(), ns);
 
+    let fixed = matches!(reuse, Reuse::Record).then(|| Fixed {
+        species: species.clone(),
+        index: index.clone(),
+        species_notes,
+        reactions: reactions.clone(),
+        reaction_notes,
+        basis,
+        phase,
+        feed_temperature: feed.temperature,
+    });
     let mut net = Network {
-        name: raw.name.unwrap_or_else(|| "unnamed study".to_string()),
+        name: raw
+            .name
+            .clone()
+            .unwrap_or_else(|| "unnamed study".to_string()),
         source: cx.file.clone(),
         phase,
         species,
@@ -632,7 +790,37 @@ fn build(raw: RawStudy, cx: &Cx) -> Result<Network, LoadError> {
     };
     equilibrium_from_species(&mut net, cx)?;
     net.notes = cx.notes.take();
-    Ok(net)
+    Ok((net, fixed))
+}
+
+/// The reactions, in file order, each id once.
+fn build_reactions(
+    raw: &RawStudy,
+    index: &IndexMap<String, usize>,
+    basis: RateBasis,
+    phase: Phase,
+    feed_temperature: f64,
+    cx: &Cx,
+) -> Result<Vec<Reaction>, LoadError> {
+    let mut reactions: Vec<Reaction> = Vec::with_capacity(raw.reactions.len());
+    let mut by_id: std::collections::HashMap<String, usize> =
+        std::collections::HashMap::with_capacity(raw.reactions.len());
+    for (i, rr) in raw.reactions.iter().enumerate() {
+        let r = build_reaction(i, rr, index, basis, phase, feed_temperature, cx)?;
+        if let Some(prev) = by_id.get(&r.id).map(|&k| &reactions[k]) {
+            return Err(cx.err(
+                &format!("reactions[{i}].id"),
+                &format!(
+                    "duplicate reaction id `{}` (already used by `{}`)",
+                    r.id, prev.equation
+                ),
+                Some("give each reaction its own id".into()),
+            ));
+        }
+        by_id.insert(r.id.clone(), reactions.len());
+        reactions.push(r);
+    }
+    Ok(reactions)
 }
 
 /// A reversible reaction written without `K_eq` takes K_c(T) from its species' H_f and S
@@ -701,6 +889,110 @@ mod tests {
         assert_eq!(closest("CH5", names.iter().copied()), Some("CH4"));
         assert_eq!(closest("co2", names.iter().copied()), Some("CO2"));
         assert_eq!(closest("N2O5", names.iter().copied()), None);
+    }
+
+    /// Every scalar under `reactor` of a study, as (path, value) with the path as `--set`
+    /// writes it.
+    fn reactor_leaves(v: &serde_yaml::Value, path: String, out: &mut Vec<(String, String)>) {
+        match v {
+            serde_yaml::Value::Mapping(m) => {
+                for (k, x) in m {
+                    if let Some(k) = k.as_str() {
+                        reactor_leaves(x, format!("{path}.{k}"), out);
+                    }
+                }
+            }
+            serde_yaml::Value::Sequence(items) => {
+                for (i, x) in items.iter().enumerate() {
+                    reactor_leaves(x, format!("{path}.{i}"), out);
+                }
+            }
+            serde_yaml::Value::String(t) => out.push((path, t.clone())),
+            serde_yaml::Value::Number(n) => out.push((path, n.to_string())),
+            serde_yaml::Value::Bool(b) => out.push((path, b.to_string())),
+            _ => {}
+        }
+    }
+
+    /// A point that changes only `reactor.…` fields, loaded with the species and reactions of
+    /// the base load, gives the same network (every field, notes included) or the same error
+    /// as loading the whole study with the point's overrides: for every bundled study and
+    /// every scalar under its `reactor`, set to its own value, to 1.37 times its number, to
+    /// a negative number and to a word, and for a change of reactor type (a new rate basis).
+    #[test]
+    fn reactor_points_load_as_the_whole_study() {
+        let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/networks");
+        let mut files: Vec<_> = std::fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().path())
+            .filter(|p| p.extension().is_some_and(|e| e == "yaml"))
+            .collect();
+        files.sort();
+        let (mut compared, mut reused) = (0, 0);
+        for path in files {
+            let text = std::fs::read_to_string(&path).unwrap();
+            let parsed = ParsedStudy::new(text, path.display().to_string()).unwrap();
+            let Some(reactor) = parsed.tree.get("reactor") else {
+                continue;
+            };
+            let mut leaves = Vec::new();
+            reactor_leaves(reactor, "reactor".into(), &mut leaves);
+            let base: Vec<Override> = vec!["solver.rtol=1e-7".parse().unwrap()];
+            let mut points: Vec<Vec<Override>> = vec![
+                vec!["reactor.type=pbr".parse().unwrap()],
+                vec!["reactor.type=cstr".parse().unwrap()],
+                vec!["reactor.no_such_field=1".parse().unwrap()],
+            ];
+            for (p, v) in &leaves {
+                let num_end = v
+                    .find(|c: char| !(c.is_ascii_digit() || "+-.eE".contains(c)))
+                    .unwrap_or(v.len());
+                let mut values = vec![v.clone(), "-2".to_string(), "many".to_string()];
+                if let Ok(x) = v[..num_end].parse::<f64>() {
+                    values.push(format!("{}{}", x * 1.37, &v[num_end..]));
+                }
+                for value in values {
+                    points.push(vec![Override {
+                        path: p.clone(),
+                        value,
+                    }]);
+                }
+            }
+            if leaves.len() >= 2 {
+                let (a, b) = (&leaves[0], &leaves[leaves.len() - 1]);
+                points.push(vec![
+                    Override {
+                        path: a.0.clone(),
+                        value: a.1.clone(),
+                    },
+                    Override {
+                        path: b.0.clone(),
+                        value: b.1.clone(),
+                    },
+                ]);
+            }
+            for point in points {
+                let mut all = base.clone();
+                all.extend(point.iter().cloned());
+                let whole = parsed.load(&all).map(|n| format!("{n:?}"));
+                let fast = parsed
+                    .load_reactor_point(&base, &point)
+                    .map(|n| format!("{n:?}"));
+                assert_eq!(whole, fast, "{} with {point:?}", path.display());
+                compared += 1;
+                // The points were loaded by the reuse itself, not only by its fallback.
+                let rp = ReactorPoints::new(&parsed, &base);
+                if let Some(Ok(n)) = rp.map(|rp| rp.load(&parsed, &point)) {
+                    assert_eq!(fast, Ok(format!("{n:?}")));
+                    reused += 1;
+                }
+            }
+        }
+        assert!(compared > 50, "{compared} points compared");
+        assert!(
+            reused > 30,
+            "{reused} of {compared} points loaded by the reuse"
+        );
     }
 
     #[test]
