@@ -803,7 +803,7 @@ mod tests {
     }
 
     /// |x − x_ref|_i within 1e-6·(atol/rtol + |x_ref|): the accuracy the weighted stopping test
-    /// promises, WEIGHTED_TOLERANCE = 1e-5 of a weight unit, with margin.
+    /// promises, STANDALONE_TOLERANCE = 1e-5 of a weight unit, with margin.
     fn assert_close(x: &[f64], r: &[f64]) {
         for (i, (a, b)) in x.iter().zip(r).enumerate() {
             let scale = 1e-12 + 1e-8 * 1.0;
