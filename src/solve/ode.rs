@@ -33,6 +33,30 @@ pub use crate::model::solver_settings::{AUTO_KRYLOV_ABOVE, LinearAlgebra};
 /// scale at the start, whichever is shorter.
 pub const MIN_STEP_FRACTION: f64 = 1e-22;
 
+/// Tolerance of the BDF Newton iteration on the weighted RMS norm of its correction, with the
+/// iteration's estimated convergence factor η = ρ/(1 − ρ) in front: converged when
+/// η‖Δ‖ < 0.2 (diffsol's default, set explicitly so that the Krylov solver, which stops
+/// relative to it, and the iteration agree).
+const NEWTON_TOLERANCE: f64 = 0.2;
+
+/// Most Newton iterations per step attempt with the Krylov solver (diffsol's default is 10).
+///
+/// The BDF Newton iteration keeps its matrix I − hγJ for up to 20 steps and J for up to 50
+/// while it converges at all. On the generated networks of docs/performance.md the lagged
+/// matrix often contracts the correction only by 0.5–0.65 per iteration, and diffsol then
+/// iterates 5–9 times per step rather than refreshing it: a third of all Newton iterations
+/// were spent in such steps. With a cap of 4 a slowly converging iteration counts as a
+/// convergence failure, after which diffsol refreshes the Jacobian (or the matrix with the
+/// current step size) and retries the same step; its rate test also gives up early when the
+/// measured rate cannot reach the tolerance within the cap. CVODE caps the corrector at 3
+/// iterations for the same reason (Hindmarsh et al., ACM TOMS 31 (2005) 363, `maxcor`, from
+/// memory). Measured on the generated 300/1000 and 1000/3000 networks (docs/performance.md):
+/// caps of 3, 4, 5 and 10 gave 1.48/1.57, 1.55/1.61, 1.66/1.69 and 1.97/2.14 Newton
+/// iterations per step, and at 1000/3000 a cap of 4 took the fewest instructions
+/// (3.12 × 10⁹ against 3.24 × 10⁹ with 3, callgrind, δ ≤ 1e-3). The dense and sparse direct paths keep
+/// diffsol's default (small systems, unchanged results).
+const KRYLOV_NEWTON_ITERATIONS: usize = 4;
+
 /// Tolerances and limits of the integration.
 ///
 /// The local error of each step is kept below 1 in the weighted RMS norm
@@ -354,6 +378,7 @@ fn run(
     let mut sh = Shared::new(sys);
     if la == LinearAlgebra::Krylov {
         sh.latest = Some(Rc::new(WeightSource {
+            newton_tolerance: NEWTON_TOLERANCE,
             rtol: opts.rtol,
             atol: opts.atol.clone(),
             y: RefCell::new(y0.to_vec()),
@@ -383,6 +408,10 @@ fn run(
                 return Err(e);
             }
             problem.ode_options.max_number_timesteps = opts.max_steps;
+            problem.ode_options.nonlinear_solver_tolerance = NEWTON_TOLERANCE;
+            if la == LinearAlgebra::Krylov {
+                problem.ode_options.max_nonlinear_solver_iterations = KRYLOV_NEWTON_ITERATIONS;
+            }
             // diffsol's default step floor is an absolute f64::EPSILON, which is wrong for a
             // reactor measured in m3 (a 0.1 m3 PFR with fast steps needs steps far below it);
             // make the floor relative to the length of the integration instead.
