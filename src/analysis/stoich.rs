@@ -6,16 +6,15 @@
 //! null space {y : yᵀν = 0}: every such y is a combination of species amounts that no reaction
 //! changes (element balances are among them).
 
-use crate::exact::{Q, SparseQMatrix};
+use crate::exact::{Coef, SparseQMatrix};
 use crate::model::Network;
 use num_bigint::BigInt;
-use num_traits::Zero;
 
 /// A dependent reaction and its combination of independent ones: ν_dep = Σ c_i ν_i.
 #[derive(Debug, Clone)]
 pub struct Dependent {
     pub reaction: usize,
-    pub combination: Vec<(usize, Q)>,
+    pub combination: Vec<(usize, Coef)>,
 }
 
 /// Result of the stoichiometric analysis.
@@ -57,20 +56,18 @@ pub fn analyse(net: &Network) -> Stoichiometry {
     // `net` and `net_exact` hold the same species (the first is converted from the second).
     let reacting = net.reacting_species();
     let m = exact_matrix(net, &reacting);
-    let dep = m.column_dependence();
+    let dep = m.dependence();
+    drop(m);
     let dependent = dep
         .dependent
         .into_iter()
         .map(|(reaction, combination)| Dependent {
             reaction,
-            combination: combination
-                .into_iter()
-                .filter(|(_, c)| !c.is_zero())
-                .collect(),
+            combination,
         })
         .collect();
-    let mut conservation_laws: Vec<Vec<(usize, BigInt)>> = m
-        .left_null_space()
+    let mut conservation_laws: Vec<Vec<(usize, BigInt)>> = dep
+        .left_null_space
         .into_iter()
         .map(|v| v.into_iter().map(|(r, c)| (reacting[r], c)).collect())
         .collect();
