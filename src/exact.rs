@@ -499,20 +499,20 @@ fn dependence_of_rows(rows: Vec<SparseRow>, ncols: usize) -> ColumnDependence {
     }
 }
 
-/// An exact rational coefficient stored compactly: a reduced `i64` fraction when it fits (16
-/// bytes, no heap), an arbitrary-precision one otherwise. Large networks have millions of
-/// combination coefficients, nearly all small integers.
+/// An exact rational coefficient stored compactly: a reduced fraction of 32-bit integers when
+/// it fits (16 bytes with its tag, no heap), an arbitrary-precision one otherwise. Large
+/// networks have millions of combination coefficients, nearly all small integers.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum Coef {
     /// `num/den`, reduced, `den > 0`.
-    Small(i64, i64),
+    Small(i32, u32),
     Big(Box<Q>),
 }
 
 impl Coef {
     /// The coefficient equal to `q`.
     pub fn from_q(q: Q) -> Coef {
-        match (q.numer().to_i64(), q.denom().to_i64()) {
+        match (q.numer().to_i32(), q.denom().to_u32()) {
             (Some(a), Some(b)) => Coef::Small(a, b),
             _ => Coef::Big(Box::new(q)),
         }
@@ -525,7 +525,7 @@ impl Coef {
         if b < 0 {
             (a, b) = (-a, -b);
         }
-        match (i64::try_from(a), i64::try_from(b)) {
+        match (i32::try_from(a), u32::try_from(b)) {
             (Ok(a), Ok(b)) => Coef::Small(a, b),
             _ => Coef::Big(Box::new(Ratio::new(BigInt::from(a), BigInt::from(b)))),
         }
@@ -541,14 +541,11 @@ impl Coef {
 
     /// The f64 nearest to the value, exactly as [`to_f64`] rounds it.
     pub fn to_f64(&self) -> f64 {
-        const EXACT: u64 = 1 << 53;
         match self {
             // Both parts are exact f64s, and IEEE 754 division rounds the true quotient to
             // nearest: the same f64 as the correctly rounded conversion of the fraction.
-            Coef::Small(a, b) if a.unsigned_abs() <= EXACT && b.unsigned_abs() <= EXACT => {
-                *a as f64 / *b as f64
-            }
-            _ => to_f64(&self.to_q()),
+            Coef::Small(a, b) => f64::from(*a) / f64::from(*b),
+            Coef::Big(q) => to_f64(q),
         }
     }
 
@@ -580,7 +577,7 @@ impl Coef {
     /// |c|.
     pub fn abs(&self) -> Coef {
         match self {
-            Coef::Small(a, b) if *a != i64::MIN => Coef::Small(a.abs(), *b),
+            Coef::Small(a, b) if *a != i32::MIN => Coef::Small(a.abs(), *b),
             _ => Coef::from_q(self.to_q().abs()),
         }
     }
@@ -597,6 +594,82 @@ impl std::fmt::Display for Coef {
     }
 }
 
+/// An exact sparse combination `Σ c_k col_k`: its terms `(column, c_k)`, 12 bytes each (column,
+/// numerator, denominator as 32-bit integers), coefficients too large for that kept aside.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Terms {
+    /// (column, numerator, denominator); a denominator of 0 marks `big[numerator]`.
+    terms: Vec<(u32, i32, u32)>,
+    big: Vec<Q>,
+}
+
+impl Terms {
+    pub fn with_capacity(n: usize) -> Self {
+        Terms {
+            terms: Vec::with_capacity(n),
+            big: Vec::new(),
+        }
+    }
+
+    /// Appends the term `c · col_column`.
+    pub fn push(&mut self, column: usize, c: Coef) {
+        let column = u32::try_from(column).expect("fewer than 2^32 columns");
+        match c {
+            Coef::Small(a, b) => self.terms.push((column, a, b)),
+            Coef::Big(q) => {
+                let at = i32::try_from(self.big.len()).expect("fewer than 2^31 large coefficients");
+                self.big.push(*q);
+                self.terms.push((column, at, 0));
+            }
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.terms.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.terms.is_empty()
+    }
+
+    /// The `n`-th term.
+    pub fn get(&self, n: usize) -> (usize, Coef) {
+        let (c, a, b) = self.terms[n];
+        let coef = if b == 0 {
+            Coef::Big(Box::new(self.big[a as usize].clone()))
+        } else {
+            Coef::Small(a, b)
+        };
+        (c as usize, coef)
+    }
+
+    /// The terms in their order.
+    pub fn iter(&self) -> impl Iterator<Item = (usize, Coef)> + '_ {
+        (0..self.terms.len()).map(|n| self.get(n))
+    }
+
+    /// The column of each term, in order.
+    pub fn columns(&self) -> impl Iterator<Item = usize> + Clone + '_ {
+        self.terms.iter().map(|t| t.0 as usize)
+    }
+
+    /// Reorders the terms by a key of their column.
+    pub fn sort_by_column_key<K: Ord>(&mut self, mut key: impl FnMut(usize) -> K) {
+        self.terms.sort_unstable_by_key(|t| key(t.0 as usize));
+    }
+}
+
+impl FromIterator<(usize, Coef)> for Terms {
+    fn from_iter<I: IntoIterator<Item = (usize, Coef)>>(iter: I) -> Self {
+        let iter = iter.into_iter();
+        let mut t = Terms::with_capacity(iter.size_hint().0);
+        for (c, q) in iter {
+            t.push(c, q);
+        }
+        t
+    }
+}
+
 /// The column dependence of a matrix and the basis of its left null space, all exact.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Dependence {
@@ -605,7 +678,7 @@ pub struct Dependence {
     pub independent: Vec<usize>,
     /// Each other column `j` with its non-zero coefficients `c_k` over the independent columns
     /// `k < j` (increasing) such that `col_j = Σ_k c_k col_k`; a zero column has an empty list.
-    pub dependent: Vec<(usize, Vec<(usize, Coef)>)>,
+    pub dependent: Vec<(usize, Terms)>,
     /// Basis of `{y : yᵀ m = 0}`, as in [`left_null_space`]: one vector per row that is a
     /// combination of the rows before it, sparse, coprime integers, first entry positive.
     pub left_null_space: Vec<SparseRow>,
@@ -660,22 +733,7 @@ impl SparseQMatrix {
     /// [`Self::dependence`] over the prime field `f`, `None` when an answer cannot be confirmed.
     pub(crate) fn dependence_modular<F: modular::PrimeField>(&self, f: F) -> Option<Dependence> {
         let (cols, col_scale) = self.integer_columns()?;
-        let (by_col, factor) = modular::greedy_dependence(f, &cols)?;
-        // Coefficients were found for the integer-scaled columns s_j col_j; c_i = c̃_i s_i / s_j.
-        let dependent = by_col
-            .dependent
-            .into_iter()
-            .map(|(j, c)| {
-                let c = c
-                    .into_iter()
-                    .map(|(i, (a, b))| {
-                        let num = a as i128 * col_scale[i] as i128;
-                        (i, Coef::from_ratio(num, b as i128 * col_scale[j] as i128))
-                    })
-                    .collect();
-                (j, c)
-            })
-            .collect();
+        let (by_col, factor) = modular::greedy_dependence(f, &cols, &col_scale)?;
         // Scaling columns leaves {y : yᵀ m = 0} unchanged. Each vector as coprime integers,
         // first entry positive; when they cannot be confirmed, the exact elimination of mᵀ.
         let left_null_space = match modular::left_null_space(f, &factor, &cols) {
@@ -696,7 +754,7 @@ impl SparseQMatrix {
         };
         Some(Dependence {
             independent: by_col.independent,
-            dependent,
+            dependent: by_col.dependent,
             left_null_space,
         })
     }

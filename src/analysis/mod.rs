@@ -7,6 +7,7 @@ pub mod stoich;
 pub mod table;
 pub mod thermo;
 
+use crate::exact::Terms;
 use crate::model::Network;
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -37,20 +38,20 @@ pub struct DependentOut {
     pub text: String,
 }
 
-/// Reaction id -> coefficient, in id order: the reaction ids are shared by every combination
-/// of a check rather than copied into each (a large network has millions of terms). Written
-/// as a JSON object, the same as a `BTreeMap<String, f64>`.
+/// Reaction id -> coefficient, in id order: the exact terms with the reaction ids shared by
+/// every combination of a check rather than copied into each (a large network has millions of
+/// terms). Written as a JSON object of f64s, the same as a `BTreeMap<String, f64>`.
 #[derive(Debug, Clone)]
 pub struct Combination {
     ids: Arc<[String]>,
-    /// (reaction index, coefficient), sorted by the reaction's id.
-    terms: Vec<(u32, f64)>,
+    /// Sorted by the reaction's id.
+    terms: Terms,
 }
 
 impl Combination {
-    fn new(ids: &Arc<[String]>, terms: impl IntoIterator<Item = (usize, f64)>) -> Self {
-        let mut terms: Vec<(u32, f64)> = terms.into_iter().map(|(i, c)| (i as u32, c)).collect();
-        terms.sort_unstable_by(|a, b| ids[a.0 as usize].cmp(&ids[b.0 as usize]));
+    /// `place[i]` is reaction i's place among the ids in sorted order.
+    fn new(ids: &Arc<[String]>, place: &[u32], mut terms: Terms) -> Self {
+        terms.sort_by_column_key(|i| place[i]);
         Combination {
             ids: ids.clone(),
             terms,
@@ -58,8 +59,8 @@ impl Combination {
     }
 
     /// (reaction id, coefficient) in id order.
-    pub fn iter(&self) -> impl Iterator<Item = (&String, &f64)> {
-        self.terms.iter().map(|(i, c)| (&self.ids[*i as usize], c))
+    pub fn iter(&self) -> impl Iterator<Item = (&String, f64)> {
+        self.terms.iter().map(|(i, c)| (&self.ids[i], c.to_f64()))
     }
 
     pub fn len(&self) -> usize {
@@ -72,7 +73,7 @@ impl Combination {
 
     /// The coefficient of the reaction with this id, if it is in the combination.
     pub fn get(&self, id: &str) -> Option<f64> {
-        self.iter().find(|(i, _)| i.as_str() == id).map(|(_, c)| *c)
+        self.iter().find(|(i, _)| i.as_str() == id).map(|(_, c)| c)
     }
 }
 
@@ -169,7 +170,7 @@ fn combination_text(net: &Network, d: &stoich::Dependent) -> String {
     s.push_str(&net.reactions[d.reaction].id);
     s.push_str(" =");
     for (n, (i, c)) in d.combination.iter().enumerate() {
-        let id = &net.reactions[*i].id;
+        let id = &net.reactions[i].id;
         let sign = match (n == 0, c.is_negative()) {
             (true, true) => " −",
             (true, false) => " ",
@@ -275,7 +276,7 @@ fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
     }
     for d in &st.dependent {
         if d.combination.len() == 1 {
-            let (i, c) = &d.combination[0];
+            let (i, c) = d.combination.get(0);
             let what = if c.is_one() {
                 "the same reaction as".to_string()
             } else {
@@ -286,7 +287,7 @@ fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
                 format!(
                     "duplicate reaction: `{}` is {what} `{}`; both rates act on the species",
                     rx(d.reaction),
-                    rx(*i)
+                    rx(i)
                 ),
             );
         }
@@ -373,11 +374,21 @@ fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
     }
     // Species usage.
     let entering = net.fed_species();
+    // Per species, in one pass over the reactions: written in any, consumed net by any.
+    let mut written = vec![false; net.species.len()];
+    let mut consumed = vec![false; net.species.len()];
+    for r in &net.reactions {
+        for t in r.reactants.iter().chain(r.products.iter()) {
+            written[t.species] = true;
+        }
+        for &(j, _) in &r.net {
+            if r.nu(j) < 0.0 {
+                consumed[j] = true;
+            }
+        }
+    }
     for (j, s) in net.species.iter().enumerate() {
-        let in_any = net
-            .reactions
-            .iter()
-            .any(|r| r.has_reactant(j) || r.has_product(j));
+        let in_any = written[j];
         let fed = entering[j];
         if !in_any && !fed {
             add(
@@ -395,7 +406,7 @@ fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
                     s.name
                 ),
             );
-        } else if fed && !net.reactions.iter().any(|r| r.nu(j) < 0.0) {
+        } else if fed && !consumed[j] {
             add(
                 Severity::Info,
                 format!(
@@ -485,22 +496,26 @@ fn report_of(net: &Network, a: Analyses, findings: Vec<Finding>) -> Check {
     let sp = |j: usize| net.species[j].name.clone();
     let rx = |i: usize| net.reactions[i].id.clone();
     let ids: Arc<[String]> = net.reactions.iter().map(|r| r.id.clone()).collect();
+    let mut by_id: Vec<u32> = (0..ids.len() as u32).collect();
+    by_id.sort_unstable_by(|a, b| ids[*a as usize].cmp(&ids[*b as usize]));
+    let mut place = vec![0u32; ids.len()];
+    for (k, &i) in by_id.iter().enumerate() {
+        place[i as usize] = k as u32;
+    }
     Check {
         name: net.name.clone(),
         species: net.species.len(),
         reactions: net.reactions.len(),
         rank: st.rank,
         independent: st.independent.iter().map(|&i| rx(i)).collect(),
+        // Each combination is freed once written out: a large network holds millions of terms.
         dependent: st
             .dependent
-            .iter()
+            .into_iter()
             .map(|d| DependentOut {
                 reaction: rx(d.reaction),
-                combination: Combination::new(
-                    &ids,
-                    d.combination.iter().map(|(i, c)| (*i, c.to_f64())),
-                ),
-                text: combination_text(net, d),
+                text: combination_text(net, &d),
+                combination: Combination::new(&ids, &place, d.combination),
             })
             .collect(),
         atom_balance: bal

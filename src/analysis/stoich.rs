@@ -6,7 +6,7 @@
 //! null space {y : yᵀν = 0}: every such y is a combination of species amounts that no reaction
 //! changes (element balances are among them).
 
-use crate::exact::{Coef, SparseQMatrix};
+use crate::exact::{SparseQMatrix, Terms};
 use crate::model::Network;
 use num_bigint::BigInt;
 
@@ -14,7 +14,7 @@ use num_bigint::BigInt;
 #[derive(Debug, Clone)]
 pub struct Dependent {
     pub reaction: usize,
-    pub combination: Vec<(usize, Coef)>,
+    pub combination: Terms,
 }
 
 /// Result of the stoichiometric analysis.

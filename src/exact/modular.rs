@@ -19,6 +19,7 @@
 //! rational elimination. Why a confirmed answer is the exact one is argued in
 //! docs/methods.md and in [`super::SparseQMatrix::dependence`].
 
+use super::{Coef, Terms};
 use num_integer::Integer;
 
 /// Arithmetic modulo a prime `p < 2^63`, values kept in `0..p`.
@@ -157,7 +158,7 @@ pub(crate) type Frac = (i64, i64);
 /// `col_j = Σ c_i col_i` exactly. `None` when the prime field could not give a confirmed answer.
 pub(crate) struct GreedyDependence {
     pub independent: Vec<usize>,
-    pub dependent: Vec<(usize, Vec<(usize, Frac)>)>,
+    pub dependent: Vec<(usize, Terms)>,
 }
 
 const NONE: u32 = u32::MAX;
@@ -174,9 +175,13 @@ pub(crate) struct LowerFactor {
 }
 
 /// See the module documentation.
+///
+/// `cols` are the integer columns `s_j a_j` of a matrix `A`; the coefficients returned are for
+/// `A` itself: `c_i = c̃_i s_i / s_j` from those `c̃` found for the integer columns.
 pub(crate) fn greedy_dependence<F: PrimeField>(
     f: F,
     cols: &IntColumns,
+    scale: &[i64],
 ) -> Option<(GreedyDependence, LowerFactor)> {
     let nrows = cols.nrows;
     let ncols = cols.ncols();
@@ -310,6 +315,13 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
                 if !check.is_combination(cols, j, &combination)? {
                     return None;
                 }
+                let combination: Terms = combination
+                    .into_iter()
+                    .map(|(i, (a, b))| {
+                        let num = a as i128 * scale[i] as i128;
+                        (i, Coef::from_ratio(num, b as i128 * scale[j] as i128))
+                    })
+                    .collect();
                 dependent.push((j, combination));
             }
         }
