@@ -31,7 +31,7 @@ use num_integer::Integer;
 use num_rational::Ratio;
 use num_traits::{One, Signed, ToPrimitive, Zero};
 
-mod modular;
+pub(crate) mod modular;
 
 /// An exact rational number.
 pub type Q = num_rational::BigRational;
@@ -1373,6 +1373,149 @@ mod tests {
     #[test]
     fn sparse_1000_by_3000_rank() {
         check_mass_balanced(1000, 3000, 7, false);
+    }
+
+    /// The primes the fall-back tests use: tiny ones make unlucky columns common.
+    const SMALL_PRIMES: [u64; 6] = [2, 3, 5, 7, 101, 65_537];
+
+    /// The prime-field answer, when it is given, is the exact rational one; the combined
+    /// answer always is.
+    fn check_modular(m: &QMatrix) {
+        let s = SparseQMatrix::from(m);
+        let exact = s.dependence_rational();
+        assert_eq!(s.dependence(), exact);
+        for p in SMALL_PRIMES {
+            if let Some(d) = s.dependence_modular(modular::Prime(p)) {
+                assert_eq!(d, exact, "mod {p}");
+            }
+        }
+        // The rational path itself agrees with the dense reference.
+        assert_eq!(exact.independent.len(), dense_rank(m));
+        assert_eq!(exact.left_null_space.len(), m.rows() - dense_rank(m));
+    }
+
+    #[test]
+    fn unlucky_prime_falls_back_to_the_exact_answer() {
+        // Columns (1, 1) and (1, 4): det = 3, so they are independent over ℚ but equal mod 3.
+        let m = mat_i(&[&[1, 1], &[1, 4]]);
+        let s = SparseQMatrix::from(&m);
+        assert!(s.dependence_modular(modular::Prime(3)).is_none());
+        let d = s.dependence();
+        assert_eq!(d.independent, vec![0, 1]);
+        assert!(d.dependent.is_empty());
+        assert!(d.left_null_space.is_empty());
+        assert_eq!(s.dependence_modular(modular::Prime(5)), Some(d));
+    }
+
+    #[test]
+    fn unreconstructible_coefficient_falls_back_to_the_exact_answer() {
+        // col1 = 1/5 col0; modulo 7 the only fractions that reconstruct are 0 and ±1.
+        let m = mat_i(&[&[5, 1], &[10, 2]]);
+        let s = SparseQMatrix::from(&m);
+        assert!(s.dependence_modular(modular::Prime(7)).is_none());
+        let d = s.dependence();
+        assert_eq!(d.independent, vec![0]);
+        assert_eq!(
+            d.dependent,
+            vec![(1, [(0, Coef::Small(1, 5))].into_iter().collect())]
+        );
+        // 2 N_0 − N_1 is conserved: (2, −1)·(5, 10) = 0.
+        assert_eq!(
+            d.left_null_space,
+            vec![vec![(0, BigInt::from(2)), (1, BigInt::from(-1))]]
+        );
+        assert_eq!(s.dependence_modular(modular::Mersenne61), Some(d));
+    }
+
+    #[test]
+    fn modular_agrees_with_rational_on_random_matrices() {
+        let mut rng = Rng(0xFA57);
+        for _ in 0..300 {
+            let rows = rng.below(8) as usize;
+            let cols = rng.below(8) as usize;
+            let density = 1 + rng.below(4);
+            let m = QMatrix::from_fn(rows, cols, |_, _| {
+                if rng.below(4) < density {
+                    q(rng.below(9) as i64 - 4)
+                } else {
+                    q(0)
+                }
+            });
+            check_modular(&m);
+        }
+        for _ in 0..100 {
+            let rows = 1 + rng.below(6) as usize;
+            let cols = 1 + rng.below(6) as usize;
+            let m = QMatrix::from_fn(rows, cols, |_, _| {
+                Ratio::new(
+                    BigInt::from(rng.below(9) as i64 - 4),
+                    BigInt::from(1 + rng.below(6)),
+                )
+            });
+            check_modular(&m);
+        }
+        // Rank-deficient by construction: every column a combination of three random ones.
+        for _ in 0..100 {
+            let rows = 2 + rng.below(6) as usize;
+            let cols = 4 + rng.below(6) as usize;
+            let base: Vec<Vec<i64>> = (0..3)
+                .map(|_| (0..rows).map(|_| rng.below(7) as i64 - 3).collect())
+                .collect();
+            let mix: Vec<[i64; 3]> = (0..cols)
+                .map(|_| [0; 3].map(|_| rng.below(5) as i64 - 2))
+                .collect();
+            let m = QMatrix::from_fn(rows, cols, |r, c| {
+                q((0..3).map(|k| mix[c][k] * base[k][r]).sum())
+            });
+            check_modular(&m);
+        }
+    }
+
+    #[test]
+    fn coefficients_beyond_one_prime_fall_back_to_the_exact_answer() {
+        // The chain-built mass-balanced network has combination coefficients of about 70
+        // bits, more than reconstruction modulo 2^61 − 1 can recover (|a|, b ≤ 2^30): the
+        // prime field declines and the rational elimination answers, with the known
+        // conservation law (the masses w).
+        let (m, w) = mass_balanced_network(200, 600, 42);
+        let s = SparseQMatrix::from(&m);
+        assert!(s.dependence_modular(modular::Mersenne61).is_none());
+        let d = s.dependence();
+        assert_eq!(d, s.dependence_rational());
+        assert_eq!(d.independent.len(), 199);
+        let g = w.iter().fold(0i64, |g, x| g.gcd(x));
+        let expected: SparseRow = w
+            .iter()
+            .enumerate()
+            .map(|(i, &x)| (i, BigInt::from(x / g)))
+            .collect();
+        assert_eq!(d.left_null_space, vec![expected]);
+    }
+
+    #[test]
+    fn compact_coefficients_round_like_rationals() {
+        let mut rng = Rng(0xC0EF);
+        for _ in 0..2000 {
+            let a = (rng.next() as i64 >> (1 + rng.below(62))) as i128;
+            let b = 1 + (rng.next() >> (1 + rng.below(62))) as i128;
+            let c = Coef::from_ratio(a, b);
+            let qv = Ratio::new(BigInt::from(a), BigInt::from(b));
+            assert_eq!(c.to_q(), qv);
+            assert_eq!(c.to_f64(), to_f64(&qv), "{a}/{b}");
+            assert_eq!(c.to_string(), qv.to_string());
+            assert_eq!(Coef::from_q(qv.clone()), c);
+            assert_eq!(c.abs().to_q(), qv.abs());
+            assert_eq!(c.is_negative(), qv.is_negative());
+            assert_eq!(c.is_integer(), qv.is_integer());
+        }
+        let big = qd("12345678901234567890.5");
+        let mut t = Terms::default();
+        t.push(3, Coef::Small(-1, 2));
+        t.push(7, Coef::from_q(big.clone()));
+        t.push(1, Coef::Small(4, 1));
+        t.sort_by_column_key(|c| c);
+        let got: Vec<(usize, Q)> = t.iter().map(|(c, v)| (c, v.to_q())).collect();
+        assert_eq!(got, vec![(1, q(4)), (3, qd("-0.5")), (7, big)]);
     }
 
     #[test]

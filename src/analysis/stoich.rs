@@ -87,3 +87,30 @@ pub fn analyse(net: &Network) -> Stoichiometry {
         conservation_laws,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::exact::modular::Mersenne61;
+
+    /// A generated network (small integer coefficients, as real mechanisms have) is answered
+    /// by the prime field with every answer confirmed, and the answer is the rational one.
+    #[test]
+    fn generated_network_takes_the_prime_field_path() {
+        let spec = crate::generate::GeneratorSpec {
+            species: 300,
+            reactions: 1000,
+            seed: 3,
+            ..Default::default()
+        };
+        let text = crate::generate::generate_study(&spec).expect("generated");
+        let net = crate::load_str(&text, "generated", &[]).expect("loads");
+        let m = exact_matrix(&net, &net.reacting_species());
+        let fast = m
+            .dependence_modular(Mersenne61)
+            .expect("confirmed mod 2^61 − 1");
+        assert_eq!(fast, m.dependence_rational());
+        assert_eq!(fast.independent.len(), 299);
+        assert_eq!(fast.left_null_space.len(), 1);
+    }
+}

@@ -43,7 +43,7 @@ pub(crate) trait PrimeField: Copy {
         }
         out
     }
-    fn from_i64(self, v: i64) -> u64 {
+    fn reduce(self, v: i64) -> u64 {
         (v as i128).rem_euclid(self.p() as i128) as u64
     }
 }
@@ -235,7 +235,7 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
         for (r, v) in cols.col(j) {
             future[r] -= 1;
             touch(r as u32, &mut touched, &mut heap);
-            x[r] = f.from_i64(v);
+            x[r] = f.reduce(v);
         }
         // Forward solve L y = a_j over the pivot rows, in pivot order.
         while let Some(std::cmp::Reverse(k)) = heap.pop() {
@@ -344,6 +344,9 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
     ))
 }
 
+/// A conservation law: the row `f` it belongs to and its `(row, y_row)` entries, `y_f = 1`.
+pub(crate) type Law = (usize, Vec<(usize, Frac)>);
+
 /// At most this many conservation laws are sought mod p: putting the basis into the form with
 /// one law per dependent row costs up to (laws)² sparse row operations.
 const MAX_LAWS: usize = 2000;
@@ -363,7 +366,7 @@ pub(crate) fn left_null_space<F: PrimeField>(
     f: F,
     factor: &LowerFactor,
     cols: &IntColumns,
-) -> Option<Vec<(usize, Vec<(usize, Frac)>)>> {
+) -> Option<Vec<Law>> {
     let n = factor.nrows;
     let rank = factor.pivot_row.len();
     let laws = n - rank;
@@ -595,7 +598,7 @@ mod tests {
                 assert_eq!(Mersenne61.mul(a % M61, Mersenne61.inv(a % M61)), 1);
             }
         }
-        assert_eq!(Mersenne61.from_i64(-1), M61 - 1);
+        assert_eq!(Mersenne61.reduce(-1), M61 - 1);
     }
 
     #[test]
@@ -610,7 +613,7 @@ mod tests {
             (1_000_000, 999_999),
             (-5, 1 << 29),
         ] {
-            let v = f.mul(f.from_i64(a), f.inv(f.from_i64(b)));
+            let v = f.mul(f.reduce(a), f.inv(f.reduce(b)));
             assert_eq!(reconstruct(v, M61), Some((a, b)), "{a}/{b}");
         }
         // Modulo 7 the bound is √3 → 1: 3 ≡ 1/5 ≡ −4 has no small form.
