@@ -520,6 +520,12 @@ impl Coef {
 
     /// The coefficient `num/den` (`den ≠ 0`), reduced.
     pub fn from_ratio(num: i128, den: i128) -> Coef {
+        // The common case, an integer that fits, needs no gcd.
+        if den == 1
+            && let Ok(a) = i32::try_from(num)
+        {
+            return Coef::Small(a, 1);
+        }
         let g = num.gcd(&den);
         let (mut a, mut b) = (num / g, den / g);
         if b < 0 {
