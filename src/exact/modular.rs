@@ -533,8 +533,11 @@ impl Checker {
     ) -> Option<bool> {
         let mut d: i128 = 1;
         for &(_, (_, b)) in combination {
-            let b = b as i128;
-            d = (d / d.gcd(&b)).checked_mul(b)?;
+            // Integer coefficients (the common case) leave d = 1 without a 128-bit gcd.
+            if b != 1 {
+                let b = b as i128;
+                d = (d / d.gcd(&b)).checked_mul(b)?;
+            }
         }
         let result = self.accumulate(cols, j, d, combination);
         let ok = result.map(|()| self.touched.iter().all(|&r| self.acc[r] == 0));
@@ -565,7 +568,11 @@ impl Checker {
         };
         add(self, j, d)?;
         for &(i, (a, b)) in combination {
-            let m = (a as i128).checked_mul(d / b as i128)?;
+            let m = if d == 1 {
+                a as i128
+            } else {
+                (a as i128).checked_mul(d / b as i128)?
+            };
             add(self, i, -m)?;
         }
         Some(())
