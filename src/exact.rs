@@ -31,6 +31,8 @@ use num_integer::Integer;
 use num_rational::Ratio;
 use num_traits::{One, Signed, ToPrimitive, Zero};
 
+pub(crate) mod modular;
+
 /// An exact rational number.
 pub type Q = num_rational::BigRational;
 
@@ -494,6 +496,307 @@ fn dependence_of_rows(rows: Vec<SparseRow>, ncols: usize) -> ColumnDependence {
     ColumnDependence {
         independent: pivots,
         dependent,
+    }
+}
+
+/// An exact rational coefficient stored compactly: a reduced fraction of 32-bit integers when
+/// it fits (16 bytes with its tag, no heap), an arbitrary-precision one otherwise. Large
+/// networks have millions of combination coefficients, nearly all small integers.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Coef {
+    /// `num/den`, reduced, `den > 0`.
+    Small(i32, u32),
+    Big(Box<Q>),
+}
+
+impl Coef {
+    /// The coefficient equal to `q`.
+    pub fn from_q(q: Q) -> Coef {
+        match (q.numer().to_i32(), q.denom().to_u32()) {
+            (Some(a), Some(b)) => Coef::Small(a, b),
+            _ => Coef::Big(Box::new(q)),
+        }
+    }
+
+    /// The coefficient `num/den` (`den ≠ 0`), reduced.
+    pub fn from_ratio(num: i128, den: i128) -> Coef {
+        // The common case, an integer that fits, needs no gcd.
+        if den == 1
+            && let Ok(a) = i32::try_from(num)
+        {
+            return Coef::Small(a, 1);
+        }
+        let g = num.gcd(&den);
+        let (mut a, mut b) = (num / g, den / g);
+        if b < 0 {
+            (a, b) = (-a, -b);
+        }
+        match (i32::try_from(a), u32::try_from(b)) {
+            (Ok(a), Ok(b)) => Coef::Small(a, b),
+            _ => Coef::Big(Box::new(Ratio::new(BigInt::from(a), BigInt::from(b)))),
+        }
+    }
+
+    /// The same value as a [`Q`].
+    pub fn to_q(&self) -> Q {
+        match self {
+            Coef::Small(a, b) => Ratio::new_raw(BigInt::from(*a), BigInt::from(*b)),
+            Coef::Big(q) => (**q).clone(),
+        }
+    }
+
+    /// The f64 nearest to the value, exactly as [`to_f64`] rounds it.
+    pub fn to_f64(&self) -> f64 {
+        match self {
+            // Both parts are exact f64s, and IEEE 754 division rounds the true quotient to
+            // nearest: the same f64 as the correctly rounded conversion of the fraction.
+            Coef::Small(a, b) => f64::from(*a) / f64::from(*b),
+            Coef::Big(q) => to_f64(q),
+        }
+    }
+
+    pub fn is_integer(&self) -> bool {
+        match self {
+            Coef::Small(_, b) => *b == 1,
+            Coef::Big(q) => q.is_integer(),
+        }
+    }
+
+    pub fn is_negative(&self) -> bool {
+        match self {
+            Coef::Small(a, _) => *a < 0,
+            Coef::Big(q) => q.is_negative(),
+        }
+    }
+
+    pub fn is_one(&self) -> bool {
+        matches!(self, Coef::Small(1, 1))
+    }
+
+    pub fn is_zero(&self) -> bool {
+        match self {
+            Coef::Small(a, _) => *a == 0,
+            Coef::Big(q) => q.is_zero(),
+        }
+    }
+
+    /// |c|.
+    pub fn abs(&self) -> Coef {
+        match self {
+            Coef::Small(a, b) if *a != i32::MIN => Coef::Small(a.abs(), *b),
+            _ => Coef::from_q(self.to_q().abs()),
+        }
+    }
+}
+
+/// "n" for an integer, "n/d" otherwise (like [`Q`]).
+impl std::fmt::Display for Coef {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Coef::Small(a, 1) => write!(f, "{a}"),
+            Coef::Small(a, b) => write!(f, "{a}/{b}"),
+            Coef::Big(q) => write!(f, "{q}"),
+        }
+    }
+}
+
+/// An exact sparse combination `Σ c_k col_k`: its terms `(column, c_k)`, 12 bytes each (column,
+/// numerator, denominator as 32-bit integers), coefficients too large for that kept aside.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Terms {
+    /// (column, numerator, denominator); a denominator of 0 marks `big[numerator]`.
+    terms: Vec<(u32, i32, u32)>,
+    big: Vec<Q>,
+}
+
+impl Terms {
+    pub fn with_capacity(n: usize) -> Self {
+        Terms {
+            terms: Vec::with_capacity(n),
+            big: Vec::new(),
+        }
+    }
+
+    /// Appends the term `c · col_column`.
+    pub fn push(&mut self, column: usize, c: Coef) {
+        let column = u32::try_from(column).expect("fewer than 2^32 columns");
+        match c {
+            Coef::Small(a, b) => self.terms.push((column, a, b)),
+            Coef::Big(q) => {
+                let at = i32::try_from(self.big.len()).expect("fewer than 2^31 large coefficients");
+                self.big.push(*q);
+                self.terms.push((column, at, 0));
+            }
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.terms.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.terms.is_empty()
+    }
+
+    /// The `n`-th term.
+    pub fn get(&self, n: usize) -> (usize, Coef) {
+        let (c, a, b) = self.terms[n];
+        let coef = if b == 0 {
+            Coef::Big(Box::new(self.big[a as usize].clone()))
+        } else {
+            Coef::Small(a, b)
+        };
+        (c as usize, coef)
+    }
+
+    /// The terms in their order.
+    pub fn iter(&self) -> impl Iterator<Item = (usize, Coef)> + '_ {
+        (0..self.terms.len()).map(|n| self.get(n))
+    }
+
+    /// The column of each term, in order.
+    pub fn columns(&self) -> impl Iterator<Item = usize> + Clone + '_ {
+        self.terms.iter().map(|t| t.0 as usize)
+    }
+
+    /// Reorders the terms by a key of their column.
+    pub fn sort_by_column_key<K: Ord>(&mut self, mut key: impl FnMut(usize) -> K) {
+        self.terms.sort_unstable_by_key(|t| key(t.0 as usize));
+    }
+}
+
+impl FromIterator<(usize, Coef)> for Terms {
+    fn from_iter<I: IntoIterator<Item = (usize, Coef)>>(iter: I) -> Self {
+        let iter = iter.into_iter();
+        let mut t = Terms::with_capacity(iter.size_hint().0);
+        for (c, q) in iter {
+            t.push(c, q);
+        }
+        t
+    }
+}
+
+/// The column dependence of a matrix and the basis of its left null space, all exact.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Dependence {
+    /// Independent columns, greedy in column order: column `j` is independent when it is not a
+    /// combination of the columns before it.
+    pub independent: Vec<usize>,
+    /// Each other column `j` with its non-zero coefficients `c_k` over the independent columns
+    /// `k < j` (increasing) such that `col_j = Σ_k c_k col_k`; a zero column has an empty list.
+    pub dependent: Vec<(usize, Terms)>,
+    /// Basis of `{y : yᵀ m = 0}`, as in [`left_null_space`]: one vector per row that is a
+    /// combination of the rows before it, sparse, coprime integers, first entry positive.
+    pub left_null_space: Vec<SparseRow>,
+}
+
+impl SparseQMatrix {
+    /// Column dependence and left null space (see [`Dependence`]), exact.
+    ///
+    /// First by elimination modulo the prime p = 2^61 − 1 with every answer confirmed over
+    /// the rationals ([`modular`]); if any confirmation fails (an unlucky prime, a coefficient
+    /// too large to reconstruct, an integer overflow), by the exact rational elimination
+    /// ([`Self::dependence_rational`]). The result is the same either way; only the time
+    /// differs.
+    ///
+    /// Why a confirmed modular answer is exact. Let `I` be the columns found independent mod p
+    /// and suppose every other column `j` was confirmed, in exact integer arithmetic, to equal
+    /// `Σ c_i col_i` over columns `i ∈ I`, `i < j`. (a) A set of integer columns that is
+    /// independent mod p is independent over ℚ: a rational relation, scaled to coprime integers,
+    /// would reduce to a non-trivial relation mod p. (b) So for `i ∈ I`, `col_i` is not in the
+    /// span of the earlier columns of `I`, and by the confirmations the earlier columns outside
+    /// `I` add nothing to that span: `i` is independent of all earlier columns over ℚ. (c) Each
+    /// confirmed `j` is a combination of earlier columns over ℚ. Hence `I` is exactly the greedy
+    /// independent set over ℚ, `rank = |I|`, and each confirmed combination is the unique one
+    /// (the columns of `I` are independent). The same argument on the rows gives the rows that
+    /// are combinations of earlier rows, and each confirmed relation `row_f = Σ d_k row_{p_k}` is
+    /// the left null vector `e_f − Σ d_k e_{p_k}`, the same vector (after scaling) as the exact
+    /// reduced echelon form gives.
+    pub fn dependence(&self) -> Dependence {
+        self.dependence_modular(modular::Mersenne61)
+            .unwrap_or_else(|| self.dependence_rational())
+    }
+
+    /// [`Self::dependence`] by the exact rational elimination alone (fraction-free, sparse).
+    pub fn dependence_rational(&self) -> Dependence {
+        let dep = self.column_dependence();
+        Dependence {
+            independent: dep.independent,
+            dependent: dep
+                .dependent
+                .into_iter()
+                .map(|(j, c)| {
+                    (
+                        j,
+                        c.into_iter().map(|(k, q)| (k, Coef::from_q(q))).collect(),
+                    )
+                })
+                .collect(),
+            left_null_space: self.left_null_space(),
+        }
+    }
+
+    /// [`Self::dependence`] over the prime field `f`, `None` when an answer cannot be confirmed.
+    pub(crate) fn dependence_modular<F: modular::PrimeField>(&self, f: F) -> Option<Dependence> {
+        let (cols, col_scale) = self.integer_columns()?;
+        let (by_col, factor) = modular::greedy_dependence(f, &cols, &col_scale)?;
+        // Scaling columns leaves {y : yᵀ m = 0} unchanged. Each vector as coprime integers,
+        // first entry positive; when they cannot be confirmed, the exact elimination of mᵀ.
+        let left_null_space = match modular::left_null_space(f, &factor, &cols) {
+            Some(laws) => laws
+                .into_iter()
+                .map(|(_, y)| {
+                    let lcm = y
+                        .iter()
+                        .fold(BigInt::one(), |l, (_, (_, b))| l.lcm(&BigInt::from(*b)));
+                    let v: SparseRow = y
+                        .iter()
+                        .map(|&(k, (a, b))| (k, BigInt::from(a) * (&lcm / BigInt::from(b))))
+                        .collect();
+                    primitive(v)
+                })
+                .collect(),
+            None => self.left_null_space(),
+        };
+        Some(Dependence {
+            independent: by_col.independent,
+            dependent: by_col.dependent,
+            left_null_space,
+        })
+    }
+
+    /// The columns of the matrix as sparse `i64` columns, each scaled by the lcm of its
+    /// denominators, with those scales; `None` when a number does not fit in an `i64`.
+    fn integer_columns(&self) -> Option<(modular::IntColumns, Vec<i64>)> {
+        let mut lists: Vec<Vec<(usize, &Q)>> = vec![Vec::new(); self.cols];
+        for (r, row) in self.entries.iter().enumerate() {
+            for (c, v) in row {
+                lists[*c].push((r, v));
+            }
+        }
+        let mut cols = modular::IntColumns::new(self.rows);
+        let mut scales = Vec::with_capacity(lists.len());
+        for list in &lists {
+            if list.iter().all(|(_, q)| q.is_integer()) {
+                let ints: Option<Vec<(usize, i64)>> = list
+                    .iter()
+                    .map(|(r, q)| Some((*r, q.numer().to_i64()?)))
+                    .collect();
+                cols.push(ints?);
+                scales.push(1);
+            } else {
+                let lcm = list
+                    .iter()
+                    .fold(BigInt::one(), |acc, (_, q)| acc.lcm(q.denom()));
+                let ints: Option<Vec<(usize, i64)>> = list
+                    .iter()
+                    .map(|(r, q)| Some((*r, (q.numer() * (&lcm / q.denom())).to_i64()?)))
+                    .collect();
+                cols.push(ints?);
+                scales.push(lcm.to_i64()?);
+            }
+        }
+        Some((cols, scales))
     }
 }
 
@@ -1076,6 +1379,149 @@ mod tests {
     #[test]
     fn sparse_1000_by_3000_rank() {
         check_mass_balanced(1000, 3000, 7, false);
+    }
+
+    /// The primes the fall-back tests use: tiny ones make unlucky columns common.
+    const SMALL_PRIMES: [u64; 6] = [2, 3, 5, 7, 101, 65_537];
+
+    /// The prime-field answer, when it is given, is the exact rational one; the combined
+    /// answer always is.
+    fn check_modular(m: &QMatrix) {
+        let s = SparseQMatrix::from(m);
+        let exact = s.dependence_rational();
+        assert_eq!(s.dependence(), exact);
+        for p in SMALL_PRIMES {
+            if let Some(d) = s.dependence_modular(modular::Prime(p)) {
+                assert_eq!(d, exact, "mod {p}");
+            }
+        }
+        // The rational path itself agrees with the dense reference.
+        assert_eq!(exact.independent.len(), dense_rank(m));
+        assert_eq!(exact.left_null_space.len(), m.rows() - dense_rank(m));
+    }
+
+    #[test]
+    fn unlucky_prime_falls_back_to_the_exact_answer() {
+        // Columns (1, 1) and (1, 4): det = 3, so they are independent over ℚ but equal mod 3.
+        let m = mat_i(&[&[1, 1], &[1, 4]]);
+        let s = SparseQMatrix::from(&m);
+        assert!(s.dependence_modular(modular::Prime(3)).is_none());
+        let d = s.dependence();
+        assert_eq!(d.independent, vec![0, 1]);
+        assert!(d.dependent.is_empty());
+        assert!(d.left_null_space.is_empty());
+        assert_eq!(s.dependence_modular(modular::Prime(5)), Some(d));
+    }
+
+    #[test]
+    fn unreconstructible_coefficient_falls_back_to_the_exact_answer() {
+        // col1 = 1/5 col0; modulo 7 the only fractions that reconstruct are 0 and ±1.
+        let m = mat_i(&[&[5, 1], &[10, 2]]);
+        let s = SparseQMatrix::from(&m);
+        assert!(s.dependence_modular(modular::Prime(7)).is_none());
+        let d = s.dependence();
+        assert_eq!(d.independent, vec![0]);
+        assert_eq!(
+            d.dependent,
+            vec![(1, [(0, Coef::Small(1, 5))].into_iter().collect())]
+        );
+        // 2 N_0 − N_1 is conserved: (2, −1)·(5, 10) = 0.
+        assert_eq!(
+            d.left_null_space,
+            vec![vec![(0, BigInt::from(2)), (1, BigInt::from(-1))]]
+        );
+        assert_eq!(s.dependence_modular(modular::Mersenne61), Some(d));
+    }
+
+    #[test]
+    fn modular_agrees_with_rational_on_random_matrices() {
+        let mut rng = Rng(0xFA57);
+        for _ in 0..300 {
+            let rows = rng.below(8) as usize;
+            let cols = rng.below(8) as usize;
+            let density = 1 + rng.below(4);
+            let m = QMatrix::from_fn(rows, cols, |_, _| {
+                if rng.below(4) < density {
+                    q(rng.below(9) as i64 - 4)
+                } else {
+                    q(0)
+                }
+            });
+            check_modular(&m);
+        }
+        for _ in 0..100 {
+            let rows = 1 + rng.below(6) as usize;
+            let cols = 1 + rng.below(6) as usize;
+            let m = QMatrix::from_fn(rows, cols, |_, _| {
+                Ratio::new(
+                    BigInt::from(rng.below(9) as i64 - 4),
+                    BigInt::from(1 + rng.below(6)),
+                )
+            });
+            check_modular(&m);
+        }
+        // Rank-deficient by construction: every column a combination of three random ones.
+        for _ in 0..100 {
+            let rows = 2 + rng.below(6) as usize;
+            let cols = 4 + rng.below(6) as usize;
+            let base: Vec<Vec<i64>> = (0..3)
+                .map(|_| (0..rows).map(|_| rng.below(7) as i64 - 3).collect())
+                .collect();
+            let mix: Vec<[i64; 3]> = (0..cols)
+                .map(|_| [0; 3].map(|_| rng.below(5) as i64 - 2))
+                .collect();
+            let m = QMatrix::from_fn(rows, cols, |r, c| {
+                q((0..3).map(|k| mix[c][k] * base[k][r]).sum())
+            });
+            check_modular(&m);
+        }
+    }
+
+    #[test]
+    fn coefficients_beyond_one_prime_fall_back_to_the_exact_answer() {
+        // The chain-built mass-balanced network has combination coefficients of about 70
+        // bits, more than reconstruction modulo 2^61 − 1 can recover (|a|, b ≤ 2^30): the
+        // prime field declines and the rational elimination answers, with the known
+        // conservation law (the masses w).
+        let (m, w) = mass_balanced_network(200, 600, 42);
+        let s = SparseQMatrix::from(&m);
+        assert!(s.dependence_modular(modular::Mersenne61).is_none());
+        let d = s.dependence();
+        assert_eq!(d, s.dependence_rational());
+        assert_eq!(d.independent.len(), 199);
+        let g = w.iter().fold(0i64, |g, x| g.gcd(x));
+        let expected: SparseRow = w
+            .iter()
+            .enumerate()
+            .map(|(i, &x)| (i, BigInt::from(x / g)))
+            .collect();
+        assert_eq!(d.left_null_space, vec![expected]);
+    }
+
+    #[test]
+    fn compact_coefficients_round_like_rationals() {
+        let mut rng = Rng(0xC0EF);
+        for _ in 0..2000 {
+            let a = (rng.next() as i64 >> (1 + rng.below(62))) as i128;
+            let b = 1 + (rng.next() >> (1 + rng.below(62))) as i128;
+            let c = Coef::from_ratio(a, b);
+            let qv = Ratio::new(BigInt::from(a), BigInt::from(b));
+            assert_eq!(c.to_q(), qv);
+            assert_eq!(c.to_f64(), to_f64(&qv), "{a}/{b}");
+            assert_eq!(c.to_string(), qv.to_string());
+            assert_eq!(Coef::from_q(qv.clone()), c);
+            assert_eq!(c.abs().to_q(), qv.abs());
+            assert_eq!(c.is_negative(), qv.is_negative());
+            assert_eq!(c.is_integer(), qv.is_integer());
+        }
+        let big = qd("12345678901234567890.5");
+        let mut t = Terms::default();
+        t.push(3, Coef::Small(-1, 2));
+        t.push(7, Coef::from_q(big.clone()));
+        t.push(1, Coef::Small(4, 1));
+        t.sort_by_column_key(|c| c);
+        let got: Vec<(usize, Q)> = t.iter().map(|(c, v)| (c, v.to_q())).collect();
+        assert_eq!(got, vec![(1, q(4)), (3, qd("-0.5")), (7, big)]);
     }
 
     #[test]

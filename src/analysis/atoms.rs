@@ -6,8 +6,9 @@
 
 use crate::exact::{Q, QMatrix, rank, rational_from_decimal, rational_from_f64, to_f64};
 use crate::model::Network;
-use num_traits::Zero;
-use std::collections::BTreeMap;
+use num_bigint::BigInt;
+use num_traits::{ToPrimitive, Zero};
+use std::collections::{BTreeMap, HashMap};
 
 /// The atom balance of one reaction.
 #[derive(Debug, Clone)]
@@ -39,8 +40,52 @@ fn exact_count(x: f64) -> Q {
         .unwrap_or_else(Q::zero)
 }
 
+/// [`exact_count`] remembered by value: a large network repeats a handful of counts.
+#[derive(Default)]
+struct Counts(HashMap<u64, Q>);
+
+impl Counts {
+    fn get(&mut self, x: f64) -> &Q {
+        self.0.entry(x.to_bits()).or_insert_with(|| exact_count(x))
+    }
+}
+
+/// A sum of exact terms: small integers add in an `i128`, anything else as a [`Q`].
+#[derive(Default)]
+struct Sum {
+    small: i128,
+    rest: Option<Q>,
+}
+
+impl Sum {
+    fn add(&mut self, nu: &Q, count: &Q) {
+        if nu.is_integer()
+            && count.is_integer()
+            && let (Some(a), Some(b)) = (nu.numer().to_i64(), count.numer().to_i64())
+            && let Some(s) = self.small.checked_add(a as i128 * b as i128)
+        {
+            self.small = s;
+            return;
+        }
+        let t = nu * count;
+        match &mut self.rest {
+            Some(r) => *r += t,
+            None => self.rest = Some(t),
+        }
+    }
+
+    fn value(self) -> Q {
+        let small = Q::from_integer(BigInt::from(self.small));
+        match self.rest {
+            Some(r) => r + small,
+            None => small,
+        }
+    }
+}
+
 /// Balance of every reaction.
 pub fn balances(net: &Network) -> Vec<AtomBalance> {
+    let mut counts = Counts::default();
     net.reactions
         .iter()
         .enumerate()
@@ -60,15 +105,15 @@ pub fn balances(net: &Network) -> Vec<AtomBalance> {
                     missing_formula: missing,
                 };
             }
-            let mut sum: BTreeMap<String, Q> = BTreeMap::new();
+            let mut sum: BTreeMap<&String, Sum> = BTreeMap::new();
             for (j, nu) in &r.net_exact {
                 let f = net.species[*j].formula.as_ref().expect("checked above");
                 for (el, n) in f.atoms() {
-                    *sum.entry(el.clone()).or_insert_with(Q::zero) += nu * exact_count(*n);
+                    sum.entry(el).or_default().add(nu, counts.get(*n));
                 }
             }
+            let sum = sum.into_iter().map(|(e, v)| (e.clone(), v.value()));
             let imbalance: BTreeMap<String, f64> = sum
-                .into_iter()
                 .filter(|(_, v)| !v.is_zero())
                 .map(|(e, v)| (e, to_f64(&v)))
                 .collect();
@@ -96,11 +141,12 @@ pub fn element_matrix(net: &Network) -> ElementMatrix {
     let with: Vec<usize> = (0..net.species.len())
         .filter(|j| net.species[*j].formula.is_some())
         .collect();
+    let mut counts = Counts::default();
     let m = QMatrix::from_fn(elements.len(), with.len(), |e, c| {
         let f = net.species[with[c]].formula.as_ref().expect("filtered");
         f.atoms()
             .get(&elements[e])
-            .map(|n| exact_count(*n))
+            .map(|n| counts.get(*n).clone())
             .unwrap_or_else(Q::zero)
     });
     let r = rank(&m);

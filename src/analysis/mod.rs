@@ -7,10 +7,12 @@ pub mod stoich;
 pub mod table;
 pub mod thermo;
 
-use crate::exact::to_f64;
+use crate::exact::Terms;
 use crate::model::Network;
 use serde::Serialize;
 use std::collections::BTreeMap;
+use std::fmt::Write as _;
+use std::sync::Arc;
 
 /// How serious a finding is: errors make `rxnet check` exit 1.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
@@ -31,9 +33,54 @@ pub struct Finding {
 pub struct DependentOut {
     pub reaction: String,
     /// Independent reaction id -> coefficient c_i in ν_dep = Σ c_i ν_i.
-    pub combination: BTreeMap<String, f64>,
+    pub combination: Combination,
     /// The same as text, exact ("direct = reform + shift").
     pub text: String,
+}
+
+/// Reaction id -> coefficient, in id order: the exact terms with the reaction ids shared by
+/// every combination of a check rather than copied into each (a large network has millions of
+/// terms). Written as a JSON object of f64s, the same as a `BTreeMap<String, f64>`.
+#[derive(Debug, Clone)]
+pub struct Combination {
+    ids: Arc<[String]>,
+    /// Sorted by the reaction's id.
+    terms: Terms,
+}
+
+impl Combination {
+    /// `place[i]` is reaction i's place among the ids in sorted order.
+    fn new(ids: &Arc<[String]>, place: &[u32], mut terms: Terms) -> Self {
+        terms.sort_by_column_key(|i| place[i]);
+        Combination {
+            ids: ids.clone(),
+            terms,
+        }
+    }
+
+    /// (reaction id, coefficient) in id order.
+    pub fn iter(&self) -> impl Iterator<Item = (&String, f64)> {
+        self.terms.iter().map(|(i, c)| (&self.ids[i], c.to_f64()))
+    }
+
+    pub fn len(&self) -> usize {
+        self.terms.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.terms.is_empty()
+    }
+
+    /// The coefficient of the reaction with this id, if it is in the combination.
+    pub fn get(&self, id: &str) -> Option<f64> {
+        self.iter().find(|(i, _)| i.as_str() == id).map(|(_, c)| c)
+    }
+}
+
+impl Serialize for Combination {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        serializer.collect_map(self.iter())
+    }
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -117,47 +164,79 @@ impl Check {
     }
 }
 
-fn fmt_coef(c: &crate::exact::Q) -> String {
-    if c.is_integer() {
-        c.to_integer().to_string()
-    } else {
-        format!("{}/{}", c.numer(), c.denom())
-    }
-}
-
+/// The dependent reaction and its combination as text: "direct = reform + 2 shift − 1/2 r3".
 fn combination_text(net: &Network, d: &stoich::Dependent) -> String {
-    use num_traits::{One, Signed};
-    let mut s = format!("{} =", net.reactions[d.reaction].id);
+    let mut s = String::with_capacity(16 + 12 * d.combination.len());
+    s.push_str(&net.reactions[d.reaction].id);
+    s.push_str(" =");
     for (n, (i, c)) in d.combination.iter().enumerate() {
-        let id = &net.reactions[*i].id;
-        let mag = c.abs();
-        let sign = if c.is_negative() { "−" } else { "+" };
-        let body = if mag.is_one() {
-            id.clone()
-        } else {
-            format!("{} {id}", fmt_coef(&mag))
+        let id = &net.reactions[i].id;
+        let sign = match (n == 0, c.is_negative()) {
+            (true, true) => " −",
+            (true, false) => " ",
+            (false, true) => " − ",
+            (false, false) => " + ",
         };
-        if n == 0 {
-            if c.is_negative() {
-                s.push_str(&format!(" −{body}"));
-            } else {
-                s.push_str(&format!(" {body}"));
-            }
-        } else {
-            s.push_str(&format!(" {sign} {body}"));
+        s.push_str(sign);
+        let mag = c.abs();
+        if !mag.is_one() {
+            let _ = write!(s, "{mag} ");
         }
+        s.push_str(id);
     }
     s
 }
 
+/// The results of every analysis of a network, before they are written out.
+struct Analyses {
+    st: stoich::Stoichiometry,
+    bal: Vec<atoms::AtomBalance>,
+    el: atoms::ElementMatrix,
+    gr: graph::GraphReport,
+    cycles: Vec<thermo::CycleCheck>,
+    from_species: Vec<thermo::SpeciesDataCheck>,
+}
+
+impl Analyses {
+    fn of(net: &Network) -> Self {
+        let st = stoich::analyse(net);
+        let cycles = thermo::check(net, &st.dependent);
+        Analyses {
+            bal: atoms::balances(net),
+            el: atoms::element_matrix(net),
+            gr: graph::analyse(net),
+            cycles,
+            from_species: thermo::species_data(net),
+            st,
+        }
+    }
+}
+
+/// Run every analysis and return the findings only: what `run` and the studies need to decide
+/// whether a network may be simulated, without building the report of [`check`] (whose lists
+/// of combinations can hold millions of terms on a large network). The same findings as
+/// `check(net).findings`.
+pub fn findings(net: &Network) -> Vec<Finding> {
+    findings_of(net, &Analyses::of(net))
+}
+
 /// Run every analysis and gather the findings.
 pub fn check(net: &Network) -> Check {
-    let st = stoich::analyse(net);
-    let bal = atoms::balances(net);
-    let el = atoms::element_matrix(net);
-    let gr = graph::analyse(net);
-    let cycles = thermo::check(net, &st.dependent);
-    let from_species = thermo::species_data(net);
+    let a = Analyses::of(net);
+    let findings = findings_of(net, &a);
+    report_of(net, a, findings)
+}
+
+/// The findings of the analyses, errors first.
+fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
+    let Analyses {
+        st,
+        bal,
+        el,
+        gr,
+        cycles,
+        from_species,
+    } = a;
     let sp = |j: usize| net.species[j].name.clone();
     let rx = |i: usize| net.reactions[i].id.clone();
     let mut findings: Vec<Finding> = Vec::new();
@@ -166,7 +245,7 @@ pub fn check(net: &Network) -> Check {
         add(Severity::Info, note.clone());
     }
 
-    for b in &bal {
+    for b in bal {
         let r = &net.reactions[b.reaction];
         if !b.checked {
             let names: Vec<String> = b.missing_formula.iter().map(|&j| sp(j)).collect();
@@ -197,18 +276,18 @@ pub fn check(net: &Network) -> Check {
     }
     for d in &st.dependent {
         if d.combination.len() == 1 {
-            let (i, c) = &d.combination[0];
-            let what = if c == &num_traits::One::one() {
+            let (i, c) = d.combination.get(0);
+            let what = if c.is_one() {
                 "the same reaction as".to_string()
             } else {
-                format!("{} times", fmt_coef(c))
+                format!("{c} times")
             };
             add(
                 Severity::Warning,
                 format!(
                     "duplicate reaction: `{}` is {what} `{}`; both rates act on the species",
                     rx(d.reaction),
-                    rx(*i)
+                    rx(i)
                 ),
             );
         }
@@ -224,7 +303,7 @@ pub fn check(net: &Network) -> Check {
             ),
         );
     }
-    for c in &cycles {
+    for c in cycles {
         if !c.consistent {
             let d = st
                 .dependent
@@ -257,7 +336,7 @@ pub fn check(net: &Network) -> Check {
             );
         }
     }
-    for c in &from_species {
+    for c in from_species {
         let r = &net.reactions[c.reaction];
         if let Some((given, species)) = c.k
             && !c.k_consistent()
@@ -295,11 +374,21 @@ pub fn check(net: &Network) -> Check {
     }
     // Species usage.
     let entering = net.fed_species();
+    // Per species, in one pass over the reactions: written in any, consumed net by any.
+    let mut written = vec![false; net.species.len()];
+    let mut consumed = vec![false; net.species.len()];
+    for r in &net.reactions {
+        for t in r.reactants.iter().chain(r.products.iter()) {
+            written[t.species] = true;
+        }
+        for &(j, _) in &r.net {
+            if r.nu(j) < 0.0 {
+                consumed[j] = true;
+            }
+        }
+    }
     for (j, s) in net.species.iter().enumerate() {
-        let in_any = net
-            .reactions
-            .iter()
-            .any(|r| r.has_reactant(j) || r.has_product(j));
+        let in_any = written[j];
         let fed = entering[j];
         if !in_any && !fed {
             add(
@@ -317,7 +406,7 @@ pub fn check(net: &Network) -> Check {
                     s.name
                 ),
             );
-        } else if fed && !net.reactions.iter().any(|r| r.nu(j) < 0.0) {
+        } else if fed && !consumed[j] {
             add(
                 Severity::Info,
                 format!(
@@ -391,24 +480,42 @@ pub fn check(net: &Network) -> Check {
         );
     }
     findings.sort_by_key(|f| std::cmp::Reverse(f.severity));
+    findings
+}
 
+/// Everything `rxnet check` reports, from the analyses and their findings.
+fn report_of(net: &Network, a: Analyses, findings: Vec<Finding>) -> Check {
+    let Analyses {
+        st,
+        bal,
+        el,
+        gr,
+        cycles,
+        from_species,
+    } = a;
+    let sp = |j: usize| net.species[j].name.clone();
+    let rx = |i: usize| net.reactions[i].id.clone();
+    let ids: Arc<[String]> = net.reactions.iter().map(|r| r.id.clone()).collect();
+    let mut by_id: Vec<u32> = (0..ids.len() as u32).collect();
+    by_id.sort_unstable_by(|a, b| ids[*a as usize].cmp(&ids[*b as usize]));
+    let mut place = vec![0u32; ids.len()];
+    for (k, &i) in by_id.iter().enumerate() {
+        place[i as usize] = k as u32;
+    }
     Check {
         name: net.name.clone(),
         species: net.species.len(),
         reactions: net.reactions.len(),
         rank: st.rank,
         independent: st.independent.iter().map(|&i| rx(i)).collect(),
+        // Each combination is freed once written out: a large network holds millions of terms.
         dependent: st
             .dependent
-            .iter()
+            .into_iter()
             .map(|d| DependentOut {
                 reaction: rx(d.reaction),
-                combination: d
-                    .combination
-                    .iter()
-                    .map(|(i, c)| (rx(*i), to_f64(c)))
-                    .collect(),
-                text: combination_text(net, d),
+                text: combination_text(net, &d),
+                combination: Combination::new(&ids, &place, d.combination),
             })
             .collect(),
         atom_balance: bal

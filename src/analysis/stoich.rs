@@ -6,16 +6,15 @@
 //! null space {y : yᵀν = 0}: every such y is a combination of species amounts that no reaction
 //! changes (element balances are among them).
 
-use crate::exact::{Q, SparseQMatrix};
+use crate::exact::{SparseQMatrix, Terms};
 use crate::model::Network;
 use num_bigint::BigInt;
-use num_traits::Zero;
 
 /// A dependent reaction and its combination of independent ones: ν_dep = Σ c_i ν_i.
 #[derive(Debug, Clone)]
 pub struct Dependent {
     pub reaction: usize,
-    pub combination: Vec<(usize, Q)>,
+    pub combination: Terms,
 }
 
 /// Result of the stoichiometric analysis.
@@ -57,20 +56,18 @@ pub fn analyse(net: &Network) -> Stoichiometry {
     // `net` and `net_exact` hold the same species (the first is converted from the second).
     let reacting = net.reacting_species();
     let m = exact_matrix(net, &reacting);
-    let dep = m.column_dependence();
+    let dep = m.dependence();
+    drop(m);
     let dependent = dep
         .dependent
         .into_iter()
         .map(|(reaction, combination)| Dependent {
             reaction,
-            combination: combination
-                .into_iter()
-                .filter(|(_, c)| !c.is_zero())
-                .collect(),
+            combination,
         })
         .collect();
-    let mut conservation_laws: Vec<Vec<(usize, BigInt)>> = m
-        .left_null_space()
+    let mut conservation_laws: Vec<Vec<(usize, BigInt)>> = dep
+        .left_null_space
         .into_iter()
         .map(|v| v.into_iter().map(|(r, c)| (reacting[r], c)).collect())
         .collect();
@@ -88,5 +85,32 @@ pub fn analyse(net: &Network) -> Stoichiometry {
         independent: dep.independent,
         dependent,
         conservation_laws,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::exact::modular::Mersenne61;
+
+    /// A generated network (small integer coefficients, as real mechanisms have) is answered
+    /// by the prime field with every answer confirmed, and the answer is the rational one.
+    #[test]
+    fn generated_network_takes_the_prime_field_path() {
+        let spec = crate::generate::GeneratorSpec {
+            species: 300,
+            reactions: 1000,
+            seed: 3,
+            ..Default::default()
+        };
+        let text = crate::generate::generate_study(&spec).expect("generated");
+        let net = crate::load_str(&text, "generated", &[]).expect("loads");
+        let m = exact_matrix(&net, &net.reacting_species());
+        let fast = m
+            .dependence_modular(Mersenne61)
+            .expect("confirmed mod 2^61 − 1");
+        assert_eq!(fast, m.dependence_rational());
+        assert_eq!(fast.independent.len(), 299);
+        assert_eq!(fast.left_null_space.len(), 1);
     }
 }

@@ -12,7 +12,6 @@
 //! condition by construction (ln K_i = −Σ_j ν_ij G_j/(R T) is linear in ν).
 
 use super::stoich::Dependent;
-use crate::exact::to_f64;
 use crate::model::Network;
 use crate::thermo::ReactionThermo;
 
@@ -52,16 +51,16 @@ pub fn check(net: &Network, dependent: &[Dependent]) -> Vec<CycleCheck> {
         .filter_map(|d| {
             let ln_dep = ln_k(d.reaction)?;
             let mut ln_comb = 0.0;
-            for (i, c) in &d.combination {
-                ln_comb += to_f64(c) * ln_k(*i)?;
+            for (i, c) in d.combination.iter() {
+                ln_comb += c.to_f64() * ln_k(i)?;
             }
-            let members = std::iter::once(d.reaction).chain(d.combination.iter().map(|(i, _)| *i));
+            let members = std::iter::once(d.reaction).chain(d.combination.columns());
             let any_dh = members.clone().any(|i| net.reactions[i].dh.is_some());
             let dh = any_dh.then(|| {
                 let combined: f64 = d
                     .combination
                     .iter()
-                    .map(|(i, c)| to_f64(c) * net.reactions[*i].dh.unwrap_or(0.0))
+                    .map(|(i, c)| c.to_f64() * net.reactions[i].dh.unwrap_or(0.0))
                     .sum();
                 (net.reactions[d.reaction].dh.unwrap_or(0.0), combined)
             });

@@ -81,9 +81,9 @@ pub struct Findings {
 impl Findings {
     /// Run the consistency check on a network.
     pub fn of(net: &Network) -> Findings {
-        let c = analysis::check(net);
+        let findings = analysis::findings(net);
         let pick = |s: Severity| -> Vec<String> {
-            c.findings
+            findings
                 .iter()
                 .filter(|f| f.severity == s)
                 .map(|f| f.message.clone())
