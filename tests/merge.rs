@@ -3,7 +3,7 @@
 //! point once, is refused with a message that names the file.
 
 mod common;
-use common::{network, rxnet, write_temp};
+use common::{gas_batch, network, rxnet, write_temp};
 use std::path::PathBuf;
 
 /// A scratch directory for one test, removed at the end.
@@ -133,25 +133,6 @@ fn merged_csv_shards_are_the_unsharded_csv_byte_for_byte() {
 #[test]
 fn merged_json_shards_are_the_unsharded_json_byte_for_byte() {
     assert_merges_to_whole(&diene(), &GRID2, true, &[1, 4, 21, 30]);
-}
-
-/// A gas batch in a vessel that holds exactly its charge at 400 K and 1 bar (test values):
-/// points off the ideal-gas fit of the charge to the vessel fail (as in tests/studies.rs).
-fn gas_batch() -> String {
-    // Ideal gas (common practice): V = N R T / P = 1 mol × R × 400 K / 1e5 Pa, R from CODATA.
-    let v_l = 8.314462618 * 400.0 / 1e5 * 1e3;
-    format!(
-        "name: gas batch sweep (test values)
-phase: gas
-species: {{A: null, B: null}}
-reactions:
-  - {{id: r1, stoich: A -> B, rate: {{k: 0.01 1/s}}}}
-feed: {{T: 400 K, P: 1 bar, amounts: {{A: 1 mol}}}}
-reactor: {{type: batch, time: 60 s, volume: {v_l:.9} L}}
-key: A
-desired: B
-"
-    )
 }
 
 const FAILING: [&str; 4] = [

@@ -10,7 +10,9 @@
 
 mod common;
 
-use common::{Agreement, Run, TempFile, network, num, rel_err, rxnet, temp_out, temp_study};
+use common::{
+    Agreement, Run, TempFile, gas_batch, network, num, rel_err, rxnet, temp_out, temp_study,
+};
 use rxnet::solve::{SolveOptions, simulate};
 use rxnet::{Override, load_file, load_str};
 use serde_json::Value;
@@ -891,24 +893,6 @@ fn shards_together_equal_the_whole_sweep() {
     for bad in ["0/3", "4/3", "1/0", "a/3", "13"] {
         refused(&["sweep", study.p(), GRID[0], GRID[1], "--shard", bad], 2);
     }
-}
-
-/// A gas batch in a vessel that holds exactly its charge at 400 K and 1 bar (test values).
-fn gas_batch() -> String {
-    // Ideal gas (common practice): V = N R T / P = 1 mol × R × 400 K / 1e5 Pa.
-    let v_l = R * 400.0 / 1e5 * 1e3;
-    format!(
-        "name: gas batch sweep (test values)
-phase: gas
-species: {{A: null, B: null}}
-reactions:
-  - {{id: r1, stoich: A -> B, rate: {{k: 0.01 1/s}}}}
-feed: {{T: 400 K, P: 1 bar, amounts: {{A: 1 mol}}}}
-reactor: {{type: batch, time: 60 s, volume: {v_l:.9} L}}
-key: A
-desired: B
-"
-    )
 }
 
 #[test]

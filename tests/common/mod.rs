@@ -282,3 +282,24 @@ pub fn float_rank(mut m: Vec<Vec<f64>>, tol: f64) -> usize {
     }
     r
 }
+
+/// A gas batch in a vessel that holds exactly its charge at 400 K and 1 bar (test values):
+/// sweep points off the ideal-gas fit of the charge to the vessel fail to load, which makes
+/// failed rows for the sweep and merge tests.
+pub fn gas_batch() -> String {
+    // Ideal gas (common practice): V = N R T / P = 1 mol × R × 400 K / 1e5 Pa, R = N_A k exactly
+    // (CODATA 2018).
+    let v_l = 8.314_462_618_153_24 * 400.0 / 1e5 * 1e3;
+    format!(
+        "name: gas batch sweep (test values)
+phase: gas
+species: {{A: null, B: null}}
+reactions:
+  - {{id: r1, stoich: A -> B, rate: {{k: 0.01 1/s}}}}
+feed: {{T: 400 K, P: 1 bar, amounts: {{A: 1 mol}}}}
+reactor: {{type: batch, time: 60 s, volume: {v_l:.9} L}}
+key: A
+desired: B
+"
+    )
+}
