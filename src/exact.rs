@@ -1120,18 +1120,39 @@ mod tests {
         }
     }
 
-    /// SplitMix64: small deterministic generator for test matrices.
-    struct Rng(u64);
+    /// The crate's SplitMix64, with the draws the random test matrices need.
+    struct Rng(crate::random::SplitMix64);
     impl Rng {
-        fn next(&mut self) -> u64 {
-            self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-            let mut z = self.0;
-            z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-            z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-            z ^ (z >> 31)
+        fn seeded(seed: u64) -> Self {
+            Rng(crate::random::SplitMix64(seed))
         }
         fn below(&mut self, n: u64) -> u64 {
-            self.next() % n
+            self.0.next_u64() % n
+        }
+        /// Up to `max_dim − 1` rows and columns of integers in [−spread, spread], each entry
+        /// non-zero with probability about (1 + U{0..3})/4 for the whole matrix.
+        fn integer_matrix(&mut self, max_dim: u64, spread: i64) -> QMatrix {
+            let rows = self.below(max_dim) as usize;
+            let cols = self.below(max_dim) as usize;
+            let density = 1 + self.below(4); // out of 4
+            QMatrix::from_fn(rows, cols, |_, _| {
+                if self.below(4) < density {
+                    q(self.below(2 * spread as u64 + 1) as i64 - spread)
+                } else {
+                    q(0)
+                }
+            })
+        }
+        /// 1 to `max_dim` rows and columns of fractions a/b, |a| ≤ 4, 1 ≤ b ≤ `max_den`.
+        fn rational_matrix(&mut self, max_dim: u64, max_den: u64) -> QMatrix {
+            let rows = 1 + self.below(max_dim) as usize;
+            let cols = 1 + self.below(max_dim) as usize;
+            QMatrix::from_fn(rows, cols, |_, _| {
+                Ratio::new(
+                    BigInt::from(self.below(9) as i64 - 4),
+                    BigInt::from(1 + self.below(max_den)),
+                )
+            })
         }
     }
 
@@ -1268,35 +1289,17 @@ mod tests {
 
     #[test]
     fn random_small_integer_matrices() {
-        let mut rng = Rng(0x5EED);
+        let mut rng = Rng::seeded(0x5EED);
         for _ in 0..300 {
-            let rows = rng.below(7) as usize;
-            let cols = rng.below(7) as usize;
-            let density = 1 + rng.below(4); // out of 4
-            let m = QMatrix::from_fn(rows, cols, |_, _| {
-                if rng.below(4) < density {
-                    q(rng.below(7) as i64 - 3)
-                } else {
-                    q(0)
-                }
-            });
-            check_all(&m);
+            check_all(&rng.integer_matrix(7, 3));
         }
     }
 
     #[test]
     fn random_small_rational_matrices() {
-        let mut rng = Rng(0xBEEF);
+        let mut rng = Rng::seeded(0xBEEF);
         for _ in 0..100 {
-            let rows = 1 + rng.below(5) as usize;
-            let cols = 1 + rng.below(5) as usize;
-            let m = QMatrix::from_fn(rows, cols, |_, _| {
-                Ratio::new(
-                    BigInt::from(rng.below(9) as i64 - 4),
-                    BigInt::from(1 + rng.below(4)),
-                )
-            });
-            check_all(&m);
+            check_all(&rng.rational_matrix(5, 4));
         }
     }
 
@@ -1305,7 +1308,7 @@ mod tests {
     /// plus random mass-balanced reactions. Every column satisfies Σ_i w_i ν_ij = 0, so
     /// rank = species − 1 exactly, and w spans the left null space (common practice: mass balance).
     fn mass_balanced_network(species: usize, reactions: usize, seed: u64) -> (QMatrix, Vec<i64>) {
-        let mut rng = Rng(seed);
+        let mut rng = Rng::seeded(seed);
         let w: Vec<i64> = (0..species).map(|_| 1 + rng.below(4) as i64).collect();
         let mut cols: Vec<Vec<(usize, i64)>> = (0..species - 1)
             .map(|i| vec![(i, -w[i + 1]), (i + 1, w[i])])
@@ -1435,30 +1438,12 @@ mod tests {
 
     #[test]
     fn modular_agrees_with_rational_on_random_matrices() {
-        let mut rng = Rng(0xFA57);
+        let mut rng = Rng::seeded(0xFA57);
         for _ in 0..300 {
-            let rows = rng.below(8) as usize;
-            let cols = rng.below(8) as usize;
-            let density = 1 + rng.below(4);
-            let m = QMatrix::from_fn(rows, cols, |_, _| {
-                if rng.below(4) < density {
-                    q(rng.below(9) as i64 - 4)
-                } else {
-                    q(0)
-                }
-            });
-            check_modular(&m);
+            check_modular(&rng.integer_matrix(8, 4));
         }
         for _ in 0..100 {
-            let rows = 1 + rng.below(6) as usize;
-            let cols = 1 + rng.below(6) as usize;
-            let m = QMatrix::from_fn(rows, cols, |_, _| {
-                Ratio::new(
-                    BigInt::from(rng.below(9) as i64 - 4),
-                    BigInt::from(1 + rng.below(6)),
-                )
-            });
-            check_modular(&m);
+            check_modular(&rng.rational_matrix(6, 6));
         }
         // Rank-deficient by construction: every column a combination of three random ones.
         for _ in 0..100 {
@@ -1500,10 +1485,10 @@ mod tests {
 
     #[test]
     fn compact_coefficients_round_like_rationals() {
-        let mut rng = Rng(0xC0EF);
+        let mut rng = Rng::seeded(0xC0EF);
         for _ in 0..2000 {
-            let a = (rng.next() as i64 >> (1 + rng.below(62))) as i128;
-            let b = 1 + (rng.next() >> (1 + rng.below(62))) as i128;
+            let a = (rng.0.next_u64() as i64 >> (1 + rng.below(62))) as i128;
+            let b = 1 + (rng.0.next_u64() >> (1 + rng.below(62))) as i128;
             let c = Coef::from_ratio(a, b);
             let qv = Ratio::new(BigInt::from(a), BigInt::from(b));
             assert_eq!(c.to_q(), qv);
