@@ -36,10 +36,12 @@ use diffsol::{
 };
 use diffsol_la::LinearSolver;
 use faer::dyn_stack::{MemBuffer, MemStack};
-use faer::sparse::linalg::SupernodalThreshold;
+use faer::perm::PermRef;
+use faer::sparse::linalg::lu::simplicial::{self, SimplicialLu};
 use faer::sparse::linalg::lu::{
     LuRef, LuSymbolicParams, NumericLu, SymbolicLu, factorize_symbolic_lu,
 };
+use faer::sparse::linalg::{SupernodalThreshold, colamd};
 use faer::sparse::{SparseColMat, SparseColMatRef, SymbolicSparseColMat};
 use faer::{Conj, MatMut, Par};
 
@@ -85,12 +87,10 @@ const TIGHTEST_DROP: f64 = 1e-7;
 /// loosen it (up to [`LOOSEST_DROP`]) when none needed more than `EASY`.
 const HARD: usize = 12;
 const EASY: usize = 3;
-/// The dropped matrix is factorised with faer's simplicial LU. Its factors stay sparse, and
-/// the supernodal variant, which faer's size heuristic picks for the larger networks, spent
-/// the solve time in dense kernels on blocks that are mostly zero: on the generated
-/// 3000/10000 network the whole run took 5.5–6.2 s with it and 2.6–2.7 s with the simplicial
-/// LU (docs/performance.md). The complete LU of the fallback keeps faer's choice.
-const PRECONDITIONER_LU: SupernodalThreshold = SupernodalThreshold::FORCE_SIMPLICIAL;
+/// The preconditioner's column order is remade once the fill of its LU, entries of L + U per
+/// kept entry of the dropped matrix, has grown by this factor over its value when the order
+/// was made ([`Preconditioner`]).
+const REORDER_GROWTH: f64 = 1.2;
 
 /// What the linear solver needs to know of the integration: the error weights and the Newton
 /// tolerance.
@@ -140,44 +140,26 @@ pub struct KrylovStats {
     pub total: usize,
 }
 
-/// An LU factorisation of a sparse matrix with faer.
+/// An LU factorisation of a sparse matrix with faer: the complete LU of the fallback.
 struct Lu {
     symbolic: SymbolicLu<usize>,
     numeric: NumericLu<usize, f64>,
-    /// Pattern the symbolic factorisation was made for.
-    col_ptr: Vec<usize>,
-    row_idx: Vec<usize>,
     scratch: RefCell<MemBuffer>,
 }
 
 impl Lu {
-    /// Factorise `m`, reusing `old`'s symbolic analysis when the pattern is the same.
-    ///
-    /// `kind` picks faer's simplicial (column by column, sparse loops) or supernodal (dense
-    /// blocks of columns) factorisation; see [`PRECONDITIONER_LU`].
-    fn factor(
-        m: SparseColMatRef<'_, usize, f64>,
-        old: Option<Lu>,
-        kind: SupernodalThreshold,
-    ) -> Option<Lu> {
-        let sym = m.symbolic();
-        let reuse = old.filter(|o| o.col_ptr == sym.col_ptr() && o.row_idx == sym.row_idx());
-        let (symbolic, mut numeric, col_ptr, row_idx) = match reuse {
-            Some(o) => (o.symbolic, o.numeric, o.col_ptr, o.row_idx),
-            None => (
-                factorize_symbolic_lu(
-                    sym,
-                    LuSymbolicParams {
-                        supernodal_flop_ratio_threshold: kind,
-                        ..Default::default()
-                    },
-                )
-                .ok()?,
-                NumericLu::new(),
-                sym.col_ptr().to_vec(),
-                sym.row_idx().to_vec(),
-            ),
-        };
+    /// Factorise `m`; `kind` picks faer's simplicial (column by column, sparse loops) or
+    /// supernodal (dense blocks of columns) factorisation.
+    fn factor(m: SparseColMatRef<'_, usize, f64>, kind: SupernodalThreshold) -> Option<Lu> {
+        let symbolic = factorize_symbolic_lu(
+            m.symbolic(),
+            LuSymbolicParams {
+                supernodal_flop_ratio_threshold: kind,
+                ..Default::default()
+            },
+        )
+        .ok()?;
+        let mut numeric = NumericLu::new();
         let mut scratch = MemBuffer::new(
             symbolic.factorize_numeric_lu_scratch::<f64>(Par::Seq, Default::default()),
         );
@@ -196,8 +178,6 @@ impl Lu {
         Some(Lu {
             symbolic,
             numeric,
-            col_ptr,
-            row_idx,
             scratch,
         })
     }
@@ -215,6 +195,214 @@ impl Lu {
             lu.solve_in_place_with_conj(Conj::No, rhs, Par::Seq, stack);
         }
         x.iter().all(|v| v.is_finite())
+    }
+}
+
+/// The preconditioner: the LU of the dropped matrix P, Pᵣ P Q = L U with L unit lower and U
+/// upper triangular, by faer's left-looking simplicial factorisation (Gilbert & Peierls, SIAM
+/// J. Sci. Stat. Comput. 9 (1988) 862, from memory) with partial pivoting Pᵣ and a
+/// fill-reducing column order Q (COLAMD; Davis et al., ACM TOMS 30 (2004) 353, from memory).
+///
+/// Two things are done here rather than through faer's general `SymbolicLu`/`LuRef`:
+/// - The column order is kept from one factorisation to the next while it still gives a
+///   sparse LU. The factorisation itself finds the pattern of L and U for any column order,
+///   so a stale order costs only fill, never accuracy; it is recomputed once the factors'
+///   fill per kept entry has grown by [`REORDER_GROWTH`] over what it was when the order was
+///   made. faer's symbolic analysis also builds an elimination tree and column counts, which
+///   the simplicial factorisation does not use.
+/// - The solves run on copies of L and U in compressed rows, with the diagonal of U inverted
+///   once and the row and column permutations applied while copying in and out (faer's
+///   general routine permutes into a buffer and back, and walks the columns with a kernel
+///   made for several right-hand sides). The arithmetic is the same, in the same order, so
+///   the result is bit for bit faer's.
+///
+/// The dropped matrix is factorised with faer's simplicial LU. Its factors stay sparse, and
+/// the supernodal variant, which faer's size heuristic picks for the larger networks, spent
+/// the solve time in dense kernels on blocks that are mostly zero: on the generated
+/// 3000/10000 network the whole run took 5.5–6.2 s with it and 2.6–2.7 s with the simplicial
+/// LU (docs/performance.md). The complete LU of the fallback keeps faer's
+/// choice.
+struct Preconditioner {
+    /// Column order Q: column j of the factorised matrix is column `col_perm[j]` of P.
+    col_perm: Vec<usize>,
+    col_perm_inv: Vec<usize>,
+    /// Row pivoting: row j of the factorised matrix is row `row_perm[j]` of P.
+    row_perm: Vec<usize>,
+    row_perm_inv: Vec<usize>,
+    /// (entries of L + U) / (entries of P) when the column order was made.
+    ordered_fill: f64,
+    /// The order is stale and is remade at the next factorisation.
+    reorder: bool,
+    lu: SimplicialLu<usize, f64>,
+    /// Strictly lower part of L, in compressed rows.
+    lower: TriangularRows,
+    /// Strictly upper part of U, in compressed rows, and 1/u_ii.
+    upper: TriangularRows,
+    inv_diag: Vec<f64>,
+    scratch: RefCell<Vec<f64>>,
+}
+
+/// A triangular factor without its diagonal, in compressed rows.
+#[derive(Default)]
+struct TriangularRows {
+    row_ptr: Vec<usize>,
+    col_idx: Vec<u32>,
+    val: Vec<f64>,
+}
+
+impl TriangularRows {
+    /// Rows of the compressed columns `cp`/`ri`/`v` of an n × n factor, without the entry of
+    /// each column at position `skip(col_start, col_end)` (its diagonal).
+    fn load(
+        &mut self,
+        n: usize,
+        cp: &[usize],
+        ri: &[usize],
+        v: &[f64],
+        skip: impl Fn(usize, usize) -> usize,
+    ) {
+        self.row_ptr.clear();
+        self.row_ptr.resize(n + 1, 0);
+        for j in 0..n {
+            let d = skip(cp[j], cp[j + 1]);
+            for k in cp[j]..cp[j + 1] {
+                if k != d {
+                    self.row_ptr[ri[k] + 1] += 1;
+                }
+            }
+        }
+        for i in 0..n {
+            self.row_ptr[i + 1] += self.row_ptr[i];
+        }
+        let nnz = self.row_ptr[n];
+        self.col_idx.resize(nnz, 0);
+        self.val.resize(nnz, 0.0);
+        let mut next = self.row_ptr[..n].to_vec();
+        for j in 0..n {
+            let d = skip(cp[j], cp[j + 1]);
+            for k in cp[j]..cp[j + 1] {
+                if k != d {
+                    let slot = &mut next[ri[k]];
+                    self.col_idx[*slot] = j as u32;
+                    self.val[*slot] = v[k];
+                    *slot += 1;
+                }
+            }
+        }
+    }
+
+    /// The entries of row i: columns and values.
+    #[inline]
+    fn row(&self, i: usize) -> (&[u32], &[f64]) {
+        let (a, b) = (self.row_ptr[i], self.row_ptr[i + 1]);
+        (&self.col_idx[a..b], &self.val[a..b])
+    }
+}
+
+impl Preconditioner {
+    /// Factorise `p`, keeping `old`'s column order unless it has gone stale; `None` when `p`
+    /// is singular (or too large for 32-bit indices).
+    fn factor(p: SparseColMatRef<'_, usize, f64>, old: Option<Preconditioner>) -> Option<Self> {
+        let n = p.ncols();
+        if u32::try_from(n).is_err() {
+            return None;
+        }
+        let nnz = p.val().len().max(1);
+        let mut pre = match old {
+            Some(o) if o.col_perm.len() == n && !o.reorder => o,
+            _ => {
+                let mut col_perm = vec![0usize; n];
+                let mut col_perm_inv = vec![0usize; n];
+                let mut mem = MemBuffer::new(colamd::order_scratch::<usize>(n, n, p.val().len()));
+                colamd::order(
+                    &mut col_perm,
+                    &mut col_perm_inv,
+                    p.symbolic(),
+                    colamd::Control::default(),
+                    MemStack::new(&mut mem),
+                )
+                .ok()?;
+                Preconditioner {
+                    col_perm,
+                    col_perm_inv,
+                    row_perm: vec![0; n],
+                    row_perm_inv: vec![0; n],
+                    ordered_fill: 0.0,
+                    reorder: false,
+                    lu: SimplicialLu::new(),
+                    lower: TriangularRows::default(),
+                    upper: TriangularRows::default(),
+                    inv_diag: vec![0.0; n],
+                    scratch: RefCell::new(vec![0.0; n]),
+                }
+            }
+        };
+        let mut mem = MemBuffer::new(simplicial::factorize_simplicial_numeric_lu_scratch::<
+            usize,
+            f64,
+        >(n, n));
+        simplicial::factorize_simplicial_numeric_lu(
+            &mut pre.row_perm,
+            &mut pre.row_perm_inv,
+            &mut pre.lu,
+            p,
+            PermRef::new_checked(&pre.col_perm, &pre.col_perm_inv, n),
+            MemStack::new(&mut mem),
+        )
+        .ok()?;
+        let (l, u) = (pre.lu.l_factor_unsorted(), pre.lu.u_factor_unsorted());
+        // L's unit diagonal is the first entry of each column, U's diagonal the last.
+        let (lcp, lri, lv) = (l.symbolic().col_ptr(), l.symbolic().row_idx(), l.val());
+        let (ucp, uri, uv) = (u.symbolic().col_ptr(), u.symbolic().row_idx(), u.val());
+        pre.lower.load(n, lcp, lri, lv, |a, _| a);
+        pre.upper.load(n, ucp, uri, uv, |_, b| b - 1);
+        for j in 0..n {
+            pre.inv_diag[j] = 1.0 / uv[ucp[j + 1] - 1];
+        }
+        let fill = (lv.len() + uv.len()) as f64 / nnz as f64;
+        if pre.ordered_fill == 0.0 {
+            pre.ordered_fill = fill;
+        } else if fill > REORDER_GROWTH * pre.ordered_fill {
+            pre.reorder = true;
+        }
+        Some(pre)
+    }
+
+    /// v ← W P⁻¹ v (W the diagonal `weights`); false if the result is not finite.
+    fn solve_weighted(&self, v: &mut [f64], weights: &[f64]) -> bool {
+        let n = v.len();
+        let mut y = self.scratch.borrow_mut();
+        let y = &mut y[..n];
+        for (yi, &r) in y.iter_mut().zip(&self.row_perm) {
+            *yi = v[r];
+        }
+        // L y = Pᵣ v, row by row from the top. Rows are short (a few entries), so a plain
+        // loop; the subtractions come in the order of faer's column-oriented solve (columns
+        // ascending), which makes the result the same to the last bit.
+        for i in 0..n {
+            let (cols, vals) = self.lower.row(i);
+            let mut s = y[i];
+            for (&c, &l) in cols.iter().zip(vals) {
+                s -= l * y[c as usize];
+            }
+            y[i] = s;
+        }
+        // U z = y from the bottom, columns descending as in faer's solve.
+        for i in (0..n).rev() {
+            let (cols, vals) = self.upper.row(i);
+            let mut s = y[i];
+            for (&c, &u) in cols.iter().zip(vals).rev() {
+                s -= u * y[c as usize];
+            }
+            y[i] = s * self.inv_diag[i];
+        }
+        let mut finite = true;
+        for (&yj, &c) in y.iter().zip(&self.col_perm) {
+            let x = yj * weights[c];
+            finite &= x.is_finite();
+            v[c] = x;
+        }
+        finite
     }
 }
 
@@ -335,7 +523,7 @@ pub struct KrylovSolver {
     /// A in compressed rows, for the products A·v of the iteration (a gather per row is
     /// faster than scattering the columns of the CSC matrix).
     rows: RowMatrix,
-    pre: Option<Lu>,
+    pre: Option<Preconditioner>,
     /// The complete LU of A, made on demand when GMRES fails, for this linearisation.
     full: RefCell<Option<Lu>>,
     drop_tol: f64,
@@ -407,7 +595,11 @@ impl KrylovSolver {
 
     /// The LU of A with the entries |a_ij| ≤ δ·√(|a_ii||a_jj|), i ≠ j, left out; `None` when it
     /// is singular.
-    fn precondition(&self, a: SparseColMatRef<'_, usize, f64>, old: Option<Lu>) -> Option<Lu> {
+    fn precondition(
+        &self,
+        a: SparseColMatRef<'_, usize, f64>,
+        old: Option<Preconditioner>,
+    ) -> Option<Preconditioner> {
         let n = a.ncols();
         let sym = a.symbolic();
         let (cp, ri, val) = (sym.col_ptr(), sym.row_idx(), a.val());
@@ -439,10 +631,11 @@ impl KrylovSolver {
         });
         let sym = SymbolicSparseColMat::new_checked(n, n, col_ptr, None, row_idx);
         let p = SparseColMat::new(sym, vals);
-        let lu = Lu::factor(p.as_ref(), old, PRECONDITIONER_LU)?;
+        let lu = Preconditioner::factor(p.as_ref(), old)?;
         // A singular or badly pivoted factor shows up as a non-finite solve of a unit vector.
         let mut probe = vec![1.0; n];
-        lu.solve(&mut probe, false).then_some(lu)
+        let ones = vec![1.0; n];
+        lu.solve_weighted(&mut probe, &ones).then_some(lu)
     }
 
     /// Solve with the complete LU of A, factorised on first use for this linearisation.
@@ -452,7 +645,7 @@ impl KrylovSolver {
             .ok_or_else(|| LaError::Other("the Krylov solver has no matrix".into()))?;
         let mut full = self.full.borrow_mut();
         if full.is_none() {
-            *full = Lu::factor(a, None, SupernodalThreshold::AUTO);
+            *full = Lu::factor(a, SupernodalThreshold::AUTO);
         }
         let lu = full
             .as_ref()
@@ -634,14 +827,8 @@ impl KrylovSolver {
 }
 
 /// v ← W P⁻¹ v; false if the result is not finite.
-fn weighted_preconditioned(pre: &Lu, weights: &[f64], v: &mut [f64]) -> bool {
-    if !pre.solve(v, false) {
-        return false;
-    }
-    for (x, w) in v.iter_mut().zip(weights) {
-        *x *= w;
-    }
-    true
+fn weighted_preconditioned(pre: &Preconditioner, weights: &[f64], v: &mut [f64]) -> bool {
+    pre.solve_weighted(v, weights)
 }
 
 impl LinearSolver<FaerSparseMat<f64>> for KrylovSolver {
@@ -874,6 +1061,39 @@ mod tests {
                 loose.get(),
                 tight.get()
             );
+        }
+    }
+
+    /// The preconditioner's own factorisation and triangular solves give faer's complete
+    /// simplicial LU solve of the same matrix to rounding (1e-12 relative), for a fresh column
+    /// order and for one kept from an earlier matrix of another pattern (any column order
+    /// gives an exact LU; only the fill differs).
+    #[test]
+    fn own_triangular_solves_match_faers_lu() {
+        let n = 300;
+        let mut old = None;
+        for (h, seed) in [(1e-6, 21), (1e-3, 22), (1.0, 23)] {
+            let e = stiff_newton_matrix(n, h, seed);
+            let m = given(n, &e).0;
+            let a = m.inner()[0].as_ref();
+            let pre = Preconditioner::factor(a, old.take()).expect("regular matrix");
+            let lu = Lu::factor(a, SupernodalThreshold::FORCE_SIMPLICIAL).expect("regular");
+            let b: Vec<f64> = (0..n).map(|i| ((i * 13) % 7) as f64 - 3.0).collect();
+            let w: Vec<f64> = (0..n).map(|i| 1.0 + (i % 5) as f64).collect();
+            let mut x = b.clone();
+            assert!(pre.solve_weighted(&mut x, &w));
+            let mut r = b.clone();
+            assert!(lu.solve(&mut r, false));
+            let scale = r.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            for i in 0..n {
+                assert!(
+                    (x[i] - w[i] * r[i]).abs() <= 1e-12 * w[i] * scale,
+                    "h = {h}, component {i}: {} against {}",
+                    x[i],
+                    w[i] * r[i]
+                );
+            }
+            old = Some(pre);
         }
     }
 
