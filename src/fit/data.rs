@@ -29,6 +29,18 @@ pub struct DataError {
     pub message: String,
 }
 
+impl DataError {
+    /// An error at `line` and `column` of `file` (0 for the whole file or the whole line).
+    pub fn at(file: &str, line: usize, column: usize, message: String) -> DataError {
+        DataError {
+            file: file.to_string(),
+            line,
+            column,
+            message,
+        }
+    }
+}
+
 impl fmt::Display for DataError {
     fn fmt(&self, f: &mut fmt::Formatter) -> fmt::Result {
         write!(f, "{}", self.file)?;
@@ -213,12 +225,7 @@ pub fn content_lines(text: &str) -> impl Iterator<Item = (usize, &str)> {
 
 /// Read a CSV file's text with the size cap, as UTF-8.
 pub fn read_csv_text(path: &std::path::Path, shown: &str) -> Result<String, DataError> {
-    let whole = |message: String| DataError {
-        file: shown.to_string(),
-        line: 0,
-        column: 0,
-        message,
-    };
+    let whole = |message: String| DataError::at(shown, 0, 0, message);
     let meta = std::fs::metadata(path).map_err(|e| whole(format!("cannot read: {e}")))?;
     if meta.is_file() && meta.len() as usize > MAX_DATA_BYTES {
         return Err(whole(format!(
@@ -233,12 +240,7 @@ pub fn read_csv_text(path: &std::path::Path, shown: &str) -> Result<String, Data
     String::from_utf8(bytes).map_err(|e| {
         let upto = &e.as_bytes()[..e.utf8_error().valid_up_to()];
         let line = upto.iter().filter(|&&b| b == b'\n').count() + 1;
-        DataError {
-            file: shown.to_string(),
-            line,
-            column: 0,
-            message: "the file is not UTF-8 text".into(),
-        }
+        DataError::at(shown, line, 0, "the file is not UTF-8 text".into())
     })
 }
 
@@ -283,11 +285,8 @@ impl Data {
     /// Parse a data CSV (`file` names it in messages). Species names and the kinds of
     /// measurement are checked against the study by [`Data::check_against`].
     pub fn parse(text: &str, file: &str) -> Result<Data, DataError> {
-        let err = |line: usize, column: usize, message: String| DataError {
-            file: file.to_string(),
-            line,
-            column,
-            message,
+        let err = |line: usize, column: usize, message: String| {
+            DataError::at(file, line, column, message)
         };
         let mut lines = content_lines(text);
         let Some((header_line, header)) = lines.next() else {
@@ -483,12 +482,7 @@ impl Data {
     pub fn check_against(&mut self, net: &Network) -> Result<(), DataError> {
         let file = self.file.clone();
         let line = self.header_line;
-        let err = |column: usize, message: String| DataError {
-            file: file.clone(),
-            line,
-            column,
-            message,
-        };
+        let err = |column: usize, message: String| DataError::at(&file, line, column, message);
         let kind = net.reactor.kind();
         let x_ok = matches!(
             (self.independent, kind),

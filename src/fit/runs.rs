@@ -31,11 +31,8 @@ pub struct RunsTable {
 impl RunsTable {
     /// Parse a runs table (`file` names it in messages).
     pub fn parse(text: &str, file: &str) -> Result<RunsTable, DataError> {
-        let err = |line: usize, column: usize, message: String| DataError {
-            file: file.to_string(),
-            line,
-            column,
-            message,
+        let err = |line: usize, column: usize, message: String| {
+            DataError::at(file, line, column, message)
         };
         let mut lines = content_lines(text);
         let Some((hl, header)) = lines.next() else {
