@@ -635,6 +635,7 @@ impl Terms {
     }
 
     /// Appends the term `c · col_column`.
+    #[inline]
     pub fn push(&mut self, column: usize, c: Coef) {
         let column = u32::try_from(column).expect("fewer than 2^32 columns");
         match c {

@@ -583,17 +583,9 @@ impl Checker {
             self.accumulate_checked(cols, j, d, combination)
         };
         // Read every row touched back (it is zero when the identity holds) and clear it.
-        let mut ok = true;
-        let mut clear = |col: usize, acc: &mut [i128]| {
-            for &r in cols.col_parts(col).0 {
-                let r = r as usize;
-                ok &= acc[r] == 0;
-                acc[r] = 0;
-            }
-        };
-        clear(j, &mut self.acc);
+        let mut ok = clear(&mut self.acc, cols.col_parts(j).0);
         for &(i, _) in combination {
-            clear(i, &mut self.acc);
+            ok &= clear(&mut self.acc, cols.col_parts(i).0);
         }
         result.map(|()| ok)
     }
@@ -607,15 +599,9 @@ impl Checker {
     ) {
         // |d|, |m| ≤ 2^62 here: as 64-bit factors each product is one widening multiply.
         let acc = &mut self.acc;
-        let mut add = |col: usize, m: i64| {
-            let (rows, vals) = cols.col_parts(col);
-            for (&r, &v) in rows.iter().zip(vals) {
-                acc[r as usize] += m as i128 * v as i128;
-            }
-        };
-        add(j, d as i64);
+        scatter(acc, cols.col_parts(j), d as i64);
         for (&(i, _), &m) in combination.iter().zip(&self.mult) {
-            add(i, -(m as i64));
+            scatter(acc, cols.col_parts(i), -(m as i64));
         }
     }
 
@@ -639,6 +625,26 @@ impl Checker {
         }
         Some(())
     }
+}
+
+/// `acc += m · col` over the column's rows, in 128-bit integers (the caller rules out overflow).
+#[inline(always)]
+fn scatter(acc: &mut [i128], (rows, vals): (&[u32], &[i64]), m: i64) {
+    for (&r, &v) in rows.iter().zip(vals) {
+        acc[r as usize] += m as i128 * v as i128;
+    }
+}
+
+/// Whether `acc` is zero in every one of `rows`; leaves it zero there.
+#[inline(always)]
+fn clear(acc: &mut [i128], rows: &[u32]) -> bool {
+    let mut ok = true;
+    for &r in rows {
+        let a = &mut acc[r as usize];
+        ok &= *a == 0;
+        *a = 0;
+    }
+    ok
 }
 
 /// lcm(d, b) for `d, b > 0`, `None` on overflow; in 64 bits when `d` fits (a 128-bit division
