@@ -526,6 +526,23 @@ impl Coef {
         {
             return Coef::Small(a, 1);
         }
+        // Then fractions of 64-bit integers: a 64-bit gcd and division are several times
+        // cheaper than 128-bit ones.
+        if let (Ok(n), Ok(d)) = (i64::try_from(num), i64::try_from(den))
+            && n != i64::MIN
+            && d != i64::MIN
+        {
+            // d ≠ 0, so g ≥ 1, and g ≤ |d| < 2^63.
+            let g = n.unsigned_abs().gcd(&d.unsigned_abs()) as i64;
+            let (a, b) = if d < 0 {
+                (-n / g, -d / g)
+            } else {
+                (n / g, d / g)
+            };
+            if let (Ok(a), Ok(b)) = (i32::try_from(a), u32::try_from(b)) {
+                return Coef::Small(a, b);
+            }
+        }
         let g = num.gcd(&den);
         let (mut a, mut b) = (num / g, den / g);
         if b < 0 {
@@ -618,6 +635,7 @@ impl Terms {
     }
 
     /// Appends the term `c · col_column`.
+    #[inline]
     pub fn push(&mut self, column: usize, c: Coef) {
         let column = u32::try_from(column).expect("fewer than 2^32 columns");
         match c {
@@ -690,6 +708,15 @@ pub struct Dependence {
     pub left_null_space: Vec<SparseRow>,
 }
 
+/// The column dependence of a matrix, exact: [`Dependence`] without the left null space.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ColumnDependenceExact {
+    /// As [`Dependence::independent`].
+    pub independent: Vec<usize>,
+    /// As [`Dependence::dependent`].
+    pub dependent: Vec<(usize, Terms)>,
+}
+
 impl SparseQMatrix {
     /// Column dependence and left null space (see [`Dependence`]), exact.
     ///
@@ -715,6 +742,48 @@ impl SparseQMatrix {
     pub fn dependence(&self) -> Dependence {
         self.dependence_modular(modular::Mersenne61)
             .unwrap_or_else(|| self.dependence_rational())
+    }
+
+    /// The independent columns and the combination of each dependent one, as in
+    /// [`Self::dependence`], without the left null space: what the consistency findings need.
+    /// By the elimination modulo 2^61 − 1 with every combination confirmed exactly, else by
+    /// the exact rational elimination; the same answer either way (the argument of
+    /// [`Self::dependence`] uses the confirmed combinations only, not the left null space).
+    pub fn column_dependence_exact(&self) -> ColumnDependenceExact {
+        self.column_dependence_modular(modular::Mersenne61)
+            .unwrap_or_else(|| self.column_dependence_rational())
+    }
+
+    /// [`Self::column_dependence_exact`] by the exact rational elimination alone.
+    pub fn column_dependence_rational(&self) -> ColumnDependenceExact {
+        let dep = self.column_dependence();
+        ColumnDependenceExact {
+            independent: dep.independent,
+            dependent: dep
+                .dependent
+                .into_iter()
+                .map(|(j, c)| {
+                    (
+                        j,
+                        c.into_iter().map(|(k, q)| (k, Coef::from_q(q))).collect(),
+                    )
+                })
+                .collect(),
+        }
+    }
+
+    /// [`Self::column_dependence_exact`] over the prime field `f`, `None` when a combination
+    /// cannot be confirmed.
+    pub(crate) fn column_dependence_modular<F: modular::PrimeField>(
+        &self,
+        f: F,
+    ) -> Option<ColumnDependenceExact> {
+        let (cols, col_scale) = self.integer_columns()?;
+        let (by_col, _) = modular::greedy_dependence(f, &cols, &col_scale)?;
+        Some(ColumnDependenceExact {
+            independent: by_col.independent,
+            dependent: by_col.dependent,
+        })
     }
 
     /// [`Self::dependence`] by the exact rational elimination alone (fraction-free, sparse).
@@ -1393,9 +1462,19 @@ mod tests {
         let s = SparseQMatrix::from(m);
         let exact = s.dependence_rational();
         assert_eq!(s.dependence(), exact);
+        // The column-only path (what the findings use) gives the same columns, by either route.
+        let columns = ColumnDependenceExact {
+            independent: exact.independent.clone(),
+            dependent: exact.dependent.clone(),
+        };
+        assert_eq!(s.column_dependence_exact(), columns);
+        assert_eq!(s.column_dependence_rational(), columns);
         for p in SMALL_PRIMES {
             if let Some(d) = s.dependence_modular(modular::Prime(p)) {
                 assert_eq!(d, exact, "mod {p}");
+            }
+            if let Some(d) = s.column_dependence_modular(modular::Prime(p)) {
+                assert_eq!(d, columns, "columns mod {p}");
             }
         }
         // The rational path itself agrees with the dense reference.
@@ -1409,9 +1488,12 @@ mod tests {
         let m = mat_i(&[&[1, 1], &[1, 4]]);
         let s = SparseQMatrix::from(&m);
         assert!(s.dependence_modular(modular::Prime(3)).is_none());
+        assert!(s.column_dependence_modular(modular::Prime(3)).is_none());
         let d = s.dependence();
         assert_eq!(d.independent, vec![0, 1]);
         assert!(d.dependent.is_empty());
+        let c = s.column_dependence_exact();
+        assert_eq!((c.independent, c.dependent), (vec![0, 1], vec![]));
         assert!(d.left_null_space.is_empty());
         assert_eq!(s.dependence_modular(modular::Prime(5)), Some(d));
     }
@@ -1422,8 +1504,12 @@ mod tests {
         let m = mat_i(&[&[5, 1], &[10, 2]]);
         let s = SparseQMatrix::from(&m);
         assert!(s.dependence_modular(modular::Prime(7)).is_none());
+        assert!(s.column_dependence_modular(modular::Prime(7)).is_none());
         let d = s.dependence();
         assert_eq!(d.independent, vec![0]);
+        let c = s.column_dependence_exact();
+        assert_eq!(c.independent, d.independent);
+        assert_eq!(c.dependent, d.dependent);
         assert_eq!(
             d.dependent,
             vec![(1, [(0, Coef::Small(1, 5))].into_iter().collect())]
@@ -1471,9 +1557,13 @@ mod tests {
         let (m, w) = mass_balanced_network(200, 600, 42);
         let s = SparseQMatrix::from(&m);
         assert!(s.dependence_modular(modular::Mersenne61).is_none());
+        assert!(s.column_dependence_modular(modular::Mersenne61).is_none());
         let d = s.dependence();
         assert_eq!(d, s.dependence_rational());
         assert_eq!(d.independent.len(), 199);
+        let c = s.column_dependence_exact();
+        assert_eq!(c.independent, d.independent);
+        assert_eq!(c.dependent, d.dependent);
         let g = w.iter().fold(0i64, |g, x| g.gcd(x));
         let expected: SparseRow = w
             .iter()
@@ -1498,6 +1588,23 @@ mod tests {
             assert_eq!(c.abs().to_q(), qv.abs());
             assert_eq!(c.is_negative(), qv.is_negative());
             assert_eq!(c.is_integer(), qv.is_integer());
+        }
+        // Negative denominators and the ends of the 64-bit range, against num-rational.
+        let edges = [
+            (6, -4),
+            (-6, -4),
+            (0, -5),
+            (i64::MIN as i128, 2),
+            (i64::MAX as i128, -(i64::MAX as i128)),
+            (i64::MIN as i128, i64::MIN as i128),
+            (1, i64::MIN as i128),
+            (i64::MAX as i128 + 1, 3),
+            (-(1 << 40), -(1 << 38)),
+        ];
+        for (a, b) in edges {
+            let qv = Ratio::new(BigInt::from(a), BigInt::from(b));
+            assert_eq!(Coef::from_ratio(a, b).to_q(), qv, "{a}/{b}");
+            assert_eq!(Coef::from_ratio(a, b), Coef::from_q(qv), "{a}/{b}");
         }
         let big = qd("12345678901234567890.5");
         let mut t = Terms::default();

@@ -177,7 +177,32 @@ pub fn analyse(net: &Network) -> GraphReport {
     let intermediates: Vec<usize> = (0..ns)
         .filter(|&j| !makers[j].is_empty() && !consumers[j].is_empty())
         .collect();
+    let Reachability {
+        unreachable_species,
+        dead_reactions,
+    } = reachability(net);
+    GraphReport {
+        pairs,
+        pair_count,
+        intermediates,
+        unreachable_species,
+        dead_reactions,
+    }
+}
 
+/// What can ever form from the feed: the part of [`GraphReport`] the findings use.
+#[derive(Debug, Clone)]
+pub struct Reachability {
+    /// Species in some reaction that never become present.
+    pub unreachable_species: Vec<usize>,
+    /// Reactions that never run.
+    pub dead_reactions: Vec<usize>,
+}
+
+/// The reachability fixed point of the module documentation, without the pairs and
+/// intermediates of [`analyse`].
+pub fn reachability(net: &Network) -> Reachability {
+    let nr = net.reactions.len();
     // Reachability fixed point from the fed species.
     let mut present: Vec<bool> = net.fed_species();
     let mut runs = vec![false; nr];
@@ -210,16 +235,13 @@ pub fn analyse(net: &Network) -> GraphReport {
             break;
         }
     }
-    let mut involved = vec![false; ns];
+    let mut involved = vec![false; net.species.len()];
     for r in &net.reactions {
         for t in r.reactants.iter().chain(r.products.iter()) {
             involved[t.species] = true;
         }
     }
-    GraphReport {
-        pairs,
-        pair_count,
-        intermediates,
+    Reachability {
         unreachable_species: (0..net.species.len())
             .filter(|&j| !present[j] && involved[j])
             .collect(),

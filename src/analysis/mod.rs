@@ -212,28 +212,81 @@ impl Analyses {
     }
 }
 
-/// Run every analysis and return the findings only: what `run` and the studies need to decide
-/// whether a network may be simulated, without building the report of [`check`] (whose lists
-/// of combinations can hold millions of terms on a large network). The same findings as
-/// `check(net).findings`.
+impl Analyses {
+    /// The parts of the analyses the findings use.
+    fn inputs(&self) -> FindingInputs<'_> {
+        FindingInputs {
+            rank: self.st.rank,
+            dependent: &self.st.dependent,
+            bal: &self.bal,
+            el: &self.el,
+            unreachable_species: &self.gr.unreachable_species,
+            dead_reactions: &self.gr.dead_reactions,
+            cycles: &self.cycles,
+            from_species: &self.from_species,
+        }
+    }
+}
+
+/// What the findings are made from: of the stoichiometry, the rank (against the element
+/// bound) and the dependent combinations (duplicates, and the equilibrium cycles computed from
+/// them); of the graph, what cannot form or run from the feed; the atom balances, the element
+/// matrix and the species-data checks. The conservation laws, the related pairs and the
+/// intermediates are the report's only.
+struct FindingInputs<'a> {
+    rank: usize,
+    dependent: &'a [stoich::Dependent],
+    bal: &'a [atoms::AtomBalance],
+    el: &'a atoms::ElementMatrix,
+    unreachable_species: &'a [usize],
+    dead_reactions: &'a [usize],
+    cycles: &'a [thermo::CycleCheck],
+    from_species: &'a [thermo::SpeciesDataCheck],
+}
+
+/// Run the analyses the findings use and return the findings only: what `run` and the studies
+/// need to decide whether a network may be simulated, without the report of [`check`] (whose
+/// lists of combinations can hold millions of terms on a large network) and without the
+/// analyses only the report shows (conservation laws, related pairs, intermediates). The same
+/// findings as `check(net).findings`: each input is computed by the same exact method.
 pub fn findings(net: &Network) -> Vec<Finding> {
-    findings_of(net, &Analyses::of(net))
+    let dep = stoich::dependence(net);
+    let cycles = thermo::check(net, &dep.dependent);
+    let bal = atoms::balances(net);
+    let el = atoms::element_matrix(net);
+    let reach = graph::reachability(net);
+    let from_species = thermo::species_data(net);
+    findings_of(
+        net,
+        FindingInputs {
+            rank: dep.rank,
+            dependent: &dep.dependent,
+            bal: &bal,
+            el: &el,
+            unreachable_species: &reach.unreachable_species,
+            dead_reactions: &reach.dead_reactions,
+            cycles: &cycles,
+            from_species: &from_species,
+        },
+    )
 }
 
 /// Run every analysis and gather the findings.
 pub fn check(net: &Network) -> Check {
     let a = Analyses::of(net);
-    let findings = findings_of(net, &a);
+    let findings = findings_of(net, a.inputs());
     report_of(net, a, findings)
 }
 
 /// The findings of the analyses, errors first.
-fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
-    let Analyses {
-        st,
+fn findings_of(net: &Network, a: FindingInputs<'_>) -> Vec<Finding> {
+    let FindingInputs {
+        rank,
+        dependent,
         bal,
         el,
-        gr,
+        unreachable_species,
+        dead_reactions,
         cycles,
         from_species,
     } = a;
@@ -274,7 +327,7 @@ fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
             );
         }
     }
-    for d in &st.dependent {
+    for d in dependent {
         if d.combination.len() == 1 {
             let (i, c) = d.combination.get(0);
             let what = if c.is_one() {
@@ -293,20 +346,19 @@ fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
         }
     }
     if let Some(bound) = el.bound
-        && st.rank > bound
+        && rank > bound
     {
         add(
             Severity::Error,
             format!(
                 "{} independent reactions, but the elements allow at most {bound} (species − rank of the element matrix)",
-                st.rank
+                rank
             ),
         );
     }
     for c in cycles {
         if !c.consistent {
-            let d = st
-                .dependent
+            let d = dependent
                 .iter()
                 .find(|d| d.reaction == c.reaction)
                 .expect("checked");
@@ -443,13 +495,13 @@ fn findings_of(net: &Network, a: &Analyses) -> Vec<Finding> {
             format!("desired product `{}` is made by no reaction", sp(d)),
         );
     }
-    for &j in &gr.unreachable_species {
+    for &j in unreachable_species {
         add(
             Severity::Warning,
             format!("species `{}` can never form from this feed", sp(j)),
         );
     }
-    for &i in &gr.dead_reactions {
+    for &i in dead_reactions {
         add(
             Severity::Warning,
             format!("reaction `{}` can never run from this feed", rx(i)),
@@ -573,5 +625,94 @@ fn report_of(net: &Network, a: Analyses, findings: Vec<Finding>) -> Check {
             })
             .collect(),
         findings,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The findings as comparable pairs.
+    fn pairs(f: &[Finding]) -> Vec<(Severity, String)> {
+        f.iter().map(|f| (f.severity, f.message.clone())).collect()
+    }
+
+    /// `findings` (what `run` computes) against the findings of the full `check`.
+    fn same_findings_as_check(net: &Network) -> Vec<(Severity, String)> {
+        let fast = pairs(&findings(net));
+        assert_eq!(fast, pairs(&check(net).findings));
+        fast
+    }
+
+    /// Isomers A, B, C, D (C4H8, so every step is atom-balanced) in reversible steps, with
+    /// dependent reactions of every kind the findings read: `ac` = `ab` + `bc` closes a cycle
+    /// whose K's and heats agree (K_ac = 2 × 3 = 6, ΔH_ac = −10 − 10 = −20 kJ/mol; Wegscheider's
+    /// condition and Hess's law, from memory); `ad` = `ab` + `bc` + `cd` breaks both (K_ad must be
+    /// 2 × 3 × 5 = 30, the file gives 31; ΔH must be −30, the file gives −50); `ab2` is twice
+    /// `ab` (a duplicate whose K = 2² = 4 agrees); `de2` repeats the one-way `de`.
+    const CYCLES: &str = "name: consistent and broken cycles, duplicates (test values)
+phase: liquid
+species: {A: {formula: C4H8}, B: {formula: C4H8}, C: {formula: C4H8}, D: {formula: C4H8}, E: {formula: C4H8}}
+reactions:
+  - {id: ab, stoich: A <=> B, rate: {k: 0.01 1/s, K_eq: 2, dH: -10 kJ/mol, T_ref: 350 K}}
+  - {id: bc, stoich: B <=> C, rate: {k: 0.01 1/s, K_eq: 3, dH: -10 kJ/mol, T_ref: 350 K}}
+  - {id: ac, stoich: A <=> C, rate: {k: 0.01 1/s, K_eq: 6, dH: -20 kJ/mol, T_ref: 350 K}}
+  - {id: cd, stoich: C <=> D, rate: {k: 0.01 1/s, K_eq: 5, dH: -10 kJ/mol, T_ref: 350 K}}
+  - {id: ad, stoich: A <=> D, rate: {k: 0.01 1/s, K_eq: 31, dH: -50 kJ/mol, T_ref: 350 K}}
+  - {id: ab2, stoich: 2 A <=> 2 B, rate: {k: 0.01 m3/(mol*s), K_eq: 4, dH: -20 kJ/mol, T_ref: 350 K}}
+  - {id: de, stoich: D -> E, rate: {k: 0.01 1/s}}
+  - {id: de2, stoich: D -> E, rate: {k: 0.02 1/s}}
+feed: {T: 350 K, volumetric: 1 L/s, concentrations: {A: 1 mol/L}}
+reactor: {type: pfr, volume: 10 L}
+key: A
+desired: E
+";
+
+    #[test]
+    fn findings_alone_match_the_check_on_cycles_and_duplicates() {
+        let net = crate::load_str(CYCLES, "cycles", &[]).expect("loads");
+        let f = same_findings_as_check(&net);
+        let has = |s: &str| f.iter().any(|(_, m)| m.contains(s));
+        assert!(has("duplicate reaction: `ab2` is 2 times `ab`"), "{f:?}");
+        assert!(
+            has("duplicate reaction: `de2` is the same reaction as `de`"),
+            "{f:?}"
+        );
+        assert!(
+            has("Wegscheider): ad = ab + bc + cd requires K_ad = 3.000000e1"),
+            "{f:?}"
+        );
+        assert!(has("Hess's law for `ad`"), "{f:?}");
+        assert!(!f.iter().any(|(_, m)| m.contains("ac =")), "{f:?}");
+        assert!(!has("Hess's law for `ac`"), "{f:?}");
+        assert!(!has("Wegscheider): ab2"), "{f:?}");
+        // Rank 4 (ab, bc, cd, de), within the element bound: every species is C4H8, so the
+        // element matrix has rank 1 and at most 5 − 1 = 4 reactions are independent.
+        assert!(!has("the elements allow"), "{f:?}");
+    }
+
+    /// More independent reactions than the elements allow: the rank in the finding is exact.
+    #[test]
+    fn findings_alone_report_the_element_bound_with_the_exact_rank() {
+        // A = C2H4 and B = C4H8 (2 A -> B balanced); the element matrix of C2H4, C4H8 has rank
+        // 1 (H = 2 C in both), so at most 2 − 1 = 1 independent reaction (Denbigh; from memory),
+        // but the unbalanced `ab` (A -> B) makes the rank 2.
+        let text = "name: element bound (test values)
+phase: liquid
+species: {A: {formula: C2H4}, B: {formula: C4H8}}
+reactions:
+  - {id: dimer, stoich: 2 A -> B, rate: {k: 0.01 m3/(mol*s)}}
+  - {id: ab, stoich: A -> B, rate: {k: 0.01 1/s}}
+feed: {T: 350 K, volumetric: 1 L/s, concentrations: {A: 1 mol/L}}
+reactor: {type: pfr, volume: 10 L}
+key: A
+";
+        let net = crate::load_str(text, "bound", &[]).expect("loads");
+        let f = same_findings_as_check(&net);
+        assert!(
+            f.iter().any(|(s, m)| *s == Severity::Error
+                && m.starts_with("2 independent reactions, but the elements allow at most 1")),
+            "{f:?}"
+        );
     }
 }

@@ -47,6 +47,36 @@ fn exact_matrix(net: &Network, rows: &[usize]) -> SparseQMatrix {
     )
 }
 
+/// The reactions' part of [`Stoichiometry`]: rank, independent set and dependent
+/// combinations, without the conservation laws.
+#[derive(Debug, Clone)]
+pub struct ReactionDependence {
+    pub rank: usize,
+    /// Independent reactions, greedy in file order.
+    pub independent: Vec<usize>,
+    pub dependent: Vec<Dependent>,
+}
+
+/// Rank, independent set and dependent combinations, exact, as [`analyse`] gives them, without
+/// computing the conservation laws (the consistency findings do not use them).
+pub fn dependence(net: &Network) -> ReactionDependence {
+    let m = exact_matrix(net, &net.reacting_species());
+    let dep = m.column_dependence_exact();
+    drop(m);
+    ReactionDependence {
+        rank: dep.independent.len(),
+        independent: dep.independent,
+        dependent: dep
+            .dependent
+            .into_iter()
+            .map(|(reaction, combination)| Dependent {
+                reaction,
+                combination,
+            })
+            .collect(),
+    }
+}
+
 /// Rank, independent set, dependent combinations and conservation laws, all exact.
 ///
 /// Only species that some reaction changes enter the matrix: each of the others (inerts,
@@ -112,5 +142,52 @@ mod tests {
         assert_eq!(fast, m.dependence_rational());
         assert_eq!(fast.independent.len(), 299);
         assert_eq!(fast.left_null_space.len(), 1);
+        // The reactions alone, as the findings compute them.
+        let d = dependence(&net);
+        assert_eq!(d.independent, fast.independent);
+        assert_eq!(d.rank, 299);
+        let pairs: Vec<(usize, Terms)> = d
+            .dependent
+            .into_iter()
+            .map(|d| (d.reaction, d.combination))
+            .collect();
+        assert_eq!(pairs, fast.dependent);
+    }
+
+    /// A duplicate with a factor beyond what reconstruction modulo 2^61 − 1 recovers
+    /// (|a| ≤ 2^30): the prime field declines, the rational elimination answers, and the
+    /// findings alone still name the exact factor (r2 = 3000000007 r1, read off the file).
+    #[test]
+    fn findings_alone_on_the_rational_fall_back() {
+        let text = "name: duplicate with a large factor (test values)
+phase: liquid
+species: {A: {}, B: {}}
+reactions:
+  - {id: r1, stoich: A -> B, rate: {k: 0.01 1/s}}
+  - {id: r2, stoich: 3000000007 A -> 3000000007 B, rate: {k: 0.01 1/s, orders: {A: 1}}}
+feed: {T: 350 K, volumetric: 1 L/s, concentrations: {A: 1 mol/L}}
+reactor: {type: pfr, volume: 10 L}
+key: A
+";
+        let net = crate::load_str(text, "large factor", &[]).expect("loads");
+        let m = exact_matrix(&net, &net.reacting_species());
+        assert!(m.column_dependence_modular(Mersenne61).is_none());
+        let d = dependence(&net);
+        assert_eq!((d.rank, d.independent.clone()), (1, vec![0]));
+        let f: Vec<String> = crate::analysis::findings(&net)
+            .into_iter()
+            .map(|f| f.message)
+            .collect();
+        let full: Vec<String> = crate::analysis::check(&net)
+            .findings
+            .into_iter()
+            .map(|f| f.message)
+            .collect();
+        assert_eq!(f, full);
+        assert!(
+            f.iter()
+                .any(|m| m.contains("`r2` is 3000000007 times `r1`")),
+            "{f:?}"
+        );
     }
 }

@@ -141,6 +141,13 @@ impl IntColumns {
         }
     }
 
+    /// The rows and values of column `j`.
+    #[inline]
+    fn col_parts(&self, j: usize) -> (&[u32], &[i64]) {
+        let r = self.start[j]..self.start[j + 1];
+        (&self.row[r.clone()], &self.val[r])
+    }
+
     fn col(&self, j: usize) -> impl Iterator<Item = (usize, i64)> + '_ {
         let r = self.start[j]..self.start[j + 1];
         self.row[r.clone()]
@@ -214,7 +221,8 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
     let mut w: Vec<u64> = Vec::new();
     let mut wstamp: Vec<u32> = Vec::new();
     let mut up_heap: std::collections::BinaryHeap<u32> = Default::default();
-    let mut check = Checker::new(nrows);
+    let mut check = Checker::new(cols);
+    let mut combination: Vec<(usize, Frac)> = Vec::new();
 
     for j in 0..ncols {
         let tag = j as u32;
@@ -292,7 +300,7 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
                     wstamp[k as usize] = tag;
                     up_heap.push(k);
                 }
-                let mut combination: Vec<(usize, Frac)> = Vec::new();
+                combination.clear();
                 while let Some(k) = up_heap.pop() {
                     let k = k as usize;
                     let v = w[k];
@@ -315,14 +323,22 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
                 if !check.is_combination(cols, j, &combination)? {
                     return None;
                 }
-                let combination: Terms = combination
-                    .into_iter()
-                    .map(|(i, (a, b))| {
-                        let num = a as i128 * scale[i] as i128;
-                        (i, Coef::from_ratio(num, b as i128 * scale[j] as i128))
+                let terms: Terms = combination
+                    .iter()
+                    .map(|&(i, (a, b))| {
+                        // A reconstructed fraction is reduced with |a|, b < 2^31: unscaled
+                        // columns (the common case) need no gcd.
+                        let coef = match (scale[i], scale[j], i32::try_from(a), u32::try_from(b)) {
+                            (1, 1, Ok(a), Ok(b)) => Coef::Small(a, b),
+                            _ => Coef::from_ratio(
+                                a as i128 * scale[i] as i128,
+                                b as i128 * scale[j] as i128,
+                            ),
+                        };
+                        (i, coef)
                     })
                     .collect();
-                dependent.push((j, combination));
+                dependent.push((j, terms));
             }
         }
         for &r in &touched {
@@ -435,7 +451,7 @@ pub(crate) fn left_null_space<F: PrimeField>(
     }
     // Exact confirmation: row f = Σ_k (−y_k) row_k over the rows of A.
     let rows = cols.transpose();
-    let mut check = Checker::new(rows.nrows);
+    let mut check = Checker::new(&rows);
     let mut out = Vec::with_capacity(order.len());
     for &i in &order {
         let v = &basis[i];
@@ -508,23 +524,34 @@ pub(crate) fn reconstruct(v: u64, p: u64) -> Option<Frac> {
 }
 
 /// Exact integer check that a column equals a rational combination of others.
+///
+/// The identity `D col_j = Σ (D c_i) col_i` (`D` the lcm of the denominators) is summed row by
+/// row in 128-bit integers. When every multiplier `D c_i` and `D` are at most 2^62 in magnitude
+/// and every matrix entry at most 2^31, each product is below 2^93 and a row sums at most
+/// `terms + 1 ≤ 2^32` of them, so no sum can pass 2^125 and plain 128-bit arithmetic is exact;
+/// otherwise every operation is checked and an overflow gives up (the caller falls back).
 struct Checker {
     acc: Vec<i128>,
-    touched: Vec<usize>,
-    seen: Vec<bool>,
+    /// The multipliers `D c_i` of the combination being checked.
+    mult: Vec<i128>,
+    /// Every entry of the matrix is at most 2^31 in magnitude.
+    small_entries: bool,
 }
 
+/// Bound on `D` and the multipliers for the unchecked sums (see [`Checker`]).
+const MULT_BOUND: i128 = 1 << 62;
+
 impl Checker {
-    fn new(nrows: usize) -> Self {
+    fn new(cols: &IntColumns) -> Self {
         Checker {
-            acc: vec![0; nrows],
-            touched: Vec::new(),
-            seen: vec![false; nrows],
+            acc: vec![0; cols.nrows],
+            mult: Vec::new(),
+            small_entries: cols.val.iter().all(|v| v.unsigned_abs() <= 1 << 31),
         }
     }
 
     /// `Some(true)` when `D col_j − Σ (D c_i) col_i = 0` with `D` the lcm of the denominators
-    /// (all in checked 128-bit integers), `Some(false)` when not, `None` on overflow.
+    /// (all in 128-bit integers, see [`Checker`]), `Some(false)` when not, `None` on overflow.
     fn is_combination(
         &mut self,
         cols: &IntColumns,
@@ -533,49 +560,111 @@ impl Checker {
     ) -> Option<bool> {
         let mut d: i128 = 1;
         for &(_, (_, b)) in combination {
-            // Integer coefficients (the common case) leave d = 1 without a 128-bit gcd.
+            // Integer coefficients (the common case) leave d = 1 without a gcd.
             if b != 1 {
-                let b = b as i128;
-                d = (d / d.gcd(&b)).checked_mul(b)?;
+                d = lcm(d, b)?;
             }
         }
-        let result = self.accumulate(cols, j, d, combination);
-        let ok = result.map(|()| self.touched.iter().all(|&r| self.acc[r] == 0));
-        for &r in &self.touched {
-            self.acc[r] = 0;
-            self.seen[r] = false;
+        self.mult.clear();
+        let mut small = self.small_entries && d <= MULT_BOUND;
+        for &(_, (a, b)) in combination {
+            let m = if d == 1 {
+                a as i128
+            } else {
+                (a as i128).checked_mul(quotient(d, b))?
+            };
+            small &= m.abs() <= MULT_BOUND;
+            self.mult.push(m);
         }
-        self.touched.clear();
-        ok
+        let result = if small {
+            self.accumulate_unchecked(cols, j, d, combination);
+            Some(())
+        } else {
+            self.accumulate_checked(cols, j, d, combination)
+        };
+        // Read every row touched back (it is zero when the identity holds) and clear it.
+        let mut ok = clear(&mut self.acc, cols.col_parts(j).0);
+        for &(i, _) in combination {
+            ok &= clear(&mut self.acc, cols.col_parts(i).0);
+        }
+        result.map(|()| ok)
     }
 
-    fn accumulate(
+    fn accumulate_unchecked(
+        &mut self,
+        cols: &IntColumns,
+        j: usize,
+        d: i128,
+        combination: &[(usize, Frac)],
+    ) {
+        // |d|, |m| ≤ 2^62 here: as 64-bit factors each product is one widening multiply.
+        let acc = &mut self.acc;
+        scatter(acc, cols.col_parts(j), d as i64);
+        for (&(i, _), &m) in combination.iter().zip(&self.mult) {
+            scatter(acc, cols.col_parts(i), -(m as i64));
+        }
+    }
+
+    fn accumulate_checked(
         &mut self,
         cols: &IntColumns,
         j: usize,
         d: i128,
         combination: &[(usize, Frac)],
     ) -> Option<()> {
-        let add = |this: &mut Self, col: usize, m: i128| -> Option<()> {
+        let acc = &mut self.acc;
+        let mut add = |col: usize, m: i128| -> Option<()> {
             for (r, v) in cols.col(col) {
-                if !this.seen[r] {
-                    this.seen[r] = true;
-                    this.touched.push(r);
-                }
-                this.acc[r] = this.acc[r].checked_add(m.checked_mul(v as i128)?)?;
+                acc[r] = acc[r].checked_add(m.checked_mul(v as i128)?)?;
             }
             Some(())
         };
-        add(self, j, d)?;
-        for &(i, (a, b)) in combination {
-            let m = if d == 1 {
-                a as i128
-            } else {
-                (a as i128).checked_mul(d / b as i128)?
-            };
-            add(self, i, -m)?;
+        add(j, d)?;
+        for (&(i, _), &m) in combination.iter().zip(&self.mult) {
+            add(i, -m)?;
         }
         Some(())
+    }
+}
+
+/// `acc += m · col` over the column's rows, in 128-bit integers (the caller rules out overflow).
+#[inline(always)]
+fn scatter(acc: &mut [i128], (rows, vals): (&[u32], &[i64]), m: i64) {
+    for (&r, &v) in rows.iter().zip(vals) {
+        acc[r as usize] += m as i128 * v as i128;
+    }
+}
+
+/// Whether `acc` is zero in every one of `rows`; leaves it zero there.
+#[inline(always)]
+fn clear(acc: &mut [i128], rows: &[u32]) -> bool {
+    let mut ok = true;
+    for &r in rows {
+        let a = &mut acc[r as usize];
+        ok &= *a == 0;
+        *a = 0;
+    }
+    ok
+}
+
+/// lcm(d, b) for `d, b > 0`, `None` on overflow; in 64 bits when `d` fits (a 128-bit division
+/// costs several times a 64-bit one).
+fn lcm(d: i128, b: i64) -> Option<i128> {
+    if let Ok(d64) = u64::try_from(d) {
+        let b = b as u64;
+        let g = d64.gcd(&b);
+        ((d64 / g) as i128).checked_mul(b as i128)
+    } else {
+        let b = b as i128;
+        (d / d.gcd(&b)).checked_mul(b)
+    }
+}
+
+/// `d / b` for `b` dividing `d > 0`, in 64 bits when `d` fits.
+fn quotient(d: i128, b: i64) -> i128 {
+    match u64::try_from(d) {
+        Ok(d64) => (d64 / b as u64) as i128,
+        Err(_) => d / b as i128,
     }
 }
 
@@ -606,6 +695,53 @@ mod tests {
             }
         }
         assert_eq!(Mersenne61.reduce(-1), M61 - 1);
+    }
+
+    /// The exact check on columns whose identities are known by hand (direct arithmetic):
+    /// entries small enough for the plain 128-bit sums, entries beyond 2^31 that take the
+    /// checked sums, and multipliers whose products pass 2^127, which must give up.
+    #[test]
+    fn combination_check_is_exact_on_both_paths() {
+        let mut cols = IntColumns::new(3);
+        cols.push([(0, 1), (1, 2)]); // a0
+        cols.push([(0, 2), (1, 4)]); // a1 = 2 a0
+        cols.push([(0, 3), (2, 1)]); // a2
+        cols.push([(0, 5), (1, 4), (2, 1)]); // a3 = 2 a0 + a2
+        cols.push([(0, 1 << 40), (1, 3)]); // a4
+        cols.push([(0, 1 << 41), (1, 6)]); // a5 = 2 a4
+        cols.push([(0, 1 << 40), (1, 1 << 40)]); // a6
+        let mut check = Checker::new(&cols);
+        assert!(!check.small_entries);
+        assert_eq!(check.is_combination(&cols, 1, &[(0, (2, 1))]), Some(true));
+        assert_eq!(check.is_combination(&cols, 1, &[(0, (3, 1))]), Some(false));
+        assert_eq!(check.is_combination(&cols, 0, &[(1, (1, 2))]), Some(true));
+        assert_eq!(
+            check.is_combination(&cols, 3, &[(0, (2, 1)), (2, (1, 1))]),
+            Some(true)
+        );
+        assert_eq!(
+            check.is_combination(&cols, 3, &[(0, (2, 1)), (2, (1, 3))]),
+            Some(false)
+        );
+        assert_eq!(check.is_combination(&cols, 5, &[(4, (2, 1))]), Some(true));
+        assert_eq!(check.is_combination(&cols, 4, &[(5, (1, 2))]), Some(true));
+        assert_eq!(check.is_combination(&cols, 5, &[(4, (-2, 1))]), Some(false));
+        // 2^40 · 2^62 · 2^40 is beyond 2^127.
+        assert_eq!(
+            check.is_combination(&cols, 6, &[(4, (1 << 40, 1)), (5, (1, 1 << 62))]),
+            None
+        );
+        // The accumulator is left clear whatever the outcome: the first check again.
+        assert_eq!(check.is_combination(&cols, 1, &[(0, (2, 1))]), Some(true));
+
+        let mut small = IntColumns::new(2);
+        small.push([(0, 1), (1, 2)]);
+        small.push([(0, 2), (1, 4)]);
+        let mut check = Checker::new(&small);
+        assert!(check.small_entries);
+        assert_eq!(check.is_combination(&small, 1, &[(0, (2, 1))]), Some(true));
+        assert_eq!(check.is_combination(&small, 0, &[(1, (1, 2))]), Some(true));
+        assert_eq!(check.is_combination(&small, 0, &[(1, (1, 3))]), Some(false));
     }
 
     #[test]
