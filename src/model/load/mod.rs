@@ -167,9 +167,10 @@ impl ParsedStudy {
     /// as [`ParsedStudy::load`] of both lists, made faster when every path of `point` lies
     /// under `reactor.` in a study with a single `reactor` (a sweep over the size or the
     /// cooling, an optimiser over the volume): then only the `reactor` section is read
-    /// again and the species and reactions are taken from a load of the study under `base`
-    /// (they cannot depend on the reactor except through the rate basis, the phase and the
-    /// feed temperature, which are compared; a difference builds them again). Anything that
+    /// again and the species, feed and reactions are taken from a load of the study under
+    /// `base` (they cannot depend on the reactor except through the rate basis, the phase, the
+    /// feed temperature and a batch charge's volume, which are compared; a difference builds
+    /// them again). Anything that
     /// fails on that path, and any other point, is loaded whole, so errors read the same.
     pub fn load_reactor_point(
         &self,
@@ -228,7 +229,7 @@ impl ParsedStudy {
 
 /// A study under its base overrides, kept for loading points that change only fields of its
 /// single `reactor` section: the raw study as deserialized, the `reactor` subtree (to which a
-/// point's overrides are applied), and the species and reactions as built ([`Fixed`]).
+/// point's overrides are applied), and the species, feed and reactions as built ([`Fixed`]).
 #[derive(Debug)]
 pub struct ReactorPoints {
     raw: RawStudy,
@@ -608,8 +609,8 @@ enum Reuse<'a> {
     Nothing,
     /// Build every section and keep the species and reactions ([`Fixed`]).
     Record,
-    /// Take the species, and the reactions when they were built with the same rate basis,
-    /// phase and feed temperature.
+    /// Take the species, the feed when neither load is of a batch reactor, and the reactions
+    /// when they were built with the same rate basis, phase and feed temperature.
     From(&'a Fixed),
 }
 
@@ -627,6 +628,11 @@ struct Fixed {
     basis: RateBasis,
     phase: Phase,
     feed_temperature: f64,
+    /// The feed as built, its notes, and whether it was built for a batch reactor (whose
+    /// charge may depend on the vessel's volume; a flow reactor's feed does not).
+    feed: Feed,
+    feed_notes: Vec<String>,
+    feed_batch: bool,
 }
 
 fn build(raw: &RawStudy, cx: &Cx) -> Result<Network, LoadError> {
@@ -678,8 +684,18 @@ fn build_sections(
         RateBasis::Volume
     };
 
-    // --- feed (temperature needed as the default T_ref)
-    let feed = build_feed(&raw.feed, "feed", phase, &reactor, &index, &species, cx)?;
+    // --- feed (temperature needed as the default T_ref). A flow reactor's feed does not depend
+    // on the reactor section (a batch charge given as concentrations needs its volume), so a
+    // point that changes only the reactor of a flow reactor takes the recorded one.
+    let notes_before = cx.notes.borrow().len();
+    let feed = match &reuse {
+        Reuse::From(f) if !f.feed_batch && !reactor.is_batch() => {
+            cx.notes.borrow_mut().extend(f.feed_notes.iter().cloned());
+            f.feed.clone()
+        }
+        _ => build_feed(&raw.feed, "feed", phase, &reactor, &index, &species, cx)?,
+    };
+    let feed_notes = cx.notes.borrow()[notes_before..].to_vec();
     if let Reactor::Pbr {
         pressure_drop: Some(PressureDrop::Ergun { .. }),
         ..
@@ -766,6 +782,9 @@ fn build_sections(
         basis,
         phase,
         feed_temperature: feed.temperature,
+        feed: feed.clone(),
+        feed_notes,
+        feed_batch: reactor.is_batch(),
     });
     let mut net = Network {
         name: raw
