@@ -1,7 +1,8 @@
 //! A sweep's points through the library: what a point reuses from the study (the species, a
-//! flow reactor's feed and the reactions built once when only `reactor.…` fields vary) and the pipelined chunks (rows
-//! written while the next chunk is evaluated) give the rows a fresh load and evaluation of
-//! each point gives, bit for bit, in point order. Every study here is made of test values.
+//! flow reactor's feed and the reactions built once when only `reactor.…` fields vary) and
+//! the pipelined chunks (rows written while the next chunk is evaluated) give the rows a fresh
+//! load and evaluation of each point gives, bit for bit, in point order. Every study here is
+//! made of test values.
 
 use rxnet::model::{Override, ParsedStudy};
 use rxnet::solve::SolveOptions;
