@@ -291,31 +291,34 @@ pub fn element_closure_against(net: &Network, fed: &[f64], state: &[f64]) -> Vec
     if net.species.iter().any(|s| s.formula.is_none()) {
         return vec![];
     }
-    let mut elements: Vec<&String> = net
-        .species
-        .iter()
-        .flat_map(|s| s.formula.as_ref().expect("checked").atoms().keys())
+    let atoms = |j: usize| net.species[j].formula.as_ref().expect("checked").atoms();
+    let mut elements: Vec<&String> = (0..net.species.len())
+        .flat_map(|j| atoms(j).keys())
         .collect();
     elements.sort();
     elements.dedup();
+    // count[e·n + j]: atoms of element e in species j, 0 where it has none; filled from each
+    // formula's own atoms, instead of a look-up by name per element and species. The sums
+    // below run over every species in order, zeros included, as before.
+    let n = state.len();
+    let mut count = vec![0.0; elements.len() * n];
+    for j in 0..n {
+        for (name, &a) in atoms(j) {
+            if let Ok(e) = elements.binary_search(&name) {
+                count[e * n + j] = a;
+            }
+        }
+    }
     elements
         .into_iter()
-        .map(|e| {
-            let count = |j: usize| {
-                net.species[j]
-                    .formula
-                    .as_ref()
-                    .expect("checked")
-                    .atoms()
-                    .get(e)
-                    .copied()
-                    .unwrap_or(0.0)
-            };
-            let inn: f64 = (0..state.len()).map(|j| count(j) * fed[j]).sum();
-            let out: f64 = (0..state.len()).map(|j| count(j) * state[j]).sum();
+        .enumerate()
+        .map(|(e, name)| {
+            let count = &count[e * n..(e + 1) * n];
+            let inn: f64 = (0..n).map(|j| count[j] * fed[j]).sum();
+            let out: f64 = (0..n).map(|j| count[j] * state[j]).sum();
             let scale = inn.abs().max(1e-300);
             Closure {
-                element: e.clone(),
+                element: name.clone(),
                 relative: (out - inn).abs() / scale,
             }
         })

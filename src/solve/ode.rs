@@ -17,7 +17,7 @@
 use std::cell::{Cell, RefCell};
 use std::rc::Rc;
 
-use super::equations::{Equations, Shared};
+use super::equations::{AssembledJacobian, Equations, Shared};
 use super::krylov::{KrylovSolver, KrylovStats, WeightSource};
 pub use super::system::{OdeError, OdeSystem};
 use diffsol::{
@@ -438,7 +438,17 @@ fn run(
                 return Err(e);
             }
             let mut solver = problem.bdf_with(state, $make).map_err(fail)?;
-            drive(&mut solver, &sh, x_end, out, opts, g, sys, watch)
+            drive(
+                &mut solver,
+                &sh,
+                x_end,
+                out,
+                opts,
+                g,
+                sys,
+                watch,
+                <$mat as AssembledJacobian>::state,
+            )
         }};
     }
     match la {
@@ -537,7 +547,9 @@ fn eval_g(g: &dyn Fn(f64, &[f64]) -> f64, x: f64, y: &[f64]) -> Result<f64, OdeE
     }
 }
 
-/// The stepping loop shared by the dense and sparse solvers.
+/// The stepping loop shared by the dense and sparse solvers. `as_slice` views the solver's
+/// state as one slice, so that a step whose state is not kept (only the end is wanted) is
+/// checked where it lies instead of being copied out first.
 #[allow(clippy::too_many_arguments)]
 fn drive<'a, Eqn, S>(
     solver: &mut S,
@@ -548,6 +560,7 @@ fn drive<'a, Eqn, S>(
     g: Option<RootFn>,
     sys: &dyn OdeSystem,
     watch: &[Functional],
+    as_slice: fn(&Eqn::V) -> &[f64],
 ) -> Result<RootResult, OdeError>
 where
     Eqn: OdeEquations<T = f64> + 'a,
@@ -629,11 +642,11 @@ where
         let x_now = solver.state().t;
         let reason = res.map_err(|e| map_err(e, x_now, opts.max_steps))?;
         let at_end = matches!(reason, OdeSolverStopReason::TstopReached);
-        let y_now = solver.state().y.clone_as_vec();
-        check_finite(x_now, &y_now)?;
+        let y_now = as_slice(solver.state().y);
+        check_finite(x_now, y_now)?;
         for (k, w) in watch.iter().enumerate() {
-            extremes[k].consider(x_now, value(w, &y_now));
-            let d = slope(w, x_now, &y_now);
+            extremes[k].consider(x_now, value(w, y_now));
+            let d = slope(w, x_now, y_now);
             let d0 = slope_prev[k];
             if d0 != 0.0 && d != 0.0 && (d0 < 0.0) != (d < 0.0) && x_now > x_prev {
                 let xr = illinois(
@@ -655,10 +668,10 @@ where
         }
 
         if let (Some(g), Some(ga)) = (g, g_prev) {
-            let gb = eval_g(g, x_now, &y_now)?;
+            let gb = eval_g(g, x_now, y_now)?;
             if gb == 0.0 || ga * gb < 0.0 {
                 let (xr, yr) = if gb == 0.0 {
-                    (x_now, y_now.clone())
+                    (x_now, y_now.to_vec())
                 } else {
                     let xr =
                         illinois(|x| eval_g(g, x, &interp(solver, x)?), x_prev, ga, x_now, gb)?;
@@ -683,7 +696,7 @@ where
         while next_point < points.len() && (points[next_point] <= x_now || at_end) {
             let xp = points[next_point];
             let yp = if xp >= x_now {
-                y_now.clone()
+                y_now.to_vec()
             } else {
                 interp(solver, xp)?
             };
@@ -693,7 +706,7 @@ where
         }
         if matches!(out, Output::Steps) || (at_end && matches!(out, Output::End)) {
             xs.push(x_now);
-            ys.push(y_now);
+            ys.push(y_now.to_vec());
         }
         if at_end {
             break;

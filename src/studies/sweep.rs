@@ -332,16 +332,20 @@ pub enum SweepError<E> {
 
 /// A number in its shortest round-trip form, in scientific notation when very small or large.
 pub fn fmt_num(x: f64) -> String {
-    let a = x.abs();
-    if x == 0.0 || (1e-4..1e15).contains(&a) {
-        format!("{x}")
-    } else {
-        format!("{x:e}")
-    }
+    let mut s = String::new();
+    push_num(&mut s, x);
+    s
 }
 
-fn opt(v: Option<f64>) -> String {
-    v.map(fmt_num).unwrap_or_default()
+/// [`fmt_num`] appended to `out` (no string of its own: a sweep writes a dozen numbers a row).
+pub fn push_num(out: &mut String, x: f64) {
+    use std::fmt::Write;
+    let a = x.abs();
+    let _ = if x == 0.0 || (1e-4..1e15).contains(&a) {
+        write!(out, "{x}")
+    } else {
+        write!(out, "{x:e}")
+    };
 }
 
 /// The CSV header line (with its newline).
@@ -375,28 +379,50 @@ pub fn csv_header(cols: &Columns) -> String {
 /// last column; a yield or selectivity that is not defined is an empty field.
 pub fn csv_rows(cols: &Columns, rows: &[SweepRow]) -> String {
     use crate::report::run::csv_field;
-    let mut o = String::new();
+    use std::fmt::Write;
+    // Each field is written straight into the text, a comma before every field but the first.
+    let mut o = String::with_capacity(rows.len() * 256);
+    let num = |o: &mut String, v: f64| {
+        o.push(',');
+        push_num(o, v);
+    };
+    let opt = |o: &mut String, v: Option<f64>| {
+        o.push(',');
+        if let Some(v) = v {
+            push_num(o, v);
+        }
+    };
     for r in rows {
-        let mut f: Vec<String> = vec![r.point.to_string()];
-        f.extend(r.inputs.iter().map(|v| fmt_num(*v)));
+        let _ = write!(o, "{}", r.point);
+        for v in &r.inputs {
+            num(&mut o, *v);
+        }
         match &r.result {
             Ok(p) => {
-                f.push(p.status().into());
-                f.push(fmt_num(p.conversion));
-                f.extend(p.yields.iter().map(|v| opt(*v)));
-                if cols.desired.is_some() {
-                    f.extend(p.selectivity.iter().map(|v| opt(*v)));
+                o.push(',');
+                o.push_str(p.status());
+                num(&mut o, p.conversion);
+                for v in &p.yields {
+                    opt(&mut o, *v);
                 }
-                f.extend(p.outlet.iter().map(|v| fmt_num(*v)));
+                if cols.desired.is_some() {
+                    for v in &p.selectivity {
+                        opt(&mut o, *v);
+                    }
+                }
+                for v in &p.outlet {
+                    num(&mut o, *v);
+                }
                 if cols.heat {
                     let (out, hot) = p.temperatures.unwrap_or((f64::NAN, f64::NAN));
-                    f.push(fmt_num(out));
-                    f.push(fmt_num(hot));
+                    num(&mut o, out);
+                    num(&mut o, hot);
                 }
-                f.push(String::new());
+                // the empty error column
+                o.push(',');
             }
             Err(e) => {
-                f.push("failed".into());
+                o.push_str(",failed");
                 let blanks = 1
                     + cols.products.len()
                     + if cols.desired.is_some() {
@@ -406,11 +432,13 @@ pub fn csv_rows(cols: &Columns, rows: &[SweepRow]) -> String {
                     }
                     + cols.species.len()
                     + if cols.heat { 2 } else { 0 };
-                f.extend(std::iter::repeat_n(String::new(), blanks));
-                f.push(csv_field(e));
+                for _ in 0..blanks {
+                    o.push(',');
+                }
+                o.push(',');
+                o.push_str(&csv_field(e));
             }
         }
-        o.push_str(&f.join(","));
         o.push('\n');
     }
     o

@@ -167,9 +167,10 @@ impl ParsedStudy {
     /// as [`ParsedStudy::load`] of both lists, made faster when every path of `point` lies
     /// under `reactor.` in a study with a single `reactor` (a sweep over the size or the
     /// cooling, an optimiser over the volume): then only the `reactor` section is read
-    /// again and the species and reactions are taken from a load of the study under `base`
-    /// (they cannot depend on the reactor except through the rate basis, the phase and the
-    /// feed temperature, which are compared; a difference builds them again). Anything that
+    /// again and the species, feed and reactions are taken from a load of the study under
+    /// `base` (they cannot depend on the reactor except through the rate basis, the phase, the
+    /// feed temperature and a batch charge's volume, which are compared; a difference builds
+    /// them again). Anything that
     /// fails on that path, and any other point, is loaded whole, so errors read the same.
     pub fn load_reactor_point(
         &self,
@@ -228,7 +229,7 @@ impl ParsedStudy {
 
 /// A study under its base overrides, kept for loading points that change only fields of its
 /// single `reactor` section: the raw study as deserialized, the `reactor` subtree (to which a
-/// point's overrides are applied), and the species and reactions as built ([`Fixed`]).
+/// point's overrides are applied), and the species, feed and reactions as built ([`Fixed`]).
 #[derive(Debug)]
 pub struct ReactorPoints {
     raw: RawStudy,
@@ -371,14 +372,42 @@ pub(crate) fn find_item(items: &[serde_yaml::Value], seg: &str) -> Option<usize>
     }
 }
 
-fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), String> {
-    use serde_yaml::Value;
-    let new: Value = serde_yaml::from_str(&o.value).map_err(|e| {
+/// Whether `text` is a quantity written as a number and a unit, e.g. `1.25 L` or
+/// `4e-6 m3/(mol*s)`, that the YAML parser would read as that very string: it starts with a
+/// digit (so it is no indicator, alias, tag, null or boolean), holds only letters, digits,
+/// single inner spaces and `. / * ^ ( ) + -` (none of which ends or comments a plain scalar),
+/// and has a space (so the core schema cannot resolve it as an integer or a float, whose forms
+/// have none). YAML 1.2 §7.3.3 plain scalars and §10.3 core schema (from memory);
+/// `plain_quantities_read_as_the_yaml_parser_reads_them` checks this against `serde_yaml`.
+/// A sweep point sets such a value at every point, and the parser costs about 10,000
+/// instructions a call.
+fn plain_quantity(text: &str) -> bool {
+    let b = text.as_bytes();
+    b.first().is_some_and(u8::is_ascii_digit)
+        && b.len() <= 200
+        && b.contains(&b' ')
+        && !b.ends_with(b" ")
+        && !b.windows(2).any(|w| w == b"  ")
+        && b.iter()
+            .all(|c| c.is_ascii_alphanumeric() || b" ./*^()+-".contains(c))
+}
+
+/// The YAML scalar an override's value text stands for.
+fn override_value(text: &str) -> Result<serde_yaml::Value, String> {
+    if plain_quantity(text) {
+        return Ok(serde_yaml::Value::String(text.to_string()));
+    }
+    serde_yaml::from_str(text).map_err(|e| {
         format!(
             "the value is not a YAML scalar: {}",
             yaml_wording(&e.to_string())
         )
-    })?;
+    })
+}
+
+fn apply_override(root: &mut serde_yaml::Value, o: &Override) -> Result<(), String> {
+    use serde_yaml::Value;
+    let new: Value = override_value(&o.value)?;
     if new.is_mapping() || new.is_sequence() {
         return Err(
             "only a scalar can be set (a number, a word or a quantity such as \"2 mol/s\")".into(),
@@ -608,8 +637,8 @@ enum Reuse<'a> {
     Nothing,
     /// Build every section and keep the species and reactions ([`Fixed`]).
     Record,
-    /// Take the species, and the reactions when they were built with the same rate basis,
-    /// phase and feed temperature.
+    /// Take the species, the feed when neither load is of a batch reactor, and the reactions
+    /// when they were built with the same rate basis, phase and feed temperature.
     From(&'a Fixed),
 }
 
@@ -627,6 +656,11 @@ struct Fixed {
     basis: RateBasis,
     phase: Phase,
     feed_temperature: f64,
+    /// The feed as built, its notes, and whether it was built for a batch reactor (whose
+    /// charge may depend on the vessel's volume; a flow reactor's feed does not).
+    feed: Feed,
+    feed_notes: Vec<String>,
+    feed_batch: bool,
 }
 
 fn build(raw: &RawStudy, cx: &Cx) -> Result<Network, LoadError> {
@@ -678,8 +712,18 @@ fn build_sections(
         RateBasis::Volume
     };
 
-    // --- feed (temperature needed as the default T_ref)
-    let feed = build_feed(&raw.feed, "feed", phase, &reactor, &index, &species, cx)?;
+    // --- feed (temperature needed as the default T_ref). A flow reactor's feed does not depend
+    // on the reactor section (a batch charge given as concentrations needs its volume), so a
+    // point that changes only the reactor of a flow reactor takes the recorded one.
+    let notes_before = cx.notes.borrow().len();
+    let feed = match &reuse {
+        Reuse::From(f) if !f.feed_batch && !reactor.is_batch() => {
+            cx.notes.borrow_mut().extend(f.feed_notes.iter().cloned());
+            f.feed.clone()
+        }
+        _ => build_feed(&raw.feed, "feed", phase, &reactor, &index, &species, cx)?,
+    };
+    let feed_notes = cx.notes.borrow()[notes_before..].to_vec();
     if let Reactor::Pbr {
         pressure_drop: Some(PressureDrop::Ergun { .. }),
         ..
@@ -766,6 +810,9 @@ fn build_sections(
         basis,
         phase,
         feed_temperature: feed.temperature,
+        feed: feed.clone(),
+        feed_notes,
+        feed_batch: reactor.is_batch(),
     });
     let mut net = Network {
         name: raw
@@ -889,6 +936,72 @@ mod tests {
         assert_eq!(closest("CH5", names.iter().copied()), Some("CH4"));
         assert_eq!(closest("co2", names.iter().copied()), Some("CO2"));
         assert_eq!(closest("N2O5", names.iter().copied()), None);
+    }
+
+    /// An override value taken for a plain quantity is exactly the YAML value `serde_yaml`
+    /// reads from it (the reference parser), and the texts the parser reads otherwise (numbers,
+    /// words, nulls, booleans, quoted or commented text, flow collections) are not taken:
+    /// hand-picked texts, and 20,000 random ones from the accepted alphabet with the
+    /// characters that matter to YAML (`:`, `#`, quotes, brackets, tabs) mixed in.
+    #[test]
+    fn plain_quantities_read_as_the_yaml_parser_reads_them() {
+        let reference = |t: &str| serde_yaml::from_str::<serde_yaml::Value>(t).ok();
+        for t in [
+            "1 L",
+            "1.0049502475123757 L",
+            "4e-6 m3/(mol*s)",
+            "25 degC",
+            "320 K",
+            "2 mol/s",
+            "1.5 kJ/(kg*K)",
+            "0.2 m3/h",
+            "100 L",
+            "1e5 Pa",
+            "1 2",
+            "3 - 4",
+        ] {
+            assert!(plain_quantity(t), "{t}");
+            assert_eq!(
+                Some(override_value(t).unwrap()),
+                reference(t),
+                "`{t}` read differently"
+            );
+        }
+        for t in [
+            "1", "1.5", "1e5", "0x1F", "-1 L", ".5 L", "~", "null", "true", "", " 1 L", "1 L ",
+            "1  L", "1 L # c", "1: L", "1 'L'", "1 [L]", "1\tL", "1 L\n", "1 °C", "inf K",
+        ] {
+            assert!(!plain_quantity(t), "`{t}` must go through the parser");
+        }
+        // Half the texts from the accepted characters alone, half with YAML's own mixed in.
+        let accepted: Vec<char> = "0123456789 ./*^()+-eEaLxK".chars().collect();
+        let mixed: Vec<char> = "0123456789 ./*^()+-eEaLxK:#'\"[]{},&!|>%@`\t"
+            .chars()
+            .collect();
+        let mut rng = crate::random::SplitMix64(16);
+        let mut taken = 0;
+        for k in 0..20_000 {
+            let alphabet = if k % 2 == 0 { &accepted } else { &mixed };
+            let len = rng.range(1, 12);
+            let mut t: String = (0..len)
+                .map(|_| alphabet[rng.range(0, alphabet.len() - 1)])
+                .collect();
+            if rng.unit() < 0.7 {
+                t.insert(0, char::from(b'0' + rng.range(0, 9) as u8));
+            }
+            if plain_quantity(&t) {
+                taken += 1;
+                assert_eq!(
+                    Some(override_value(&t).unwrap()),
+                    reference(&t),
+                    "`{t}` read differently"
+                );
+            }
+        }
+        assert!(
+            taken > 1000,
+            "only {taken} random texts exercised the plain path"
+        );
     }
 
     /// Every scalar under `reactor` of a study, as (path, value) with the path as `--set`
