@@ -4,6 +4,12 @@
 //! Prints the wall time of `analysis::findings` (what `run` pays before it reports) and of
 //! `analysis::check` (what `rxnet check` builds), the best of REPEATS (default 3) each.
 
+/// The allocator of the `rxnet` binary (src/main.rs), so that the times printed here are
+/// those of the command: glibc's malloc gives other times (the packed rate arrays and the
+/// exact check both allocate).
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 use std::time::Instant;
 
 fn main() {

@@ -8,6 +8,12 @@
 //!
 //! `gen:N:R` generates the study in memory (rxnet::generate, liquid PFR).
 
+/// The allocator of the `rxnet` binary (src/main.rs), so that the times printed here are
+/// those of the command: glibc's malloc gives other times (the packed rate arrays and the
+/// exact check both allocate).
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 use std::time::Instant;
 
 use rxnet::generate::{GeneratorSpec, generate_study};
