@@ -788,19 +788,13 @@ impl SparseQMatrix {
 
     /// [`Self::dependence`] by the exact rational elimination alone (fraction-free, sparse).
     pub fn dependence_rational(&self) -> Dependence {
-        let dep = self.column_dependence();
+        let ColumnDependenceExact {
+            independent,
+            dependent,
+        } = self.column_dependence_rational();
         Dependence {
-            independent: dep.independent,
-            dependent: dep
-                .dependent
-                .into_iter()
-                .map(|(j, c)| {
-                    (
-                        j,
-                        c.into_iter().map(|(k, q)| (k, Coef::from_q(q))).collect(),
-                    )
-                })
-                .collect(),
+            independent,
+            dependent,
             left_null_space: self.left_null_space(),
         }
     }
