@@ -320,25 +320,18 @@ impl Balance {
             *cj = kappa * yj;
         }
         dydx.iter_mut().for_each(|v| *v = 0.0);
+        let c = &*c;
+        let mut add = |i: usize, rate: f64| {
+            let r = sigma * rate;
+            for &(j, v) in &self.nu[self.nu_starts[i]..self.nu_starts[i + 1]] {
+                dydx[j] += v * r;
+            }
+        };
         if self.temperature == self.rates.temperature() {
-            let c = &*c;
-            self.rates.for_each_isothermal_rate(c, |i, rate| {
-                let r = sigma * rate;
-                for &(j, v) in &self.nu[self.nu_starts[i]..self.nu_starts[i + 1]] {
-                    dydx[j] += v * r;
-                }
-            });
+            self.rates.for_each_isothermal_rate(c, &mut add);
         } else {
-            for (i, nu) in self
-                .nu_starts
-                .windows(2)
-                .map(|w| &self.nu[w[0]..w[1]])
-                .enumerate()
-            {
-                let r = sigma * self.rates.eval(i, self.temperature, c, None);
-                for &(j, v) in nu {
-                    dydx[j] += v * r;
-                }
+            for i in 0..self.rates.len() {
+                add(i, self.rates.eval(i, self.temperature, c, None));
             }
         }
         if let Some(alpha) = self.alpha {
