@@ -582,9 +582,7 @@ impl RateSet {
     /// [`AtTemperature`].
     pub fn rates_at(&self, t: f64, c: &[f64], r: &mut [f64]) {
         if t == self.temperature {
-            for (i, ri) in r.iter_mut().enumerate() {
-                *ri = self.eval(i, t, c, None);
-            }
+            self.for_each_isothermal_rate(c, |i, v| r[i] = v);
             return;
         }
         for (i, (law, ri)) in self.laws.iter().zip(r.iter_mut()).enumerate() {
@@ -756,14 +754,16 @@ mod tests {
         check_gradient(&net, 300.0, &[5.0, 1e-3, 3.0, 0.0]);
     }
 
+    /// A reversible third-order step (two forward factors, one of order 3), appended to
+    /// [`MIXED_LAWS`] as r6.
+    const THIRD_ORDER: &str = "\n  - {id: r6, stoich: A + 2 B <=> I, rate: {k: 1e-6 (mol/m3)^(-3)/s, orders: {A: 1, B: 3}, K_eq: 2 (m3/mol)^2}}";
+
     /// The packed rate-only path at the feed temperature gives exactly the rate of the general
     /// path (the one that also returns the gradient) for every law of [`MIXED_LAWS`] and a
     /// reversible third-order step, also with a species at zero and one slightly negative.
     #[test]
     fn packed_rates_equal_the_general_path() {
-        let net = study(&format!(
-            "{MIXED_LAWS}\n  - {{id: r6, stoich: A + 2 B <=> I, rate: {{k: 1e-6 (mol/m3)^(-3)/s, orders: {{A: 1, B: 3}}, K_eq: 2 (m3/mol)^2}}}}"
-        ));
+        let net = study(&format!("{MIXED_LAWS}{THIRD_ORDER}"));
         let rs = RateSet::new(&net);
         assert_eq!(rs.len(), 6);
         let t = net.feed.temperature;
@@ -786,7 +786,7 @@ mod tests {
     #[test]
     fn one_pass_isothermal_rates_equal_eval() {
         let net = study(&format!(
-            "{MIXED_LAWS}\n  - {{id: r6, stoich: A + 2 B <=> I, rate: {{k: 1e-6 (mol/m3)^(-3)/s, orders: {{A: 1, B: 3}}, K_eq: 2 (m3/mol)^2}}}}\n  - {{id: r7, stoich: I <=> A + B + C, rate: {{k: 0.2 1/s, K_eq: 3e4 (mol/m3)^2}}}}\n  - {{id: r8, stoich: A + B + C -> 2 I, rate: {{k: 1e-9 (m3/mol)^2/s}}}}"
+            "{MIXED_LAWS}{THIRD_ORDER}\n  - {{id: r7, stoich: I <=> A + B + C, rate: {{k: 0.2 1/s, K_eq: 3e4 (mol/m3)^2}}}}\n  - {{id: r8, stoich: A + B + C -> 2 I, rate: {{k: 1e-9 (m3/mol)^2/s}}}}"
         ));
         let rs = RateSet::new(&net);
         assert_eq!(rs.len(), 8);
