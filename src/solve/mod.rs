@@ -3,6 +3,7 @@
 //! a result.
 
 pub mod cstr_heat;
+pub mod dense_lu;
 pub mod equations;
 pub mod hotspot;
 pub mod krylov;

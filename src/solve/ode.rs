@@ -17,14 +17,15 @@
 use std::cell::{Cell, RefCell};
 use std::rc::Rc;
 
+use super::dense_lu::DenseLu;
 use super::equations::{AssembledJacobian, Equations, Shared};
 use super::krylov::{KrylovSolver, KrylovStats, WeightSource};
 pub use super::system::{OdeError, OdeSystem};
 use diffsol::{
-    Bdf, BdfState, DefaultDenseMatrix, DiffsolError, FaerSparseLU, FaerSparseMat, NalgebraLU,
-    NalgebraMat, NoAug, OdeBuilder, OdeEquations, OdeEquationsImplicit, OdeSolverMethod,
-    OdeSolverProblem, OdeSolverState, OdeSolverStopReason, Vector, VectorRef,
-    error::OdeSolverError, matrix::MatrixRef,
+    Bdf, BdfState, DefaultDenseMatrix, DiffsolError, FaerSparseLU, FaerSparseMat, NalgebraMat,
+    NoAug, OdeBuilder, OdeEquations, OdeEquationsImplicit, OdeSolverMethod, OdeSolverProblem,
+    OdeSolverState, OdeSolverStopReason, Vector, VectorRef, error::OdeSolverError,
+    matrix::MatrixRef,
 };
 
 pub use crate::model::solver_settings::{AUTO_KRYLOV_ABOVE, LinearAlgebra};
@@ -466,7 +467,7 @@ fn run(
             let ls: KrylovSolver = KrylovSolver::new(w, k);
             solve_with!(FaerSparseMat<f64>, KrylovSolver, ls)
         }
-        _ => solve_with!(NalgebraMat<f64>, NalgebraLU<f64>, NalgebraLU::default()),
+        _ => solve_with!(NalgebraMat<f64>, DenseLu, DenseLu::default()),
     }
 }
 
