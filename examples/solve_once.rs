@@ -4,6 +4,7 @@
 //! ```text
 //! cargo run --release --example solve_once -- FILE.yaml [dense|sparse|auto] [rtol] [atol]
 //! cargo run --release --example solve_once -- gen:N:R[:SEED] [dense|sparse|auto]
+//! REPEAT=50 cargo run --release --example solve_once -- FILE.yaml   # min and median of 50 more
 //! ```
 //!
 //! `gen:N:R` generates the study in memory (rxnet::generate, liquid PFR).
@@ -66,6 +67,24 @@ fn main() {
     let t0 = Instant::now();
     let res = simulate(&net, &opts);
     let t_sim = t0.elapsed();
+    // REPEAT=N solves N more times in this process and prints the minimum and median: the
+    // minimum of many in-process repeats is the figure least moved by other load on the machine.
+    if let Some(k) = std::env::var("REPEAT")
+        .ok()
+        .and_then(|s| s.parse::<usize>().ok())
+    {
+        let mut times: Vec<f64> = (0..k)
+            .map(|_| {
+                let t = Instant::now();
+                let _ = simulate(&net, &opts);
+                t.elapsed().as_secs_f64()
+            })
+            .collect();
+        times.sort_by(f64::total_cmp);
+        if let (Some(min), Some(med)) = (times.first(), times.get(times.len() / 2)) {
+            println!("repeat {k}: min {min:.6} s, median {med:.6} s");
+        }
+    }
     println!(
         "{src}: {} species, {} reactions; text {:.3} s, load {:.3} s, simulate ({la:?}) {:.4} s",
         net.species.len(),
