@@ -47,7 +47,7 @@ pub fn check_atol(atol: f64, total: f64, unit: &str) -> Result<(), String> {
 /// Which matrix representation and LU factorization the Newton iteration uses.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum LinearAlgebra {
-    /// Dense nalgebra matrix with partial-pivoting LU (`NalgebraMat` + `NalgebraLU`).
+    /// Dense nalgebra matrix with partial-pivoting LU (`NalgebraMat` + [`crate::solve::dense_lu::DenseLu`]).
     Dense,
     /// Sparse faer CSC matrix with sparse LU (`FaerSparseMat` + `FaerSparseLU`); the pattern is
     /// taken from the Jacobian triplets at y0.
