@@ -648,6 +648,13 @@ impl Terms {
         }
     }
 
+    /// Appends the term `(a/b) · col_column` for a reduced fraction that fits (`b > 0`).
+    #[inline]
+    pub(crate) fn push_small(&mut self, column: u32, a: i32, b: u32) {
+        debug_assert!(b > 0);
+        self.terms.push((column, a, b));
+    }
+
     pub fn len(&self) -> usize {
         self.terms.len()
     }
