@@ -12,9 +12,10 @@
 //! Every operation, and its order, is that of the nalgebra elimination the diffsol default
 //! (`NalgebraLU`) runs (`gauss_step`, `solve_lower_triangular_with_diag_mut`,
 //! `solve_upper_triangular_mut`), so results are the same bit for bit (tested). What differs
-//! is the machine code: the sweeps run on plain contiguous slices, and on a processor with
-//! AVX2 they are compiled for it (chosen at run time), four products and differences per
-//! instruction instead of one. Each element still gets one rounded product and one rounded
+//! is the machine code: the sweeps run on plain contiguous slices, with a copy unrolled for
+//! each order up to 8 (a sweep's small reactor), and above that, on a processor with AVX2,
+//! compiled for it (chosen at run time), four products and differences per instruction
+//! instead of one. Each element still gets one rounded product and one rounded
 //! difference, in the same order, with no fused multiply-add, so the widths cannot change a
 //! bit of the result.
 
@@ -130,6 +131,17 @@ fn sweep(y: &mut [f64], c: f64, x: &[f64]) {
 /// nalgebra does.
 pub fn factor(m: &mut [f64], n: usize, swaps: &mut Vec<(usize, usize)>) {
     assert_eq!(m.len(), n * n, "dense LU: matrix storage is not n×n");
+    // A copy for each order up to 8 (a sweep's small reactor), its loops unrolled; the
+    // arithmetic is the same.
+    macro_rules! by_order {
+        ($($k:literal)*) => {
+            match n {
+                $($k => return factor_body(m, $k, swaps),)*
+                _ => {}
+            }
+        };
+    }
+    by_order!(1 2 3 4 5 6 7 8);
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
         // SAFETY: the processor has AVX2 (checked just above).
@@ -189,6 +201,15 @@ fn factor_body(m: &mut [f64], n: usize, swaps: &mut Vec<(usize, usize)>) {
 
 /// Solve (P⁻¹ L U) x = b in place with the factors of [`factor`]; false at a zero pivot of U.
 pub fn solve(m: &[f64], n: usize, swaps: &[(usize, usize)], b: &mut [f64]) -> bool {
+    macro_rules! by_order {
+        ($($k:literal)*) => {
+            match n {
+                $($k => return solve_body(m, $k, swaps, b),)*
+                _ => {}
+            }
+        };
+    }
+    by_order!(1 2 3 4 5 6 7 8);
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
         // SAFETY: the processor has AVX2 (checked just above).
