@@ -344,13 +344,7 @@ impl Solver {
         for (&r, &v) in rows.iter().zip(vals) {
             let ru = r as usize;
             self.x[ru] = f.reduce(v);
-            let k = fac.k_of_row[ru];
-            if k != NONE {
-                self.queue.insert(k as usize);
-            } else if self.stamp[ru] != tag {
-                self.stamp[ru] = tag;
-                self.rest.push(r);
-            }
+            self.reach(fac, r, tag);
         }
         while let Some(k) = self.queue.pop_min() {
             let r = fac.pivot_row[k] as usize;
@@ -364,14 +358,22 @@ impl Solver {
             for (&row, &l) in fac.l_row[span.clone()].iter().zip(&fac.l_val[span]) {
                 let ru = row as usize;
                 self.x[ru] = f.sub(self.x[ru], f.mul(v, l));
-                let k2 = fac.k_of_row[ru];
-                if k2 != NONE {
-                    self.queue.insert(k2 as usize);
-                } else if self.stamp[ru] != tag {
-                    self.stamp[ru] = tag;
-                    self.rest.push(row);
-                }
+                self.reach(fac, row, tag);
             }
+        }
+    }
+
+    /// Row `row` now holds a value: a pivot row joins the queue, any other row the list of
+    /// rows to clear (once per solve, by its stamp).
+    #[inline(always)]
+    fn reach(&mut self, fac: &Factors, row: u32, tag: u32) {
+        let ru = row as usize;
+        let k = fac.k_of_row[ru];
+        if k != NONE {
+            self.queue.insert(k as usize);
+        } else if self.stamp[ru] != tag {
+            self.stamp[ru] = tag;
+            self.rest.push(row);
         }
     }
 
@@ -698,33 +700,30 @@ fn reconstruct_within(v: u64, p: u64, bound: u64) -> Option<Frac> {
 /// stay below 2^62), in 128-bit ones otherwise.
 #[inline(never)]
 fn reconstruct_fraction(v: u64, p: u64, bound: u64) -> Option<Frac> {
+    // The same steps in either width: remainders r and cofactors t until r ≤ bound, then
+    // r/t in lowest terms with 0 < |t| ≤ bound, the sign on the numerator.
+    macro_rules! euclid {
+        ($int:ty) => {{
+            let bound = bound as $int;
+            let (mut r0, mut r1) = (p as $int, v as $int);
+            let (mut t0, mut t1): ($int, $int) = (0, 1);
+            while r1 > bound {
+                let q = r0 / r1;
+                (r0, r1) = (r1, r0 - q * r1);
+                (t0, t1) = (t1, t0 - q * t1);
+            }
+            if t1 == 0 || t1.abs() > bound || r1.gcd(&t1) != 1 {
+                return None;
+            }
+            let (a, b) = if t1 < 0 { (-r1, -t1) } else { (r1, t1) };
+            Some((a as i64, b as i64))
+        }};
+    }
     if p < 1 << 62 {
-        let bound = bound as i64;
-        let (mut r0, mut r1) = (p as i64, v as i64);
-        let (mut t0, mut t1) = (0i64, 1i64);
-        while r1 > bound {
-            let q = r0 / r1;
-            (r0, r1) = (r1, r0 - q * r1);
-            (t0, t1) = (t1, t0 - q * t1);
-        }
-        if t1 == 0 || t1.abs() > bound || r1.gcd(&t1) != 1 {
-            return None;
-        }
-        return Some(if t1 < 0 { (-r1, -t1) } else { (r1, t1) });
+        euclid!(i64)
+    } else {
+        euclid!(i128)
     }
-    let bound = bound as i128;
-    let (mut r0, mut r1) = (p as i128, v as i128);
-    let (mut t0, mut t1) = (0i128, 1i128);
-    while r1 > bound {
-        let q = r0 / r1;
-        (r0, r1) = (r1, r0 - q * r1);
-        (t0, t1) = (t1, t0 - q * t1);
-    }
-    if t1 == 0 || t1.abs() > bound || r1.gcd(&t1) != 1 {
-        return None;
-    }
-    let (a, b) = if t1 < 0 { (-r1, -t1) } else { (r1, t1) };
-    Some((a as i64, b as i64))
 }
 
 /// Exact integer check that a column equals a rational combination of others.
@@ -1094,47 +1093,33 @@ mod tests {
     /// inserts (repeats included) taken out smallest or largest first, interleaved.
     #[test]
     fn ordered_set_pops_like_a_btree_set() {
+        use std::collections::BTreeSet;
         let mut rng = crate::random::SplitMix64(0x5E7);
         let mut set = OrderedSet::new();
         for round in 0..200 {
             let n = 1 + rng.range(0, 300);
             set.reserve(n);
-            let mut reference = std::collections::BTreeSet::new();
+            let mut reference = BTreeSet::new();
             let from_top = round % 2 == 1;
+            // Pop one from each (from the top on odd rounds), check they agree, say if empty.
+            let pop_both = |set: &mut OrderedSet, reference: &mut BTreeSet<usize>| {
+                let (got, want) = if from_top {
+                    (set.pop_max(), reference.pop_last())
+                } else {
+                    (set.pop_min(), reference.pop_first())
+                };
+                assert_eq!(got, want);
+                got.is_none()
+            };
             for _ in 0..rng.range(0, 60) {
                 let k = rng.range(0, n - 1);
                 set.insert(k);
                 reference.insert(k);
                 if rng.range(0, 3) == 0 {
-                    let want = if from_top {
-                        reference.pop_last()
-                    } else {
-                        reference.pop_first()
-                    };
-                    let got = if from_top {
-                        set.pop_max()
-                    } else {
-                        set.pop_min()
-                    };
-                    assert_eq!(got, want);
+                    pop_both(&mut set, &mut reference);
                 }
             }
-            loop {
-                let want = if from_top {
-                    reference.pop_last()
-                } else {
-                    reference.pop_first()
-                };
-                let got = if from_top {
-                    set.pop_max()
-                } else {
-                    set.pop_min()
-                };
-                assert_eq!(got, want);
-                if got.is_none() {
-                    break;
-                }
-            }
+            while !pop_both(&mut set, &mut reference) {}
         }
     }
 
