@@ -126,22 +126,30 @@ fn sweep(y: &mut [f64], c: f64, x: &[f64]) {
     }
 }
 
+/// For an order `n` from 1 to 8 (a sweep's small reactor), returns `call` with `n` a literal:
+/// one copy of the (inlined) body per order, its loops unrolled, the arithmetic the same.
+/// Larger orders fall through to the code after it.
+macro_rules! return_unrolled {
+    ($n:ident => $call:expr) => {
+        return_unrolled!(@ $n => $call; 1 2 3 4 5 6 7 8)
+    };
+    (@ $n:ident => $call:expr; $($k:literal)*) => {
+        match $n {
+            $($k => {
+                let $n: usize = $k;
+                return $call;
+            })*
+            _ => {}
+        }
+    };
+}
+
 /// Factor the n×n column-major `m` in place (see the module's equations); `swaps` receives
 /// the row swaps. A zero pivot column is left as it is (the solve then reports it), as
 /// nalgebra does.
 pub fn factor(m: &mut [f64], n: usize, swaps: &mut Vec<(usize, usize)>) {
     assert_eq!(m.len(), n * n, "dense LU: matrix storage is not n×n");
-    // A copy for each order up to 8 (a sweep's small reactor), its loops unrolled; the
-    // arithmetic is the same.
-    macro_rules! by_order {
-        ($($k:literal)*) => {
-            match n {
-                $($k => return factor_body(m, $k, swaps),)*
-                _ => {}
-            }
-        };
-    }
-    by_order!(1 2 3 4 5 6 7 8);
+    return_unrolled!(n => factor_body(m, n, swaps));
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
         // SAFETY: the processor has AVX2 (checked just above).
@@ -201,15 +209,7 @@ fn factor_body(m: &mut [f64], n: usize, swaps: &mut Vec<(usize, usize)>) {
 
 /// Solve (P⁻¹ L U) x = b in place with the factors of [`factor`]; false at a zero pivot of U.
 pub fn solve(m: &[f64], n: usize, swaps: &[(usize, usize)], b: &mut [f64]) -> bool {
-    macro_rules! by_order {
-        ($($k:literal)*) => {
-            match n {
-                $($k => return solve_body(m, $k, swaps, b),)*
-                _ => {}
-            }
-        };
-    }
-    by_order!(1 2 3 4 5 6 7 8);
+    return_unrolled!(n => solve_body(m, n, swaps, b));
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
         // SAFETY: the processor has AVX2 (checked just above).
