@@ -268,12 +268,10 @@ impl OrderedSet {
 /// column: `L` as in [`LowerFactor`], `U` column `k` as its entries `(k', U_k'k)` above the
 /// diagonal (`k' < k`), and `1/U_kk`.
 struct Factors {
-    pivot_row: Vec<u32>,
+    /// `L` with its pivot rows, handed on as it is when the elimination ends.
+    lower: LowerFactor,
     /// The pivot whose row this is, `NONE` for a row that is no pivot yet.
     k_of_row: Vec<u32>,
-    l_start: Vec<usize>,
-    l_row: Vec<u32>,
-    l_val: Vec<u64>,
     u_start: Vec<usize>,
     u_k: Vec<u32>,
     u_val: Vec<u64>,
@@ -298,11 +296,14 @@ struct Solver {
 impl Factors {
     fn new(nrows: usize) -> Self {
         Factors {
-            pivot_row: Vec::new(),
+            lower: LowerFactor {
+                nrows,
+                pivot_row: Vec::new(),
+                l_start: vec![0],
+                l_row: Vec::new(),
+                l_val: Vec::new(),
+            },
             k_of_row: vec![NONE; nrows],
-            l_start: vec![0],
-            l_row: Vec::new(),
-            l_val: Vec::new(),
             u_start: vec![0],
             u_k: Vec::new(),
             u_val: Vec::new(),
@@ -311,7 +312,7 @@ impl Factors {
     }
 
     fn rank(&self) -> usize {
-        self.pivot_row.len()
+        self.lower.pivot_row.len()
     }
 }
 
@@ -347,15 +348,18 @@ impl Solver {
             self.reach(fac, r, tag);
         }
         while let Some(k) = self.queue.pop_min() {
-            let r = fac.pivot_row[k] as usize;
+            let r = fac.lower.pivot_row[k] as usize;
             let v = self.x[r];
             if v == 0 {
                 continue;
             }
             self.x[r] = 0;
             self.y.push((k as u32, v));
-            let span = fac.l_start[k]..fac.l_start[k + 1];
-            for (&row, &l) in fac.l_row[span.clone()].iter().zip(&fac.l_val[span]) {
+            let span = fac.lower.l_start[k]..fac.lower.l_start[k + 1];
+            for (&row, &l) in fac.lower.l_row[span.clone()]
+                .iter()
+                .zip(&fac.lower.l_val[span])
+            {
                 let ru = row as usize;
                 self.x[ru] = f.sub(self.x[ru], f.mul(v, l));
                 self.reach(fac, row, tag);
@@ -469,19 +473,19 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
                 for &r in &solver.rest {
                     let xr = x[r as usize];
                     if r != pr && xr != 0 {
-                        fac.l_row.push(r);
-                        fac.l_val.push(f.mul(xr, inv));
+                        fac.lower.l_row.push(r);
+                        fac.lower.l_val.push(f.mul(xr, inv));
                     }
                 }
-                fac.l_start.push(fac.l_row.len());
+                fac.lower.l_start.push(fac.lower.l_row.len());
                 for &(k, v) in &solver.y {
                     fac.u_k.push(k);
                     fac.u_val.push(v);
                 }
                 fac.u_start.push(fac.u_k.len());
                 fac.diag_inv.push(inv);
-                fac.k_of_row[pr_u] = fac.pivot_row.len() as u32;
-                fac.pivot_row.push(pr);
+                fac.k_of_row[pr_u] = fac.lower.pivot_row.len() as u32;
+                fac.lower.pivot_row.push(pr);
                 independent.push(j);
                 basis.push_parts(col);
                 solver.clear_rest();
@@ -523,13 +527,7 @@ pub(crate) fn greedy_dependence<F: PrimeField>(
             independent,
             dependent,
         },
-        LowerFactor {
-            nrows,
-            pivot_row: fac.pivot_row,
-            l_start: fac.l_start,
-            l_row: fac.l_row,
-            l_val: fac.l_val,
-        },
+        fac.lower,
     ))
 }
 
@@ -1139,14 +1137,14 @@ mod tests {
         let nonzero = |rng: &mut crate::random::SplitMix64| 1 + rng.next_u64() % (f.p() - 1);
         for k in 0..rank {
             fac.k_of_row[rows[k] as usize] = k as u32;
-            fac.pivot_row.push(rows[k]);
+            fac.lower.pivot_row.push(rows[k]);
             for &r in &rows[k + 1..] {
                 if rng.range(0, 3) == 0 {
-                    fac.l_row.push(r);
-                    fac.l_val.push(nonzero(rng));
+                    fac.lower.l_row.push(r);
+                    fac.lower.l_val.push(nonzero(rng));
                 }
             }
-            fac.l_start.push(fac.l_row.len());
+            fac.lower.l_start.push(fac.lower.l_row.len());
             for k2 in 0..k {
                 if rng.range(0, 3) == 0 {
                     fac.u_k.push(k2 as u32);
@@ -1191,12 +1189,12 @@ mod tests {
                     }
                     let mut y = vec![0u64; rank];
                     for k in 0..rank {
-                        let r = fac.pivot_row[k] as usize;
+                        let r = fac.lower.pivot_row[k] as usize;
                         y[k] = x[r];
                         x[r] = 0;
-                        for idx in fac.l_start[k]..fac.l_start[k + 1] {
-                            let row = fac.l_row[idx] as usize;
-                            x[row] = f.sub(x[row], f.mul(y[k], fac.l_val[idx]));
+                        for idx in fac.lower.l_start[k]..fac.lower.l_start[k + 1] {
+                            let row = fac.lower.l_row[idx] as usize;
+                            x[row] = f.sub(x[row], f.mul(y[k], fac.lower.l_val[idx]));
                         }
                     }
                     let mut y_sparse = vec![0u64; rank];
@@ -1217,11 +1215,11 @@ mod tests {
                     // L y + ρ = a.
                     let mut ly = rho.clone();
                     for k in 0..rank {
-                        let r = fac.pivot_row[k] as usize;
+                        let r = fac.lower.pivot_row[k] as usize;
                         ly[r] = (ly[r] + y[k]) % f.p();
-                        for idx in fac.l_start[k]..fac.l_start[k + 1] {
-                            let row = fac.l_row[idx] as usize;
-                            ly[row] = (ly[row] + f.mul(y[k], fac.l_val[idx])) % f.p();
+                        for idx in fac.lower.l_start[k]..fac.lower.l_start[k + 1] {
+                            let row = fac.lower.l_row[idx] as usize;
+                            ly[row] = (ly[row] + f.mul(y[k], fac.lower.l_val[idx])) % f.p();
                         }
                     }
                     let mut a = vec![0u64; nrows];
