@@ -821,3 +821,51 @@ fn compare_rows_that_fail_name_the_reactor_type_asked_for() {
         .collect();
     assert_eq!(kinds, ["pfr", "cstr"]);
 }
+
+#[test]
+fn compare_set_applies_to_every_study_and_names_a_bad_path() {
+    // `--set reactor.volume=4 L` screens the series study at τ = 4 s in every reactor type:
+    // conversion and yield of B on A consumed from the closed forms (Levenspiel ch. 8, from
+    // memory), as `run --set` would give them.
+    let f = temp_study("d-compare-set", &series(FLOW_FEED, PFR));
+    let j = rxnet(&[
+        "compare",
+        f.p(),
+        "--reactors",
+        "pfr,cstr",
+        "--set",
+        "reactor.volume=4 L",
+        "--rtol",
+        "1e-10",
+        "--format",
+        "json",
+    ])
+    .ok_json();
+    let mut ag = Agreement::new("compare --set against the series closed forms (Levenspiel ch. 8)");
+    let rows = j.as_array().expect("rows");
+    assert_eq!(rows.len(), 2, "{j}");
+    for row in rows {
+        let kind = row["reactor"].as_str().unwrap_or_default();
+        let (a, b, _) = series_at(kind, 4.0);
+        ag.check(num(&row["space_time_s"], "τ"), 4.0, 1e-12, kind);
+        ag.check(num(&row["conversion"], "X"), 1.0 - a, 1e-7, kind);
+        ag.check(
+            num(&row["yield_desired"], "yield"),
+            b / (1.0 - a),
+            1e-7,
+            kind,
+        );
+    }
+    ag.report();
+    // A path that is not in the study: exit 2, the file and the field named, no table.
+    let r = rxnet(&["compare", f.p(), "--set", "reactions.r9.rate.k=1 1/s"]);
+    assert_eq!(r.code, 2, "{}", r.stdout);
+    assert!(r.stdout.is_empty(), "{}", r.stdout);
+    assert!(
+        r.stderr
+            .contains(f.p().rsplit('/').next().unwrap_or_default())
+            && r.stderr.contains("reactions.r9.rate.k"),
+        "{}",
+        r.stderr
+    );
+}

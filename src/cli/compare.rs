@@ -2,6 +2,7 @@
 
 use super::input::{check_tolerance, read_study, solve_opts};
 use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json};
+use rxnet::Override;
 use rxnet::report::num;
 use rxnet::studies::compare::{self, Kind};
 use rxnet::studies::target::Target;
@@ -25,10 +26,12 @@ fn wrap(s: &str, width: usize) -> Vec<String> {
     lines
 }
 
-/// `rxnet compare FILE... [--reactors pfr,cstr,batch] [--rank-by TARGET]`
+/// `rxnet compare FILE... [--reactors pfr,cstr,batch] [--rank-by TARGET] [--set PATH=VALUE]`;
+/// each `--set` applies to every study, as if its file said so.
 #[allow(clippy::too_many_arguments)]
 pub fn compare(
     files: &[PathBuf],
+    set: &[Override],
     reactors: &[String],
     heat: &[String],
     rank_by: Option<&str>,
@@ -91,7 +94,7 @@ pub fn compare(
     };
     let mut rows = Vec::new();
     for f in files {
-        let (_, net, _) = match read_study(f, &[]) {
+        let (_, net, _) = match read_study(f, set) {
             Ok(s) => s,
             Err(c) => return c,
         };

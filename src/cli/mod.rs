@@ -154,6 +154,10 @@ enum Command {
         format: Format,
         #[command(flatten)]
         solver: SolverFlags,
+        /// Change a value of every study, PATH=VALUE (e.g. feed.T="350 K", to screen at one
+        /// temperature or size); may repeat.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        set: Vec<Override>,
     },
     /// Estimate values of the study from measured data (several studies: rank the candidates).
     Fit(fit::FitArgs),
@@ -262,8 +266,10 @@ pub fn main() -> i32 {
             min_conversion,
             format,
             solver,
+            set,
         } => compare::compare(
             &files,
+            &set,
             &reactors,
             &heat,
             rank_by.as_deref(),
