@@ -159,5 +159,35 @@ impl HeatFigures {
     }
 }
 
-/// The caution printed under every non-isothermal report.
+/// The caution under every report of a study with an energy balance.
 pub const CAUTION: &str = "caution: these temperatures are screening values from the kinetics and heats given; they do not model decomposition of the mixture, side reactions at high temperature, loss of agitation or relief. Runaway, relief and the temperature limit must be assessed in a process-safety review (calorimetry, relief sizing) under local codes and licensed practice.";
+
+/// The caution under every isothermal report of a network with an exothermic reaction: the
+/// result holds only if the heat is removed as fast as it is released.
+pub const ISOTHERMAL_CAUTION: &str = "caution: exothermic reactions; this isothermal result assumes the heat is removed (set reactor.heat for an energy balance). Assess runaway and relief under local codes.";
+
+/// The caution a report on `net` carries, the same in every command that reports a result
+/// (`run`, `size`, `optimize`, `sensitivity`, `compare`, `sweep`): [`CAUTION`] when the reactor,
+/// or any unit of its train, has an energy balance; [`ISOTHERMAL_CAUTION`] when it is
+/// isothermal and a reaction releases heat (ΔH < 0); none otherwise.
+pub fn caution(net: &Network) -> Option<&'static str> {
+    let balance = net.heat.balance().is_some()
+        || net
+            .train
+            .as_ref()
+            .is_some_and(|t| t.units.iter().any(|u| u.heat.balance().is_some()));
+    if balance {
+        Some(CAUTION)
+    } else if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
+        Some(ISOTHERMAL_CAUTION)
+    } else {
+        None
+    }
+}
+
+/// The one caution under a report of several studies or heat models side by side: the
+/// energy-balance caution when any entry has one, else the isothermal one when any entry
+/// carries it.
+pub fn strongest(cautions: impl IntoIterator<Item = Option<&'static str>>) -> Option<&'static str> {
+    cautions.into_iter().flatten().max_by_key(|c| *c == CAUTION)
+}

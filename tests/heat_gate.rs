@@ -260,3 +260,71 @@ fn compare_screens_heat_models_side_by_side() {
         bad.stderr
     );
 }
+
+/// The safety caution, one rule for every command that reports a result (common practice: a
+/// screening figure for an exothermic system says so and defers to a process-safety review).
+/// With an energy balance, the screening caution; isothermal with an exothermic reaction, the
+/// reminder that the heat is assumed removed; neither for a network without a heat of
+/// reaction. Text reports carry it as their last line; a sweep's rows are data, so the
+/// caution goes to standard error. `compare` shows the stronger one once.
+#[test]
+fn every_reporting_command_carries_the_safety_caution() {
+    const BALANCE: &str = "caution: these temperatures are screening values";
+    const ISOTHERMAL: &str = "caution: exothermic reactions; this isothermal result";
+    let path = |f: &str| network(f).to_str().expect("UTF-8 path").to_string();
+    // (study, an outlet amount to maximise, a volume range to sweep, the caution expected)
+    let cases = [
+        (study(), "MNT", "reactor.volume=1 m3:2 m3:2", Some(BALANCE)),
+        (
+            path("diene_hydrogenation.yaml"),
+            "M",
+            "reactor.volume=1 L:2 L:2",
+            Some(ISOTHERMAL),
+        ),
+        (
+            path("dimerization_cstr.yaml"),
+            "R",
+            "reactor.volume=1 m3:2 m3:2",
+            None,
+        ),
+    ];
+    for (file, amount, volumes, want) in &cases {
+        let f = file.as_str();
+        // (arguments, whether the caution goes to standard error)
+        let commands: [(Vec<&str>, bool); 6] = [
+            (vec!["run", f], false),
+            (vec!["size", f, "--conversion", "0.5"], false),
+            (vec!["optimize", f, "--maximize", amount], false),
+            (vec!["sensitivity", f, "--target", "conversion"], false),
+            (vec!["compare", f], false),
+            (vec!["sweep", f, "--vary", volumes], true),
+        ];
+        for (args, on_stderr) in commands {
+            let r = rxnet(&args);
+            assert_eq!(r.code, 0, "{args:?}: {}", r.stderr);
+            let (shown, other) = if on_stderr {
+                (&r.stderr, &r.stdout)
+            } else {
+                (&r.stdout, &r.stderr)
+            };
+            let count = |s: &str| s.matches("caution:").count();
+            match want {
+                Some(c) => {
+                    assert_eq!(count(shown), 1, "{args:?}: one caution:\n{shown}");
+                    assert!(shown.contains(c), "{args:?}: `{c}` missing:\n{shown}");
+                    assert_eq!(count(other), 0, "{args:?}:\n{other}");
+                }
+                None => assert_eq!(count(shown) + count(other), 0, "{args:?}:\n{shown}"),
+            }
+        }
+    }
+    // Isothermal and as given side by side: the stronger caution, once.
+    let cooled = study();
+    let r = rxnet(&["compare", &cooled, "--heat", "isothermal,as-given"]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert_eq!(r.stdout.matches("caution:").count(), 1, "{}", r.stdout);
+    assert!(r.stdout.contains(BALANCE), "{}", r.stdout);
+    // Every model isothermal: the reminder.
+    let r = rxnet(&["compare", &cooled, "--heat", "isothermal"]);
+    assert!(r.stdout.contains(ISOTHERMAL), "{}", r.stdout);
+}

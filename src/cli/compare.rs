@@ -1,7 +1,7 @@
 //! `rxnet compare`: studies and reactor types side by side, ranked by a target.
 
 use super::input::{check_tolerance, read_study, solve_opts};
-use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, push_caution};
 use rxnet::Override;
 use rxnet::report::num;
 use rxnet::studies::compare::{self, Kind};
@@ -93,6 +93,8 @@ pub fn compare(
         ..solve_opts(rtol)
     };
     let mut rows = Vec::new();
+    // The safety caution of each screened network (study and heat model), shown once.
+    let mut cautions = Vec::new();
     for f in files {
         let (_, net, _) = match read_study(f, set) {
             Ok(s) => s,
@@ -127,6 +129,7 @@ pub fn compare(
         };
         for h in &heats {
             let net = h.apply(&net);
+            cautions.push(rxnet::safety::caution(&net));
             for k in kinds_here {
                 rows.push(compare::evaluate(
                     &f.display().to_string(),
@@ -142,7 +145,9 @@ pub fn compare(
     let text = if as_json {
         json(&rows)
     } else {
-        table(&rows, optimum, at_conversion.is_some())
+        let mut t = table(&rows, optimum, at_conversion.is_some());
+        push_caution(&mut t, rxnet::safety::strongest(cautions));
+        t
     };
     let code = emit(
         &text,

@@ -1,7 +1,7 @@
 //! `rxnet optimize`: the reactor size, or other inputs, that maximise a target.
 
 use super::input::{check_tolerance, read_study, solve_opts};
-use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, push_caution};
 use rxnet::model::{Network, Override, Reactor};
 use rxnet::report::{self, num};
 use rxnet::solve;
@@ -446,6 +446,7 @@ pub fn optimize(
         }
         let _ = writeln!(o, "  {} = {}\n", rep.target, with_unit(rep.best.value, vu));
         o.push_str(&report::run::text(&rep.run, false));
+        push_caution(&mut o, rxnet::safety::caution(&net));
         o
     };
     emit(&text, 0)

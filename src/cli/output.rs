@@ -44,6 +44,15 @@ pub fn emit(text: &str, code: i32) -> i32 {
     }
 }
 
+/// Append the safety caution of a text report (`rxnet::safety::caution`), if it has one, as its
+/// last line.
+pub fn push_caution(text: &mut String, caution: Option<&str>) {
+    if let Some(c) = caution {
+        text.push_str(c);
+        text.push('\n');
+    }
+}
+
 /// Run the command `f` and return its exit code; when standard error cannot be written (a
 /// full disk: `2>/dev/full`), `eprintln!` panics, and that panic becomes exit code 1 (the
 /// messages had nowhere to go) instead of the panic's 101. Any other panic goes on.

@@ -2,7 +2,7 @@
 //! selectivities (and the profile along the reactor, on request).
 
 use super::input::{check_atol_for, check_tolerance, load};
-use super::output::{EXIT_FINDINGS, EXIT_INVALID, OutputFile, emit, json, prepare};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, OutputFile, emit, json, prepare, push_caution};
 use clap::ValueEnum;
 use rxnet::model::Network;
 use rxnet::report::{num, plot};
@@ -195,12 +195,7 @@ pub fn run(a: &RunArgs) -> i32 {
     let text = match a.format {
         RunFormat::Table => {
             let mut t = report::run::text(&rep, a.verbose);
-            if rep.heat.is_some() {
-                t.push_str(rxnet::safety::CAUTION);
-                t.push('\n');
-            } else if net.reactions.iter().any(|r| r.dh.is_some_and(|h| h < 0.0)) {
-                t.push_str("caution: exothermic reactions; this isothermal result assumes the heat is removed (set reactor.heat for an energy balance). Assess runaway and relief under local codes.\n");
-            }
+            push_caution(&mut t, rxnet::safety::caution(&net));
             t
         }
         RunFormat::Csv => csv(),

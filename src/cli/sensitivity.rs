@@ -3,7 +3,7 @@
 
 use super::Format;
 use super::input::{check_tolerance, read_study};
-use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, push_caution};
 use rxnet::Override;
 use rxnet::report::num;
 use rxnet::solve::{SolveOptions, SteadyStateChoice};
@@ -47,7 +47,7 @@ pub fn run(a: &SensitivityArgs) -> i32 {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
-    let (study, _, findings) = match read_study(&a.file, &a.set) {
+    let (study, net, findings) = match read_study(&a.file, &a.set) {
         Ok(s) => s,
         Err(code) => return code,
     };
@@ -93,7 +93,11 @@ pub fn run(a: &SensitivityArgs) -> i32 {
     }
     let text = match a.format {
         Format::Json => json(&rep),
-        Format::Text => text(&rep),
+        Format::Text => {
+            let mut t = text(&rep);
+            push_caution(&mut t, rxnet::safety::caution(&net));
+            t
+        }
     };
     emit(&text, 0)
 }

@@ -4,7 +4,7 @@
 
 use super::Format;
 use super::input::{check_tolerance, read_study, solve_opts};
-use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json};
+use super::output::{EXIT_FINDINGS, EXIT_INVALID, emit, json, push_caution};
 use rxnet::model::{Override, Reactor};
 use rxnet::report::{self, num};
 use rxnet::solve;
@@ -161,6 +161,7 @@ pub fn size(a: &SizeArgs) -> i32 {
             rep.run.as_ref().expect("set above"),
             false,
         ));
+        push_caution(&mut o, rxnet::safety::caution(&sized));
         o
     };
     emit(&text, 0)

@@ -415,6 +415,10 @@ pub fn sweep(a: &SweepArgs) -> i32 {
     if failed > 0 {
         eprintln!("note: {failed} of {done} points failed; their rows carry the error");
     }
+    // The rows are data for other programs; the caution a report carries goes to the reader.
+    if let Some(c) = rxnet::safety::caution(&net) {
+        eprintln!("{c}");
+    }
     0
 }
 
