@@ -265,8 +265,8 @@ fn compare_screens_heat_models_side_by_side() {
 /// screening figure for an exothermic system says so and defers to a process-safety review).
 /// With an energy balance, the screening caution; isothermal with an exothermic reaction, the
 /// reminder that the heat is assumed removed; neither for a network without a heat of
-/// reaction. Text reports carry it as their last line; a sweep's rows are data, so the
-/// caution goes to standard error. `compare` shows the stronger one once.
+/// reaction. Text reports carry it as their last line and JSON reports as `caution`; a sweep's
+/// rows are data, so the caution goes to standard error. `compare` shows the stronger one once.
 #[test]
 fn every_reporting_command_carries_the_safety_caution() {
     const BALANCE: &str = "caution: these temperatures are screening values";
@@ -315,6 +315,19 @@ fn every_reporting_command_carries_the_safety_caution() {
                     assert_eq!(count(other), 0, "{args:?}:\n{other}");
                 }
                 None => assert_eq!(count(shown) + count(other), 0, "{args:?}:\n{shown}"),
+            }
+            // JSON reports carry it as `caution` (in `run` of size and optimize, per row of
+            // compare); a sweep's JSON rows stay data.
+            if !on_stderr {
+                let mut json = args.clone();
+                json.extend_from_slice(&["--format", "json"]);
+                let r = rxnet(&json);
+                assert_eq!(r.code, 0, "{json:?}: {}", r.stderr);
+                let given = r.stdout.contains("\"caution\": \"caution: ");
+                match want {
+                    Some(c) => assert!(given && r.stdout.contains(c), "{json:?}:\n{}", r.stdout),
+                    None => assert!(!given, "{json:?}:\n{}", r.stdout),
+                }
             }
         }
     }

@@ -93,8 +93,6 @@ pub fn compare(
         ..solve_opts(rtol)
     };
     let mut rows = Vec::new();
-    // The safety caution of each screened network (study and heat model), shown once.
-    let mut cautions = Vec::new();
     for f in files {
         let (_, net, _) = match read_study(f, set) {
             Ok(s) => s,
@@ -129,7 +127,6 @@ pub fn compare(
         };
         for h in &heats {
             let net = h.apply(&net);
-            cautions.push(rxnet::safety::caution(&net));
             for k in kinds_here {
                 rows.push(compare::evaluate(
                     &f.display().to_string(),
@@ -146,7 +143,10 @@ pub fn compare(
         json(&rows)
     } else {
         let mut t = table(&rows, optimum, at_conversion.is_some());
-        push_caution(&mut t, rxnet::safety::strongest(cautions));
+        push_caution(
+            &mut t,
+            rxnet::safety::strongest(rows.iter().map(|r| r.caution)),
+        );
         t
     };
     let code = emit(

@@ -446,7 +446,7 @@ pub fn optimize(
         }
         let _ = writeln!(o, "  {} = {}\n", rep.target, with_unit(rep.best.value, vu));
         o.push_str(&report::run::text(&rep.run, false));
-        push_caution(&mut o, rxnet::safety::caution(&net));
+        push_caution(&mut o, rep.run.caution);
         o
     };
     emit(&text, 0)

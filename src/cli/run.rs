@@ -195,7 +195,7 @@ pub fn run(a: &RunArgs) -> i32 {
     let text = match a.format {
         RunFormat::Table => {
             let mut t = report::run::text(&rep, a.verbose);
-            push_caution(&mut t, rxnet::safety::caution(&net));
+            push_caution(&mut t, rep.caution);
             t
         }
         RunFormat::Csv => csv(),

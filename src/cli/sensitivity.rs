@@ -47,7 +47,7 @@ pub fn run(a: &SensitivityArgs) -> i32 {
         eprintln!("error: {m}");
         return EXIT_INVALID;
     }
-    let (study, net, findings) = match read_study(&a.file, &a.set) {
+    let (study, _, findings) = match read_study(&a.file, &a.set) {
         Ok(s) => s,
         Err(code) => return code,
     };
@@ -95,7 +95,7 @@ pub fn run(a: &SensitivityArgs) -> i32 {
         Format::Json => json(&rep),
         Format::Text => {
             let mut t = text(&rep);
-            push_caution(&mut t, rxnet::safety::caution(&net));
+            push_caution(&mut t, rep.caution);
             t
         }
     };

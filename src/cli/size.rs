@@ -161,7 +161,7 @@ pub fn size(a: &SizeArgs) -> i32 {
             rep.run.as_ref().expect("set above"),
             false,
         ));
-        push_caution(&mut o, rxnet::safety::caution(&sized));
+        push_caution(&mut o, rep.run.as_ref().and_then(|r| r.caution));
         o
     };
     emit(&text, 0)

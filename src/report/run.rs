@@ -135,6 +135,10 @@ pub struct RunReport {
     pub heat: Option<crate::safety::HeatFigures>,
     /// Warnings about the solution (heat-capacity data used outside their range).
     pub warnings: Vec<String>,
+    /// The safety caution of the study (`safety::caution`): with an energy balance, or
+    /// isothermal with an exothermic reaction; absent otherwise.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub caution: Option<&'static str>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub profile: Option<Vec<ProfilePoint>>,
     /// A train (or a vessel with side feeds or a recycle): every unit, in order. The outlet,
@@ -518,6 +522,7 @@ pub fn build(
         ergun_alpha: balance.alpha(),
         heat: crate::safety::HeatFigures::of(net, balance, sim),
         warnings: sim.warnings.clone(),
+        caution: crate::safety::caution(net),
         state_unit: if net.reactor.is_batch() {
             "mol"
         } else {

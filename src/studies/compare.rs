@@ -356,6 +356,9 @@ pub struct CompareRow {
     pub over_limit: bool,
     /// `isothermal`, `adiabatic` or `heat exchange`.
     pub heat: &'static str,
+    /// The safety caution of the study (`safety::caution`): with an energy balance, or
+    /// isothermal with an exothermic reaction; absent otherwise.
+    pub caution: Option<&'static str>,
     pub error: Option<String>,
 }
 
@@ -429,6 +432,7 @@ pub fn evaluate(
         hot_spot: None,
         over_limit: false,
         heat: net.heat_name(),
+        caution: crate::safety::caution(net),
         error: None,
     };
     let result = (|| -> Result<(), String> {

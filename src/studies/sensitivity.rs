@@ -77,6 +77,10 @@ pub struct Report {
     pub x_unit: &'static str,
     pub profile: Option<Vec<ProfilePoint>>,
     pub warnings: Vec<String>,
+    /// The safety caution of the study (`safety::caution`): with an energy balance, or
+    /// isothermal with an exothermic reaction; absent otherwise.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub caution: Option<&'static str>,
 }
 
 /// Why there is no report.
@@ -407,5 +411,6 @@ pub fn sensitivity(
         x_unit: sens.sim.x_unit,
         profile,
         warnings,
+        caution: crate::safety::caution(&net),
     })
 }
