@@ -12,8 +12,6 @@ use std::fmt::Write;
 /// Put the train's outlet stream into a run report: its volumetric flow and concentrations
 /// (a join or a side feed changes the flow; the report's single-vessel figures do not know).
 pub fn set_outlet(rep: &mut super::run::RunReport, net: &Network, run: &TrainRun) {
-    // the caution of the whole train (any unit with an energy balance), not of one piece
-    rep.caution = crate::safety::caution(net);
     let v = run.outlet.volumetric;
     rep.outlet_volumetric_flow = Some(v);
     rep.temperature = net.feed.temperature;
