@@ -340,4 +340,25 @@ fn every_reporting_command_carries_the_safety_caution() {
     // Every model isothermal: the reminder.
     let r = rxnet(&["compare", &cooled, "--heat", "isothermal"]);
     assert!(r.stdout.contains(ISOTHERMAL), "{}", r.stdout);
+    // A train whose tanks have an energy balance (the bundled cascade, exothermic and
+    // adiabatic here): the train's report carries the screening caution, text and JSON.
+    let cascade = std::fs::read_to_string(network("split_feed_cascade.yaml")).expect("cascade");
+    let heat = "heat: {mixture_cp: 3.5 kJ/(kg*K), density: 900 kg/m3}";
+    let yaml = cascade
+        .replace("T_ref: 350 K}", "T_ref: 350 K, dH: -60 kJ/mol}")
+        .replace(
+            "{id: T1, type: cstr, volume: 0.8 m3}",
+            &format!("{{id: T1, type: cstr, volume: 0.8 m3, {heat}}}"),
+        )
+        .replace("    type: cstr\n", &format!("    type: cstr\n    {heat}\n"));
+    let f = common::temp_study("caution-train", &yaml);
+    let r = rxnet(&["run", f.p()]);
+    assert_eq!(r.code, 0, "{}", r.stderr);
+    assert!(r.stdout.contains(BALANCE), "{}", r.stdout);
+    let r = rxnet(&["run", f.p(), "--format", "json"]);
+    assert!(
+        r.stdout.contains("\"caution\": \"caution: these"),
+        "{}",
+        r.stdout
+    );
 }
